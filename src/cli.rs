@@ -51,7 +51,7 @@ pub struct ModelArgs {
 }
 
 #[derive(Debug, Args)]
-#[command(group(clap::ArgGroup::new("input").required(true).args(["mol", "wt_text", "recipe", "melt", "melts", "compositions"])))]
+#[command(group(clap::ArgGroup::new("input").required(true).multiple(true).args(["mol", "wt_text", "recipe", "melt", "melts", "compositions"])))]
 pub struct EvalArgs {
     /// One composition in mol%, e.g. "SiO2=72 Na2O=14 CaO=10 Al2O3=4".
     ///
@@ -285,6 +285,22 @@ fn eval(a: EvalArgs) -> Result<()> {
         _ => Calibration::None,
     };
     let wt_table = a.wt_text.as_deref() == Some("");
+    let inputs = [
+        a.mol.is_some(),
+        a.wt_text.as_deref().is_some_and(|t| !t.is_empty()),
+        a.recipe.is_some(),
+        a.melt.is_some(),
+        a.melts.is_some(),
+        a.compositions.is_some(),
+    ];
+    if inputs.iter().filter(|&&b| b).count() != 1 {
+        bail!(UsageError(
+            "give exactly one input: --mol, --wt, --recipe, --melt, --melts or --compositions".into()
+        ));
+    }
+    if wt_table && a.compositions.is_none() {
+        bail!(UsageError("--wt without a value reads --compositions tables as wt%; give a composition or a table".into()));
+    }
     if let Some(p) = &a.melts {
         if a.json || a.ttt.is_some() {
             bail!(UsageError("--json and --ttt apply to one melt or composition, not to --melts".into()));
@@ -315,7 +331,7 @@ fn eval(a: EvalArgs) -> Result<()> {
         let text = data::read_text(p)?;
         let (melt, card_opts) = data::parse_melt_card(&Source::new(p.display().to_string(), &text), &KineticOptions::default())?;
         let opts = kinetic_overrides(&a, card_opts);
-        let e = evaluate_melt(&melt, &opts, slab, &cal)?;
+        let e = evaluate_melt(&melt, &opts, slab, &cal).with_context(|| format!("evaluating {}", p.display()))?;
         let melt = melt.with_interface(crate::kinetics::Interface::TurnbullAlpha(e.turnbull_alpha));
         (e, Kinetics::new(&melt, &opts)?)
     } else {

@@ -78,6 +78,13 @@ pub fn formula_mass(parts: &[(Element, f64)]) -> f64 {
     parts.iter().map(|&(e, n)| atomic_weight(e) * n).sum()
 }
 
+/// Gravimetric factor: kg of a raw material that yields 1 kg of an oxide, when
+/// one formula unit of the raw material gives `oxide_per_formula` oxide units
+/// (e.g. Na2CO3 → Na2O: 1; H3BO3 → B2O3: 0.5).
+pub fn gravimetric_factor(raw: &[(Element, f64)], oxide: Oxide, oxide_per_formula: f64) -> f64 {
+    formula_mass(raw) / (oxide_per_formula * oxide.molar_mass())
+}
+
 macro_rules! oxides {
     ($( $name:ident => [$( ($el:ident, $n:expr) ),+] ),+ $(,)?) => {
         /// The oxides a composition may contain.
@@ -414,6 +421,24 @@ mod tests {
         assert_eq!(atomic_weight(Element::K), 39.0983);
         assert_eq!(atomic_weight(Element::Zr), 91.224);
         assert_eq!(atomic_weight(Element::Ba), 137.327);
+    }
+
+    #[test]
+    fn gravimetric_factors_match_iupac_derived_values() {
+        use Element::*;
+        // Source: shared/reference §6.3 and §7 item 4, derived from IUPAC 2021 Table 1
+        // (Prohaska et al. 2022); printed to 5 decimals → abs tol 6e-6.
+        let cases: [(&[(Element, f64)], Oxide, f64, f64); 5] = [
+            (&[(Na, 2.0), (C, 1.0), (O, 3.0)], Oxide::Na2O, 1.0, 1.71007),
+            (&[(H, 3.0), (B, 1.0), (O, 3.0)], Oxide::B2O3, 0.5, 1.77632),
+            (&[(Ca, 1.0), (C, 1.0), (O, 3.0)], Oxide::CaO, 1.0, 1.78480),
+            (&[(Li, 2.0), (C, 1.0), (O, 3.0)], Oxide::Li2O, 1.0, 2.47291),
+            (&[(Al, 1.0), (O, 3.0), (H, 3.0)], Oxide::Al2O3, 0.5, 1.53006),
+        ];
+        for (raw, oxide, per, want) in cases {
+            let got = gravimetric_factor(raw, oxide, per);
+            assert!((got - want).abs() < 6e-6, "{oxide}: {got} vs {want}");
+        }
     }
 
     #[test]

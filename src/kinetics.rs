@@ -484,13 +484,17 @@ pub struct QuadratureSettings {
     pub initial_panels: usize,
     /// A panel is halved when its log-integrand varies by more than this (nats).
     pub log_range_split: f64,
+    /// A panel feeding the running growth integral is halved when ln U varies by
+    /// more than this across it: the running integral at interior nodes is less
+    /// accurate than the panel integral, so this is tighter.
+    pub growth_log_range_split: f64,
     /// Panels whose share of the integral is below this are never refined.
     pub negligible_share: f64,
 }
 
 impl Default for QuadratureSettings {
     fn default() -> Self {
-        QuadratureSettings { initial_panels: 2, log_range_split: 16.0, negligible_share: 1e-5 }
+        QuadratureSettings { initial_panels: 2, log_range_split: 16.0, growth_log_range_split: 4.0, negligible_share: 1e-5 }
     }
 }
 
@@ -758,203 +762,16 @@ impl Kinetics {
             .collect()
     }
 
-    fn panel(&self, rule: &Rule, lo: f64, hi: f64, cooling: Cooling) -> Panel {
-        let ts = rule.nodes_on(lo, hi);
-        let mut ln_i = [0.0; NODES];
-        let mut ln_u = [0.0; NODES];
-        for k in 0..NODES {
-            let r = self.rates_raw(ts[k]);
-            let shape = match cooling {
-                Cooling::Constant => 0.0,
-                Cooling::Newtonian { surface } => -(ts[k] - surface).ln(),
-            };
-            ln_i[k] = r.ln_nucleation + shape;
-            ln_u[k] = r.ln_growth + shape;
-        }
-        let (mn, mx) = ln_u
-            .iter()
-            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| (a.min(x), b.max(x)));
-        Panel {
-            lo,
-            hi,
-            ln_i,
-            ln_u,
-            i_lin: [0.0; NODES],
-            g_inc: [0.0; NODES],
-            g_tot: 0.0,
-            ln_u_range: mx - mn,
-        }
-    }
-
-    /// Fill the scaled linear values of a panel.
-    fn scale_panel(rule: &Rule, p: &mut Panel, sh: Shifts) {
-        let u = p.ln_u.map(|l| (l - sh.u).exp());
-        p.i_lin = p.ln_i.map(|l| (l - sh.i).exp());
-        for i in 0..NODES {
-            p.g_inc[i] = (0..NODES).map(|j| rule.s[i][j] * u[j]).sum();
-        }
-        p.g_tot = (0..NODES).map(|j| rule.w[j] * u[j]).sum();
-    }
-
     fn cooling_integrals(&self, cooling: Cooling) -> Result<CoolingIntegrals, KineticsError> {
-        self.cooling_integrals_with(cooling, &self.quad)
-    }
-
-    /// J and the total growth integral along a cooling law, by adaptive panels.
-    fn cooling_integrals_with(
-        &self,
-        cooling: Cooling,
-        q: &QuadratureSettings,
-    ) -> Result<CoolingIntegrals, KineticsError> {
-        let rule = quadrature::rule();
-        let (a, b) = (self.freeze, self.tl);
-        let n0 = q.initial_panels.max(1);
-        let mut panels: Vec<Panel> = (0..n0)
-            .map(|k| {
-                let lo = a + (b - a) * k as f64 / n0 as f64;
-                let hi = a + (b - a) * (k + 1) as f64 / n0 as f64;
-                self.panel(rule, lo, hi, cooling)
-            })
-            .collect();
-        let mut evaluations = n0 * NODES;
-        let min_width = (b - a) * 1e-9;
-        let max_of = |panels: &[Panel], f: fn(&Panel) -> &[f64; NODES]| {
-            panels.iter().flat_map(|p| f(p).iter().copied()).fold(f64::NEG_INFINITY, f64::max)
-        };
-        let mut sh = Shifts { i: max_of(&panels, |p| &p.ln_i), u: max_of(&panels, |p| &p.ln_u) };
-        if !sh.u.is_finite() || !sh.i.is_finite() {
-            return Err(KineticsError::Numerical(
-                "nucleation or growth rate vanishes across the kinetic window".into(),
-            ));
-        }
-        for p in panels.iter_mut() {
-            Self::scale_panel(rule, p, sh);
-        }
-        let mut f = Vec::new();
-        let mut share = Vec::new();
-        let mut g_end = Vec::new();
-        loop {
-            // Running growth integral G and the integrand F = I G³ at every node.
-            f.clear();
-            share.clear();
-            g_end.clear();
-            let mut g_start = 0.0;
-            for p in &panels {
-                let h = 0.5 * (p.hi - p.lo);
-                let fp: [f64; NODES] = std::array::from_fn(|i| {
-                    // The interpolant of a steep U can dip below zero near the panel start.
-                    let g = (g_start + h * p.g_inc[i]).max(0.0);
-                    p.i_lin[i] * g * g * g
-                });
-                share.push(h * (0..NODES).map(|i| rule.w[i] * fp[i]).sum::<f64>());
-                f.push(fp);
-                g_start += h * p.g_tot;
-                g_end.push(g_start);
-            }
-            let total: f64 = share.iter().sum();
-            if !(total > 0.0) || !total.is_finite() {
-                return Err(KineticsError::Numerical(format!(
-                    "continuous-cooling integral is {total} on {} panels",
-                    panels.len()
-                )));
-            }
-            // Highest panel that carries weight: growth above it does not matter.
-            let floor = q.negligible_share * total;
-            let top = share.iter().rposition(|&s| s > floor).unwrap_or(0);
-            let g_floor = q.negligible_share * g_end[top];
-            let split_at = q.log_range_split;
-            let mut split = vec![false; panels.len()];
-            let mut any = false;
-            for (k, p) in panels.iter().enumerate() {
-                if p.hi - p.lo < min_width {
-                    continue;
-                }
-                let weighty = share[k] > floor && {
-                    let (mn, mx) = f[k]
-                        .iter()
-                        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| (a.min(x), b.max(x)));
-                    !(mn > 0.0) || (mx / mn).ln() > split_at
-                };
-                let g_here = 0.5 * (p.hi - p.lo) * p.g_tot;
-                let feeds = k <= top && g_here > g_floor && p.ln_u_range > split_at;
-                if weighty || feeds {
-                    split[k] = true;
-                    any = true;
-                }
-            }
-            if !any || panels.len() >= MAX_PANELS {
-                let mut nose = (a, f64::NEG_INFINITY, 0.0);
-                for p in &panels {
-                    let ts = rule.nodes_on(p.lo, p.hi);
-                    for i in 0..NODES {
-                        let v = p.ln_i[i] + 3.0 * p.ln_u[i];
-                        if v > nose.1 {
-                            nose = (ts[i], v, 0.5 * (p.hi - p.lo));
-                        }
-                    }
-                }
-                return Ok(CoolingIntegrals {
-                    ln_j: sh.i + 3.0 * sh.u + total.ln(),
-                    ln_g_total: sh.u + g_start.ln(),
-                    nose_guess: nose,
-                    evaluations,
-                });
-            }
-            let mut next = Vec::with_capacity(panels.len() * 2);
-            let mut rebase = false;
-            for (p, s) in panels.into_iter().zip(&split) {
-                if *s {
-                    let mid = 0.5 * (p.lo + p.hi);
-                    for (lo, hi) in [(p.lo, mid), (mid, p.hi)] {
-                        let mut c = self.panel(rule, lo, hi, cooling);
-                        let (mi, mu) = (
-                            c.ln_i.iter().copied().fold(f64::NEG_INFINITY, f64::max),
-                            c.ln_u.iter().copied().fold(f64::NEG_INFINITY, f64::max),
-                        );
-                        if mi > sh.i + SHIFT_HEADROOM || mu > sh.u + SHIFT_HEADROOM {
-                            rebase = true;
-                        }
-                        Self::scale_panel(rule, &mut c, sh);
-                        next.push(c);
-                    }
-                    evaluations += 2 * NODES;
-                } else {
-                    next.push(p);
-                }
-            }
-            panels = next;
-            if rebase {
-                sh = Shifts { i: max_of(&panels, |p| &p.ln_i), u: max_of(&panels, |p| &p.ln_u) };
-                for p in panels.iter_mut() {
-                    Self::scale_panel(rule, p, sh);
-                }
-            }
-        }
-    }
-
-    /// ln of the extended crystallised fraction after cooling with a rate scale:
-    /// X_ext = (4π/3) [J/s⁴ + N_h (G/s)³] for scale s (R, or k for Newtonian cooling).
-    fn ln_extended_fraction(&self, ci: &CoolingIntegrals, ln_scale: f64) -> f64 {
-        let c = (4.0 * PI / 3.0).ln();
-        let p = c + ci.ln_j - 4.0 * ln_scale;
         let nh = self.opts.heterogeneous_nuclei_per_m3;
-        if nh > 0.0 {
-            let q = c + nh.ln() + 3.0 * (ci.ln_g_total - ln_scale);
-            let m = p.max(q);
-            m + ((p - m).exp() + (q - m).exp()).ln()
-        } else {
-            p
-        }
-    }
-
-    /// The rate scale s at which X_ext = X_c (the critical rate for constant cooling).
-    fn critical_scale(&self, ci: &CoolingIntegrals) -> f64 {
-        let c = (4.0 * PI / 3.0).ln();
-        let nh = self.opts.heterogeneous_nuclei_per_m3;
-        let ln_a = c + ci.ln_j;
-        let ln_b = if nh > 0.0 { c + nh.ln() + 3.0 * ci.ln_g_total } else { f64::NEG_INFINITY };
-        // A y⁴ + B y³ = X_c with y = 1/s.
-        (-solve_quartic_cubic(ln_a, ln_b, self.opts.detectable_fraction.ln())).exp()
+        let ln_nuclei = if nh > 0.0 { (4.0 * PI / 3.0 * nh).ln() } else { f64::NEG_INFINITY };
+        Quadrature::cooling_integrals_with(
+            &|t| self.rates_raw(t),
+            (self.freeze, self.tl),
+            cooling,
+            &self.quad,
+            (ln_nuclei, self.opts.detectable_fraction.ln()),
+        )
     }
 
     /// Critical cooling rate for continuous cooling at a constant rate from T_L.
@@ -963,7 +780,7 @@ impl Kinetics {
     /// Numerical failure (no nucleation or growth anywhere in the window).
     pub fn critical_rate(&self) -> Result<KelvinPerSecond, KineticsError> {
         let ci = self.cooling_integrals(Cooling::Constant)?;
-        Ok(KelvinPerSecond(self.critical_scale(&ci)))
+        Ok(KelvinPerSecond(critical_scale(&ci, self.opts.heterogeneous_nuclei_per_m3, self.opts.detectable_fraction)))
     }
 
     /// Transformed fraction X = 1 − exp(−X_ext) after cooling from T_L to T_e at a constant rate.
@@ -971,9 +788,18 @@ impl Kinetics {
     /// # Errors
     /// As [`Kinetics::critical_rate`]; a rate that is not positive.
     pub fn fraction_at_rate(&self, rate: KelvinPerSecond) -> Result<f64, KineticsError> {
+        Ok(-(-self.extended_fraction_at_rate(rate)?).exp_m1())
+    }
+
+    /// Extended (Avrami) fraction X_ext after constant-rate cooling from T_L to T_e:
+    /// X_ext = (4π/3)[J/R⁴ + N_h (∫U dT/R)³].
+    ///
+    /// # Errors
+    /// As [`Kinetics::fraction_at_rate`].
+    pub fn extended_fraction_at_rate(&self, rate: KelvinPerSecond) -> Result<f64, KineticsError> {
         positive("cooling rate", rate.0, "K/s")?;
         let ci = self.cooling_integrals(Cooling::Constant)?;
-        Ok(-(-self.ln_extended_fraction(&ci, rate.0.ln()).exp()).exp_m1())
+        Ok(ln_extended_fraction(&ci, self.opts.heterogeneous_nuclei_per_m3, rate.0.ln()).exp())
     }
 
     /// Nose, nose-method rate and critical cooling rate.
@@ -982,7 +808,7 @@ impl Kinetics {
     /// Numerical failure; a nose below the glass transition.
     pub fn analyse(&self) -> Result<KineticSummary, KineticsError> {
         let ci = self.cooling_integrals(Cooling::Constant)?;
-        let critical = self.critical_scale(&ci);
+        let critical = critical_scale(&ci, self.opts.heterogeneous_nuclei_per_m3, self.opts.detectable_fraction);
         let (t0, _, half) = ci.nose_guess;
         let lo = (t0 - 2.0 * half).max(self.freeze);
         let hi = (t0 + 2.0 * half).min(self.tl);
@@ -1027,7 +853,7 @@ impl Kinetics {
             return Err(KineticsError::SurfaceTooHot { surface: surface.0, freeze: self.freeze });
         }
         let ci = self.cooling_integrals(Cooling::Newtonian { surface: surface.0 })?;
-        let k = self.critical_scale(&ci);
+        let k = critical_scale(&ci, self.opts.heterogeneous_nuclei_per_m3, self.opts.detectable_fraction);
         Ok(0.5 * PI * (thermal_diffusivity_m2_per_s / k).sqrt())
     }
 
@@ -1162,12 +988,13 @@ impl Kinetics {
                 .unwrap_or(f64::NAN)
         };
         let (lo, hi) = (0.01_f64, 10.0_f64);
-        // The mismatch falls as α rises (a larger barrier slows crystallisation).
-        // Walk a geometric grid to find a sign change; NaN (a failed point) is skipped.
+        // The mismatch is monotone in α (a larger barrier slows crystallisation:
+        // R_c falls, the nose time rises). Walk a geometric grid to find a sign
+        // change; NaN (a failed point) is skipped.
         let grid: Vec<f64> = (0..=40).map(|k| lo * (hi / lo).powf(k as f64 / 40.0)).collect();
         let values: Vec<f64> = grid.iter().map(|&a| eval(a)).collect();
         let bracket = (0..grid.len() - 1).find(|&k| {
-            values[k].is_finite() && values[k + 1].is_finite() && values[k] >= 0.0 && values[k + 1] <= 0.0
+            values[k].is_finite() && values[k + 1].is_finite() && values[k] * values[k + 1] <= 0.0
         });
         let k = bracket.ok_or(KineticsError::CalibrationBracket { lo, hi })?;
         let alpha = brent_root(eval, grid[k], grid[k + 1], 1e-10)?;
@@ -1184,6 +1011,252 @@ pub struct PathResult {
     pub transformed_fraction: f64,
     /// X_ext stays below the detectable fraction.
     pub vitrifies: bool,
+}
+
+/// ln of the extended crystallised fraction after cooling with a rate scale:
+/// X_ext = (4π/3) [J/s⁴ + N_h (G/s)³] for scale s (R, or k for Newtonian cooling).
+fn ln_extended_fraction(ci: &CoolingIntegrals, nh: f64, ln_scale: f64) -> f64 {
+    let c = (4.0 * PI / 3.0).ln();
+    let p = c + ci.ln_j - 4.0 * ln_scale;
+    if nh > 0.0 {
+        let q = c + nh.ln() + 3.0 * (ci.ln_g_total - ln_scale);
+        let m = p.max(q);
+        m + ((p - m).exp() + (q - m).exp()).ln()
+    } else {
+        p
+    }
+}
+
+/// The rate scale s at which X_ext = X_c (the critical rate for constant cooling).
+fn critical_scale(ci: &CoolingIntegrals, nh: f64, xc: f64) -> f64 {
+    let c = (4.0 * PI / 3.0).ln();
+    let ln_a = c + ci.ln_j;
+    let ln_b = if nh > 0.0 { c + nh.ln() + 3.0 * ci.ln_g_total } else { f64::NEG_INFINITY };
+    // A y⁴ + B y³ = X_c with y = 1/s.
+    (-solve_quartic_cubic(ln_a, ln_b, xc.ln())).exp()
+}
+
+
+/// Extended fraction X_ext after cooling at a constant rate over a window
+/// [lo, hi], for any nucleation and growth rates (the rates must vanish above
+/// `hi`). This is the quadrature used for every melt, exposed so it can be
+/// checked against closed forms.
+///
+/// # Errors
+/// A rate that is not positive, or rates that vanish across the window.
+pub fn extended_fraction_constant_rate<R: Fn(Kelvin) -> Rates>(
+    rates: R,
+    window: (Kelvin, Kelvin),
+    rate: KelvinPerSecond,
+    nuclei_per_m3: f64,
+) -> Result<f64, KineticsError> {
+    positive("cooling rate", rate.0, "K/s")?;
+    let ci = Quadrature::cooling_integrals_with(
+        &|t| rates(Kelvin(t)),
+        (window.0 .0, window.1 .0),
+        Cooling::Constant,
+        &QuadratureSettings::default(),
+        (f64::NEG_INFINITY, DEFAULT_DETECTABLE_FRACTION.ln()),
+    )?;
+    Ok(ln_extended_fraction(&ci, nuclei_per_m3, rate.0.ln()).exp())
+}
+
+/// The adaptive quadrature, independent of where I(T) and U(T) come from.
+struct Quadrature;
+
+impl Quadrature {
+    fn panel<R: Fn(f64) -> Rates>(rates: &R, rule: &Rule, lo: f64, hi: f64, cooling: Cooling) -> Panel {
+        let ts = rule.nodes_on(lo, hi);
+        let mut ln_i = [0.0; NODES];
+        let mut ln_u = [0.0; NODES];
+        for k in 0..NODES {
+            let r = rates(ts[k]);
+            let shape = match cooling {
+                Cooling::Constant => 0.0,
+                Cooling::Newtonian { surface } => -(ts[k] - surface).ln(),
+            };
+            ln_i[k] = r.ln_nucleation + shape;
+            ln_u[k] = r.ln_growth + shape;
+        }
+        let (mn, mx) = ln_u
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| (a.min(x), b.max(x)));
+        Panel {
+            lo,
+            hi,
+            ln_i,
+            ln_u,
+            i_lin: [0.0; NODES],
+            g_inc: [0.0; NODES],
+            g_tot: 0.0,
+            ln_u_range: mx - mn,
+        }
+    }
+
+    /// Fill the scaled linear values of a panel.
+    fn scale_panel(rule: &Rule, p: &mut Panel, sh: Shifts) {
+        let u = p.ln_u.map(|l| (l - sh.u).exp());
+        p.i_lin = p.ln_i.map(|l| (l - sh.i).exp());
+        for i in 0..NODES {
+            p.g_inc[i] = (0..NODES).map(|j| rule.s[i][j] * u[j]).sum();
+        }
+        p.g_tot = (0..NODES).map(|j| rule.w[j] * u[j]).sum();
+    }
+
+    /// J and the total growth integral along a cooling law, by adaptive panels.
+    ///
+    /// `ttt` = (ln((4π/3) N_h), ln X_c) locates the TTT nose among the nodes.
+    fn cooling_integrals_with<R: Fn(f64) -> Rates>(
+        rates: &R,
+        (a, b): (f64, f64),
+        cooling: Cooling,
+        q: &QuadratureSettings,
+        ttt: (f64, f64),
+    ) -> Result<CoolingIntegrals, KineticsError> {
+        let rule = quadrature::rule();
+        let n0 = q.initial_panels.max(1);
+        let mut panels: Vec<Panel> = (0..n0)
+            .map(|k| {
+                let lo = a + (b - a) * k as f64 / n0 as f64;
+                let hi = a + (b - a) * (k + 1) as f64 / n0 as f64;
+                Quadrature::panel(rates, rule, lo, hi, cooling)
+            })
+            .collect();
+        let mut evaluations = n0 * NODES;
+        let min_width = (b - a) * 1e-9;
+        let max_of = |panels: &[Panel], f: fn(&Panel) -> &[f64; NODES]| {
+            panels.iter().flat_map(|p| f(p).iter().copied()).fold(f64::NEG_INFINITY, f64::max)
+        };
+        let mut sh = Shifts { i: max_of(&panels, |p| &p.ln_i), u: max_of(&panels, |p| &p.ln_u) };
+        if !sh.u.is_finite() {
+            return Err(KineticsError::Numerical("growth rate vanishes across the kinetic window".into()));
+        }
+        if !sh.i.is_finite() {
+            // No nucleation anywhere: J = 0; only pre-existing nuclei can crystallise.
+            sh.i = 0.0;
+            for p in panels.iter_mut() {
+                Quadrature::scale_panel(rule, p, sh);
+            }
+            let g: f64 = panels.iter().map(|p| 0.5 * (p.hi - p.lo) * p.g_tot).sum();
+            return Ok(CoolingIntegrals {
+                ln_j: f64::NEG_INFINITY,
+                ln_g_total: sh.u + g.ln(),
+                nose_guess: (a, f64::NEG_INFINITY, 0.5 * (b - a)),
+                evaluations,
+            });
+        }
+        for p in panels.iter_mut() {
+            Quadrature::scale_panel(rule, p, sh);
+        }
+        let mut f = Vec::new();
+        let mut share = Vec::new();
+        let mut g_end = Vec::new();
+        loop {
+            // Running growth integral G and the integrand F = I G³ at every node.
+            f.clear();
+            share.clear();
+            g_end.clear();
+            let mut g_start = 0.0;
+            for p in &panels {
+                let h = 0.5 * (p.hi - p.lo);
+                let fp: [f64; NODES] = std::array::from_fn(|i| {
+                    // The interpolant of a steep U can dip below zero near the panel start.
+                    let g = (g_start + h * p.g_inc[i]).max(0.0);
+                    p.i_lin[i] * g * g * g
+                });
+                share.push(h * (0..NODES).map(|i| rule.w[i] * fp[i]).sum::<f64>());
+                f.push(fp);
+                g_start += h * p.g_tot;
+                g_end.push(g_start);
+            }
+            let total: f64 = share.iter().sum();
+            if !(total > 0.0) || !total.is_finite() {
+                return Err(KineticsError::Numerical(format!(
+                    "continuous-cooling integral is {total} on {} panels",
+                    panels.len()
+                )));
+            }
+            // Highest panel that carries weight: growth above it does not matter.
+            let floor = q.negligible_share * total;
+            let top = share.iter().rposition(|&s| s > floor).unwrap_or(0);
+            let g_floor = q.negligible_share * g_end[top];
+            let split_at = q.log_range_split;
+            let mut split = vec![false; panels.len()];
+            let mut any = false;
+            for (k, p) in panels.iter().enumerate() {
+                if p.hi - p.lo < min_width {
+                    continue;
+                }
+                // A coarse panel can hide a peak between its nodes, so judge its
+                // weight by its largest node value times its width, not by its estimate.
+                let (mn, mx) = f[k]
+                    .iter()
+                    .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| (a.min(x), b.max(x)));
+                let weighty = (p.hi - p.lo) * mx > floor && (!(mn > 0.0) || (mx / mn).ln() > split_at);
+                let g_here = 0.5 * (p.hi - p.lo) * p.g_tot;
+                let feeds = k <= top && g_here > g_floor && p.ln_u_range > q.growth_log_range_split;
+                if weighty || feeds {
+                    split[k] = true;
+                    any = true;
+                }
+            }
+            if !any || panels.len() >= MAX_PANELS {
+                // Nose guess: the node with the shortest isothermal time to X_c.
+                let mut nose = (a, f64::NEG_INFINITY, 0.0);
+                let ln_pi_3 = (PI / 3.0).ln();
+                for p in &panels {
+                    let ts = rule.nodes_on(p.lo, p.hi);
+                    for i in 0..NODES {
+                        let ln_u3 = 3.0 * p.ln_u[i];
+                        let v = if ln_u3 == f64::NEG_INFINITY {
+                            f64::NEG_INFINITY
+                        } else {
+                            -solve_quartic_cubic(ln_pi_3 + p.ln_i[i] + ln_u3, ttt.0 + ln_u3, ttt.1)
+                        };
+                        if v > nose.1 {
+                            nose = (ts[i], v, 0.5 * (p.hi - p.lo));
+                        }
+                    }
+                }
+                return Ok(CoolingIntegrals {
+                    ln_j: sh.i + 3.0 * sh.u + total.ln(),
+                    ln_g_total: sh.u + g_start.ln(),
+                    nose_guess: nose,
+                    evaluations,
+                });
+            }
+            let mut next = Vec::with_capacity(panels.len() * 2);
+            let mut rebase = false;
+            for (p, s) in panels.into_iter().zip(&split) {
+                if *s {
+                    let mid = 0.5 * (p.lo + p.hi);
+                    for (lo, hi) in [(p.lo, mid), (mid, p.hi)] {
+                        let mut c = Quadrature::panel(rates, rule, lo, hi, cooling);
+                        let (mi, mu) = (
+                            c.ln_i.iter().copied().fold(f64::NEG_INFINITY, f64::max),
+                            c.ln_u.iter().copied().fold(f64::NEG_INFINITY, f64::max),
+                        );
+                        if mi > sh.i + SHIFT_HEADROOM || mu > sh.u + SHIFT_HEADROOM {
+                            rebase = true;
+                        }
+                        Quadrature::scale_panel(rule, &mut c, sh);
+                        next.push(c);
+                    }
+                    evaluations += 2 * NODES;
+                } else {
+                    next.push(p);
+                }
+            }
+            panels = next;
+            if rebase {
+                sh = Shifts { i: max_of(&panels, |p| &p.ln_i), u: max_of(&panels, |p| &p.ln_u) };
+                for p in panels.iter_mut() {
+                    Quadrature::scale_panel(rule, p, sh);
+                }
+            }
+        }
+    }
+
 }
 
 /// A slow, independent oracle for tests: trapezoid sums on a dense uniform

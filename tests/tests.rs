@@ -1,1 +1,9 @@
+//! Integration tests, built into one binary so polars links once.
 
+mod util;
+
+mod cli_errors;
+mod cli_eval;
+mod demo_models;
+mod grd2008;
+mod kinetics_reference;

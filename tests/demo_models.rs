@@ -1,0 +1,115 @@
+//! The invented demo model set against two published commercial glasses, and
+//! against what the trade knows about soda-lime glass formation.
+
+use crate::util::rel;
+use quenchwise::composition::{Basis, Composition};
+use quenchwise::data::{parse_model_set, Source, DEMO_MODELS};
+use quenchwise::evaluate::{evaluate_composition, Calibration};
+use quenchwise::kinetics::KineticOptions;
+use quenchwise::models::{fixpoints, ModelSet};
+use quenchwise::units::Celsius;
+
+fn demo() -> ModelSet {
+    parse_model_set(&Source::new("demo", DEMO_MODELS)).unwrap()
+}
+
+/// Published VFT in °C with η in Pa·s: T(L) = T0 + B/(L − A).
+fn published(a: f64, b: f64, t0: f64, level: f64) -> f64 {
+    Celsius(t0 + b / (level - a)).to_kelvin().0
+}
+
+/// (name, wt% without SO3, VFT A, B, T0 °C, liquidus °C)
+/// Source: shared/reference §9 — Seward & Vascott (eds.), High temperature glass melt
+/// property database for process modeling, ACerS 2005, as tabulated [SEC]. The VFT
+/// constants are read with η in Pa·s (the unit trap noted there).
+/// SO3 (0.2 wt% in the container glass) is not one of our oxides and is left out;
+/// the rest is renormalised (a note says so).
+fn published_glasses() -> Vec<(&'static str, &'static str, f64, f64, f64, f64)> {
+    vec![
+        (
+            "container",
+            "SiO2=74 Na2O=13 CaO=10.5 Al2O3=1.3 K2O=0.3 MgO=0.2 Fe2O3=0.04 TiO2=0.01",
+            -2.309,
+            3922.0,
+            291.0,
+            1040.0,
+        ),
+        ("float", "SiO2=73 Na2O=14 CaO=9 MgO=4 Al2O3=0.15 K2O=0.03 TiO2=0.02 Fe2O3=0.1", -2.585, 4215.0, 263.0, 1000.0),
+    ]
+}
+
+#[test]
+fn viscosity_fixpoints_match_the_published_container_and_float_glasses() {
+    // Measured here: the demo set is within 4.5 K at every fixpoint below; the
+    // check allows 8 K, about the scatter of a VFT fit over 550–1450 °C.
+    let m = demo();
+    for (name, wt, a, b, t0, _) in published_glasses() {
+        let c = Composition::parse(wt, Basis::WtPercent, 2.0).unwrap();
+        let p = m.properties(&c).unwrap();
+        assert!(p.viscosity_flags.is_empty(), "{name}: {:?}", p.viscosity_flags);
+        for (label, level, got) in [
+            ("10 Pa s", fixpoints::MELTING, p.melting_temperature.0),
+            ("working", fixpoints::WORKING, p.working_point.0),
+            ("softening", fixpoints::SOFTENING, p.softening_point.0),
+            ("T_g", fixpoints::GLASS_TRANSITION, p.glass_transition.0),
+        ] {
+            let want = published(a, b, t0, level);
+            assert!((got - want).abs() < 8.0, "{name} {label}: {got:.1} K vs published {want:.1} K");
+        }
+    }
+}
+
+#[test]
+fn liquidus_matches_the_published_glasses_within_25_k() {
+    // Source: shared/reference §9 liquidus 1040 °C (container) and 1000 °C (float).
+    // Measured here: 2 K and 5 K off.
+    let m = demo();
+    for (name, wt, _, _, _, tl) in published_glasses() {
+        let c = Composition::parse(wt, Basis::WtPercent, 2.0).unwrap();
+        let p = m.properties(&c).unwrap();
+        let got = p.liquidus.to_celsius().0;
+        assert!((got - tl).abs() < 25.0, "{name}: {got:.1} °C vs {tl} °C");
+    }
+}
+
+#[test]
+fn ordinary_soda_lime_vitrifies_when_poured_and_air_cooled() {
+    // Common practice: soda-lime melts left to cool in air (~1–10 K/s, shared/reference
+    // §6.4 [MEM]) come out glassy. The demo must give R_c well below 1 K/s for them.
+    let m = demo();
+    for (name, wt, ..) in published_glasses() {
+        let c = Composition::parse(wt, Basis::WtPercent, 2.0).unwrap();
+        let e = evaluate_composition(&m, &c, &KineticOptions::default(), None, &Calibration::None).unwrap();
+        assert!(e.critical_rate_k_per_s < 1.0, "{name}: R_c = {}", e.critical_rate_k_per_s);
+        assert!(e.nose_temperature_k > e.glass_transition_k);
+    }
+}
+
+#[test]
+fn critical_rate_rises_by_decades_where_the_liquidus_climbs() {
+    // Common practice: towards lime-rich melts the wollastonite liquidus climbs
+    // steeply and glass formation gets hard. From 10 to 17 mol% CaO (at 12 Na2O)
+    // the demo must raise R_c by at least two decades, monotonically.
+    let m = demo();
+    let mut last = 0.0;
+    let mut first = None;
+    for cao in [10.0, 12.0, 14.0, 16.0, 17.0] {
+        let text = format!("SiO2={} Na2O=12 CaO={cao} Al2O3=2", 86.0 - cao);
+        let c = Composition::parse(&text, Basis::MolPercent, 0.0).unwrap();
+        let e = evaluate_composition(&m, &c, &KineticOptions::default(), None, &Calibration::None).unwrap();
+        assert!(e.critical_rate_k_per_s > last, "{text}");
+        last = e.critical_rate_k_per_s;
+        first.get_or_insert(last);
+    }
+    let decades = (last / first.unwrap()).log10();
+    assert!(decades > 2.0, "only {decades:.2} decades");
+}
+
+#[test]
+fn every_phase_surface_and_alpha_is_marked_invented_in_the_file() {
+    assert!(demo().about.invented);
+    for line in DEMO_MODELS.lines().filter(|l| l.trim_start().starts_with("turnbull_alpha")) {
+        assert!(line.contains("INVENTED"), "{line}");
+    }
+    assert!(rel(1.0, 1.0) == 0.0);
+}

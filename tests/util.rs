@@ -1,0 +1,93 @@
+//! Helpers: run the built binary in a fresh temporary folder and show
+//! "expected" and "got" in blocks when a check fails.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+use std::sync::atomic::{AtomicUsize, Ordering};
+
+static COUNTER: AtomicUsize = AtomicUsize::new(0);
+
+/// A fresh, empty temporary folder for one test.
+pub fn temp_dir(name: &str) -> PathBuf {
+    let n = COUNTER.fetch_add(1, Ordering::SeqCst);
+    let d = std::env::temp_dir().join(format!("quenchwise-test-{}-{n}-{name}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&d);
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+/// The repository root (for shipped demo files and fixtures).
+pub fn root() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+}
+
+/// A fixture file path.
+pub fn fixture(name: &str) -> PathBuf {
+    root().join("tests/fixtures").join(name)
+}
+
+/// The result of one run of the binary.
+pub struct Run {
+    pub code: i32,
+    pub stdout: String,
+    pub stderr: String,
+}
+
+/// Run `quenchwise ARGS` with `dir` as the working directory.
+pub fn run_in(dir: &Path, args: &[&str]) -> Run {
+    let Output { status, stdout, stderr } = Command::new(env!("CARGO_BIN_EXE_quenchwise"))
+        .args(args)
+        .current_dir(dir)
+        .output()
+        .expect("the binary runs");
+    Run {
+        code: status.code().unwrap_or(-1),
+        stdout: String::from_utf8_lossy(&stdout).into_owned(),
+        stderr: String::from_utf8_lossy(&stderr).into_owned(),
+    }
+}
+
+impl Run {
+    fn show(&self) -> String {
+        format!(
+            "\n--- exit code ---\n{}\n--- stdout ---\n{}\n--- stderr ---\n{}\n",
+            self.code, self.stdout, self.stderr
+        )
+    }
+
+    /// Assert the exit code.
+    pub fn code(&self, expected: i32) -> &Self {
+        assert_eq!(self.code, expected, "\n--- expected exit code ---\n{expected}\n--- got ---{}", self.show());
+        self
+    }
+
+    /// Assert that stderr contains a piece of text.
+    pub fn stderr_has(&self, needle: &str) -> &Self {
+        assert!(
+            self.stderr.contains(needle),
+            "\n--- expected in stderr ---\n{needle}\n--- got ---{}",
+            self.show()
+        );
+        self
+    }
+
+    /// Assert that stdout contains a piece of text.
+    pub fn stdout_has(&self, needle: &str) -> &Self {
+        assert!(
+            self.stdout.contains(needle),
+            "\n--- expected in stdout ---\n{needle}\n--- got ---{}",
+            self.show()
+        );
+        self
+    }
+
+    /// stdout parsed as JSON.
+    pub fn json(&self) -> serde_json::Value {
+        serde_json::from_str(&self.stdout).unwrap_or_else(|e| panic!("stdout is not JSON ({e}){}", self.show()))
+    }
+}
+
+/// Relative difference |a − b| / |b|.
+pub fn rel(a: f64, b: f64) -> f64 {
+    ((a - b) / b).abs()
+}
