@@ -1,1 +1,76 @@
-fn main(){}
+//! Time per candidate: the melt-card kinetics alone, and the full chain
+//! composition → properties → melt → nose and critical cooling rate, at the
+//! default quadrature (≤ 0.1 % R_c error, see tests/kinetics_reference.rs).
+//!
+//! Run: cargo bench --bench kinetics
+
+use criterion::{criterion_group, criterion_main, Criterion};
+use quenchwise::composition::{Basis, Composition};
+use quenchwise::data::{parse_model_set, Source, DEMO_MODELS};
+use quenchwise::evaluate::{evaluate_composition, Calibration};
+use quenchwise::kinetics::{GrowthMode, Interface, KineticOptions, Kinetics, Melt, ViscosityCurve};
+use quenchwise::units::Kelvin;
+use std::hint::black_box;
+
+fn card() -> Melt {
+    Melt::new(
+        ViscosityCurve::vft(-2.8, 4500.0, 480.0).unwrap(),
+        Kelvin(1300.0),
+        60000.0,
+        6.0e-5,
+        Interface::TurnbullAlpha(0.33),
+        GrowthMode::Normal,
+    )
+    .unwrap()
+}
+
+fn benches(c: &mut Criterion) {
+    let opts = KineticOptions::default();
+    let m = card();
+    let mut g = c.benchmark_group("melt_card");
+    g.bench_function("critical_rate", |b| {
+        b.iter(|| {
+            Kinetics::new(black_box(&m), &opts)
+                .unwrap()
+                .critical_rate()
+                .unwrap()
+        })
+    });
+    g.bench_function("nose_and_critical_rate", |b| {
+        b.iter(|| {
+            Kinetics::new(black_box(&m), &opts)
+                .unwrap()
+                .analyse()
+                .unwrap()
+        })
+    });
+    g.finish();
+
+    let models = parse_model_set(&Source::new("demo", DEMO_MODELS)).unwrap();
+    let comp =
+        Composition::parse("SiO2=72 Na2O=14 CaO=10 Al2O3=4", Basis::MolPercent, 2.0).unwrap();
+    let mut g = c.benchmark_group("composition");
+    g.bench_function("properties_nose_and_critical_rate", |b| {
+        b.iter(|| {
+            let p = models.properties(black_box(&comp)).unwrap();
+            let melt = models.melt(&p).unwrap();
+            Kinetics::new(&melt, &opts).unwrap().analyse().unwrap()
+        })
+    });
+    g.bench_function("full_evaluation_with_slab", |b| {
+        b.iter(|| {
+            evaluate_composition(
+                &models,
+                black_box(&comp),
+                &opts,
+                Some(Default::default()),
+                &Calibration::None,
+            )
+            .unwrap()
+        })
+    });
+    g.finish();
+}
+
+criterion_group!(kinetics, benches);
+criterion_main!(kinetics);

@@ -28,6 +28,8 @@ pub struct Cli {
     pub command: Command,
 }
 
+// EvalArgs is large, but the command line is parsed once per run.
+#[allow(clippy::large_enum_variant)]
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Evaluate one composition, one melt card, or a table of either.
@@ -154,11 +156,21 @@ pub struct EvalArgs {
     /// The rate is in --rate-unit (K/s by default). Use the α it prints in
     /// your model set or melt card (as turnbull_alpha, with
     /// calibrated_against naming the measurement).
-    #[arg(long, value_name = "RATE", help_heading = "Calibration", conflicts_with = "calibrate_nose_time_s")]
+    #[arg(
+        long,
+        value_name = "RATE",
+        help_heading = "Calibration",
+        conflicts_with = "calibrate_nose_time_s"
+    )]
     pub calibrate_rate: Option<f64>,
 
     /// Unit of --calibrate-rate: K/s or K/min.
-    #[arg(long, value_name = "UNIT", default_value = "K/s", help_heading = "Calibration")]
+    #[arg(
+        long,
+        value_name = "UNIT",
+        default_value = "K/s",
+        help_heading = "Calibration"
+    )]
     pub rate_unit: RateUnit,
 
     /// Fit α so the model reproduces this measured TTT nose time, in s.
@@ -166,7 +178,12 @@ pub struct EvalArgs {
     pub calibrate_nose_time_s: Option<f64>,
 
     /// Quench-plate temperature for the glassy-thickness estimate, °C [default: 25].
-    #[arg(long, value_name = "DEG_C", default_value_t = 25.0, help_heading = "Quench")]
+    #[arg(
+        long,
+        value_name = "DEG_C",
+        default_value_t = 25.0,
+        help_heading = "Quench"
+    )]
     pub quench_surface_c: f64,
 
     /// Thermal diffusivity of the melt, m²/s [default: 5e-7].
@@ -197,7 +214,11 @@ pub fn exit_code(err: &anyhow::Error) -> i32 {
             return 2;
         }
         if let Some(t) = cause.downcast_ref::<TableError>() {
-            return if matches!(t, TableError::Write { .. }) { 1 } else { 2 };
+            return if matches!(t, TableError::Write { .. }) {
+                1
+            } else {
+                2
+            };
         }
     }
     1
@@ -227,7 +248,11 @@ fn kinetic_overrides(a: &EvalArgs, mut o: KineticOptions) -> KineticOptions {
         o.detectable_fraction = v;
     }
     if let Some(v) = &a.driving_force {
-        o.driving_force = if v == "hoffman" { DrivingForce::Hoffman } else { DrivingForce::Turnbull };
+        o.driving_force = if v == "hoffman" {
+            DrivingForce::Hoffman
+        } else {
+            DrivingForce::Turnbull
+        };
     }
     if let Some(v) = a.nuclei_per_m3 {
         o.heterogeneous_nuclei_per_m3 = v;
@@ -252,8 +277,10 @@ fn bar(rows: usize) -> Bar {
     if std::io::stderr().is_terminal() {
         let b = indicatif::ProgressBar::new(rows as u64);
         b.set_style(
-            indicatif::ProgressStyle::with_template("{bar:40} {pos}/{len} rows  {per_sec}  eta {eta}")
-                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+            indicatif::ProgressStyle::with_template(
+                "{bar:40} {pos}/{len} rows  {per_sec}  eta {eta}",
+            )
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
         );
         Bar(Some(b))
     } else {
@@ -270,10 +297,16 @@ fn eval(a: EvalArgs) -> Result<()> {
         if n == 0 {
             bail!(UsageError("--threads must be at least 1".into()));
         }
-        rayon::ThreadPoolBuilder::new().num_threads(n).build_global().ok();
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(n)
+            .build_global()
+            .ok();
     }
     if !(a.melt_diffusivity > 0.0 && a.melt_diffusivity.is_finite()) {
-        bail!(UsageError(format!("--melt-diffusivity must be positive, got {} m²/s", a.melt_diffusivity)));
+        bail!(UsageError(format!(
+            "--melt-diffusivity must be positive, got {} m²/s",
+            a.melt_diffusivity
+        )));
     }
     let slab = Some(SlabQuench {
         surface: Celsius(a.quench_surface_c).to_kelvin(),
@@ -295,7 +328,8 @@ fn eval(a: EvalArgs) -> Result<()> {
     ];
     if inputs.iter().filter(|&&b| b).count() != 1 {
         bail!(UsageError(
-            "give exactly one input: --mol, --wt, --recipe, --melt, --melts or --compositions".into()
+            "give exactly one input: --mol, --wt, --recipe, --melt, --melts or --compositions"
+                .into()
         ));
     }
     if wt_table && a.compositions.is_none() {
@@ -303,7 +337,9 @@ fn eval(a: EvalArgs) -> Result<()> {
     }
     if let Some(p) = &a.melts {
         if a.json || a.ttt.is_some() {
-            bail!(UsageError("--json and --ttt apply to one melt or composition, not to --melts".into()));
+            bail!(UsageError(
+                "--json and --ttt apply to one melt or composition, not to --melts".into()
+            ));
         }
         let out = a.out.as_ref().expect("clap requires --out");
         let progress = bar(count_rows(p));
@@ -314,24 +350,44 @@ fn eval(a: EvalArgs) -> Result<()> {
     if let Some(p) = &a.compositions {
         let out = a.out.as_ref().expect("clap requires --out");
         let models = load_models(a.models.as_deref(), a.viscosity_model.as_deref())?;
-        let basis = if wt_table { Basis::WtPercent } else { Basis::MolPercent };
+        let basis = if wt_table {
+            Basis::WtPercent
+        } else {
+            Basis::MolPercent
+        };
         let progress = bar(count_rows(p));
         let opts = kinetic_overrides(&a, KineticOptions::default());
-        let (df, results, other) =
-            table::evaluate_composition_table(p, &models, basis, a.sum_tolerance, &opts, slab, &progress)?;
+        let (df, results, other) = table::evaluate_composition_table(
+            p,
+            &models,
+            basis,
+            a.sum_tolerance,
+            &opts,
+            slab,
+            &progress,
+        )?;
         if !other.is_empty() {
-            eprintln!("quenchwise: columns not read as oxides (passed through): {}", other.join(", "));
+            eprintln!(
+                "quenchwise: columns not read as oxides (passed through): {}",
+                other.join(", ")
+            );
         }
         return finish_table(df, &results, out, &progress);
     }
     if a.out.is_some() {
-        bail!(UsageError("--out writes tables: use it with --melts or --compositions".into()));
+        bail!(UsageError(
+            "--out writes tables: use it with --melts or --compositions".into()
+        ));
     }
     let (evaluation, kinetics) = if let Some(p) = &a.melt {
         let text = data::read_text(p)?;
-        let (melt, card_opts) = data::parse_melt_card(&Source::new(p.display().to_string(), &text), &KineticOptions::default())?;
+        let (melt, card_opts) = data::parse_melt_card(
+            &Source::new(p.display().to_string(), &text),
+            &KineticOptions::default(),
+        )?;
         let opts = kinetic_overrides(&a, card_opts);
-        let e = evaluate_melt(&melt, &opts, slab, &cal).with_context(|| format!("evaluating {}", p.display()))?;
+        let e = evaluate_melt(&melt, &opts, slab, &cal)
+            .with_context(|| format!("evaluating {}", p.display()))?;
         let melt = melt.with_interface(crate::kinetics::Interface::TurnbullAlpha(e.turnbull_alpha));
         (e, Kinetics::new(&melt, &opts)?)
     } else {
@@ -341,7 +397,10 @@ fn eval(a: EvalArgs) -> Result<()> {
             Composition::parse(t, Basis::WtPercent, a.sum_tolerance).context("in --wt")?
         } else if let Some(p) = &a.recipe {
             let text = data::read_text(p)?;
-            data::parse_recipe(&Source::new(p.display().to_string(), &text), a.sum_tolerance)?
+            data::parse_recipe(
+                &Source::new(p.display().to_string(), &text),
+                a.sum_tolerance,
+            )?
         } else {
             bail!(UsageError("--wt without a value reads --compositions tables as wt%; give a composition or a table".into()));
         };
@@ -355,7 +414,8 @@ fn eval(a: EvalArgs) -> Result<()> {
         (e, Kinetics::new(&melt, &opts)?)
     };
     if let Some(p) = &a.ttt {
-        write_ttt(p, &kinetics).with_context(|| format!("writing the TTT curve to {}", p.display()))?;
+        write_ttt(p, &kinetics)
+            .with_context(|| format!("writing the TTT curve to {}", p.display()))?;
     }
     let mut out = std::io::stdout().lock();
     if a.json {
@@ -363,7 +423,10 @@ fn eval(a: EvalArgs) -> Result<()> {
         writeln!(out)?;
     } else {
         write!(out, "{}", report::evaluation_text(&evaluation))?;
-        if matches!(cal, Calibration::ToCriticalRate(_) | Calibration::ToNoseTime(_)) {
+        if matches!(
+            cal,
+            Calibration::ToCriticalRate(_) | Calibration::ToNoseTime(_)
+        ) {
             writeln!(
                 out,
                 "\nto keep this calibration, set turnbull_alpha = {:.5} (and calibrated_against = \"...\") in your model set or melt card",
@@ -384,6 +447,7 @@ fn finish_table(
         b.finish_and_clear();
     }
     let failed = results.iter().filter(|r| r.is_err()).count();
+    print!("{}", table_summary(&df, results, out));
     let mut df = table::append_results(df, results).context("assembling the results table")?;
     table::write_frame(out, &mut df)?;
     eprintln!(
@@ -394,6 +458,73 @@ fn finish_table(
     );
     eprintln!("{}", report::CAUTION);
     Ok(())
+}
+
+/// Rows shown on the terminal after a table run; the file has them all.
+const SUMMARY_ROWS: usize = 40;
+
+fn table_summary(
+    df: &polars::prelude::DataFrame,
+    results: &[std::result::Result<Evaluation, String>],
+    out: &Path,
+) -> String {
+    let names: Option<Vec<Option<String>>> = ["name", "id", "label"].iter().find_map(|c| {
+        let col = df
+            .column(c)
+            .ok()?
+            .cast(&polars::prelude::DataType::String)
+            .ok()?;
+        let ca = col.str().ok()?.clone();
+        Some(ca.iter().map(|v| v.map(str::to_string)).collect())
+    });
+    let mut s = format!(
+        "{:>4}  {:<28} {:<18} {:>9} {:>11} {:>11}  {}\n",
+        "row", "name", "primary phase", "T_L °C", "R_c K/s", "nose K/s", "note"
+    );
+    for (i, r) in results.iter().enumerate().take(SUMMARY_ROWS) {
+        let name = names
+            .as_ref()
+            .and_then(|n| n[i].clone())
+            .unwrap_or_default();
+        let name: String = name.chars().take(28).collect();
+        match r {
+            Ok(e) => {
+                let note = if e.viscosity_extrapolated || e.liquidus_extrapolated {
+                    "extrapolated"
+                } else {
+                    ""
+                };
+                s.push_str(&format!(
+                    "{:>4}  {:<28} {:<18} {:>9.1} {:>11} {:>11}  {}\n",
+                    i + 1,
+                    name,
+                    e.primary_phase.as_deref().unwrap_or("-"),
+                    e.liquidus_c,
+                    report::sig(e.critical_rate_k_per_s),
+                    report::sig(e.nose_rate_k_per_s),
+                    note
+                ));
+            }
+            Err(msg) => s.push_str(&format!(
+                "{:>4}  {:<28} {:<18} {:>9} {:>11} {:>11}  error: {}\n",
+                i + 1,
+                name,
+                "-",
+                "-",
+                "-",
+                "-",
+                msg
+            )),
+        }
+    }
+    if results.len() > SUMMARY_ROWS {
+        s.push_str(&format!(
+            "      ... {} more rows in {}\n",
+            results.len() - SUMMARY_ROWS,
+            out.display()
+        ));
+    }
+    s
 }
 
 fn write_ttt(path: &Path, k: &Kinetics) -> Result<()> {
@@ -423,9 +554,16 @@ fn models(a: ModelArgs) -> Result<()> {
     writeln!(out, "source        {}", m.about.source)?;
     writeln!(out, "date          {}", m.about.date)?;
     if m.about.invented {
-        writeln!(out, "status        INVENTED coefficients: for demonstration only")?;
+        writeln!(
+            out,
+            "status        INVENTED coefficients: for demonstration only"
+        )?;
     }
-    writeln!(out, "\nviscosity     {} ({})", m.viscosity.name, m.viscosity.source)?;
+    writeln!(
+        out,
+        "\nviscosity     {} ({})",
+        m.viscosity.name, m.viscosity.source
+    )?;
     writeln!(out, "\ncrystal phases")?;
     writeln!(
         out,
@@ -463,10 +601,14 @@ mod tests {
     #[test]
     fn wt_flag_with_and_without_value() {
         let c = parse(&["eval", "--compositions", "x.csv", "--out", "y.csv", "--wt"]).unwrap();
-        let Command::Eval(a) = c.command else { panic!() };
+        let Command::Eval(a) = c.command else {
+            panic!()
+        };
         assert_eq!(a.wt_text.as_deref(), Some(""));
         let c = parse(&["eval", "--wt", "SiO2=75 Na2O=25"]).unwrap();
-        let Command::Eval(a) = c.command else { panic!() };
+        let Command::Eval(a) = c.command else {
+            panic!()
+        };
         assert_eq!(a.wt_text.as_deref(), Some("SiO2=75 Na2O=25"));
     }
 
@@ -478,8 +620,19 @@ mod tests {
 
     #[test]
     fn rate_unit_parses() {
-        let c = parse(&["eval", "--mol", "SiO2=100", "--calibrate-rate", "3", "--rate-unit", "K/min"]).unwrap();
-        let Command::Eval(a) = c.command else { panic!() };
+        let c = parse(&[
+            "eval",
+            "--mol",
+            "SiO2=100",
+            "--calibrate-rate",
+            "3",
+            "--rate-unit",
+            "K/min",
+        ])
+        .unwrap();
+        let Command::Eval(a) = c.command else {
+            panic!()
+        };
         assert_eq!(a.rate_unit, RateUnit::PerMinute);
         assert!(parse(&["eval", "--mol", "SiO2=100", "--rate-unit", "K/h"]).is_err());
     }
@@ -492,7 +645,12 @@ mod tests {
         for arg in sub.get_arguments() {
             if let Some(h) = arg.get_help() {
                 let s = h.to_string();
-                assert!(s.chars().count() <= 79, "help of --{} is {} columns", arg.get_id(), s.chars().count());
+                assert!(
+                    s.chars().count() <= 79,
+                    "help of --{} is {} columns",
+                    arg.get_id(),
+                    s.chars().count()
+                );
             }
         }
     }

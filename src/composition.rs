@@ -48,28 +48,28 @@ pub enum Element {
 pub fn atomic_weight(e: Element) -> f64 {
     use Element::*;
     match e {
-        H => 1.008,         // interval [1.00784, 1.00811]; abridged
-        Li => 6.94,         // interval [6.938, 6.997]; abridged
-        B => 10.81,         // interval [10.806, 10.821]; abridged
-        C => 12.011,        // interval [12.0096, 12.0116]; abridged
-        N => 14.007,        // interval [14.00643, 14.00728]; abridged
-        O => 15.999,        // interval [15.99903, 15.99977]; abridged
-        F => 18.998403162,  // 18.998403162(5)
-        Na => 22.98976928,  // 22.98976928(2)
-        Mg => 24.305,       // interval [24.304, 24.307]; abridged
-        Al => 26.9815384,   // 26.9815384(3)
-        Si => 28.085,       // interval [28.084, 28.086]; abridged
-        P => 30.973761998,  // 30.973761998(5)
-        S => 32.06,         // interval [32.059, 32.076]; abridged
-        K => 39.0983,       // 39.0983(1)
-        Ca => 40.078,       // 40.078(4)
-        Ti => 47.867,       // 47.867(1)
-        Mn => 54.938043,    // 54.938043(2); not in shared/reference, from memory of Table 1
-        Fe => 55.845,       // 55.845(2)
-        Zn => 65.38,        // 65.38(2)
-        Sr => 87.62,        // 87.62(1)
-        Zr => 91.224,       // 91.224(2), 2021 value
-        Ba => 137.327,      // 137.327(7)
+        H => 1.008,        // interval [1.00784, 1.00811]; abridged
+        Li => 6.94,        // interval [6.938, 6.997]; abridged
+        B => 10.81,        // interval [10.806, 10.821]; abridged
+        C => 12.011,       // interval [12.0096, 12.0116]; abridged
+        N => 14.007,       // interval [14.00643, 14.00728]; abridged
+        O => 15.999,       // interval [15.99903, 15.99977]; abridged
+        F => 18.998403162, // 18.998403162(5)
+        Na => 22.98976928, // 22.98976928(2)
+        Mg => 24.305,      // interval [24.304, 24.307]; abridged
+        Al => 26.9815384,  // 26.9815384(3)
+        Si => 28.085,      // interval [28.084, 28.086]; abridged
+        P => 30.973761998, // 30.973761998(5)
+        S => 32.06,        // interval [32.059, 32.076]; abridged
+        K => 39.0983,      // 39.0983(1)
+        Ca => 40.078,      // 40.078(4)
+        Ti => 47.867,      // 47.867(1)
+        Mn => 54.938043,   // 54.938043(2); not in shared/reference, from memory of Table 1
+        Fe => 55.845,      // 55.845(2)
+        Zn => 65.38,       // 65.38(2)
+        Sr => 87.62,       // 87.62(1)
+        Zr => 91.224,      // 91.224(2), 2021 value
+        Ba => 137.327,     // 137.327(7)
     }
 }
 
@@ -144,7 +144,11 @@ impl Oxide {
 
     /// A comma-separated list of every known oxide, for error messages.
     pub fn known_list() -> String {
-        Oxide::ALL.iter().map(|o| o.formula()).collect::<Vec<_>>().join(", ")
+        Oxide::ALL
+            .iter()
+            .map(|o| o.formula())
+            .collect::<Vec<_>>()
+            .join(", ")
     }
 }
 
@@ -196,14 +200,24 @@ pub enum CompositionError {
     #[error("{oxide} amount must be a finite number, got {value}")]
     NotFinite { oxide: Oxide, value: f64 },
     #[error("{oxide} amount must not be negative, got {value} {basis}")]
-    Negative { oxide: Oxide, value: f64, basis: Basis },
+    Negative {
+        oxide: Oxide,
+        value: f64,
+        basis: Basis,
+    },
     #[error("the composition is empty: give at least one oxide with a positive amount")]
     Empty,
     #[error(
         "amounts sum to {sum:.3} {basis}, more than {tolerance} away from 100\nhint: check for a missing or mistyped oxide; sums within {tolerance} of 100 are normalised"
     )]
-    BadSum { sum: f64, basis: Basis, tolerance: f64 },
-    #[error("cannot read '{0}' as OXIDE=AMOUNT\nhint: write e.g. \"SiO2=72 Na2O=14 CaO=10 Al2O3=4\"")]
+    BadSum {
+        sum: f64,
+        basis: Basis,
+        tolerance: f64,
+    },
+    #[error(
+        "cannot read '{0}' as OXIDE=AMOUNT\nhint: write e.g. \"SiO2=72 Na2O=14 CaO=10 Al2O3=4\""
+    )]
     Syntax(String),
 }
 
@@ -240,7 +254,11 @@ impl Composition {
                 return Err(CompositionError::NotFinite { oxide, value });
             }
             if value < 0.0 {
-                return Err(CompositionError::Negative { oxide, value, basis });
+                return Err(CompositionError::Negative {
+                    oxide,
+                    value,
+                    basis,
+                });
             }
             if std::mem::replace(&mut seen[oxide.index()], true) {
                 return Err(CompositionError::Duplicate { oxide });
@@ -252,7 +270,11 @@ impl Composition {
             return Err(CompositionError::Empty);
         }
         if (sum - 100.0).abs() > tolerance {
-            return Err(CompositionError::BadSum { sum, basis, tolerance });
+            return Err(CompositionError::BadSum {
+                sum,
+                basis,
+                tolerance,
+            });
         }
         let moles: [f64; N_OXIDES] = match basis {
             Basis::MolPercent => raw,
@@ -287,8 +309,11 @@ impl Composition {
     /// # Errors
     /// As [`Composition::new`] with a tolerance of 1e-7 percentage points.
     pub fn from_fractions(x: &[f64; N_OXIDES]) -> Result<Self, CompositionError> {
-        let pairs: Vec<(Oxide, f64)> =
-            Oxide::ALL.iter().zip(x).map(|(&o, &v)| (o, v * 100.0)).collect();
+        let pairs: Vec<(Oxide, f64)> = Oxide::ALL
+            .iter()
+            .zip(x)
+            .map(|(&o, &v)| (o, v * 100.0))
+            .collect();
         Self::new(&pairs, Basis::MolPercent, 1e-7)
     }
 
@@ -325,7 +350,10 @@ impl Composition {
 
     /// Mean molar mass of the glass in g/mol of oxide formula units.
     pub fn mean_molar_mass(&self) -> f64 {
-        Oxide::ALL.iter().map(|o| self.x[o.index()] * o.molar_mass()).sum()
+        Oxide::ALL
+            .iter()
+            .map(|o| self.x[o.index()] * o.molar_mass())
+            .sum()
     }
 
     /// A note when the entered amounts did not sum to exactly 100.
@@ -408,7 +436,11 @@ mod tests {
             (Oxide::FeO, 71.8440),
         ];
         for (o, m) in cases {
-            assert!(close(o.molar_mass(), m, MOLAR_MASS_RTOL), "{o}: {} vs {m}", o.molar_mass());
+            assert!(
+                close(o.molar_mass(), m, MOLAR_MASS_RTOL),
+                "{o}: {} vs {m}",
+                o.molar_mass()
+            );
         }
     }
 
@@ -428,7 +460,8 @@ mod tests {
         use Element::*;
         // Source: shared/reference §6.3 and §7 item 4, derived from IUPAC 2021 Table 1
         // (Prohaska et al. 2022); printed to 5 decimals → abs tol 6e-6.
-        let cases: [(&[(Element, f64)], Oxide, f64, f64); 5] = [
+        type Case = (&'static [(Element, f64)], Oxide, f64, f64);
+        let cases: [Case; 5] = [
             (&[(Na, 2.0), (C, 1.0), (O, 3.0)], Oxide::Na2O, 1.0, 1.71007),
             (&[(H, 3.0), (B, 1.0), (O, 3.0)], Oxide::B2O3, 0.5, 1.77632),
             (&[(Ca, 1.0), (C, 1.0), (O, 3.0)], Oxide::CaO, 1.0, 1.78480),
@@ -476,7 +509,10 @@ mod tests {
             Composition::from_mol_percent(&[(Oxide::SiO2, f64::NAN)]),
             Err(CompositionError::NotFinite { .. })
         ));
-        assert!(matches!(Composition::from_mol_percent(&[]), Err(CompositionError::Empty)));
+        assert!(matches!(
+            Composition::from_mol_percent(&[]),
+            Err(CompositionError::Empty)
+        ));
         assert!(matches!(
             Composition::from_mol_percent(&[(Oxide::SiO2, 70.0)]),
             Err(CompositionError::BadSum { .. })
@@ -486,7 +522,10 @@ mod tests {
             Err(CompositionError::Duplicate { .. })
         ));
         let e = "SO3".parse::<Oxide>().unwrap_err().to_string();
-        assert!(e.contains("unknown oxide 'SO3'") && e.contains("Na2O"), "{e}");
+        assert!(
+            e.contains("unknown oxide 'SO3'") && e.contains("Na2O"),
+            "{e}"
+        );
     }
 
     #[test]

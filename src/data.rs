@@ -43,7 +43,11 @@ pub enum DataError {
     #[error("{path}: cannot read the file: {message}")]
     Read { path: String, message: String },
     #[error("{}", format_problems(path, problems, hint))]
-    Invalid { path: String, problems: Vec<Problem>, hint: Option<String> },
+    Invalid {
+        path: String,
+        problems: Vec<Problem>,
+        hint: Option<String>,
+    },
 }
 
 fn format_problems(path: &str, problems: &[Problem], hint: &Option<String>) -> String {
@@ -69,7 +73,10 @@ pub struct Source<'a> {
 impl<'a> Source<'a> {
     /// Name a text.
     pub fn new(path: impl Into<String>, text: &'a str) -> Self {
-        Source { path: path.into(), text }
+        Source {
+            path: path.into(),
+            text,
+        }
     }
 
     /// A problem at a byte span.
@@ -99,11 +106,19 @@ impl<'a> Source<'a> {
         if let Some(next) = lines.get(line_no) {
             snippet.push_str(&format!("\n  {:>width$} | {next}", line_no + 1));
         }
-        Problem { line: line_no, message: message.into(), snippet }
+        Problem {
+            line: line_no,
+            message: message.into(),
+            snippet,
+        }
     }
 
     fn error(&self, problems: Vec<Problem>, hint: Option<String>) -> DataError {
-        DataError::Invalid { path: self.path.clone(), problems, hint }
+        DataError::Invalid {
+            path: self.path.clone(),
+            problems,
+            hint,
+        }
     }
 
     /// Deserialize TOML, mapping a syntax or shape error to a located problem.
@@ -248,7 +263,11 @@ impl Collector<'_, '_> {
             Err(_) => {
                 self.push(
                     name.span(),
-                    format!("unknown oxide '{}'; known oxides are {}", name.get_ref(), Oxide::known_list()),
+                    format!(
+                        "unknown oxide '{}'; known oxides are {}",
+                        name.get_ref(),
+                        Oxide::known_list()
+                    ),
                 );
                 None
             }
@@ -271,7 +290,10 @@ impl Collector<'_, '_> {
                 Some((k, n)) => match k.parse::<f64>() {
                     Ok(k) => (k, n),
                     Err(_) => {
-                        this.push(g.span(), format!("cannot read the factor '{k}' in '{}'", g.get_ref()));
+                        this.push(
+                            g.span(),
+                            format!("cannot read the factor '{k}' in '{}'", g.get_ref()),
+                        );
                         return false;
                     }
                 },
@@ -285,7 +307,11 @@ impl Collector<'_, '_> {
                 Err(_) => {
                     this.push(
                         g.span(),
-                        format!("unknown oxide '{name}' in group '{}'; known oxides are {}", g.get_ref(), Oxide::known_list()),
+                        format!(
+                            "unknown oxide '{name}' in group '{}'; known oxides are {}",
+                            g.get_ref(),
+                            Oxide::known_list()
+                        ),
                     );
                     false
                 }
@@ -321,7 +347,12 @@ impl Collector<'_, '_> {
         out
     }
 
-    fn mixture(&mut self, m: &MixtureFile, want_temperature: bool, span: Range<usize>) -> MixtureModel {
+    fn mixture(
+        &mut self,
+        m: &MixtureFile,
+        want_temperature: bool,
+        span: Range<usize>,
+    ) -> MixtureModel {
         let mut out = MixtureModel::constant(m.constant);
         out.basis = m.basis;
         for (k, v) in &m.linear {
@@ -338,12 +369,18 @@ impl Collector<'_, '_> {
                         out.pairs.push((a.index(), b.index(), *v));
                     }
                 }
-                None => self.push(k.span(), format!("pair '{}' must be written OXIDE*OXIDE", k.get_ref())),
+                None => self.push(
+                    k.span(),
+                    format!("pair '{}' must be written OXIDE*OXIDE", k.get_ref()),
+                ),
             }
         }
         for p in &m.products {
             let groups: Vec<_> = p.groups.iter().filter_map(|g| self.group(g)).collect();
-            out.products.push(ProductTerm { coefficient: p.coefficient, groups });
+            out.products.push(ProductTerm {
+                coefficient: p.coefficient,
+                groups,
+            });
         }
         if !m.standard_errors.is_empty() {
             let mut se = [0.0; N_OXIDES];
@@ -383,15 +420,29 @@ impl Collector<'_, '_> {
 pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
     let hint = "a model set has [about], [viscosity] and one [[phase]] per crystal phase; see configs/models/demo-soda-lime.toml";
     let file: ModelFile = src.parse(hint)?;
-    let mut c = Collector { src, problems: Vec::new() };
+    let mut c = Collector {
+        src,
+        problems: Vec::new(),
+    };
     let viscosity = viscosity_model(&mut c, &file.viscosity);
     if file.phase.is_empty() {
-        c.push(0..0, "a model set needs at least one [[phase]] with a liquidus surface");
+        c.push(
+            0..0,
+            "a model set needs at least one [[phase]] with a liquidus surface",
+        );
     }
     let mut phases = Vec::new();
     for p in &file.phase {
-        let enthalpy = c.positive("enthalpy_of_fusion_j_per_mol", &p.enthalpy_of_fusion_j_per_mol, "J/mol");
-        let volume = c.positive("molar_volume_m3_per_mol", &p.molar_volume_m3_per_mol, "m3/mol");
+        let enthalpy = c.positive(
+            "enthalpy_of_fusion_j_per_mol",
+            &p.enthalpy_of_fusion_j_per_mol,
+            "J/mol",
+        );
+        let volume = c.positive(
+            "molar_volume_m3_per_mol",
+            &p.molar_volume_m3_per_mol,
+            "m3/mol",
+        );
         let tm = c.positive("melting_point_k", &p.melting_point_k, "K");
         let alpha = c.positive("turnbull_alpha", &p.turnbull_alpha, "");
         if volume > 1e-2 {
@@ -434,9 +485,13 @@ pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
 /// # Errors
 /// As [`parse_model_set`], for the viscosity part.
 pub fn parse_viscosity_model(src: &Source) -> Result<ViscosityModel, DataError> {
-    let hint = "a viscosity file has [about] and [viscosity]; see configs/models/grd2008-viscosity.toml";
+    let hint =
+        "a viscosity file has [about] and [viscosity]; see configs/models/grd2008-viscosity.toml";
     let file: ModelFile = src.parse(hint)?;
-    let mut c = Collector { src, problems: Vec::new() };
+    let mut c = Collector {
+        src,
+        problems: Vec::new(),
+    };
     let v = viscosity_model(&mut c, &file.viscosity);
     if !c.problems.is_empty() {
         return Err(src.error(c.problems, Some(hint.to_string())));
@@ -450,15 +505,25 @@ fn viscosity_model(c: &mut Collector, v: &ViscosityFile) -> Option<ViscosityMode
     let need = |c: &mut Collector, m: &Option<MixtureFile>, key: &str, temp: bool| match m {
         Some(m) => Some(c.mixture(m, temp, span.clone())),
         None => {
-            c.push(span.clone(), format!("this viscosity form needs [viscosity.{key}]"));
+            c.push(
+                span.clone(),
+                format!("this viscosity form needs [viscosity.{key}]"),
+            );
             None
         }
     };
     let form = match v.form.get_ref() {
         FormName::Vft => {
-            for (k, m) in [("log_eta_inf", &v.log_eta_inf), ("tg_k", &v.tg_k), ("fragility", &v.fragility)] {
+            for (k, m) in [
+                ("log_eta_inf", &v.log_eta_inf),
+                ("tg_k", &v.tg_k),
+                ("fragility", &v.fragility),
+            ] {
                 if m.is_some() {
-                    c.push(span.clone(), format!("[viscosity.{k}] belongs to form = \"myega\", not \"vft\""));
+                    c.push(
+                        span.clone(),
+                        format!("[viscosity.{k}] belongs to form = \"myega\", not \"vft\""),
+                    );
                 }
             }
             let a = need(c, &v.a, "a", false);
@@ -474,9 +539,11 @@ fn viscosity_model(c: &mut Collector, v: &ViscosityFile) -> Option<ViscosityMode
             let t = need(c, &v.tg_k, "tg_k", true);
             let m = need(c, &v.fragility, "fragility", false);
             match (l, t, m) {
-                (Some(log_eta_inf), Some(tg_k), Some(fragility)) => {
-                    Some(ViscosityForm::Myega { log_eta_inf, tg_k, fragility })
-                }
+                (Some(log_eta_inf), Some(tg_k), Some(fragility)) => Some(ViscosityForm::Myega {
+                    log_eta_inf,
+                    tg_k,
+                    fragility,
+                }),
                 _ => None,
             }
         }
@@ -484,11 +551,19 @@ fn viscosity_model(c: &mut Collector, v: &ViscosityFile) -> Option<ViscosityMode
     // A B coefficient in °C would be wrong: B is a temperature *difference*.
     if let (Some(ViscosityForm::Vft { .. }), Some(b)) = (&form, &v.b_k) {
         if b.unit == Some(TemperatureUnit::Celsius) {
-            c.push(span.clone(), "b_k is a temperature difference: give it in K (unit = \"K\")");
+            c.push(
+                span.clone(),
+                "b_k is a temperature difference: give it in K (unit = \"K\")",
+            );
         }
     }
     let _ = &v.note;
-    form.map(|form| ViscosityModel { name: v.name.clone(), source: v.source.clone(), form, domain })
+    form.map(|form| ViscosityModel {
+        name: v.name.clone(),
+        source: v.source.clone(),
+        form,
+        domain,
+    })
 }
 
 /// The model set named `name` (built in) or read from a file path.
@@ -514,8 +589,12 @@ pub fn load_model_set(spec: Option<&Path>) -> Result<ModelSet, DataError> {
 /// An unreadable or invalid file.
 pub fn load_viscosity_model(spec: &Path) -> Result<ViscosityModel, DataError> {
     match spec.to_str() {
-        Some("grd2008") => parse_viscosity_model(&Source::new("<built-in grd2008>", GRD2008_VISCOSITY)),
-        Some(DEFAULT_MODEL_SET) => parse_viscosity_model(&Source::new("<built-in demo-soda-lime>", DEMO_MODELS)),
+        Some("grd2008") => {
+            parse_viscosity_model(&Source::new("<built-in grd2008>", GRD2008_VISCOSITY))
+        }
+        Some(DEFAULT_MODEL_SET) => {
+            parse_viscosity_model(&Source::new("<built-in demo-soda-lime>", DEMO_MODELS))
+        }
         _ => {
             let text = read_text(spec)?;
             parse_viscosity_model(&Source::new(spec.display().to_string(), &text))
@@ -632,7 +711,10 @@ impl MeltValues {
 ///
 /// # Errors
 /// Syntax, missing or unknown keys, values the kinetics refuse — with the line.
-pub fn parse_melt_card(src: &Source, base: &KineticOptions) -> Result<(Melt, KineticOptions), DataError> {
+pub fn parse_melt_card(
+    src: &Source,
+    base: &KineticOptions,
+) -> Result<(Melt, KineticOptions), DataError> {
     let hint = "a melt card has [viscosity] a, b_k, c_k; [crystal] liquidus_k, enthalpy_of_fusion_j_per_mol, molar_volume_m3_per_mol, turnbull_alpha (or interface_energy_j_per_m2), growth; optional [kinetics]";
     let card: CardFile = src.parse(hint)?;
     let k = card.kinetics.as_ref();
@@ -644,11 +726,16 @@ pub fn parse_melt_card(src: &Source, base: &KineticOptions) -> Result<(Melt, Kin
         enthalpy_of_fusion_j_per_mol: *card.crystal.enthalpy_of_fusion_j_per_mol.get_ref(),
         molar_volume_m3_per_mol: *card.crystal.molar_volume_m3_per_mol.get_ref(),
         turnbull_alpha: card.crystal.turnbull_alpha.as_ref().map(|v| *v.get_ref()),
-        interface_energy_j_per_m2: card.crystal.interface_energy_j_per_m2.as_ref().map(|v| *v.get_ref()),
+        interface_energy_j_per_m2: card
+            .crystal
+            .interface_energy_j_per_m2
+            .as_ref()
+            .map(|v| *v.get_ref()),
         growth: *card.crystal.growth.get_ref(),
         detectable_fraction: k.and_then(|k| k.detectable_fraction.as_ref().map(|v| *v.get_ref())),
         driving_force: k.and_then(|k| k.driving_force),
-        heterogeneous_nuclei_per_m3: k.and_then(|k| k.heterogeneous_nuclei_per_m3.as_ref().map(|v| *v.get_ref())),
+        heterogeneous_nuclei_per_m3: k
+            .and_then(|k| k.heterogeneous_nuclei_per_m3.as_ref().map(|v| *v.get_ref())),
         contact_angle_deg: k.and_then(|k| k.contact_angle_deg.as_ref().map(|v| *v.get_ref())),
     };
     values.build(base).map_err(|e| {
@@ -669,20 +756,35 @@ pub fn parse_melt_card(src: &Source, base: &KineticOptions) -> Result<(Melt, Kin
                     "b_k" => Some(card.viscosity.b_k.span()),
                     "c_k" => Some(card.viscosity.c_k.span()),
                     "liquidus_k" => Some(card.crystal.liquidus_k.span()),
-                    "enthalpy_of_fusion_j_per_mol" => Some(card.crystal.enthalpy_of_fusion_j_per_mol.span()),
+                    "enthalpy_of_fusion_j_per_mol" => {
+                        Some(card.crystal.enthalpy_of_fusion_j_per_mol.span())
+                    }
                     "molar_volume_m3_per_mol" => Some(card.crystal.molar_volume_m3_per_mol.span()),
                     "turnbull_alpha" => pick(card.crystal.turnbull_alpha.as_ref()),
-                    "interface_energy_j_per_m2" => pick(card.crystal.interface_energy_j_per_m2.as_ref()),
+                    "interface_energy_j_per_m2" => {
+                        pick(card.crystal.interface_energy_j_per_m2.as_ref())
+                    }
                     "detectable_fraction" => pick(k.and_then(|k| k.detectable_fraction.as_ref())),
-                    "heterogeneous_nuclei_per_m3" => pick(k.and_then(|k| k.heterogeneous_nuclei_per_m3.as_ref())),
+                    "heterogeneous_nuclei_per_m3" => {
+                        pick(k.and_then(|k| k.heterogeneous_nuclei_per_m3.as_ref()))
+                    }
                     "contact_angle_deg" => pick(k.and_then(|k| k.contact_angle_deg.as_ref())),
                     _ => None,
                 }
                 .unwrap_or(0..0)
             }
         };
-        src.error(vec![src.problem(span, e.to_string().lines().next().unwrap_or_default().to_string())],
-            e.to_string().lines().nth(1).map(|h| h.trim_start_matches("hint: ").to_string()).or(Some(hint.to_string())))
+        src.error(
+            vec![src.problem(
+                span,
+                e.to_string().lines().next().unwrap_or_default().to_string(),
+            )],
+            e.to_string()
+                .lines()
+                .nth(1)
+                .map(|h| h.trim_start_matches("hint: ").to_string())
+                .or(Some(hint.to_string())),
+        )
     })
 }
 
@@ -705,14 +807,21 @@ struct RecipeFile {
 /// # Errors
 /// Unknown basis or oxide, bad amounts, a sum far from 100 — with the line.
 pub fn parse_recipe(src: &Source, tolerance: f64) -> Result<Composition, DataError> {
-    let hint = "a recipe file has basis = \"mol%\" or \"wt%\" and an [oxides] table, e.g. SiO2 = 72.0";
+    let hint =
+        "a recipe file has basis = \"mol%\" or \"wt%\" and an [oxides] table, e.g. SiO2 = 72.0";
     let file: RecipeFile = src.parse(hint)?;
-    let mut c = Collector { src, problems: Vec::new() };
+    let mut c = Collector {
+        src,
+        problems: Vec::new(),
+    };
     let basis = match file.basis.get_ref().as_str() {
         "mol%" => Basis::MolPercent,
         "wt%" => Basis::WtPercent,
         other => {
-            c.push(file.basis.span(), format!("basis must be \"mol%\" or \"wt%\", got \"{other}\""));
+            c.push(
+                file.basis.span(),
+                format!("basis must be \"mol%\" or \"wt%\", got \"{other}\""),
+            );
             Basis::MolPercent
         }
     };
@@ -720,8 +829,11 @@ pub fn parse_recipe(src: &Source, tolerance: f64) -> Result<Composition, DataErr
     for (k, v) in &file.oxides {
         if let Some(o) = c.oxide(k) {
             let x = *v.get_ref();
-            if !(x >= 0.0) || !x.is_finite() {
-                c.push(v.span(), format!("{o} amount must be a non-negative number, got {x}"));
+            if x.is_nan() || x < 0.0 || x.is_infinite() {
+                c.push(
+                    v.span(),
+                    format!("{o} amount must be a non-negative number, got {x}"),
+                );
             }
             pairs.push((o, x));
         }
@@ -735,7 +847,9 @@ pub fn parse_recipe(src: &Source, tolerance: f64) -> Result<Composition, DataErr
         let mut lines = msg.lines();
         src.error(
             vec![src.problem(span, lines.next().unwrap_or_default())],
-            lines.next().map(|h| h.trim_start_matches("hint: ").to_string()),
+            lines
+                .next()
+                .map(|h| h.trim_start_matches("hint: ").to_string()),
         )
     })
 }
@@ -770,8 +884,13 @@ mod tests {
     #[test]
     fn unknown_oxide_is_located() {
         let text = DEMO_MODELS.replacen("SiO2 = [", "SiO3 = [", 1);
-        let err = parse_model_set(&Source::new("m.toml", &text)).unwrap_err().to_string();
+        let err = parse_model_set(&Source::new("m.toml", &text))
+            .unwrap_err()
+            .to_string();
         let line = text.lines().position(|l| l.contains("SiO3 = [")).unwrap() + 1;
-        assert!(err.contains(&format!("m.toml:{line}: unknown oxide 'SiO3'")), "{err}");
+        assert!(
+            err.contains(&format!("m.toml:{line}: unknown oxide 'SiO3'")),
+            "{err}"
+        );
     }
 }

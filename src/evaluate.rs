@@ -5,7 +5,9 @@
 //! No I/O: the CLI prints an [`Evaluation`], the table mode writes many.
 
 use crate::composition::{Composition, Oxide};
-use crate::kinetics::{DrivingForce, KineticOptions, KineticSummary, Kinetics, KineticsError, Melt};
+use crate::kinetics::{
+    DrivingForce, KineticOptions, KineticSummary, Kinetics, KineticsError, Melt,
+};
 use crate::models::{ModelError, ModelSet, Properties};
 use crate::units::{Kelvin, KelvinPerSecond};
 use std::collections::BTreeMap;
@@ -25,7 +27,10 @@ pub struct SlabQuench {
 
 impl Default for SlabQuench {
     fn default() -> Self {
-        SlabQuench { surface: DEFAULT_QUENCH_SURFACE, diffusivity_m2_per_s: DEFAULT_MELT_DIFFUSIVITY_M2_PER_S }
+        SlabQuench {
+            surface: DEFAULT_QUENCH_SURFACE,
+            diffusivity_m2_per_s: DEFAULT_MELT_DIFFUSIVITY_M2_PER_S,
+        }
     }
 }
 
@@ -104,7 +109,11 @@ pub enum EvalError {
     Kinetics(#[from] KineticsError),
 }
 
-fn calibrate(melt: &Melt, opts: &KineticOptions, cal: &Calibration) -> Result<(Melt, Option<String>), KineticsError> {
+fn calibrate(
+    melt: &Melt,
+    opts: &KineticOptions,
+    cal: &Calibration,
+) -> Result<(Melt, Option<String>), KineticsError> {
     Ok(match cal {
         Calibration::None => (*melt, None),
         Calibration::Given(s) => (*melt, Some(s.clone())),
@@ -131,7 +140,10 @@ fn kinetic_part(
         Some(q) => match k.max_glassy_half_thickness_m(q.surface, q.diffusivity_m2_per_s) {
             Ok(h) => Some(2.0 * h * 1e3),
             Err(e) => {
-                warnings.push(format!("glassy thickness not computed: {}", e.to_string().lines().next().unwrap_or_default()));
+                warnings.push(format!(
+                    "glassy thickness not computed: {}",
+                    e.to_string().lines().next().unwrap_or_default()
+                ));
                 None
             }
         },
@@ -287,9 +299,20 @@ mod tests {
     #[test]
     fn demo_soda_lime_evaluates() {
         let m = parse_model_set(&Source::new("demo", DEMO_MODELS)).unwrap();
-        let c = Composition::parse("SiO2=72 Na2O=14 CaO=10 Al2O3=4", crate::composition::Basis::MolPercent, 2.0).unwrap();
-        let e = evaluate_composition(&m, &c, &KineticOptions::default(), Some(SlabQuench::default()), &Calibration::None)
-            .unwrap();
+        let c = Composition::parse(
+            "SiO2=72 Na2O=14 CaO=10 Al2O3=4",
+            crate::composition::Basis::MolPercent,
+            2.0,
+        )
+        .unwrap();
+        let e = evaluate_composition(
+            &m,
+            &c,
+            &KineticOptions::default(),
+            Some(SlabQuench::default()),
+            &Calibration::None,
+        )
+        .unwrap();
         assert!(e.nose_rate_k_per_s > e.critical_rate_k_per_s);
         assert!(!e.kinetics_calibrated);
     }

@@ -54,9 +54,17 @@ pub enum KineticsError {
     #[error("{name} must be a finite number, got {value}")]
     NotFinite { name: &'static str, value: f64 },
     #[error("{name} must be positive, got {value} {unit}")]
-    NotPositive { name: &'static str, value: f64, unit: &'static str },
+    NotPositive {
+        name: &'static str,
+        value: f64,
+        unit: &'static str,
+    },
     #[error("{name} must lie in {range}, got {value}")]
-    OutOfRange { name: &'static str, value: f64, range: &'static str },
+    OutOfRange {
+        name: &'static str,
+        value: f64,
+        range: &'static str,
+    },
     #[error(
         "liquidus {liquidus:.1} K is at or below the VFT divergence temperature c = {c:.1} K\nhint: the viscosity curve diverges before the melt can supercool; check b_k and c_k"
     )]
@@ -107,7 +115,11 @@ pub enum ViscosityCurve {
     /// Vogel–Fulcher–Tammann: log10(η/Pa·s) = a + b/(T − c), b and c in K.
     Vft { a: f64, b_k: f64, c_k: f64 },
     /// MYEGA (Mauro et al. 2009): log10 η = L + (12 − L)(Tg/T) exp[(m/(12 − L) − 1)(Tg/T − 1)].
-    Myega { log_eta_inf: f64, tg_k: f64, fragility: f64 },
+    Myega {
+        log_eta_inf: f64,
+        tg_k: f64,
+        fragility: f64,
+    },
 }
 
 impl ViscosityCurve {
@@ -145,7 +157,11 @@ impl ViscosityCurve {
                 range: "[12 - log_eta_inf, inf)",
             });
         }
-        Ok(ViscosityCurve::Myega { log_eta_inf, tg_k, fragility })
+        Ok(ViscosityCurve::Myega {
+            log_eta_inf,
+            tg_k,
+            fragility,
+        })
     }
 
     /// log10(η/Pa·s) at T; +∞ at or below the VFT divergence.
@@ -164,7 +180,11 @@ impl ViscosityCurve {
                     a + b_k / (t - c_k)
                 }
             }
-            ViscosityCurve::Myega { log_eta_inf: l, tg_k, fragility: m } => {
+            ViscosityCurve::Myega {
+                log_eta_inf: l,
+                tg_k,
+                fragility: m,
+            } => {
                 let u = tg_k / t;
                 l + (12.0 - l) * u * ((m / (12.0 - l) - 1.0) * (u - 1.0)).exp()
             }
@@ -185,7 +205,9 @@ impl ViscosityCurve {
                 }
                 Ok(Kelvin(c_k + b_k / (target - a)))
             }
-            ViscosityCurve::Myega { log_eta_inf, tg_k, .. } => {
+            ViscosityCurve::Myega {
+                log_eta_inf, tg_k, ..
+            } => {
                 if target <= log_eta_inf {
                     return Err(KineticsError::NoIsokom { target });
                 }
@@ -211,7 +233,9 @@ impl ViscosityCurve {
     pub fn fragility(&self) -> Result<f64, KineticsError> {
         match *self {
             ViscosityCurve::Vft { b_k, c_k, .. } => {
-                let tg = self.temperature_at(Log10PaS(GLASS_TRANSITION_LOG_VISCOSITY))?.0;
+                let tg = self
+                    .temperature_at(Log10PaS(GLASS_TRANSITION_LOG_VISCOSITY))?
+                    .0;
                 Ok(b_k * tg / ((tg - c_k) * (tg - c_k)))
             }
             ViscosityCurve::Myega { fragility, .. } => Ok(fragility),
@@ -277,7 +301,11 @@ impl Melt {
         growth: GrowthMode,
     ) -> Result<Self, KineticsError> {
         positive("liquidus_k", liquidus.0, "K")?;
-        positive("enthalpy_of_fusion_j_per_mol", enthalpy_of_fusion_j_per_mol, "J/mol")?;
+        positive(
+            "enthalpy_of_fusion_j_per_mol",
+            enthalpy_of_fusion_j_per_mol,
+            "J/mol",
+        )?;
         positive("molar_volume_m3_per_mol", molar_volume_m3_per_mol, "m3/mol")?;
         match interface {
             Interface::TurnbullAlpha(a) => {
@@ -289,7 +317,10 @@ impl Melt {
         }
         if let ViscosityCurve::Vft { c_k, .. } = viscosity {
             if liquidus.0 <= c_k {
-                return Err(KineticsError::LiquidusBelowDivergence { liquidus: liquidus.0, c: c_k });
+                return Err(KineticsError::LiquidusBelowDivergence {
+                    liquidus: liquidus.0,
+                    c: c_k,
+                });
             }
         }
         Ok(Melt {
@@ -378,7 +409,10 @@ impl KineticOptions {
                 range: "(0, 1)",
             });
         }
-        let nh = finite("heterogeneous_nuclei_per_m3", self.heterogeneous_nuclei_per_m3)?;
+        let nh = finite(
+            "heterogeneous_nuclei_per_m3",
+            self.heterogeneous_nuclei_per_m3,
+        )?;
         if nh < 0.0 {
             return Err(KineticsError::OutOfRange {
                 name: "heterogeneous_nuclei_per_m3",
@@ -494,7 +528,12 @@ pub struct QuadratureSettings {
 
 impl Default for QuadratureSettings {
     fn default() -> Self {
-        QuadratureSettings { initial_panels: 2, log_range_split: 16.0, growth_log_range_split: 4.0, negligible_share: 1e-5 }
+        QuadratureSettings {
+            initial_panels: 2,
+            log_range_split: 24.0,
+            growth_log_range_split: 6.0,
+            negligible_share: 1e-5,
+        }
     }
 }
 
@@ -522,6 +561,10 @@ struct Shifts {
     i: f64,
     u: f64,
 }
+
+/// Integrand values below this fraction of the largest one are treated as zero
+/// when judging whether a panel is resolved.
+const NEGLIGIBLE_NODE: f64 = 1e-14;
 
 /// How far above its shift a log value may go before the linear copies are rebuilt.
 const SHIFT_HEADROOM: f64 = 600.0;
@@ -608,7 +651,7 @@ fn brent_root<F: Fn(f64) -> f64>(f: F, lo: f64, hi: f64, tol: f64) -> Result<f64
 
 /// The minimiser of `f` in [lo, hi] by Brent's method (argmin).
 fn brent_min<F: Fn(f64) -> f64>(f: F, lo: f64, hi: f64, rel: f64) -> Result<f64, KineticsError> {
-    let res = Executor::new(Scalar(f), BrentOpt::new(lo, hi).set_tolerance(rel, 1e-4))
+    let res = Executor::new(Scalar(f), BrentOpt::new(lo, hi).set_tolerance(rel, 1e-3))
         .configure(|s| s.max_iters(200))
         .run()
         .map_err(|e| KineticsError::Numerical(e.to_string()))?;
@@ -630,8 +673,14 @@ impl Kinetics {
         let nv = AVOGADRO / vm;
         let sigma = melt.interface_energy_j_per_m2();
         let f_theta = wetting_factor(opts.contact_angle_deg);
-        let tg = melt.viscosity.temperature_at(Log10PaS(GLASS_TRANSITION_LOG_VISCOSITY))?.0;
-        let freeze = melt.viscosity.temperature_at(Log10PaS(opts.freeze_log_viscosity))?.0;
+        let tg = melt
+            .viscosity
+            .temperature_at(Log10PaS(GLASS_TRANSITION_LOG_VISCOSITY))?
+            .0;
+        let freeze = melt
+            .viscosity
+            .temperature_at(Log10PaS(opts.freeze_log_viscosity))?
+            .0;
         let tl = melt.liquidus.0;
         if tl <= tg {
             return Err(KineticsError::LiquidusBelowGlassTransition { liquidus: tl, tg });
@@ -701,17 +750,22 @@ impl Kinetics {
     #[inline]
     fn rates_raw(&self, t: f64) -> Rates {
         if t >= self.tl {
-            return Rates { ln_nucleation: f64::NEG_INFINITY, ln_growth: f64::NEG_INFINITY };
+            return Rates {
+                ln_nucleation: f64::NEG_INFINITY,
+                ln_growth: f64::NEG_INFINITY,
+            };
         }
         let dg = self.driving_force(t);
         let ln_d = self.ln_d_pref + t.ln() - LN_10 * self.melt.viscosity.log10_eta(t);
         let ln_nucleation = self.ln_i_pref + ln_d - self.kw / (dg * dg * t);
-        let mut ln_growth =
-            self.ln_u_pref + ln_d + (-(-dg / (GAS_CONSTANT * t)).exp_m1()).ln();
+        let mut ln_growth = self.ln_u_pref + ln_d + (-(-dg / (GAS_CONSTANT * t)).exp_m1()).ln();
         if self.melt.growth == GrowthMode::Screw {
             ln_growth += ((self.tl - t) / (2.0 * PI * self.tl)).ln();
         }
-        Rates { ln_nucleation, ln_growth }
+        Rates {
+            ln_nucleation,
+            ln_growth,
+        }
     }
 
     /// ln of the isothermal time to reach X_c at T, with pre-existing nuclei:
@@ -764,7 +818,11 @@ impl Kinetics {
 
     fn cooling_integrals(&self, cooling: Cooling) -> Result<CoolingIntegrals, KineticsError> {
         let nh = self.opts.heterogeneous_nuclei_per_m3;
-        let ln_nuclei = if nh > 0.0 { (4.0 * PI / 3.0 * nh).ln() } else { f64::NEG_INFINITY };
+        let ln_nuclei = if nh > 0.0 {
+            (4.0 * PI / 3.0 * nh).ln()
+        } else {
+            f64::NEG_INFINITY
+        };
         Quadrature::cooling_integrals_with(
             &|t| self.rates_raw(t),
             (self.freeze, self.tl),
@@ -780,7 +838,11 @@ impl Kinetics {
     /// Numerical failure (no nucleation or growth anywhere in the window).
     pub fn critical_rate(&self) -> Result<KelvinPerSecond, KineticsError> {
         let ci = self.cooling_integrals(Cooling::Constant)?;
-        Ok(KelvinPerSecond(critical_scale(&ci, self.opts.heterogeneous_nuclei_per_m3, self.opts.detectable_fraction)))
+        Ok(KelvinPerSecond(critical_scale(
+            &ci,
+            self.opts.heterogeneous_nuclei_per_m3,
+            self.opts.detectable_fraction,
+        )))
     }
 
     /// Transformed fraction X = 1 − exp(−X_ext) after cooling from T_L to T_e at a constant rate.
@@ -808,14 +870,23 @@ impl Kinetics {
     /// Numerical failure; a nose below the glass transition.
     pub fn analyse(&self) -> Result<KineticSummary, KineticsError> {
         let ci = self.cooling_integrals(Cooling::Constant)?;
-        let critical = critical_scale(&ci, self.opts.heterogeneous_nuclei_per_m3, self.opts.detectable_fraction);
+        let critical = critical_scale(
+            &ci,
+            self.opts.heterogeneous_nuclei_per_m3,
+            self.opts.detectable_fraction,
+        );
         let (t0, _, half) = ci.nose_guess;
-        let lo = (t0 - 2.0 * half).max(self.freeze);
-        let hi = (t0 + 2.0 * half).min(self.tl);
-        let nose_t = brent_min(|t| self.ln_ttt_time(t), lo, hi, 1e-7)?;
+        // Gauss–Legendre nodes are at most 0.37 half-widths apart (0.04 from a panel
+        // edge), so the nose lies within half a half-width of the best node.
+        let lo = (t0 - 0.5 * half).max(self.freeze);
+        let hi = (t0 + 0.5 * half).min(self.tl);
+        let nose_t = brent_min(|t| self.ln_ttt_time(t), lo, hi, 1e-6)?;
         let nose_time = self.ln_ttt_time(nose_t).exp();
         if nose_t < self.tg {
-            return Err(KineticsError::NoseBelowGlassTransition { nose: nose_t, tg: self.tg });
+            return Err(KineticsError::NoseBelowGlassTransition {
+                nose: nose_t,
+                tg: self.tg,
+            });
         }
         let r = self.rates_raw(nose_t);
         Ok(KineticSummary {
@@ -850,10 +921,17 @@ impl Kinetics {
         positive("thermal diffusivity", thermal_diffusivity_m2_per_s, "m2/s")?;
         finite("quench surface temperature", surface.0)?;
         if surface.0 >= self.freeze {
-            return Err(KineticsError::SurfaceTooHot { surface: surface.0, freeze: self.freeze });
+            return Err(KineticsError::SurfaceTooHot {
+                surface: surface.0,
+                freeze: self.freeze,
+            });
         }
         let ci = self.cooling_integrals(Cooling::Newtonian { surface: surface.0 })?;
-        let k = critical_scale(&ci, self.opts.heterogeneous_nuclei_per_m3, self.opts.detectable_fraction);
+        let k = critical_scale(
+            &ci,
+            self.opts.heterogeneous_nuclei_per_m3,
+            self.opts.detectable_fraction,
+        );
         Ok(0.5 * PI * (thermal_diffusivity_m2_per_s / k).sqrt())
     }
 
@@ -898,7 +976,10 @@ impl Kinetics {
                     nodes: std::array::from_fn(|i| {
                         let temp = k0 + (k1 - k0) * (times[i] - t0) / (t1 - t0);
                         let r = self.rates_raw(temp);
-                        Node { ln_i: r.ln_nucleation, u: r.ln_growth.exp() }
+                        Node {
+                            ln_i: r.ln_nucleation,
+                            u: r.ln_growth.exp(),
+                        }
                     }),
                 });
             }
@@ -977,7 +1058,9 @@ impl Kinetics {
             match melt.interface {
                 Interface::TurnbullAlpha(_) => melt.with_interface(Interface::TurnbullAlpha(alpha)),
                 Interface::EnergyJPerM2(_) => {
-                    let sigma = melt.with_interface(Interface::TurnbullAlpha(alpha)).interface_energy_j_per_m2();
+                    let sigma = melt
+                        .with_interface(Interface::TurnbullAlpha(alpha))
+                        .interface_energy_j_per_m2();
                     melt.with_interface(Interface::EnergyJPerM2(sigma))
                 }
             }
@@ -991,7 +1074,9 @@ impl Kinetics {
         // The mismatch is monotone in α (a larger barrier slows crystallisation:
         // R_c falls, the nose time rises). Walk a geometric grid to find a sign
         // change; NaN (a failed point) is skipped.
-        let grid: Vec<f64> = (0..=40).map(|k| lo * (hi / lo).powf(k as f64 / 40.0)).collect();
+        let grid: Vec<f64> = (0..=40)
+            .map(|k| lo * (hi / lo).powf(k as f64 / 40.0))
+            .collect();
         let values: Vec<f64> = grid.iter().map(|&a| eval(a)).collect();
         let bracket = (0..grid.len() - 1).find(|&k| {
             values[k].is_finite() && values[k + 1].is_finite() && values[k] * values[k + 1] <= 0.0
@@ -1031,11 +1116,14 @@ fn ln_extended_fraction(ci: &CoolingIntegrals, nh: f64, ln_scale: f64) -> f64 {
 fn critical_scale(ci: &CoolingIntegrals, nh: f64, xc: f64) -> f64 {
     let c = (4.0 * PI / 3.0).ln();
     let ln_a = c + ci.ln_j;
-    let ln_b = if nh > 0.0 { c + nh.ln() + 3.0 * ci.ln_g_total } else { f64::NEG_INFINITY };
+    let ln_b = if nh > 0.0 {
+        c + nh.ln() + 3.0 * ci.ln_g_total
+    } else {
+        f64::NEG_INFINITY
+    };
     // A y⁴ + B y³ = X_c with y = 1/s.
     (-solve_quartic_cubic(ln_a, ln_b, xc.ln())).exp()
 }
-
 
 /// Extended fraction X_ext after cooling at a constant rate over a window
 /// [lo, hi], for any nucleation and growth rates (the rates must vanish above
@@ -1065,7 +1153,13 @@ pub fn extended_fraction_constant_rate<R: Fn(Kelvin) -> Rates>(
 struct Quadrature;
 
 impl Quadrature {
-    fn panel<R: Fn(f64) -> Rates>(rates: &R, rule: &Rule, lo: f64, hi: f64, cooling: Cooling) -> Panel {
+    fn panel<R: Fn(f64) -> Rates>(
+        rates: &R,
+        rule: &Rule,
+        lo: f64,
+        hi: f64,
+        cooling: Cooling,
+    ) -> Panel {
         let ts = rule.nodes_on(lo, hi);
         let mut ln_i = [0.0; NODES];
         let mut ln_u = [0.0; NODES];
@@ -1080,7 +1174,9 @@ impl Quadrature {
         }
         let (mn, mx) = ln_u
             .iter()
-            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| (a.min(x), b.max(x)));
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+                (a.min(x), b.max(x))
+            });
         Panel {
             lo,
             hi,
@@ -1125,11 +1221,19 @@ impl Quadrature {
         let mut evaluations = n0 * NODES;
         let min_width = (b - a) * 1e-9;
         let max_of = |panels: &[Panel], f: fn(&Panel) -> &[f64; NODES]| {
-            panels.iter().flat_map(|p| f(p).iter().copied()).fold(f64::NEG_INFINITY, f64::max)
+            panels
+                .iter()
+                .flat_map(|p| f(p).iter().copied())
+                .fold(f64::NEG_INFINITY, f64::max)
         };
-        let mut sh = Shifts { i: max_of(&panels, |p| &p.ln_i), u: max_of(&panels, |p| &p.ln_u) };
+        let mut sh = Shifts {
+            i: max_of(&panels, |p| &p.ln_i),
+            u: max_of(&panels, |p| &p.ln_u),
+        };
         if !sh.u.is_finite() {
-            return Err(KineticsError::Numerical("growth rate vanishes across the kinetic window".into()));
+            return Err(KineticsError::Numerical(
+                "growth rate vanishes across the kinetic window".into(),
+            ));
         }
         if !sh.i.is_finite() {
             // No nucleation anywhere: J = 0; only pre-existing nuclei can crystallise.
@@ -1141,7 +1245,7 @@ impl Quadrature {
             return Ok(CoolingIntegrals {
                 ln_j: f64::NEG_INFINITY,
                 ln_g_total: sh.u + g.ln(),
-                nose_guess: (a, f64::NEG_INFINITY, 0.5 * (b - a)),
+                nose_guess: (0.5 * (a + b), f64::NEG_INFINITY, b - a),
                 evaluations,
             });
         }
@@ -1170,7 +1274,7 @@ impl Quadrature {
                 g_end.push(g_start);
             }
             let total: f64 = share.iter().sum();
-            if !(total > 0.0) || !total.is_finite() {
+            if total.is_nan() || total <= 0.0 || total.is_infinite() {
                 return Err(KineticsError::Numerical(format!(
                     "continuous-cooling integral is {total} on {} panels",
                     panels.len()
@@ -1181,7 +1285,10 @@ impl Quadrature {
             let top = share.iter().rposition(|&s| s > floor).unwrap_or(0);
             let g_floor = q.negligible_share * g_end[top];
             let split_at = q.log_range_split;
-            let mut split = vec![false; panels.len()];
+            // How many pieces each panel is cut into (1 = kept): enough that the
+            // measured log range per piece falls to the threshold, at most 8.
+            let f_peak = f.iter().flat_map(|v| v.iter().copied()).fold(0.0, f64::max);
+            let mut split = vec![1usize; panels.len()];
             let mut any = false;
             for (k, p) in panels.iter().enumerate() {
                 if p.hi - p.lo < min_width {
@@ -1191,12 +1298,23 @@ impl Quadrature {
                 // weight by its largest node value times its width, not by its estimate.
                 let (mn, mx) = f[k]
                     .iter()
-                    .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| (a.min(x), b.max(x)));
-                let weighty = (p.hi - p.lo) * mx > floor && (!(mn > 0.0) || (mx / mn).ln() > split_at);
+                    .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+                        (a.min(x), b.max(x))
+                    });
+                // Node values far below the global peak need no resolving.
+                let f_range = (mx / mn.max(f_peak * NEGLIGIBLE_NODE)).ln().max(0.0);
+                let weighty = (p.hi - p.lo) * mx > floor && f_range > split_at;
                 let g_here = 0.5 * (p.hi - p.lo) * p.g_tot;
                 let feeds = k <= top && g_here > g_floor && p.ln_u_range > q.growth_log_range_split;
+                let mut pieces: f64 = 1.0;
+                if weighty {
+                    pieces = pieces.max(f_range / split_at);
+                }
+                if feeds {
+                    pieces = pieces.max(p.ln_u_range / q.growth_log_range_split);
+                }
                 if weighty || feeds {
-                    split[k] = true;
+                    split[k] = (pieces.ceil() as usize).clamp(2, 8);
                     any = true;
                 }
             }
@@ -1206,15 +1324,15 @@ impl Quadrature {
                 let ln_pi_3 = (PI / 3.0).ln();
                 for p in &panels {
                     let ts = rule.nodes_on(p.lo, p.hi);
-                    for i in 0..NODES {
-                        let ln_u3 = 3.0 * p.ln_u[i];
+                    for ((&t, &ln_i), &ln_u) in ts.iter().zip(&p.ln_i).zip(&p.ln_u) {
+                        let ln_u3 = 3.0 * ln_u;
                         let v = if ln_u3 == f64::NEG_INFINITY {
                             f64::NEG_INFINITY
                         } else {
-                            -solve_quartic_cubic(ln_pi_3 + p.ln_i[i] + ln_u3, ttt.0 + ln_u3, ttt.1)
+                            -solve_quartic_cubic(ln_pi_3 + ln_i + ln_u3, ttt.0 + ln_u3, ttt.1)
                         };
                         if v > nose.1 {
-                            nose = (ts[i], v, 0.5 * (p.hi - p.lo));
+                            nose = (t, v, 0.5 * (p.hi - p.lo));
                         }
                     }
                 }
@@ -1227,36 +1345,38 @@ impl Quadrature {
             }
             let mut next = Vec::with_capacity(panels.len() * 2);
             let mut rebase = false;
-            for (p, s) in panels.into_iter().zip(&split) {
-                if *s {
-                    let mid = 0.5 * (p.lo + p.hi);
-                    for (lo, hi) in [(p.lo, mid), (mid, p.hi)] {
+            for (p, &pieces) in panels.into_iter().zip(&split) {
+                if pieces > 1 {
+                    let w = (p.hi - p.lo) / pieces as f64;
+                    for j in 0..pieces {
+                        let lo = p.lo + w * j as f64;
+                        let hi = if j + 1 == pieces { p.hi } else { lo + w };
                         let mut c = Quadrature::panel(rates, rule, lo, hi, cooling);
-                        let (mi, mu) = (
-                            c.ln_i.iter().copied().fold(f64::NEG_INFINITY, f64::max),
-                            c.ln_u.iter().copied().fold(f64::NEG_INFINITY, f64::max),
-                        );
+                        let mi = c.ln_i.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+                        let mu = c.ln_u.iter().copied().fold(f64::NEG_INFINITY, f64::max);
                         if mi > sh.i + SHIFT_HEADROOM || mu > sh.u + SHIFT_HEADROOM {
                             rebase = true;
                         }
                         Quadrature::scale_panel(rule, &mut c, sh);
                         next.push(c);
                     }
-                    evaluations += 2 * NODES;
+                    evaluations += pieces * NODES;
                 } else {
                     next.push(p);
                 }
             }
             panels = next;
             if rebase {
-                sh = Shifts { i: max_of(&panels, |p| &p.ln_i), u: max_of(&panels, |p| &p.ln_u) };
+                sh = Shifts {
+                    i: max_of(&panels, |p| &p.ln_i),
+                    u: max_of(&panels, |p| &p.ln_u),
+                };
                 for p in panels.iter_mut() {
                     Quadrature::scale_panel(rule, p, sh);
                 }
             }
         }
     }
-
 }
 
 /// A slow, independent oracle for tests: trapezoid sums on a dense uniform
@@ -1284,7 +1404,9 @@ pub fn dense_reference_critical_rate(k: &Kinetics, points: usize) -> f64 {
     let m = ln_terms.iter().copied().fold(f64::NEG_INFINITY, f64::max);
     let ln_j = m + ln_terms.iter().map(|t| (t - m).exp()).sum::<f64>().ln();
     let xc = k.opts.detectable_fraction;
-    ((4.0 * PI / (3.0 * xc)).ln() + ln_j).mul_add(0.25, 0.0).exp()
+    ((4.0 * PI / (3.0 * xc)).ln() + ln_j)
+        .mul_add(0.25, 0.0)
+        .exp()
 }
 
 #[cfg(test)]
@@ -1305,12 +1427,39 @@ mod tests {
     }
 
     #[test]
+    fn myega_passes_through_tg_with_its_fragility() {
+        // Source: Mauro et al. (2009), PNAS 106, 19780, eq. for MYEGA: log η(T_g) = 12 and
+        // m = d log η / d(T_g/T) at T_g. Checked by central finite difference.
+        let c = ViscosityCurve::myega(-2.9, 820.0, 38.0).unwrap();
+        assert!((c.log10_viscosity(Kelvin(820.0)).0 - 12.0).abs() < 1e-12);
+        let tg = c.temperature_at(Log10PaS(12.0)).unwrap().0;
+        assert!((tg - 820.0).abs() < 1e-6, "{tg}");
+        let h = 1e-6;
+        let f = |u: f64| c.log10_viscosity(Kelvin(820.0 / u)).0;
+        let m = (f(1.0 + h) - f(1.0 - h)) / (2.0 * h);
+        assert!((m - 38.0).abs() < 1e-5, "{m}");
+    }
+
+    #[test]
+    fn vft_fragility_matches_a_finite_difference() {
+        // Source: shared/reference §1.7, m = B T_g/(T_g − C)² for VFT [DER, algebra].
+        let c = ViscosityCurve::vft(-2.8, 4500.0, 480.0).unwrap();
+        let tg = c.temperature_at(Log10PaS(12.0)).unwrap().0;
+        let h = 1e-6;
+        let f = |u: f64| c.log10_viscosity(Kelvin(tg / u)).0;
+        let m = (f(1.0 + h) - f(1.0 - h)) / (2.0 * h);
+        assert!((m - c.fragility().unwrap()).abs() < 1e-5);
+    }
+
+    #[test]
     fn quartic_cubic_solver() {
         // y⁴ + y³ = 2 has the root y = 1.
         let z = solve_quartic_cubic(0.0, 0.0, 2f64.ln());
         assert!(z.abs() < 1e-12);
         // Pure quartic.
-        assert!((solve_quartic_cubic(0.0, f64::NEG_INFINITY, 16f64.ln()) - 2f64.ln()).abs() < 1e-14);
+        assert!(
+            (solve_quartic_cubic(0.0, f64::NEG_INFINITY, 16f64.ln()) - 2f64.ln()).abs() < 1e-14
+        );
     }
 
     #[test]
@@ -1318,6 +1467,9 @@ mod tests {
         let k = Kinetics::new(&card_melt(), &KineticOptions::default()).unwrap();
         let fast = k.critical_rate().unwrap().0;
         let slow = dense_reference_critical_rate(&k, 400_000);
-        assert!(((fast - slow) / slow).abs() < crate::tolerances::ORACLE_RTOL, "{fast} vs {slow}");
+        assert!(
+            ((fast - slow) / slow).abs() < crate::tolerances::ORACLE_RTOL,
+            "{fast} vs {slow}"
+        );
     }
 }

@@ -93,8 +93,8 @@ impl MixtureModel {
     pub fn eval(&self, x: &[f64; N_OXIDES]) -> f64 {
         let s = self.basis.scale();
         let mut v = self.constant;
-        for i in 0..N_OXIDES {
-            v += self.linear[i] * x[i] * s;
+        for (a, xi) in self.linear.iter().zip(x) {
+            v += a * xi * s;
         }
         for &(i, j, a) in &self.pairs {
             v += a * x[i] * s * x[j] * s;
@@ -119,7 +119,10 @@ pub struct Domain {
 
 impl Default for Domain {
     fn default() -> Self {
-        Domain { min: [0.0; N_OXIDES], max: [100.0; N_OXIDES] }
+        Domain {
+            min: [0.0; N_OXIDES],
+            max: [100.0; N_OXIDES],
+        }
     }
 }
 
@@ -145,9 +148,17 @@ impl Domain {
 #[derive(Debug, Clone, PartialEq)]
 pub enum ViscosityForm {
     /// log10 η = A + B/(T − C) with A, B (K), C (K) mixture models.
-    Vft { a: MixtureModel, b_k: MixtureModel, c_k: MixtureModel },
+    Vft {
+        a: MixtureModel,
+        b_k: MixtureModel,
+        c_k: MixtureModel,
+    },
     /// MYEGA with log10 η∞, T_g (K) and fragility m as mixture models.
-    Myega { log_eta_inf: MixtureModel, tg_k: MixtureModel, fragility: MixtureModel },
+    Myega {
+        log_eta_inf: MixtureModel,
+        tg_k: MixtureModel,
+        fragility: MixtureModel,
+    },
 }
 
 /// A viscosity model with its provenance and validity domain.
@@ -242,11 +253,14 @@ impl ViscosityModel {
             .into_iter()
             .map(|v| format!("outside model validity of '{}': {v}", self.name))
             .collect();
-        let nonphysical = |what: String| ModelError::NonPhysicalViscosity { model: self.name.clone(), what };
+        let nonphysical = |what: String| ModelError::NonPhysicalViscosity {
+            model: self.name.clone(),
+            what,
+        };
         let curve = match &self.form {
             ViscosityForm::Vft { a, b_k, c_k } => {
                 let (a, b, cc) = (a.eval(x), b_k.eval(x), c_k.eval(x));
-                if !(b > 0.0) || !b.is_finite() || !a.is_finite() || !cc.is_finite() {
+                if b.is_nan() || b <= 0.0 || !b.is_finite() || !a.is_finite() || !cc.is_finite() {
                     return Err(nonphysical(format!("VFT B = {b:.1} K")));
                 }
                 if cc <= 0.0 {
@@ -257,12 +271,12 @@ impl ViscosityModel {
                 }
                 ViscosityCurve::vft(a, b, cc).map_err(|e| nonphysical(e.to_string()))?
             }
-            ViscosityForm::Myega { log_eta_inf, tg_k, fragility } => ViscosityCurve::myega(
-                log_eta_inf.eval(x),
-                tg_k.eval(x),
-                fragility.eval(x),
-            )
-            .map_err(|e| nonphysical(e.to_string()))?,
+            ViscosityForm::Myega {
+                log_eta_inf,
+                tg_k,
+                fragility,
+            } => ViscosityCurve::myega(log_eta_inf.eval(x), tg_k.eval(x), fragility.eval(x))
+                .map_err(|e| nonphysical(e.to_string()))?,
         };
         Ok((curve, flags))
     }
@@ -291,8 +305,11 @@ impl ModelSet {
         }
         let (primary, tl) = best;
         let phase = &self.phases[primary];
-        if !(tl > 0.0) || !tl.is_finite() {
-            return Err(ModelError::NonPhysicalLiquidus { phase: phase.name.clone(), value: tl });
+        if tl.is_nan() || tl <= 0.0 || !tl.is_finite() {
+            return Err(ModelError::NonPhysicalLiquidus {
+                phase: phase.name.clone(),
+                value: tl,
+            });
         }
         let liquidus_flags: Vec<String> = phase
             .domain
@@ -354,11 +371,15 @@ mod tests {
         let mut m = MixtureModel::constant(1.0);
         m.basis = FractionBasis::MolPercent;
         m.linear[Oxide::SiO2.index()] = 2.0;
-        m.pairs.push((Oxide::SiO2.index(), Oxide::Na2O.index(), 0.5));
+        m.pairs
+            .push((Oxide::SiO2.index(), Oxide::Na2O.index(), 0.5));
         let mut g = [0.0; N_OXIDES];
         g[Oxide::Na2O.index()] = 1.0;
         g[Oxide::K2O.index()] = 1.0;
-        m.products.push(ProductTerm { coefficient: -1.0, groups: vec![g] });
+        m.products.push(ProductTerm {
+            coefficient: -1.0,
+            groups: vec![g],
+        });
         let c = Composition::from_mol_percent(&[(Oxide::SiO2, 75.0), (Oxide::Na2O, 25.0)]).unwrap();
         // 1 + 2·75 + 0.5·75·25 − 25 = 1063.5, by hand.
         assert!((m.eval(c.fractions()) - 1063.5).abs() < 1e-9);

@@ -110,8 +110,18 @@ mod tests {
         // Source: Abramowitz & Stegun (1964), Table 25.4, n = 8 (15 digits printed
         // there; quoted here from memory of that table) → abs tol 1e-14.
         let r = rule();
-        let xs = [0.183434642495650, 0.525532409916329, 0.796666477413627, 0.960289856497536];
-        let ws = [0.362683783378362, 0.313706645877887, 0.222381034453374, 0.101228536290376];
+        let xs = [
+            0.183434642495650,
+            0.525532409916329,
+            0.796666477413627,
+            0.960289856497536,
+        ];
+        let ws = [
+            0.362683783378362,
+            0.313706645877887,
+            0.222381034453374,
+            0.101228536290376,
+        ];
         for k in 0..4 {
             assert!((r.x[4 + k] - xs[k]).abs() < 1e-14);
             assert!((r.x[3 - k] + xs[k]).abs() < 1e-14);
@@ -125,7 +135,11 @@ mod tests {
         let r = rule();
         for d in 0..16 {
             let q: f64 = r.x.iter().zip(&r.w).map(|(x, w)| w * x.powi(d)).sum();
-            let exact = if d % 2 == 0 { 2.0 / (d as f64 + 1.0) } else { 0.0 };
+            let exact = if d % 2 == 0 {
+                2.0 / (d as f64 + 1.0)
+            } else {
+                0.0
+            };
             assert!((q - exact).abs() < 1e-14, "degree {d}");
         }
     }

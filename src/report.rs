@@ -57,12 +57,20 @@ pub fn evaluation_text(e: &Evaluation) -> String {
     let mv = if e.viscosity_extrapolated { "  !V" } else { "" };
     let ml = if e.liquidus_extrapolated { "  !L" } else { "" };
     let mk = if e.viscosity_extrapolated || e.liquidus_extrapolated {
-        format!(" {}{}", if e.viscosity_extrapolated { "!V" } else { "" }, if e.liquidus_extrapolated { "!L" } else { "" })
+        format!(
+            " {}{}",
+            if e.viscosity_extrapolated { "!V" } else { "" },
+            if e.liquidus_extrapolated { "!L" } else { "" }
+        )
     } else {
         String::new()
     };
     let mk = mk.trim_end().to_string();
-    let mk = if mk.is_empty() { String::new() } else { format!(" {mk}") };
+    let mk = if mk.is_empty() {
+        String::new()
+    } else {
+        format!(" {mk}")
+    };
     if let Some(comp) = &e.composition_mol_pct {
         // In the program's oxide order, not alphabetical.
         let parts: Vec<String> = crate::composition::Oxide::ALL
@@ -71,7 +79,10 @@ pub fn evaluation_text(e: &Evaluation) -> String {
             .collect();
         let _ = writeln!(o, "composition   {} (mol%)", parts.join(" · "));
     } else {
-        let _ = writeln!(o, "melt card     (viscosity and crystal data given directly)");
+        let _ = writeln!(
+            o,
+            "melt card     (viscosity and crystal data given directly)"
+        );
     }
     if let Some(m) = &e.model_set {
         let _ = writeln!(o, "model set     {m}");
@@ -87,7 +98,10 @@ pub fn evaluation_text(e: &Evaluation) -> String {
         format!(
             "{}{}",
             t(e.liquidus_k),
-            e.primary_phase.as_ref().map(|p| format!("   primary phase: {p}")).unwrap_or_default()
+            e.primary_phase
+                .as_ref()
+                .map(|p| format!("   primary phase: {p}"))
+                .unwrap_or_default()
         ),
         ml,
     );
@@ -101,14 +115,28 @@ pub fn evaluation_text(e: &Evaluation) -> String {
     if let Some(v) = e.softening_point_k {
         row(&mut o, "softening point (10^6.6 Pa·s)", t(v), mv);
     }
-    row(&mut o, "glass transition T_g (10^12 Pa·s)", t(e.glass_transition_k), mv);
+    row(
+        &mut o,
+        "glass transition T_g (10^12 Pa·s)",
+        t(e.glass_transition_k),
+        mv,
+    );
     if let Some(v) = e.strain_point_k {
         row(&mut o, "strain point (10^13.5 Pa·s)", t(v), mv);
     }
     row(&mut o, "fragility m", format!("{:>7.1}", e.fragility), mv);
     if let Some(r) = e.reduced_glass_transition {
-        let verdict = if r >= 2.0 / 3.0 { "≥ 2/3: easy glass former (Turnbull)" } else { "< 2/3" };
-        row(&mut o, "reduced glass transition T_g/T_L", format!("{r:>7.3}   {verdict}"), &mk);
+        let verdict = if r >= 2.0 / 3.0 {
+            "≥ 2/3: easy glass former (Turnbull)"
+        } else {
+            "< 2/3"
+        };
+        row(
+            &mut o,
+            "reduced glass transition T_g/T_L",
+            format!("{r:>7.3}   {verdict}"),
+            &mk,
+        );
     }
     let _ = writeln!(
         o,
@@ -119,7 +147,10 @@ pub fn evaluation_text(e: &Evaluation) -> String {
             crate::kinetics::DrivingForce::Hoffman => "Hoffman",
         },
         if e.heterogeneous_nuclei_per_m3 > 0.0 {
-            format!(", {} pre-existing nuclei/m³", sig(e.heterogeneous_nuclei_per_m3))
+            format!(
+                ", {} pre-existing nuclei/m³",
+                sig(e.heterogeneous_nuclei_per_m3)
+            )
         } else {
             String::new()
         }
@@ -127,19 +158,31 @@ pub fn evaluation_text(e: &Evaluation) -> String {
     row(
         &mut o,
         "TTT nose",
-        format!("{}   after {}", t(e.nose_temperature_k), duration(e.nose_time_s)),
+        format!(
+            "{}   after {}",
+            t(e.nose_temperature_k),
+            duration(e.nose_time_s)
+        ),
         &mk,
     );
     row(
         &mut o,
         "nose-method rate (T_L − T_n)/t_n",
-        format!("{} K/s   {} K/min", sig(e.nose_rate_k_per_s), sig(e.nose_rate_k_per_min)),
+        format!(
+            "{} K/s   {} K/min",
+            sig(e.nose_rate_k_per_s),
+            sig(e.nose_rate_k_per_min)
+        ),
         &mk,
     );
     row(
         &mut o,
         "critical cooling rate R_c",
-        format!("{} K/s   {} K/min", sig(e.critical_rate_k_per_s), sig(e.critical_rate_k_per_min)),
+        format!(
+            "{} K/s   {} K/min",
+            sig(e.critical_rate_k_per_s),
+            sig(e.critical_rate_k_per_min)
+        ),
         &mk,
     );
     if let Some(mm) = e.max_glassy_thickness_mm {
@@ -175,7 +218,10 @@ pub fn evaluation_text(e: &Evaluation) -> String {
             let _ = writeln!(o, "  - {w}");
         }
         if e.viscosity_extrapolated || e.liquidus_extrapolated {
-            let _ = writeln!(o, "  (!V: uses an extrapolated viscosity; !L: uses an extrapolated liquidus)");
+            let _ = writeln!(
+                o,
+                "  (!V: uses an extrapolated viscosity; !L: uses an extrapolated liquidus)"
+            );
         }
     }
     let _ = writeln!(o, "\n{CAUTION}");

@@ -17,12 +17,19 @@ pub enum TableError {
     #[error("{path}: {message}")]
     Read { path: String, message: String },
     #[error("{path}: missing column '{column}'\nhint: the columns found are: {found}")]
-    MissingColumn { path: String, column: String, found: String },
+    MissingColumn {
+        path: String,
+        column: String,
+        found: String,
+    },
     #[error("{path}: {message}")]
     Write { path: String, message: String },
     #[error("{path}: unsupported extension; use .csv or .parquet")]
     Extension { path: String },
 }
+
+/// Per-row outcomes: an evaluation, or the reason the row failed.
+pub type RowResults = Vec<Result<Evaluation, String>>;
 
 /// Progress reports from a table run.
 pub trait Progress: Sync {
@@ -41,7 +48,11 @@ enum Kind {
 }
 
 fn kind(path: &Path) -> Option<Kind> {
-    match path.extension().and_then(|e| e.to_str()).map(|e| e.to_ascii_lowercase()) {
+    match path
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(|e| e.to_ascii_lowercase())
+    {
         Some(e) if e == "csv" => Some(Kind::Csv),
         Some(e) if e == "parquet" || e == "pq" => Some(Kind::Parquet),
         _ => None,
@@ -54,7 +65,10 @@ fn kind(path: &Path) -> Option<Kind> {
 /// An unknown extension, an unreadable or malformed file.
 pub fn read_frame(path: &Path) -> Result<DataFrame, TableError> {
     let p = path.display().to_string();
-    let err = |e: PolarsError| TableError::Read { path: p.clone(), message: e.to_string() };
+    let err = |e: PolarsError| TableError::Read {
+        path: p.clone(),
+        message: e.to_string(),
+    };
     match kind(path) {
         Some(Kind::Csv) => CsvReadOptions::default()
             .with_has_header(true)
@@ -63,7 +77,10 @@ pub fn read_frame(path: &Path) -> Result<DataFrame, TableError> {
             .and_then(|r| r.finish())
             .map_err(err),
         Some(Kind::Parquet) => {
-            let f = std::fs::File::open(path).map_err(|e| TableError::Read { path: p.clone(), message: e.to_string() })?;
+            let f = std::fs::File::open(path).map_err(|e| TableError::Read {
+                path: p.clone(),
+                message: e.to_string(),
+            })?;
             ParquetReader::new(f).finish().map_err(err)
         }
         None => Err(TableError::Extension { path: p }),
@@ -81,13 +98,20 @@ pub fn write_frame(path: &Path, df: &mut DataFrame) -> Result<(), TableError> {
         "{}.partial",
         path.extension().and_then(|e| e.to_str()).unwrap_or("out")
     ));
-    let werr = |m: String| TableError::Write { path: p.clone(), message: m };
+    let werr = |m: String| TableError::Write {
+        path: p.clone(),
+        message: m,
+    };
     {
         let mut f = std::fs::File::create(&tmp).map_err(|e| werr(e.to_string()))?;
         match k {
-            Kind::Csv => CsvWriter::new(&mut f).finish(df).map_err(|e| werr(e.to_string()))?,
+            Kind::Csv => CsvWriter::new(&mut f)
+                .finish(df)
+                .map_err(|e| werr(e.to_string()))?,
             Kind::Parquet => {
-                ParquetWriter::new(&mut f).finish(df).map_err(|e| werr(e.to_string()))?;
+                ParquetWriter::new(&mut f)
+                    .finish(df)
+                    .map_err(|e| werr(e.to_string()))?;
             }
         }
         f.sync_all().map_err(|e| werr(e.to_string()))?;
@@ -113,7 +137,12 @@ fn require(df: &DataFrame, path: &Path, name: &str) -> Result<Vec<Option<f64>>, 
     float_column(df, name).ok_or_else(|| TableError::MissingColumn {
         path: path.display().to_string(),
         column: name.to_string(),
-        found: df.get_column_names().iter().map(|s| s.as_str()).collect::<Vec<_>>().join(", "),
+        found: df
+            .get_column_names()
+            .iter()
+            .map(|s| s.as_str())
+            .collect::<Vec<_>>()
+            .join(", "),
     })
 }
 
@@ -126,7 +155,7 @@ pub fn evaluate_melt_table(
     base: &KineticOptions,
     slab: Option<SlabQuench>,
     progress: &dyn Progress,
-) -> Result<(DataFrame, Vec<Result<Evaluation, String>>), TableError> {
+) -> Result<(DataFrame, RowResults), TableError> {
     let df = read_frame(path)?;
     let n = df.height();
     let a = require(&df, path, "a")?;
@@ -141,13 +170,23 @@ pub fn evaluate_melt_table(
         return Err(TableError::MissingColumn {
             path: path.display().to_string(),
             column: "turnbull_alpha (or interface_energy_j_per_m2)".into(),
-            found: df.get_column_names().iter().map(|s| s.as_str()).collect::<Vec<_>>().join(", "),
+            found: df
+                .get_column_names()
+                .iter()
+                .map(|s| s.as_str())
+                .collect::<Vec<_>>()
+                .join(", "),
         });
     }
     let growth = string_column(&df, "growth").ok_or_else(|| TableError::MissingColumn {
         path: path.display().to_string(),
         column: "growth".into(),
-        found: df.get_column_names().iter().map(|s| s.as_str()).collect::<Vec<_>>().join(", "),
+        found: df
+            .get_column_names()
+            .iter()
+            .map(|s| s.as_str())
+            .collect::<Vec<_>>()
+            .join(", "),
     })?;
     let xc = float_column(&df, "detectable_fraction");
     let df_kind = string_column(&df, "driving_force");
@@ -158,17 +197,33 @@ pub fn evaluate_melt_table(
         .into_par_iter()
         .map(|i| {
             let r = (|| -> Result<Evaluation, String> {
-                let need = |v: &Vec<Option<f64>>, name: &str| v[i].ok_or_else(|| format!("{name} is empty"));
+                let need = |v: &Vec<Option<f64>>, name: &str| {
+                    v[i].ok_or_else(|| format!("{name} is empty"))
+                };
                 let growth = match growth[i].as_deref().map(str::trim) {
                     Some("normal") => GrowthMode::Normal,
                     Some("screw") => GrowthMode::Screw,
-                    other => return Err(format!("growth must be \"normal\" or \"screw\", got {:?}", other.unwrap_or(""))),
+                    other => {
+                        return Err(format!(
+                            "growth must be \"normal\" or \"screw\", got {:?}",
+                            other.unwrap_or("")
+                        ))
+                    }
                 };
-                let driving_force = match df_kind.as_ref().and_then(|v| v[i].clone()).as_deref().map(str::trim) {
+                let driving_force = match df_kind
+                    .as_ref()
+                    .and_then(|v| v[i].clone())
+                    .as_deref()
+                    .map(str::trim)
+                {
                     None | Some("") => None,
                     Some("turnbull") => Some(DrivingForce::Turnbull),
                     Some("hoffman") => Some(DrivingForce::Hoffman),
-                    Some(o) => return Err(format!("driving_force must be \"turnbull\" or \"hoffman\", got \"{o}\"")),
+                    Some(o) => {
+                        return Err(format!(
+                            "driving_force must be \"turnbull\" or \"hoffman\", got \"{o}\""
+                        ))
+                    }
                 };
                 let values = MeltValues {
                     a: need(&a, "a")?,
@@ -186,7 +241,8 @@ pub fn evaluate_melt_table(
                     contact_angle_deg: pick(&theta, i),
                 };
                 let (melt, opts) = values.build(base).map_err(|e| first_line(&e.to_string()))?;
-                evaluate_melt(&melt, &opts, slab, &Calibration::None).map_err(|e| first_line(&e.to_string()))
+                evaluate_melt(&melt, &opts, slab, &Calibration::None)
+                    .map_err(|e| first_line(&e.to_string()))
             })();
             progress.row_done();
             r
@@ -213,7 +269,7 @@ pub fn evaluate_composition_table(
     opts: &KineticOptions,
     slab: Option<SlabQuench>,
     progress: &dyn Progress,
-) -> Result<(DataFrame, Vec<Result<Evaluation, String>>, Vec<String>), TableError> {
+) -> Result<(DataFrame, RowResults, Vec<String>), TableError> {
     let df = read_frame(path)?;
     let mut oxide_cols = Vec::new();
     let mut other = Vec::new();
@@ -227,17 +283,25 @@ pub fn evaluate_composition_table(
         return Err(TableError::MissingColumn {
             path: path.display().to_string(),
             column: "<oxide>".into(),
-            found: format!("{}\nhint: name one column per oxide, e.g. SiO2, Na2O; known oxides are {}", other.join(", "), Oxide::known_list()),
+            found: format!(
+                "{}\nhint: name one column per oxide, e.g. SiO2, Na2O; known oxides are {}",
+                other.join(", "),
+                Oxide::known_list()
+            ),
         });
     }
     let results = (0..df.height())
         .into_par_iter()
         .map(|i| {
             let r = (|| -> Result<Evaluation, String> {
-                let pairs: Vec<(Oxide, f64)> =
-                    oxide_cols.iter().map(|(o, v)| (*o, v.get(i).copied().flatten().unwrap_or(0.0))).collect();
-                let comp = Composition::new(&pairs, basis, tolerance).map_err(|e| first_line(&e.to_string()))?;
-                evaluate_composition(models, &comp, opts, slab, &Calibration::None).map_err(|e| first_line(&e.to_string()))
+                let pairs: Vec<(Oxide, f64)> = oxide_cols
+                    .iter()
+                    .map(|(o, v)| (*o, v.get(i).copied().flatten().unwrap_or(0.0)))
+                    .collect();
+                let comp = Composition::new(&pairs, basis, tolerance)
+                    .map_err(|e| first_line(&e.to_string()))?;
+                evaluate_composition(models, &comp, opts, slab, &Calibration::None)
+                    .map_err(|e| first_line(&e.to_string()))
             })();
             progress.row_done();
             r
@@ -250,7 +314,10 @@ pub fn evaluate_composition_table(
 ///
 /// # Errors
 /// Polars refuses the columns (a name clash is avoided by suffixing `_out`).
-pub fn append_results(mut df: DataFrame, results: &[Result<Evaluation, String>]) -> PolarsResult<DataFrame> {
+pub fn append_results(
+    mut df: DataFrame,
+    results: &[Result<Evaluation, String>],
+) -> PolarsResult<DataFrame> {
     let rows: Vec<Option<serde_json::Map<String, serde_json::Value>>> = results
         .iter()
         .map(|r| match r {
@@ -269,16 +336,37 @@ pub fn append_results(mut df: DataFrame, results: &[Result<Evaluation, String>])
             }
         }
     }
-    let existing: Vec<String> = df.get_column_names().iter().map(|s| s.to_string()).collect();
+    let existing: Vec<String> = df
+        .get_column_names()
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
     for k in keys {
-        let name = if existing.contains(&k) { format!("{k}_out") } else { k.clone() };
-        let vals: Vec<Option<&serde_json::Value>> = rows.iter().map(|m| m.as_ref().and_then(|m| m.get(&k))).collect();
+        let name = if existing.contains(&k) {
+            format!("{k}_out")
+        } else {
+            k.clone()
+        };
+        let vals: Vec<Option<&serde_json::Value>> = rows
+            .iter()
+            .map(|m| m.as_ref().and_then(|m| m.get(&k)))
+            .collect();
         let is_num = vals.iter().flatten().all(|v| v.is_number());
         let is_bool = vals.iter().flatten().all(|v| v.is_boolean());
         let col = if is_num {
-            Column::new(name.into(), vals.iter().map(|v| v.and_then(|v| v.as_f64())).collect::<Vec<_>>())
+            Column::new(
+                name.into(),
+                vals.iter()
+                    .map(|v| v.and_then(|v| v.as_f64()))
+                    .collect::<Vec<_>>(),
+            )
         } else if is_bool {
-            Column::new(name.into(), vals.iter().map(|v| v.and_then(|v| v.as_bool())).collect::<Vec<_>>())
+            Column::new(
+                name.into(),
+                vals.iter()
+                    .map(|v| v.and_then(|v| v.as_bool()))
+                    .collect::<Vec<_>>(),
+            )
         } else {
             Column::new(
                 name.into(),
@@ -288,7 +376,11 @@ pub fn append_results(mut df: DataFrame, results: &[Result<Evaluation, String>])
                             serde_json::Value::String(s) => s.clone(),
                             serde_json::Value::Array(a) => a
                                 .iter()
-                                .map(|x| x.as_str().map(str::to_string).unwrap_or_else(|| x.to_string()))
+                                .map(|x| {
+                                    x.as_str()
+                                        .map(str::to_string)
+                                        .unwrap_or_else(|| x.to_string())
+                                })
                                 .collect::<Vec<_>>()
                                 .join("; "),
                             other => other.to_string(),

@@ -20,23 +20,31 @@ fn unknown_oxide_lists_the_known_ones() {
 #[test]
 fn composition_that_does_not_sum() {
     let d = temp_dir("err-sum");
-    run_in(&d, &["eval", "--mol", "SiO2=50 Na2O=10"]).code(2).stderr_has("sum to 60.000 mol%");
+    run_in(&d, &["eval", "--mol", "SiO2=50 Na2O=10"])
+        .code(2)
+        .stderr_has("sum to 60.000 mol%");
 }
 
 #[test]
 fn negative_amount() {
     let d = temp_dir("err-neg");
-    run_in(&d, &["eval", "--mol", "SiO2=110 Na2O=-10"]).code(2).stderr_has("must not be negative");
+    run_in(&d, &["eval", "--mol", "SiO2=110 Na2O=-10"])
+        .code(2)
+        .stderr_has("must not be negative");
 }
 
 #[test]
 fn missing_key_in_a_card() {
-    eval_card("card-missing-key.toml").code(2).stderr_has("card-missing-key.toml:2: missing field `b_k`");
+    eval_card("card-missing-key.toml")
+        .code(2)
+        .stderr_has("card-missing-key.toml:2: missing field `b_k`");
 }
 
 #[test]
 fn mistyped_key_in_a_card() {
-    eval_card("card-mistyped-key.toml").code(2).stderr_has("card-mistyped-key.toml:9: unknown field `enthalpy_of_fusion`");
+    eval_card("card-mistyped-key.toml")
+        .code(2)
+        .stderr_has("card-mistyped-key.toml:9: unknown field `enthalpy_of_fusion`");
 }
 
 #[test]
@@ -48,7 +56,9 @@ fn negative_enthalpy_in_a_card() {
 
 #[test]
 fn unknown_growth_mode() {
-    eval_card("card-bad-growth.toml").code(2).stderr_has("card-bad-growth.toml:12: unknown variant `spiral`");
+    eval_card("card-bad-growth.toml")
+        .code(2)
+        .stderr_has("card-bad-growth.toml:12: unknown variant `spiral`");
 }
 
 #[test]
@@ -70,31 +80,53 @@ fn nose_below_the_glass_transition() {
 fn model_file_reports_all_its_defects_at_once() {
     let d = temp_dir("err-models");
     let f = fixture("models-two-defects.toml");
-    run_in(&d, &["eval", "--mol", "SiO2=72 Na2O=14 CaO=10 Al2O3=4", "--models", f.to_str().unwrap()])
-        .code(2)
-        .stderr_has("models-two-defects.toml:39: unknown oxide 'Sio3'")
-        .stderr_has("models-two-defects.toml:122: enthalpy_of_fusion_j_per_mol must be positive");
+    run_in(
+        &d,
+        &[
+            "eval",
+            "--mol",
+            "SiO2=72 Na2O=14 CaO=10 Al2O3=4",
+            "--models",
+            f.to_str().unwrap(),
+        ],
+    )
+    .code(2)
+    .stderr_has("models-two-defects.toml:39: unknown oxide 'Sio3'")
+    .stderr_has("models-two-defects.toml:122: enthalpy_of_fusion_j_per_mol must be positive");
 }
 
 #[test]
 fn recipe_with_a_bad_basis() {
     let d = temp_dir("err-recipe");
-    run_in(&d, &["eval", "--recipe", fixture("recipe-bad-basis.toml").to_str().unwrap()])
-        .code(2)
-        .stderr_has("recipe-bad-basis.toml:2: basis must be \"mol%\" or \"wt%\", got \"ppm\"");
+    run_in(
+        &d,
+        &[
+            "eval",
+            "--recipe",
+            fixture("recipe-bad-basis.toml").to_str().unwrap(),
+        ],
+    )
+    .code(2)
+    .stderr_has("recipe-bad-basis.toml:2: basis must be \"mol%\" or \"wt%\", got \"ppm\"");
 }
 
 #[test]
 fn missing_file_and_missing_input() {
     let d = temp_dir("err-missing");
-    run_in(&d, &["eval", "--melt", "nope.toml"]).code(2).stderr_has("nope.toml: cannot read the file");
+    run_in(&d, &["eval", "--melt", "nope.toml"])
+        .code(2)
+        .stderr_has("nope.toml: cannot read the file");
     run_in(&d, &["eval"]).code(2);
-    run_in(&d, &["eval", "--melts", "x.csv"]).code(2).stderr_has("--out");
+    run_in(&d, &["eval", "--melts", "x.csv"])
+        .code(2)
+        .stderr_has("--out");
 }
 
 #[test]
 fn table_without_required_columns() {
     let d = temp_dir("err-table");
     std::fs::write(d.join("m.csv"), "a,b_k\n1,2\n").unwrap();
-    run_in(&d, &["eval", "--melts", "m.csv", "--out", "o.csv"]).code(2).stderr_has("missing column 'c_k'");
+    run_in(&d, &["eval", "--melts", "m.csv", "--out", "o.csv"])
+        .code(2)
+        .stderr_has("missing column 'c_k'");
 }

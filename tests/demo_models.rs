@@ -34,7 +34,14 @@ fn published_glasses() -> Vec<(&'static str, &'static str, f64, f64, f64, f64)> 
             291.0,
             1040.0,
         ),
-        ("float", "SiO2=73 Na2O=14 CaO=9 MgO=4 Al2O3=0.15 K2O=0.03 TiO2=0.02 Fe2O3=0.1", -2.585, 4215.0, 263.0, 1000.0),
+        (
+            "float",
+            "SiO2=73 Na2O=14 CaO=9 MgO=4 Al2O3=0.15 K2O=0.03 TiO2=0.02 Fe2O3=0.1",
+            -2.585,
+            4215.0,
+            263.0,
+            1000.0,
+        ),
     ]
 }
 
@@ -46,7 +53,11 @@ fn viscosity_fixpoints_match_the_published_container_and_float_glasses() {
     for (name, wt, a, b, t0, _) in published_glasses() {
         let c = Composition::parse(wt, Basis::WtPercent, 2.0).unwrap();
         let p = m.properties(&c).unwrap();
-        assert!(p.viscosity_flags.is_empty(), "{name}: {:?}", p.viscosity_flags);
+        assert!(
+            p.viscosity_flags.is_empty(),
+            "{name}: {:?}",
+            p.viscosity_flags
+        );
         for (label, level, got) in [
             ("10 Pa s", fixpoints::MELTING, p.melting_temperature.0),
             ("working", fixpoints::WORKING, p.working_point.0),
@@ -54,7 +65,10 @@ fn viscosity_fixpoints_match_the_published_container_and_float_glasses() {
             ("T_g", fixpoints::GLASS_TRANSITION, p.glass_transition.0),
         ] {
             let want = published(a, b, t0, level);
-            assert!((got - want).abs() < 8.0, "{name} {label}: {got:.1} K vs published {want:.1} K");
+            assert!(
+                (got - want).abs() < 8.0,
+                "{name} {label}: {got:.1} K vs published {want:.1} K"
+            );
         }
     }
 }
@@ -79,8 +93,13 @@ fn ordinary_soda_lime_vitrifies_when_poured_and_air_cooled() {
     let m = demo();
     for (name, wt, ..) in published_glasses() {
         let c = Composition::parse(wt, Basis::WtPercent, 2.0).unwrap();
-        let e = evaluate_composition(&m, &c, &KineticOptions::default(), None, &Calibration::None).unwrap();
-        assert!(e.critical_rate_k_per_s < 1.0, "{name}: R_c = {}", e.critical_rate_k_per_s);
+        let e = evaluate_composition(&m, &c, &KineticOptions::default(), None, &Calibration::None)
+            .unwrap();
+        assert!(
+            e.critical_rate_k_per_s < 1.0,
+            "{name}: R_c = {}",
+            e.critical_rate_k_per_s
+        );
         assert!(e.nose_temperature_k > e.glass_transition_k);
     }
 }
@@ -96,7 +115,8 @@ fn critical_rate_rises_by_decades_where_the_liquidus_climbs() {
     for cao in [10.0, 12.0, 14.0, 16.0, 17.0] {
         let text = format!("SiO2={} Na2O=12 CaO={cao} Al2O3=2", 86.0 - cao);
         let c = Composition::parse(&text, Basis::MolPercent, 0.0).unwrap();
-        let e = evaluate_composition(&m, &c, &KineticOptions::default(), None, &Calibration::None).unwrap();
+        let e = evaluate_composition(&m, &c, &KineticOptions::default(), None, &Calibration::None)
+            .unwrap();
         assert!(e.critical_rate_k_per_s > last, "{text}");
         last = e.critical_rate_k_per_s;
         first.get_or_insert(last);
@@ -108,7 +128,10 @@ fn critical_rate_rises_by_decades_where_the_liquidus_climbs() {
 #[test]
 fn every_phase_surface_and_alpha_is_marked_invented_in_the_file() {
     assert!(demo().about.invented);
-    for line in DEMO_MODELS.lines().filter(|l| l.trim_start().starts_with("turnbull_alpha")) {
+    for line in DEMO_MODELS
+        .lines()
+        .filter(|l| l.trim_start().starts_with("turnbull_alpha"))
+    {
         assert!(line.contains("INVENTED"), "{line}");
     }
     assert!(rel(1.0, 1.0) == 0.0);

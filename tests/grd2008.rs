@@ -12,9 +12,30 @@ use quenchwise::units::{Kelvin, Log10PaS};
 const CASES: [(&str, f64, f64, f64, f64, f64); 5] = [
     ("SiO2=100", 15956.00, 275.00, 1239.1, 21.3, 8.767),
     ("CaO=25 MgO=25 SiO2=50", 5858.25, 600.50, 954.5, 44.6, 2.163),
-    ("CaO=25 Al2O3=25 SiO2=50", 2670.00, 785.50, 946.8, 97.1, -0.667),
-    ("Na2O=12.5 Al2O3=12.5 SiO2=75", 10507.06, 296.00, 930.9, 24.3, 4.376),
-    ("Na2O=16 CaO=10 SiO2=74", 8994.92, 156.86, 700.4, 21.3, 2.284),
+    (
+        "CaO=25 Al2O3=25 SiO2=50",
+        2670.00,
+        785.50,
+        946.8,
+        97.1,
+        -0.667,
+    ),
+    (
+        "Na2O=12.5 Al2O3=12.5 SiO2=75",
+        10507.06,
+        296.00,
+        930.9,
+        24.3,
+        4.376,
+    ),
+    (
+        "Na2O=16 CaO=10 SiO2=74",
+        8994.92,
+        156.86,
+        700.4,
+        21.3,
+        2.284,
+    ),
 ];
 
 #[test]
@@ -23,7 +44,9 @@ fn regression_values_of_the_published_equations() {
     for (text, b, c, tg, m, log_eta) in CASES {
         let comp = Composition::parse(text, Basis::MolPercent, 0.0).unwrap();
         let (curve, _) = model.curve(&comp).unwrap();
-        let ViscosityCurve::Vft { a, b_k, c_k } = curve else { panic!("GRD is VFT") };
+        let ViscosityCurve::Vft { a, b_k, c_k } = curve else {
+            panic!("GRD is VFT")
+        };
         // Source: shared/reference §7 item 5, A = −4.55 [TRX].
         assert_eq!(a, -4.55);
         assert!((b_k - b).abs() < 0.006, "{text}: B {b_k} vs {b}");
@@ -32,7 +55,10 @@ fn regression_values_of_the_published_equations() {
         assert!((t - tg).abs() < 0.051, "{text}: T_g {t} vs {tg}");
         assert!((curve.fragility().unwrap() - m).abs() < 0.051, "{text}: m");
         let l = curve.log10_viscosity(Kelvin(1473.15)).0;
-        assert!((l - log_eta).abs() < 0.0006, "{text}: log η {l} vs {log_eta}");
+        assert!(
+            (l - log_eta).abs() < 0.0006,
+            "{text}: log η {l} vs {log_eta}"
+        );
     }
 }
 
@@ -43,9 +69,16 @@ fn soda_rich_melts_are_flagged_outside_model_validity() {
     let model = parse_viscosity_model(&Source::new("grd", GRD2008_VISCOSITY)).unwrap();
     let ns2 = Composition::parse("Na2O=33.333 SiO2=66.667", Basis::MolPercent, 0.01).unwrap();
     let (curve, flags) = model.curve(&ns2).unwrap();
-    let ViscosityCurve::Vft { c_k, .. } = curve else { panic!() };
+    let ViscosityCurve::Vft { c_k, .. } = curve else {
+        panic!()
+    };
     assert!(c_k < 0.0, "{c_k}");
-    assert!(flags.iter().any(|f| f.contains("outside model validity") && f.contains("C =")), "{flags:?}");
+    assert!(
+        flags
+            .iter()
+            .any(|f| f.contains("outside model validity") && f.contains("C =")),
+        "{flags:?}"
+    );
     assert!(flags.iter().any(|f| f.contains("Na2O")), "{flags:?}");
     // A natural-melt composition inside the range is not flagged.
     let diopside = Composition::parse("CaO=25 MgO=25 SiO2=50", Basis::MolPercent, 0.0).unwrap();

@@ -3,8 +3,8 @@
 
 use crate::util::rel;
 use quenchwise::kinetics::{
-    dense_reference_critical_rate, extended_fraction_constant_rate, DrivingForce, GrowthMode, Interface,
-    KineticOptions, Kinetics, Melt, QuadratureSettings, Rates, ViscosityCurve,
+    dense_reference_critical_rate, extended_fraction_constant_rate, DrivingForce, GrowthMode,
+    Interface, KineticOptions, Kinetics, Melt, QuadratureSettings, Rates, ViscosityCurve,
 };
 use quenchwise::tolerances::{CRITICAL_RATE_RTOL, ORACLE_RTOL};
 use quenchwise::units::{Kelvin, KelvinPerSecond};
@@ -33,7 +33,10 @@ fn screw_hoffman() -> (Melt, KineticOptions) {
         GrowthMode::Screw,
     )
     .unwrap();
-    let o = KineticOptions { driving_force: DrivingForce::Hoffman, ..KineticOptions::default() };
+    let o = KineticOptions {
+        driving_force: DrivingForce::Hoffman,
+        ..KineticOptions::default()
+    };
     (m, o)
 }
 
@@ -47,7 +50,10 @@ fn with_nuclei() -> (Melt, KineticOptions) {
         GrowthMode::Normal,
     )
     .unwrap();
-    let o = KineticOptions { heterogeneous_nuclei_per_m3: 1e9, ..KineticOptions::default() };
+    let o = KineticOptions {
+        heterogeneous_nuclei_per_m3: 1e9,
+        ..KineticOptions::default()
+    };
     (m, o)
 }
 
@@ -58,16 +64,49 @@ fn agrees_with_an_independent_scipy_implementation() {
     // minimize_scalar), run 2026-12-02. Its grid error is far below 1e-5, so the
     // 0.1 % accuracy target of SCIENCE.md applies; the "done" bar is 0.5 %.
     let cases = [
-        ("card", card(), KineticOptions::default(), 4.65863138e-04, 914.466558, 6.64836858e+04),
-        ("screw_hoffman", screw_hoffman().0, screw_hoffman().1, 1.31150669e-08, 936.709829, 2.26198501e+09),
-        ("nuclei", with_nuclei().0, with_nuclei().1, 3.15532119e+01, 1299.100798, 3.83262620e+00),
+        (
+            "card",
+            card(),
+            KineticOptions::default(),
+            4.65863138e-04,
+            914.466558,
+            6.64836858e+04,
+        ),
+        (
+            "screw_hoffman",
+            screw_hoffman().0,
+            screw_hoffman().1,
+            1.31150669e-08,
+            936.709829,
+            2.26198501e+09,
+        ),
+        (
+            "nuclei",
+            with_nuclei().0,
+            with_nuclei().1,
+            3.15532119e+01,
+            1299.100798,
+            3.83262620e+00,
+        ),
     ];
     for (name, m, o, rc, tn, tt) in cases {
         let s = Kinetics::new(&m, &o).unwrap().analyse().unwrap();
-        assert!(rel(s.critical_rate.0, rc) < CRITICAL_RATE_RTOL, "{name}: R_c {} vs {rc}", s.critical_rate.0);
+        assert!(
+            rel(s.critical_rate.0, rc) < CRITICAL_RATE_RTOL,
+            "{name}: R_c {} vs {rc}",
+            s.critical_rate.0
+        );
         // The nose minimum is flat: its temperature is known to ~0.01 K, its time to ~1e-6.
-        assert!((s.nose_temperature.0 - tn).abs() < 0.05, "{name}: T_n {} vs {tn}", s.nose_temperature.0);
-        assert!(rel(s.nose_time_s, tt) < 1e-5, "{name}: t_n {} vs {tt}", s.nose_time_s);
+        assert!(
+            (s.nose_temperature.0 - tn).abs() < 0.05,
+            "{name}: T_n {} vs {tn}",
+            s.nose_temperature.0
+        );
+        assert!(
+            rel(s.nose_time_s, tt) < 1e-5,
+            "{name}: t_n {} vs {tt}",
+            s.nose_time_s
+        );
     }
 }
 
@@ -79,20 +118,37 @@ fn constant_rates_reduce_to_the_isothermal_jmak_law() {
     let (lo, hi) = (600.0, 1100.0);
     let rates = |t: Kelvin| {
         if t.0 < hi {
-            Rates { ln_nucleation: i.ln(), ln_growth: u.ln() }
+            Rates {
+                ln_nucleation: i.ln(),
+                ln_growth: u.ln(),
+            }
         } else {
-            Rates { ln_nucleation: f64::NEG_INFINITY, ln_growth: f64::NEG_INFINITY }
+            Rates {
+                ln_nucleation: f64::NEG_INFINITY,
+                ln_growth: f64::NEG_INFINITY,
+            }
         }
     };
     for r in [0.01, 1.0, 300.0] {
-        let x = extended_fraction_constant_rate(rates, (Kelvin(lo), Kelvin(hi)), KelvinPerSecond(r), 0.0).unwrap();
+        let x = extended_fraction_constant_rate(
+            rates,
+            (Kelvin(lo), Kelvin(hi)),
+            KelvinPerSecond(r),
+            0.0,
+        )
+        .unwrap();
         let t = (hi - lo) / r;
         let exact = PI / 3.0 * i * u.powi(3) * t.powi(4);
         assert!(rel(x, exact) < 1e-12, "R = {r}: {x} vs {exact}");
         // Pre-existing nuclei alone: (4π/3) N_h (U t)³ (SCIENCE.md §3).
         let nh = 1e10;
-        let none = |_: Kelvin| Rates { ln_nucleation: f64::NEG_INFINITY, ln_growth: u.ln() };
-        let xh = extended_fraction_constant_rate(none, (Kelvin(lo), Kelvin(hi)), KelvinPerSecond(r), nh).unwrap();
+        let none = |_: Kelvin| Rates {
+            ln_nucleation: f64::NEG_INFINITY,
+            ln_growth: u.ln(),
+        };
+        let xh =
+            extended_fraction_constant_rate(none, (Kelvin(lo), Kelvin(hi)), KelvinPerSecond(r), nh)
+                .unwrap();
         let exact_h = 4.0 * PI / 3.0 * nh * (u * t).powi(3);
         assert!(rel(xh, exact_h) < 1e-12, "R = {r}: {xh} vs {exact_h}");
     }
@@ -116,7 +172,11 @@ fn transformed_fraction_scales_as_rate_to_the_minus_four() {
 
 #[test]
 fn critical_rate_gives_exactly_the_detectable_fraction() {
-    for (m, o) in [(card(), KineticOptions::default()), screw_hoffman(), with_nuclei()] {
+    for (m, o) in [
+        (card(), KineticOptions::default()),
+        screw_hoffman(),
+        with_nuclei(),
+    ] {
         let k = Kinetics::new(&m, &o).unwrap();
         let rc = k.critical_rate().unwrap();
         let x = k.extended_fraction_at_rate(rc).unwrap();
@@ -132,16 +192,41 @@ fn converges_under_quadrature_refinement() {
     let k = Kinetics::new(&m, &o).unwrap();
     let oracle = dense_reference_critical_rate(&k, 1_000_000);
     let rules = [
-        QuadratureSettings { initial_panels: 2, log_range_split: 16.0, growth_log_range_split: 8.0, negligible_share: 1e-4 },
+        QuadratureSettings {
+            initial_panels: 2,
+            log_range_split: 16.0,
+            growth_log_range_split: 8.0,
+            negligible_share: 1e-4,
+        },
         QuadratureSettings::default(),
-        QuadratureSettings { initial_panels: 4, log_range_split: 4.0, growth_log_range_split: 2.0, negligible_share: 1e-8 },
-        QuadratureSettings { initial_panels: 8, log_range_split: 1.0, growth_log_range_split: 0.5, negligible_share: 1e-12 },
+        QuadratureSettings {
+            initial_panels: 4,
+            log_range_split: 4.0,
+            growth_log_range_split: 2.0,
+            negligible_share: 1e-8,
+        },
+        QuadratureSettings {
+            initial_panels: 8,
+            log_range_split: 1.0,
+            growth_log_range_split: 0.5,
+            negligible_share: 1e-12,
+        },
     ];
-    let errors: Vec<f64> =
-        rules.iter().map(|q| rel(k.clone().with_quadrature(*q).critical_rate().unwrap().0, oracle)).collect();
+    let errors: Vec<f64> = rules
+        .iter()
+        .map(|q| {
+            rel(
+                k.clone().with_quadrature(*q).critical_rate().unwrap().0,
+                oracle,
+            )
+        })
+        .collect();
     assert!(errors[1] < ORACLE_RTOL, "{errors:?}");
     assert!(errors[3] < 1e-6, "{errors:?}");
-    assert!(errors[3] <= errors[2] && errors[2] <= errors[0], "{errors:?}");
+    assert!(
+        errors[3] <= errors[2] && errors[2] <= errors[0],
+        "{errors:?}"
+    );
 }
 
 #[test]
@@ -153,7 +238,9 @@ fn default_quadrature_meets_the_target_over_a_family_of_melts() {
         for alpha in [0.25, 0.4] {
             for growth in [GrowthMode::Normal, GrowthMode::Screw] {
                 for df in [DrivingForce::Turnbull, DrivingForce::Hoffman] {
-                    for (a, b, c, tl) in [(-2.8, 4500.0, 480.0, 1300.0), (-2.0, 2000.0, 700.0, 1400.0)] {
+                    for (a, b, c, tl) in
+                        [(-2.8, 4500.0, 480.0, 1300.0), (-2.0, 2000.0, 700.0, 1400.0)]
+                    {
                         let m = Melt::new(
                             ViscosityCurve::vft(a, b, c).unwrap(),
                             Kelvin(tl),
@@ -163,7 +250,10 @@ fn default_quadrature_meets_the_target_over_a_family_of_melts() {
                             growth,
                         )
                         .unwrap();
-                        let o = KineticOptions { driving_force: df, ..KineticOptions::default() };
+                        let o = KineticOptions {
+                            driving_force: df,
+                            ..KineticOptions::default()
+                        };
                         let k = Kinetics::new(&m, &o).unwrap();
                         let fast = k.critical_rate().unwrap().0;
                         let slow = dense_reference_critical_rate(&k, 200_000);
@@ -179,11 +269,33 @@ fn default_quadrature_meets_the_target_over_a_family_of_melts() {
 #[test]
 fn lower_end_of_the_window_does_not_matter_once_low_enough() {
     // Source: SCIENCE.md §3 — R_c must not depend on T_e (here η = 10^15 vs 10^18 Pa·s).
-    let fine = QuadratureSettings { initial_panels: 6, log_range_split: 2.0, growth_log_range_split: 1.0, negligible_share: 1e-10 };
-    for (m, o) in [(card(), KineticOptions::default()), screw_hoffman(), with_nuclei()] {
-        let a = Kinetics::new(&m, &o).unwrap().with_quadrature(fine).critical_rate().unwrap().0;
-        let o2 = KineticOptions { freeze_log_viscosity: 18.0, ..o };
-        let b = Kinetics::new(&m, &o2).unwrap().with_quadrature(fine).critical_rate().unwrap().0;
+    let fine = QuadratureSettings {
+        initial_panels: 6,
+        log_range_split: 2.0,
+        growth_log_range_split: 1.0,
+        negligible_share: 1e-10,
+    };
+    for (m, o) in [
+        (card(), KineticOptions::default()),
+        screw_hoffman(),
+        with_nuclei(),
+    ] {
+        let a = Kinetics::new(&m, &o)
+            .unwrap()
+            .with_quadrature(fine)
+            .critical_rate()
+            .unwrap()
+            .0;
+        let o2 = KineticOptions {
+            freeze_log_viscosity: 18.0,
+            ..o
+        };
+        let b = Kinetics::new(&m, &o2)
+            .unwrap()
+            .with_quadrature(fine)
+            .critical_rate()
+            .unwrap()
+            .0;
         assert!(rel(a, b) < 1e-7, "{a} vs {b}");
     }
 }
@@ -209,7 +321,11 @@ fn a_linear_cooling_path_equals_constant_rate_cooling() {
     let path = [(0.0, Kelvin(tl)), ((tl - te) / r, Kelvin(te))];
     let p = k.path_fraction(&path).unwrap();
     let x = k.extended_fraction_at_rate(KelvinPerSecond(r)).unwrap();
-    assert!(rel(p.extended_fraction, x) < ORACLE_RTOL, "{} vs {x}", p.extended_fraction);
+    assert!(
+        rel(p.extended_fraction, x) < ORACLE_RTOL,
+        "{} vs {x}",
+        p.extended_fraction
+    );
 }
 
 #[test]
@@ -221,7 +337,11 @@ fn isothermal_hold_path_equals_jmak_and_fraction_stays_in_unit_interval() {
     for time in [1e2, 1e4, 1e5, 3e5, 1e6, 1e7] {
         let p = k.path_fraction(&[(0.0, t), (time, t)]).unwrap();
         let direct = k.isothermal_fraction(t, time);
-        assert!(rel(p.transformed_fraction, direct) < 1e-10, "{time}: {} vs {direct}", p.transformed_fraction);
+        assert!(
+            rel(p.transformed_fraction, direct) < 1e-10,
+            "{time}: {} vs {direct}",
+            p.transformed_fraction
+        );
         assert!((0.0..=1.0).contains(&p.transformed_fraction));
         assert!(p.transformed_fraction >= last);
         last = p.transformed_fraction;
@@ -253,12 +373,22 @@ fn thickest_glassy_slab_reaches_exactly_the_detectable_fraction() {
 #[test]
 fn calibrated_alpha_reproduces_its_target() {
     let target = KelvinPerSecond(0.5);
-    let m = Kinetics::calibrate_to_critical_rate(&card(), &KineticOptions::default(), target).unwrap();
-    let got = Kinetics::new(&m, &KineticOptions::default()).unwrap().critical_rate().unwrap();
+    let m =
+        Kinetics::calibrate_to_critical_rate(&card(), &KineticOptions::default(), target).unwrap();
+    let got = Kinetics::new(&m, &KineticOptions::default())
+        .unwrap()
+        .critical_rate()
+        .unwrap();
     assert!(rel(got.0, target.0) < 1e-8, "{}", got.0);
-    assert!(m.turnbull_alpha() < 0.33, "a faster rate needs a smaller barrier");
+    assert!(
+        m.turnbull_alpha() < 0.33,
+        "a faster rate needs a smaller barrier"
+    );
     let m = Kinetics::calibrate_to_nose_time(&card(), &KineticOptions::default(), 100.0).unwrap();
-    let s = Kinetics::new(&m, &KineticOptions::default()).unwrap().analyse().unwrap();
+    let s = Kinetics::new(&m, &KineticOptions::default())
+        .unwrap()
+        .analyse()
+        .unwrap();
     assert!(rel(s.nose_time_s, 100.0) < 1e-6, "{}", s.nose_time_s);
 }
 
@@ -267,7 +397,10 @@ fn heterogeneous_nuclei_raise_the_critical_rate() {
     let (m, _) = with_nuclei();
     let mut last = 0.0;
     for nh in [0.0, 1e3, 1e6, 1e9, 1e12] {
-        let o = KineticOptions { heterogeneous_nuclei_per_m3: nh, ..KineticOptions::default() };
+        let o = KineticOptions {
+            heterogeneous_nuclei_per_m3: nh,
+            ..KineticOptions::default()
+        };
         let rc = Kinetics::new(&m, &o).unwrap().critical_rate().unwrap().0;
         assert!(rc >= last, "{nh}: {rc} < {last}");
         last = rc;

@@ -35,7 +35,11 @@ pub struct Run {
 
 /// Run `quenchwise ARGS` with `dir` as the working directory.
 pub fn run_in(dir: &Path, args: &[&str]) -> Run {
-    let Output { status, stdout, stderr } = Command::new(env!("CARGO_BIN_EXE_quenchwise"))
+    let Output {
+        status,
+        stdout,
+        stderr,
+    } = Command::new(env!("CARGO_BIN_EXE_quenchwise"))
         .args(args)
         .current_dir(dir)
         .output()
@@ -57,7 +61,12 @@ impl Run {
 
     /// Assert the exit code.
     pub fn code(&self, expected: i32) -> &Self {
-        assert_eq!(self.code, expected, "\n--- expected exit code ---\n{expected}\n--- got ---{}", self.show());
+        assert_eq!(
+            self.code,
+            expected,
+            "\n--- expected exit code ---\n{expected}\n--- got ---{}",
+            self.show()
+        );
         self
     }
 
@@ -83,7 +92,8 @@ impl Run {
 
     /// stdout parsed as JSON.
     pub fn json(&self) -> serde_json::Value {
-        serde_json::from_str(&self.stdout).unwrap_or_else(|e| panic!("stdout is not JSON ({e}){}", self.show()))
+        serde_json::from_str(&self.stdout)
+            .unwrap_or_else(|e| panic!("stdout is not JSON ({e}){}", self.show()))
     }
 }
 
