@@ -1,6 +1,7 @@
 //! Time per candidate: the melt-card kinetics alone, and the full chain
 //! composition → properties → melt → nose and critical cooling rate, at the
-//! default quadrature (≤ 0.1 % R_c error, see tests/kinetics_reference.rs).
+//! default quadrature (≤ 0.1 % R_c error, see tests/kinetics_reference.rs), and
+//! the batch cost function the screen calls for every candidate.
 //!
 //! Run: cargo bench --bench kinetics
 
@@ -68,6 +69,17 @@ fn benches(c: &mut Criterion) {
             )
             .unwrap()
         })
+    });
+    g.finish();
+
+    // Cost of the least-cost batch per kg of glass, demo shelf (17 raw materials).
+    let cost = quenchwise::batch::CostModel {
+        raws: quenchwise::table::read_raw_materials(None).unwrap(),
+        settings: Default::default(),
+    };
+    let mut g = c.benchmark_group("batch");
+    g.bench_function("cost_per_kg_glass_demo_shelf", |b| {
+        b.iter(|| cost.cost_per_kg_glass(black_box(&comp)).unwrap())
     });
     g.finish();
 }

@@ -41,8 +41,67 @@ pub enum Command {
     ///   quenchwise eval --compositions demo-datasets/candidates.csv --out results.csv
     #[command(verbatim_doc_comment)]
     Eval(EvalArgs),
+    /// Weigh-out sheet: the least-cost batch of raw materials for a glass.
+    ///
+    /// Examples:
+    ///   quenchwise batch --mol "SiO2=72 Na2O=14 CaO=10 Al2O3=4"
+    ///   quenchwise batch --wt "SiO2=74 Na2O=16 CaO=10" --glass-kg 0.5 --json
+    ///   quenchwise batch --recipe my-glass.toml --raw-materials shelf.csv --retention "B2O3=0.95"
+    #[command(verbatim_doc_comment)]
+    Batch(BatchArgs),
     /// Show the model set: provenance, viscosity model, crystal phases, domains.
     Models(ModelArgs),
+}
+
+#[derive(Debug, Args)]
+#[command(group(clap::ArgGroup::new("glass").required(true).args(["mol", "wt", "recipe"])))]
+pub struct BatchArgs {
+    /// The glass in mol%, e.g. "SiO2=72 Na2O=14 CaO=10 Al2O3=4".
+    #[arg(long, value_name = "OXIDES", help_heading = "Glass")]
+    pub mol: Option<String>,
+    /// The glass in wt%.
+    #[arg(long, value_name = "OXIDES", help_heading = "Glass")]
+    pub wt: Option<String>,
+    /// The glass from a recipe file (TOML: basis = "mol%", [oxides]).
+    #[arg(long, value_name = "FILE", help_heading = "Glass")]
+    pub recipe: Option<PathBuf>,
+    /// Mass of glass to make, kg [default: 1].
+    #[arg(long, value_name = "KG", default_value_t = 1.0, help_heading = "Glass")]
+    pub glass_kg: f64,
+    /// How far (percentage points) amounts may sum from 100 [default: 2].
+    #[arg(long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Glass")]
+    pub sum_tolerance: f64,
+    /// Raw-materials table (CSV or Parquet) [default: the built-in demo shelf].
+    ///
+    /// Columns: name, price_per_kg, and either formula (ideal analysis from
+    /// IUPAC 2021 masses) or <Oxide>_wt_pct columns with loi_wt_pct; optional
+    /// purity_pct (default 100), available_kg, note. The default is
+    /// demo-datasets/raw-materials.csv, whose prices are invented.
+    #[arg(long, value_name = "FILE", help_heading = "Raw materials")]
+    pub raw_materials: Option<PathBuf>,
+    /// Fraction of an oxide kept in the melt, e.g. "B2O3=0.95 Na2O=0.98".
+    ///
+    /// Volatile oxides (B2O3, alkalis, P2O5) partly evaporate; the batch then
+    /// carries more of them. Values in (0, 1]; unlisted oxides keep 1.
+    #[arg(long, value_name = "OXIDE=FRACTION", help_heading = "Raw materials")]
+    pub retention: Option<String>,
+    /// Allowed deviation of each delivered oxide, wt% of glass [default: 0.001].
+    ///
+    /// 0.001 wt% is 10 mg per kg of glass. A multi-oxide mineral that would
+    /// force an oxide beyond this is reported, naming the oxide.
+    #[arg(
+        long,
+        value_name = "WT_PCT",
+        default_value_t = 0.001,
+        help_heading = "Raw materials"
+    )]
+    pub tolerance_wt_pct: f64,
+    /// Print JSON instead of the sheet.
+    #[arg(long, help_heading = "Output", conflicts_with = "csv")]
+    pub json: bool,
+    /// Print the sheet as CSV (raw material, kg, cost).
+    #[arg(long, help_heading = "Output")]
+    pub csv: bool,
 }
 
 #[derive(Debug, Args)]
@@ -210,6 +269,7 @@ pub fn exit_code(err: &anyhow::Error) -> i32 {
             || cause.is::<ModelError>()
             || cause.is::<EvalError>()
             || cause.is::<MeltValueError>()
+            || cause.is::<crate::batch::BatchError>()
         {
             return 2;
         }
@@ -232,7 +292,77 @@ pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Eval(a) => eval(a),
         Command::Models(a) => models(a),
+        Command::Batch(a) => batch(a),
     }
+}
+
+fn batch(a: BatchArgs) -> Result<()> {
+    use crate::batch::{least_cost_batch, BatchSettings};
+    let glass = if let Some(t) = &a.mol {
+        Composition::parse(t, Basis::MolPercent, a.sum_tolerance).context("in --mol")?
+    } else if let Some(t) = &a.wt {
+        Composition::parse(t, Basis::WtPercent, a.sum_tolerance).context("in --wt")?
+    } else {
+        let p = a.recipe.as_ref().expect("clap requires one input");
+        let text = data::read_text(p)?;
+        data::parse_recipe(
+            &Source::new(p.display().to_string(), &text),
+            a.sum_tolerance,
+        )?
+    };
+    if !(a.glass_kg.is_finite() && a.glass_kg > 0.0) {
+        bail!(UsageError(format!(
+            "--glass-kg must be positive, got {} kg",
+            a.glass_kg
+        )));
+    }
+    if !(a.tolerance_wt_pct.is_finite() && a.tolerance_wt_pct > 0.0) {
+        bail!(UsageError(format!(
+            "--tolerance-wt-pct must be positive, got {}",
+            a.tolerance_wt_pct
+        )));
+    }
+    let mut settings = BatchSettings {
+        tolerance_wt_pct: a.tolerance_wt_pct,
+        ..BatchSettings::default()
+    };
+    if let Some(r) = &a.retention {
+        for (o, v) in crate::composition::parse_pairs(r).context("in --retention")? {
+            if !(v > 0.0 && v <= 1.0) {
+                bail!(UsageError(format!(
+                    "--retention: {o} must be in (0, 1], got {v}"
+                )));
+            }
+            settings.retention[o.index()] = v;
+        }
+    }
+    let raws = table::read_raw_materials(a.raw_materials.as_deref())?;
+    let sheet = least_cost_batch(&raws, &glass, a.glass_kg, &settings)?;
+    let mut out = std::io::stdout().lock();
+    if a.json {
+        serde_json::to_writer_pretty(&mut out, &sheet)?;
+        writeln!(out)?;
+        return Ok(());
+    }
+    if a.csv {
+        writeln!(out, "raw_material,mass_kg,cost")?;
+        for l in &sheet.lines {
+            writeln!(
+                out,
+                "\"{}\",{:.6},{:.4}",
+                l.name.replace('"', "\"\""),
+                l.mass_kg,
+                l.cost
+            )?;
+        }
+        return Ok(());
+    }
+    write!(
+        out,
+        "{}",
+        report::batch_text(&sheet, &glass, a.raw_materials.as_deref())
+    )?;
+    Ok(())
 }
 
 fn load_models(models: Option<&Path>, viscosity: Option<&Path>) -> Result<ModelSet> {

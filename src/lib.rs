@@ -5,6 +5,7 @@
 //! files, melt cards, recipes), [`table`] (CSV/Parquet through polars),
 //! [`report`] (text) and [`cli`].
 
+pub mod batch;
 pub mod cli;
 pub mod composition;
 pub mod data;

@@ -228,6 +228,90 @@ pub fn evaluation_text(e: &Evaluation) -> String {
     o
 }
 
+/// A batch sheet as a readable table, with the oxide balance and handling cautions.
+pub fn batch_text(
+    b: &crate::batch::Batch,
+    glass: &crate::composition::Composition,
+    shelf: Option<&std::path::Path>,
+) -> String {
+    let mut o = String::new();
+    let _ = writeln!(
+        o,
+        "batch for {:.3} kg of glass   {} (mol%)",
+        b.glass_kg,
+        glass.describe()
+    );
+    let _ = writeln!(
+        o,
+        "raw materials  {}",
+        shelf
+            .map(|p| p.display().to_string())
+            .unwrap_or_else(|| "built-in demo shelf (INVENTED prices)".into())
+    );
+    let _ = writeln!(
+        o,
+        "\n  {:<26} {:>12} {:>10} {:>10}",
+        "raw material", "mass / kg", "mass / g", "cost"
+    );
+    for l in &b.lines {
+        let _ = writeln!(
+            o,
+            "  {:<26} {:>12.5} {:>10.1} {:>10.3}",
+            l.name,
+            l.mass_kg,
+            l.mass_kg * 1e3,
+            l.cost
+        );
+    }
+    let _ = writeln!(
+        o,
+        "  {:<26} {:>12.5} {:>10.1} {:>10.3}",
+        "total batch",
+        b.batch_kg,
+        b.batch_kg * 1e3,
+        b.cost_total
+    );
+    let _ = writeln!(
+        o,
+        "\n  gas released on melting    {:.5} kg (CO2, H2O, volatilised oxide)",
+        b.gas_kg
+    );
+    let _ = writeln!(
+        o,
+        "  batch-to-glass ratio       {:.4}",
+        b.batch_to_glass_ratio
+    );
+    let _ = writeln!(
+        o,
+        "  cost per kg of glass       {:.3} (currency of the price list)",
+        b.cost_per_kg_glass
+    );
+    let want = glass.wt_percent();
+    let _ = writeln!(o, "\n  oxide balance, batch re-melted on paper (wt%):");
+    let _ = writeln!(o, "  {:<8} {:>9} {:>10}", "oxide", "target", "delivered");
+    for (name, got) in &b.delivered_wt_pct {
+        let t = name
+            .parse::<crate::composition::Oxide>()
+            .map(|ox| want[ox.index()])
+            .unwrap_or(0.0);
+        let _ = writeln!(o, "  {:<8} {:>9.3} {:>10.3}", name, t, got);
+    }
+    let cautions: Vec<String> = b
+        .lines
+        .iter()
+        .filter_map(|l| l.handling.map(|h| format!("  - {}: {h}", l.name)))
+        .collect();
+    let _ = writeln!(o, "\nhandling");
+    for c in cautions {
+        let _ = writeln!(o, "{c}");
+    }
+    let _ = writeln!(
+        o,
+        "  weigh and mix batch dusts under extraction with eye and respiratory protection; follow your lab's safety rules and the suppliers' safety data sheets."
+    );
+    o
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

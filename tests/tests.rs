@@ -2,6 +2,7 @@
 
 mod util;
 
+mod cli_batch;
 mod cli_errors;
 mod cli_eval;
 mod demo_models;
