@@ -458,37 +458,66 @@ fn solve(
     if !missing.is_empty() {
         return Err(BatchError::NoSupplier(missing));
     }
+    // A raw material that brings an oxide the glass must not contain can only be
+    // used within the tolerance: leave it out, which shrinks the programme (the
+    // screen calls this for every candidate). If that leaves a wanted oxide
+    // without a source, the full set is diagnosed below.
+    let usable: Vec<usize> = (0..raws.len())
+        .filter(|&k| {
+            raws[k]
+                .yields
+                .iter()
+                .zip(target)
+                .all(|(&y, &t)| y <= 0.0 || t > tol)
+        })
+        .collect();
     let mut vars = ProblemVariables::new();
-    let x: Vec<Variable> = raws
+    let x: Vec<Variable> = usable
         .iter()
-        .map(|r| {
+        .map(|&k| {
             let v = variable().min(0.0);
-            match r.available_kg {
+            match raws[k].available_kg {
                 Some(a) => vars.add(v.max(a / glass_kg)),
                 None => vars.add(v),
             }
         })
         .collect();
-    let cost: Expression = raws.iter().zip(&x).map(|(r, &v)| r.price_per_kg * v).sum();
+    let cost: Expression = usable
+        .iter()
+        .zip(&x)
+        .map(|(&k, &v)| raws[k].price_per_kg * v)
+        .sum();
     let mut model = vars.minimise(cost).using(microlp);
+    let mut unsupplied = false;
     for o in Oxide::ALL {
         let i = o.index();
-        let delivered: Expression = raws
-            .iter()
-            .zip(&x)
-            .map(|(r, &v)| r.yields[i] * s.retention[i] * v)
-            .sum();
-        if raws.iter().all(|r| r.yields[i] <= 0.0) {
+        if usable.iter().all(|&k| raws[k].yields[i] <= 0.0) {
+            unsupplied |= target[i] > tol;
             continue;
         }
+        let delivered: Expression = usable
+            .iter()
+            .zip(&x)
+            .map(|(&k, &v)| raws[k].yields[i] * s.retention[i] * v)
+            .sum();
         model = model.with(constraint!(delivered.clone() <= target[i] + tol));
         model = model.with(constraint!(delivered >= target[i] - tol));
     }
+    let infeasible = || -> Result<Vec<f64>, BatchError> {
+        Err(BatchError::Infeasible(diagnose(raws, target, glass_kg, s)?))
+    };
+    if unsupplied {
+        return infeasible();
+    }
     match model.solve() {
-        Ok(sol) => Ok(x.iter().map(|&v| sol.value(v).max(0.0)).collect()),
-        Err(good_lp::ResolutionError::Infeasible) => {
-            Err(BatchError::Infeasible(diagnose(raws, target, glass_kg, s)?))
+        Ok(sol) => {
+            let mut out = vec![0.0; raws.len()];
+            for (&k, &v) in usable.iter().zip(&x) {
+                out[k] = sol.value(v).max(0.0);
+            }
+            Ok(out)
         }
+        Err(good_lp::ResolutionError::Infeasible) => infeasible(),
         Err(e) => Err(BatchError::Solver(e.to_string())),
     }
 }
