@@ -41,6 +41,19 @@ pub enum Command {
     ///   quenchwise eval --compositions demo-datasets/candidates.csv --out results.csv
     #[command(verbatim_doc_comment)]
     Eval(EvalArgs),
+    /// Search compositions for recipes that vitrify with your quench (overnight-safe).
+    ///
+    /// Reads a screen config (see configs/demo-screen.toml), evaluates a
+    /// space-filling set of candidates in parallel, refines the best, and
+    /// writes a ranked shortlist with batch sheets to --out. Ctrl-C stops after
+    /// the current chunk; --resume continues where it stopped.
+    ///
+    /// Example:
+    ///   quenchwise screen configs/demo-screen.toml --out results/
+    #[command(verbatim_doc_comment)]
+    Screen(ScreenArgs),
+    /// Validate a screen config without running it.
+    Check(CheckArgs),
     /// Weigh-out sheet: the least-cost batch of raw materials for a glass.
     ///
     /// Examples:
@@ -51,6 +64,35 @@ pub enum Command {
     Batch(BatchArgs),
     /// Show the model set: provenance, viscosity model, crystal phases, domains.
     Models(ModelArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct ScreenArgs {
+    /// The screen config (TOML).
+    #[arg(value_name = "CONFIG")]
+    pub config: PathBuf,
+    /// Output folder for the shortlist, tables, batch sheets and checkpoints.
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    /// Continue an interrupted run in --out (same config required).
+    #[arg(long, conflicts_with = "force")]
+    pub resume: bool,
+    /// Overwrite an existing, non-empty --out folder.
+    #[arg(long)]
+    pub force: bool,
+    /// Worker threads [default: the config's, else all cores].
+    #[arg(long, value_name = "N")]
+    pub threads: Option<usize>,
+    /// Stop after N new chunks as if interrupted (for testing resume).
+    #[arg(long, value_name = "N", hide = true)]
+    pub stop_after_chunks: Option<usize>,
+}
+
+#[derive(Debug, Args)]
+pub struct CheckArgs {
+    /// The screen config (TOML).
+    #[arg(value_name = "CONFIG")]
+    pub config: PathBuf,
 }
 
 #[derive(Debug, Args)]
@@ -293,6 +335,70 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Eval(a) => eval(a),
         Command::Models(a) => models(a),
         Command::Batch(a) => batch(a),
+        Command::Screen(a) => screen(a),
+        Command::Check(a) => check(a),
+    }
+}
+
+fn check(a: CheckArgs) -> Result<()> {
+    let plan = crate::config::load(&a.config)?;
+    let simplex = crate::screen::Simplex::new(&plan);
+    println!(
+        "{}: valid. {} oxides vary ({} free, {} closes the sum); {} linear constraints; {} first-pass points in {} chunks; R_c must be ≤ {:.4} K/s",
+        a.config.display(),
+        plan.oxides.len(),
+        simplex.dims(),
+        simplex.balance.0,
+        plan.constraints.len(),
+        plan.first_pass_points,
+        crate::screen::chunk_count(&plan),
+        plan.allowed_rate().0
+    );
+    Ok(())
+}
+
+fn screen(a: ScreenArgs) -> Result<()> {
+    let mut plan = crate::config::load(&a.config)?;
+    if let Some(t) = a.threads {
+        if t == 0 {
+            bail!(UsageError("--threads must be at least 1".into()));
+        }
+        plan.threads = Some(t);
+    }
+    let opts = crate::screen_run::ScreenOptions {
+        out: a.out.clone(),
+        resume: a.resume,
+        force: a.force,
+        stop_after_chunks: a.stop_after_chunks,
+        progress: true,
+    };
+    match crate::screen_run::run(&plan, &opts)? {
+        crate::screen_run::Outcome::Finished {
+            shortlisted,
+            evaluated,
+            feasible,
+            ..
+        } => {
+            let text = std::fs::read_to_string(a.out.join("summary.txt")).unwrap_or_default();
+            print!("{text}");
+            println!(
+                "\nshortlist: {} ({shortlisted} recipes of {feasible} feasible, {evaluated} evaluated); batch sheets in {}",
+                a.out.join("shortlist.csv").display(),
+                a.out.join("batch-sheets").display()
+            );
+            Ok(())
+        }
+        crate::screen_run::Outcome::Interrupted {
+            chunks_done,
+            chunks,
+        } => {
+            eprintln!(
+                "quenchwise screen: stopped after {chunks_done}/{chunks} chunks; the work so far is saved.\nhint: quenchwise screen {} --out {} --resume",
+                a.config.display(),
+                a.out.display()
+            );
+            std::process::exit(130);
+        }
     }
 }
 

@@ -8,12 +8,15 @@
 pub mod batch;
 pub mod cli;
 pub mod composition;
+pub mod config;
 pub mod data;
 pub mod evaluate;
 pub mod kinetics;
 pub mod models;
 pub mod quadrature;
 pub mod report;
+pub mod screen;
+pub mod screen_run;
 pub mod table;
 pub mod tolerances;
 pub mod units;

@@ -8,3 +8,4 @@ mod cli_eval;
 mod demo_models;
 mod grd2008;
 mod kinetics_reference;
+mod screen;
