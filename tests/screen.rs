@@ -297,3 +297,47 @@ fn bad_configs_give_located_errors() {
         .code(0)
         .stdout_has("valid");
 }
+
+#[test]
+fn sigterm_saves_the_work_and_resume_finishes() {
+    let d = temp_dir("screen-sigterm");
+    let text = SMALL
+        .replace("first_pass_points = 512", "first_pass_points = 40000")
+        .replace("chunk_size = 64", "chunk_size = 256");
+    let cfg = write_config(&d, &text);
+    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_quenchwise"))
+        .args(["screen", cfg.to_str().unwrap(), "--out", "out"])
+        .current_dir(&d)
+        .stderr(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    // Wait until the first chunk is on disk, then send SIGTERM.
+    let first = d.join("out/.work/chunk-000000.json");
+    for _ in 0..600 {
+        if first.exists() {
+            break;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(50));
+    }
+    assert!(first.exists(), "no checkpoint appeared");
+    std::process::Command::new("kill")
+        .args(["-TERM", &child.id().to_string()])
+        .status()
+        .unwrap();
+    let out = child.wait_with_output().unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    if out.status.code() == Some(0) {
+        // The run finished before the signal arrived: nothing to resume.
+        return;
+    }
+    assert_eq!(out.status.code(), Some(130), "{stderr}");
+    assert!(stderr.contains("--resume"), "{stderr}");
+    run_in(
+        &d,
+        &["screen", cfg.to_str().unwrap(), "--out", "out", "--resume"],
+    )
+    .code(0)
+    .stdout_has("shortlist:");
+    assert!(d.join("out/shortlist.csv").exists());
+}
