@@ -54,6 +54,12 @@ pub enum Command {
     Screen(ScreenArgs),
     /// Validate a screen config without running it.
     Check(CheckArgs),
+    /// Write RESULTS_DIR/report.html: one self-contained page with plots.
+    ///
+    /// The screen writes it at the end of a run by default; run this to write
+    /// it again (e.g. after --no-report). Images are embedded, so the file can
+    /// be emailed and opened without network access.
+    Report(ReportArgs),
     /// Weigh-out sheet: the least-cost batch of raw materials for a glass.
     ///
     /// Examples:
@@ -83,9 +89,19 @@ pub struct ScreenArgs {
     /// Worker threads [default: the config's, else all cores].
     #[arg(long, value_name = "N")]
     pub threads: Option<usize>,
+    /// Do not write report.html at the end (write it later with `report`).
+    #[arg(long)]
+    pub no_report: bool,
     /// Stop after N new chunks as if interrupted (for testing resume).
     #[arg(long, value_name = "N", hide = true)]
     pub stop_after_chunks: Option<usize>,
+}
+
+#[derive(Debug, Args)]
+pub struct ReportArgs {
+    /// A screen's --out folder.
+    #[arg(value_name = "RESULTS_DIR")]
+    pub dir: PathBuf,
 }
 
 #[derive(Debug, Args)]
@@ -209,6 +225,10 @@ pub struct EvalArgs {
     /// Print one JSON object instead of the table.
     #[arg(long, help_heading = "Output")]
     pub json: bool,
+
+    /// Draw the TTT diagram (SVG) with the critical-rate cooling line.
+    #[arg(long, value_name = "FILE.svg", help_heading = "Output")]
+    pub plot: Option<PathBuf>,
 
     /// Write the TTT curve (T, time to X_c, I, U) to this CSV file.
     #[arg(long, value_name = "FILE", help_heading = "Output")]
@@ -337,6 +357,11 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Batch(a) => batch(a),
         Command::Screen(a) => screen(a),
         Command::Check(a) => check(a),
+        Command::Report(a) => {
+            let p = crate::report_html::write_report(&a.dir)?;
+            println!("wrote {}", p.display());
+            Ok(())
+        }
     }
 }
 
@@ -381,6 +406,10 @@ fn screen(a: ScreenArgs) -> Result<()> {
         } => {
             let text = std::fs::read_to_string(a.out.join("summary.txt")).unwrap_or_default();
             print!("{text}");
+            if !a.no_report {
+                let p = crate::report_html::write_report(&a.out).context("writing the report")?;
+                println!("report: {}", p.display());
+            }
             println!(
                 "\nshortlist: {} ({shortlisted} recipes of {feasible} feasible, {evaluated} evaluated); batch sheets in {}",
                 a.out.join("shortlist.csv").display(),
@@ -572,9 +601,9 @@ fn eval(a: EvalArgs) -> Result<()> {
         bail!(UsageError("--wt without a value reads --compositions tables as wt%; give a composition or a table".into()));
     }
     if let Some(p) = &a.melts {
-        if a.json || a.ttt.is_some() {
+        if a.json || a.ttt.is_some() || a.plot.is_some() {
             bail!(UsageError(
-                "--json and --ttt apply to one melt or composition, not to --melts".into()
+                "--json, --ttt and --plot apply to one melt or composition, not to --melts".into()
             ));
         }
         let out = a.out.as_ref().expect("clap requires --out");
@@ -652,6 +681,16 @@ fn eval(a: EvalArgs) -> Result<()> {
     if let Some(p) = &a.ttt {
         write_ttt(p, &kinetics)
             .with_context(|| format!("writing the TTT curve to {}", p.display()))?;
+    }
+    if let Some(p) = &a.plot {
+        let svg = match kinetics.analyse() {
+            Ok(s) => crate::plot::ttt_svg(&kinetics, &s, None, "TTT diagram"),
+            Err(e) => crate::plot::message_svg("TTT diagram", &e.to_string()),
+        };
+        let tmp = p.with_extension("svg.partial");
+        std::fs::write(&tmp, svg)
+            .and_then(|_| std::fs::rename(&tmp, p))
+            .with_context(|| format!("writing {}", p.display()))?;
     }
     let mut out = std::io::stdout().lock();
     if a.json {

@@ -292,6 +292,15 @@ fn linear_expr(text: &str) -> Result<[f64; N_OXIDES], String> {
 /// Syntax, unknown keys, bad values, unreadable model or raw-material files —
 /// all problems of the file at once, each with its line.
 pub fn load(path: &Path) -> Result<RunPlan, anyhow::Error> {
+    load_with_base(path, None)
+}
+
+/// As [`load`], with relative paths inside the config taken from `base`
+/// (used to re-load the copy of a config stored with a screen's results).
+///
+/// # Errors
+/// As [`load`].
+pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, anyhow::Error> {
     let text = data::read_text(path)?;
     let src = Source::new(path.display().to_string(), &text);
     let hint = "see configs/demo-screen.toml for every key, with comments";
@@ -305,7 +314,9 @@ pub fn load(path: &Path) -> Result<RunPlan, anyhow::Error> {
     })?;
     let mut problems: Vec<Problem> = Vec::new();
     let mut push = |span: std::ops::Range<usize>, m: String| problems.push(src.problem(span, m));
-    let dir = path.parent().unwrap_or(Path::new(".")).to_path_buf();
+    let dir = base
+        .map(Path::to_path_buf)
+        .unwrap_or_else(|| path.parent().unwrap_or(Path::new(".")).to_path_buf());
 
     let n = *raw.search.first_pass_points.get_ref();
     if n == 0 || n > 50_000_000 {

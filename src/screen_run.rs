@@ -587,6 +587,8 @@ fn write_outputs(plan: &RunPlan, out: &Path, mut pool: Pools) -> Result<Outcome>
             "calibrated_against": p.calibrated_against })).collect::<Vec<_>>(),
         "raw_materials": plan.cost.as_ref().map(|c| c.2.clone()),
         "kinetics_calibrated": plan.models.phases.iter().all(|p| p.calibrated_against.is_some()),
+        "config_dir": plan.config_path.parent().map(|p| std::fs::canonicalize(if p.as_os_str().is_empty() { Path::new(".") } else { p }).unwrap_or_else(|_| p.to_path_buf())),
+        "seed": plan.seed,
     });
     write_atomic(
         &out.join("provenance.json"),

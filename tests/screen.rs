@@ -305,7 +305,7 @@ fn sigterm_saves_the_work_and_resume_finishes() {
         .replace("first_pass_points = 512", "first_pass_points = 40000")
         .replace("chunk_size = 64", "chunk_size = 256");
     let cfg = write_config(&d, &text);
-    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_quenchwise"))
+    let child = std::process::Command::new(env!("CARGO_BIN_EXE_quenchwise"))
         .args(["screen", cfg.to_str().unwrap(), "--out", "out"])
         .current_dir(&d)
         .stderr(std::process::Stdio::piped())

@@ -8,4 +8,6 @@ mod cli_eval;
 mod demo_models;
 mod grd2008;
 mod kinetics_reference;
+mod plots;
+mod report_browser;
 mod screen;

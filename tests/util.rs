@@ -101,3 +101,58 @@ impl Run {
 pub fn rel(a: f64, b: f64) -> f64 {
     ((a - b) / b).abs()
 }
+
+/// A small XML well-formedness check for the SVG we write: every element opened
+/// is closed in order, attributes are quoted, and there is one root.
+pub fn check_xml(doc: &str) -> Result<(), String> {
+    let body = match doc.trim_start().strip_prefix("<?xml") {
+        Some(rest) => {
+            rest.split_once("?>")
+                .ok_or("unterminated XML declaration")?
+                .1
+        }
+        None => doc,
+    };
+    let mut stack: Vec<String> = Vec::new();
+    let mut roots = 0;
+    let mut rest = body;
+    while let Some(start) = rest.find('<') {
+        let after = &rest[start + 1..];
+        if let Some(c) = after.strip_prefix("!--") {
+            rest = &c[c.find("-->").ok_or("unterminated comment")? + 3..];
+            continue;
+        }
+        let end = after.find('>').ok_or("unterminated tag")?;
+        let tag = &after[..end];
+        rest = &after[end + 1..];
+        if let Some(name) = tag.strip_prefix('/') {
+            let open = stack
+                .pop()
+                .ok_or(format!("</{name}> without an opening tag"))?;
+            if open != name.trim() {
+                return Err(format!("<{open}> closed by </{name}>"));
+            }
+        } else {
+            let name: String = tag
+                .chars()
+                .take_while(|c| !c.is_whitespace() && *c != '/')
+                .collect();
+            if tag.matches('"').count() % 2 != 0 {
+                return Err(format!("unbalanced quotes in <{name}>"));
+            }
+            if stack.is_empty() {
+                roots += 1;
+            }
+            if !tag.ends_with('/') {
+                stack.push(name);
+            }
+        }
+    }
+    if !stack.is_empty() {
+        return Err(format!("unclosed elements: {stack:?}"));
+    }
+    if roots != 1 {
+        return Err(format!("{roots} root elements"));
+    }
+    Ok(())
+}
