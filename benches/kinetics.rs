@@ -1,7 +1,8 @@
 //! Time per candidate: the melt-card kinetics alone, and the full chain
 //! composition → properties → melt → nose and critical cooling rate, at the
 //! default quadrature (≤ 0.1 % R_c error, see tests/kinetics_reference.rs), and
-//! the batch cost function the screen calls for every candidate.
+//! the batch cost function the screen calls for every candidate, and one chunk
+//! of the demo screen (candidates per second on all cores).
 //!
 //! Run: cargo bench --bench kinetics
 
@@ -80,6 +81,18 @@ fn benches(c: &mut Criterion) {
     let mut g = c.benchmark_group("batch");
     g.bench_function("cost_per_kg_glass_demo_shelf", |b| {
         b.iter(|| cost.cost_per_kg_glass(black_box(&comp)).unwrap())
+    });
+    g.finish();
+
+    // One 512-candidate chunk of the demo screen's space-filling pass, each
+    // candidate fully judged (properties, kinetics, batch cost, every limit),
+    // on all cores: candidates per second = 512 / time.
+    let plan = quenchwise::config::load(std::path::Path::new("configs/demo-screen.toml")).unwrap();
+    let simplex = quenchwise::screen::Simplex::new(&plan);
+    let mut g = c.benchmark_group("screen");
+    g.sample_size(20);
+    g.bench_function("demo_chunk_of_512_candidates_all_cores", |b| {
+        b.iter(|| quenchwise::screen::space_filling_chunk(&plan, &simplex, black_box(3)))
     });
     g.finish();
 }
