@@ -828,6 +828,7 @@ fn models(a: ModelArgs) -> Result<()> {
     writeln!(out, "description   {}", m.about.description)?;
     writeln!(out, "source        {}", m.about.source)?;
     writeln!(out, "date          {}", m.about.date)?;
+    writeln!(out, "units         {}", m.about.units)?;
     if m.about.invented {
         writeln!(
             out,

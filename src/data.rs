@@ -18,7 +18,7 @@ use serde::Deserialize;
 use std::collections::BTreeMap;
 use std::fmt;
 use std::ops::Range;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use toml::Spanned;
 
 /// The demo model set, embedded.
@@ -180,6 +180,7 @@ struct ViscosityFile {
     name: String,
     source: String,
     #[serde(default)]
+    #[allow(dead_code)]
     note: Option<String>,
     #[serde(default)]
     domain: BTreeMap<Spanned<String>, Spanned<[f64; 2]>>,
@@ -466,13 +467,13 @@ pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
     if !c.problems.is_empty() {
         return Err(src.error(c.problems, Some(hint.to_string())));
     }
-    let _ = &file.about.units;
     Ok(ModelSet {
         about: About {
             name: file.about.name,
             description: file.about.description,
             source: file.about.source,
             date: file.about.date,
+            units: file.about.units,
             invented: file.about.invented,
         },
         viscosity: viscosity.expect("no problems were recorded"),
@@ -557,7 +558,6 @@ fn viscosity_model(c: &mut Collector, v: &ViscosityFile) -> Option<ViscosityMode
             );
         }
     }
-    let _ = &v.note;
     form.map(|form| ViscosityModel {
         name: v.name.clone(),
         source: v.source.clone(),
@@ -775,10 +775,7 @@ pub fn parse_melt_card(
             }
         };
         src.error(
-            vec![src.problem(
-                span,
-                e.to_string().lines().next().unwrap_or_default().to_string(),
-            )],
+            vec![src.problem(span, crate::report::first_line(&e.to_string()))],
             e.to_string()
                 .lines()
                 .nth(1)
@@ -852,16 +849,6 @@ pub fn parse_recipe(src: &Source, tolerance: f64) -> Result<Composition, DataErr
                 .map(|h| h.trim_start_matches("hint: ").to_string()),
         )
     })
-}
-
-/// A path shown the way the user typed it.
-pub fn display_path(p: &Path) -> String {
-    p.display().to_string()
-}
-
-/// A path buffer from a string (for tests and the CLI).
-pub fn path(s: &str) -> PathBuf {
-    PathBuf::from(s)
 }
 
 impl fmt::Display for Problem {

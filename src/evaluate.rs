@@ -142,7 +142,7 @@ fn kinetic_part(
             Err(e) => {
                 warnings.push(format!(
                     "glassy thickness not computed: {}",
-                    e.to_string().lines().next().unwrap_or_default()
+                    crate::report::first_line(&e.to_string())
                 ));
                 None
             }

@@ -194,6 +194,8 @@ pub struct About {
     pub description: String,
     pub source: String,
     pub date: String,
+    /// The units the file states for its coefficients.
+    pub units: String,
     /// True when the coefficients are invented (demo data).
     pub invented: bool,
 }

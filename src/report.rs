@@ -10,6 +10,11 @@ pub const CAUTION: &str = "caution: melts at 1000-1600 °C and quenching (steam 
 (crystalline silica, boric acid, Ba/Pb compounds, Li2CO3) are health hazards. These are model estimates to shortlist \
 experiments: confirm glassiness by XRD/DSC and follow your lab's safety rules and licensed practice.";
 
+/// The first line of a message (the rest holds hints for terminals).
+pub fn first_line(s: &str) -> String {
+    s.lines().next().unwrap_or_default().to_string()
+}
+
 fn c(k: f64) -> f64 {
     k - crate::units::CELSIUS_OFFSET
 }
@@ -56,21 +61,12 @@ pub fn evaluation_text(e: &Evaluation) -> String {
     let mut o = String::new();
     let mv = if e.viscosity_extrapolated { "  !V" } else { "" };
     let ml = if e.liquidus_extrapolated { "  !L" } else { "" };
-    let mk = if e.viscosity_extrapolated || e.liquidus_extrapolated {
-        format!(
-            " {}{}",
-            if e.viscosity_extrapolated { "!V" } else { "" },
-            if e.liquidus_extrapolated { "!L" } else { "" }
-        )
-    } else {
-        String::new()
-    };
-    let mk = mk.trim_end().to_string();
-    let mk = if mk.is_empty() {
-        String::new()
-    } else {
-        format!(" {mk}")
-    };
+    // Lines that use both: the reduced glass transition and the kinetics.
+    let mk = format!(
+        "{}{}",
+        if mv.is_empty() { "" } else { "  !V" },
+        if ml.is_empty() { "" } else { "  !L" }
+    );
     if let Some(comp) = &e.composition_mol_pct {
         // In the program's oxide order, not alphabetical.
         let parts: Vec<String> = crate::composition::Oxide::ALL

@@ -253,13 +253,7 @@ pub fn evaluate_candidate(plan: &RunPlan, index: u64, pass: Pass, x: [f64; N_OXI
         Ok(e) => e,
         Err(err) => {
             c.violations.push((Limit::Evaluation, 1.0));
-            c.error = Some(
-                err.to_string()
-                    .lines()
-                    .next()
-                    .unwrap_or_default()
-                    .to_string(),
-            );
+            c.error = Some(crate::report::first_line(&err.to_string()));
             return c;
         }
     };
@@ -308,13 +302,7 @@ pub fn evaluate_candidate(plan: &RunPlan, index: u64, pass: Pass, x: [f64; N_OXI
             }
             Err(err) => {
                 c.violations.push((Limit::Cost, 1.0));
-                c.error = Some(
-                    err.to_string()
-                        .lines()
-                        .next()
-                        .unwrap_or_default()
-                        .to_string(),
-                );
+                c.error = Some(crate::report::first_line(&err.to_string()));
             }
         }
     }

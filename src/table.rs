@@ -242,19 +242,17 @@ pub fn evaluate_melt_table(
                     heterogeneous_nuclei_per_m3: pick(&nh, i),
                     contact_angle_deg: pick(&theta, i),
                 };
-                let (melt, opts) = values.build(base).map_err(|e| first_line(&e.to_string()))?;
+                let (melt, opts) = values
+                    .build(base)
+                    .map_err(|e| crate::report::first_line(&e.to_string()))?;
                 evaluate_melt(&melt, &opts, slab, &Calibration::None)
-                    .map_err(|e| first_line(&e.to_string()))
+                    .map_err(|e| crate::report::first_line(&e.to_string()))
             })();
             progress.row_done();
             r
         })
         .collect();
     Ok((df, results))
-}
-
-fn first_line(s: &str) -> String {
-    s.lines().next().unwrap_or_default().to_string()
 }
 
 /// Evaluate a table of compositions: one column per oxide (mol% or wt%), other
@@ -301,9 +299,9 @@ pub fn evaluate_composition_table(
                     .map(|(o, v)| (*o, v.get(i).copied().flatten().unwrap_or(0.0)))
                     .collect();
                 let comp = Composition::new(&pairs, basis, tolerance)
-                    .map_err(|e| first_line(&e.to_string()))?;
+                    .map_err(|e| crate::report::first_line(&e.to_string()))?;
                 evaluate_composition(models, &comp, opts, slab, &Calibration::None)
-                    .map_err(|e| first_line(&e.to_string()))
+                    .map_err(|e| crate::report::first_line(&e.to_string()))
             })();
             progress.row_done();
             r
