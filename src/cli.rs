@@ -32,7 +32,7 @@ pub struct Cli {
 #[allow(clippy::large_enum_variant)]
 #[derive(Debug, Subcommand)]
 pub enum Command {
-    /// Evaluate one composition, one melt card, or a table of either.
+    /// Evaluate one composition, one melt card, or a table of either
     ///
     /// Examples:
     ///   quenchwise eval --mol "SiO2=72 Na2O=14 CaO=10 Al2O3=4"
@@ -41,7 +41,7 @@ pub enum Command {
     ///   quenchwise eval --compositions demo-datasets/candidates.csv --out results.csv
     #[command(verbatim_doc_comment)]
     Eval(EvalArgs),
-    /// Search compositions for recipes that vitrify with your quench (overnight-safe).
+    /// Search compositions for recipes that vitrify with your quench (overnight-safe)
     ///
     /// Reads a screen config (see configs/demo-screen.toml), evaluates a
     /// space-filling set of candidates in parallel, refines the best, and
@@ -60,7 +60,7 @@ pub enum Command {
     /// it again (e.g. after --no-report). Images are embedded, so the file can
     /// be emailed and opened without network access.
     Report(ReportArgs),
-    /// Weigh-out sheet: the least-cost batch of raw materials for a glass.
+    /// Weigh-out sheet: the least-cost batch of raw materials for a glass
     ///
     /// Examples:
     ///   quenchwise batch --mol "SiO2=72 Na2O=14 CaO=10 Al2O3=4"

@@ -318,6 +318,12 @@ fn recipe_section(plan: &RunPlan, dir: &Path, l: &Listed) -> Result<String> {
 /// # Errors
 /// Missing or unreadable result files, or a config that no longer loads.
 pub fn write_report(dir: &Path) -> Result<PathBuf> {
+    if !dir.join("provenance.json").exists() {
+        anyhow::bail!(crate::cli::UsageError(format!(
+            "{} holds no screen results (no provenance.json)\nhint: give the --out folder of a finished `quenchwise screen` run",
+            dir.display()
+        )));
+    }
     let prov: serde_json::Value = serde_json::from_str(
         &std::fs::read_to_string(dir.join("provenance.json"))
             .with_context(|| format!("{} holds no screen results", dir.display()))?,

@@ -130,3 +130,11 @@ fn table_without_required_columns() {
         .code(2)
         .stderr_has("missing column 'c_k'");
 }
+
+#[test]
+fn report_on_a_folder_without_results() {
+    let d = temp_dir("err-report");
+    run_in(&d, &["report", "."])
+        .code(2)
+        .stderr_has("holds no screen results");
+}
