@@ -606,7 +606,7 @@ fn write_outputs(plan: &RunPlan, out: &Path, mut pool: Pools) -> Result<Outcome>
     if short.is_empty() {
         bail!(crate::cli::UsageError(format!(
             "no recipe meets every limit\n{}",
-            binding_text(&summary)
+            binding_text(&summary, true)
         )));
     }
     Ok(Outcome::Finished {
@@ -617,16 +617,18 @@ fn write_outputs(plan: &RunPlan, out: &Path, mut pool: Pools) -> Result<Outcome>
     })
 }
 
-fn binding_text(s: &screen::LimitSummary) -> String {
+fn binding_text(s: &screen::LimitSummary, with_hint: bool) -> String {
     let mut by: Vec<_> = s.by_limit.clone();
     by.sort_by_key(|e| std::cmp::Reverse(e.1));
     let mut t = String::from("limits that rejected candidates (breaking it / breaking only it):");
     for (l, any, only) in by {
         t.push_str(&format!("\n  {:<52} {any:>7} / {only:>7}", l.label()));
     }
-    t.push_str(
-        "\nhint: relax the limit that rejects most candidates alone, or widen the oxide ranges",
-    );
+    if with_hint {
+        t.push_str(
+            "\nhint: relax the limit that rejects most candidates alone, or widen the oxide ranges",
+        );
+    }
     t
 }
 
@@ -647,7 +649,7 @@ pub fn summary_text(plan: &RunPlan, s: &screen::LimitSummary, shortlisted: usize
         plan.allowed_rate().0,
         plan.furnace_max.to_celsius().0,
         plan.liquidus_max.to_celsius().0,
-        binding_text(s),
+        binding_text(s, false),
         crate::report::CAUTION
     )
 }
