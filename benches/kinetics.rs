@@ -10,20 +10,16 @@ use criterion::{criterion_group, criterion_main, Criterion};
 use quenchwise::composition::{Basis, Composition};
 use quenchwise::data::{parse_model_set, Source, DEMO_MODELS};
 use quenchwise::evaluate::{evaluate_composition, Calibration};
-use quenchwise::kinetics::{GrowthMode, Interface, KineticOptions, Kinetics, Melt, ViscosityCurve};
-use quenchwise::units::Kelvin;
+use quenchwise::kinetics::{KineticOptions, Kinetics, Melt};
 use std::hint::black_box;
 
+/// The shipped demo melt card (demo-datasets/melt-card.toml).
 fn card() -> Melt {
-    Melt::new(
-        ViscosityCurve::vft(-2.8, 4500.0, 480.0).unwrap(),
-        Kelvin(1300.0),
-        60000.0,
-        6.0e-5,
-        Interface::TurnbullAlpha(0.33),
-        GrowthMode::Normal,
-    )
-    .unwrap()
+    let text = std::fs::read_to_string("demo-datasets/melt-card.toml").unwrap();
+    let src = quenchwise::data::Source::new("demo-datasets/melt-card.toml", &text);
+    quenchwise::data::parse_melt_card(&src, &KineticOptions::default())
+        .unwrap()
+        .0
 }
 
 fn benches(c: &mut Criterion) {

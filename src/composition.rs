@@ -317,6 +317,31 @@ impl Composition {
         Self::new(&pairs, Basis::MolPercent, 1e-7)
     }
 
+    /// From mol% indexed like [`Oxide::ALL`] (as the screen computes them);
+    /// values a rounding error below zero (> −1e-9) count as zero.
+    ///
+    /// # Errors
+    /// As [`Composition::new`].
+    pub fn from_mol_percent_array(
+        x: &[f64; N_OXIDES],
+        tolerance: f64,
+    ) -> Result<Self, CompositionError> {
+        let pairs: Vec<(Oxide, f64)> = Oxide::ALL
+            .iter()
+            .map(|&o| {
+                (
+                    o,
+                    if x[o.index()] > -1e-9 {
+                        x[o.index()].max(0.0)
+                    } else {
+                        x[o.index()]
+                    },
+                )
+            })
+            .collect();
+        Self::new(&pairs, Basis::MolPercent, tolerance)
+    }
+
     /// Parse `"SiO2=72 Na2O=14 CaO=10"` (spaces, commas or semicolons between pairs).
     ///
     /// # Errors

@@ -2,7 +2,7 @@
 //! inline CSS, no scripts, no network) that says which recipes to melt first
 //! and why.
 
-use crate::composition::{Basis, Composition, Oxide};
+use crate::composition::{Composition, Oxide};
 use crate::config::{self, RunPlan};
 use crate::evaluate::{evaluate_composition, Calibration, Evaluation, SlabQuench};
 use crate::kinetics::Kinetics;
@@ -230,8 +230,11 @@ fn property_table(e: &Evaluation) -> String {
 }
 
 fn recipe_section(plan: &RunPlan, dir: &Path, l: &Listed) -> Result<String> {
-    let pairs: Vec<(Oxide, f64)> = l.mol_pct.iter().map(|&(o, v)| (o, v.max(0.0))).collect();
-    let comp = Composition::new(&pairs, Basis::MolPercent, 1e-3)?;
+    let mut x = [0.0; crate::composition::N_OXIDES];
+    for &(o, v) in &l.mol_pct {
+        x[o.index()] = v;
+    }
+    let comp = Composition::from_mol_percent_array(&x, 1e-3)?;
     let e = evaluate_composition(
         &plan.models,
         &comp,

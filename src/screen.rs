@@ -231,11 +231,7 @@ pub fn evaluate_candidate(plan: &RunPlan, index: u64, pass: Pass, x: [f64; N_OXI
         c.violations.push((Limit::CompositionLimits, off));
         return c;
     }
-    let pairs: Vec<(Oxide, f64)> = Oxide::ALL
-        .iter()
-        .map(|&o| (o, x[o.index()].max(0.0)))
-        .collect();
-    let comp = match Composition::new(&pairs, crate::composition::Basis::MolPercent, 1e-6) {
+    let comp = match Composition::from_mol_percent_array(&x, 1e-6) {
         Ok(c) => c,
         Err(e) => {
             c.violations.push((Limit::CompositionLimits, 1.0));

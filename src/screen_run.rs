@@ -10,7 +10,7 @@
 //! with other threads, ends with the same shortlist.
 
 use crate::batch::least_cost_batch;
-use crate::composition::{Basis, Composition, Oxide};
+use crate::composition::{Composition, Oxide};
 use crate::config::RunPlan;
 use crate::evaluate::{evaluate_composition, Calibration, SlabQuench};
 use crate::screen::{self, Row, Simplex};
@@ -526,11 +526,7 @@ fn write_outputs(plan: &RunPlan, out: &Path, mut pool: Pools) -> Result<Outcome>
     let sheets = out.join("batch-sheets");
     std::fs::create_dir_all(&sheets)?;
     for (i, r) in short.iter().enumerate() {
-        let pairs: Vec<(Oxide, f64)> = Oxide::ALL
-            .iter()
-            .map(|&o| (o, r.mol_pct[o.index()].max(0.0)))
-            .collect();
-        let comp = Composition::new(&pairs, Basis::MolPercent, 1e-6)?;
+        let comp = Composition::from_mol_percent_array(&r.composition(), 1e-6)?;
         let e = evaluate_composition(
             &plan.models,
             &comp,

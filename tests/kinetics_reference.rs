@@ -10,17 +10,9 @@ use quenchwise::tolerances::{CRITICAL_RATE_RTOL, ORACLE_RTOL};
 use quenchwise::units::{Kelvin, KelvinPerSecond};
 use std::f64::consts::PI;
 
-/// The melt-card example of the public card format (demo-datasets/melt-card.toml).
+/// The melt-card example of the public card format, read from demo-datasets/melt-card.toml.
 fn card() -> Melt {
-    Melt::new(
-        ViscosityCurve::vft(-2.8, 4500.0, 480.0).unwrap(),
-        Kelvin(1300.0),
-        60000.0,
-        6.0e-5,
-        Interface::TurnbullAlpha(0.33),
-        GrowthMode::Normal,
-    )
-    .unwrap()
+    crate::util::demo_card()
 }
 
 fn screw_hoffman() -> (Melt, KineticOptions) {

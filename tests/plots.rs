@@ -2,21 +2,12 @@
 //! readable message instead of panicking.
 
 use crate::util::{check_xml, root, run_in, temp_dir};
-use quenchwise::kinetics::{GrowthMode, Interface, KineticOptions, Kinetics, Melt, ViscosityCurve};
+use quenchwise::kinetics::{KineticOptions, Kinetics};
 use quenchwise::plot::{self, TradePoint};
-use quenchwise::units::{Kelvin, KelvinPerSecond};
+use quenchwise::units::KelvinPerSecond;
 
 fn card() -> Kinetics {
-    let m = Melt::new(
-        ViscosityCurve::vft(-2.8, 4500.0, 480.0).unwrap(),
-        Kelvin(1300.0),
-        60000.0,
-        6.0e-5,
-        Interface::TurnbullAlpha(0.33),
-        GrowthMode::Normal,
-    )
-    .unwrap();
-    Kinetics::new(&m, &KineticOptions::default()).unwrap()
+    Kinetics::new(&crate::util::demo_card(), &KineticOptions::default()).unwrap()
 }
 
 #[test]

@@ -156,3 +156,13 @@ pub fn check_xml(doc: &str) -> Result<(), String> {
     }
     Ok(())
 }
+
+/// The shipped demo melt card (demo-datasets/melt-card.toml), parsed.
+pub fn demo_card() -> quenchwise::kinetics::Melt {
+    let path = root().join("demo-datasets/melt-card.toml");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let src = quenchwise::data::Source::new(path.display().to_string(), &text);
+    quenchwise::data::parse_melt_card(&src, &Default::default())
+        .unwrap()
+        .0
+}
