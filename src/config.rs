@@ -393,9 +393,13 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, anyho
     }
     let rate = *raw.equipment.cooling_rate.get_ref();
     if !(rate.is_finite() && rate > 0.0) {
+        let unit = match raw.equipment.unit {
+            RateUnit::PerSecond => "K/s",
+            RateUnit::PerMinute => "K/min",
+        };
         push(
             raw.equipment.cooling_rate.span(),
-            format!("cooling_rate must be positive, got {rate}"),
+            format!("cooling_rate must be positive, got {rate} {unit}"),
         );
     }
     let safety = *raw.equipment.safety_factor.get_ref();
