@@ -135,17 +135,22 @@ fn string_column(df: &DataFrame, name: &str) -> Option<Vec<Option<String>>> {
     Some(ca.iter().map(|v| v.map(|s| s.to_string())).collect())
 }
 
-fn require(df: &DataFrame, path: &Path, name: &str) -> Result<Vec<Option<f64>>, TableError> {
-    float_column(df, name).ok_or_else(|| TableError::MissingColumn {
-        path: path.display().to_string(),
-        column: name.to_string(),
+/// The error for a missing column, listing the columns that are there.
+fn missing(df: &DataFrame, path: &str, column: &str) -> TableError {
+    TableError::MissingColumn {
+        path: path.to_string(),
+        column: column.to_string(),
         found: df
             .get_column_names()
             .iter()
             .map(|s| s.as_str())
             .collect::<Vec<_>>()
             .join(", "),
-    })
+    }
+}
+
+fn require(df: &DataFrame, path: &Path, name: &str) -> Result<Vec<Option<f64>>, TableError> {
+    float_column(df, name).ok_or_else(|| missing(df, &path.display().to_string(), name))
 }
 
 /// Evaluate a table of melt cards, one per row.
@@ -169,27 +174,14 @@ pub fn evaluate_melt_table(
     let alpha = float_column(&df, "turnbull_alpha");
     let sigma = float_column(&df, "interface_energy_j_per_m2");
     if alpha.is_none() && sigma.is_none() {
-        return Err(TableError::MissingColumn {
-            path: path.display().to_string(),
-            column: "turnbull_alpha (or interface_energy_j_per_m2)".into(),
-            found: df
-                .get_column_names()
-                .iter()
-                .map(|s| s.as_str())
-                .collect::<Vec<_>>()
-                .join(", "),
-        });
+        return Err(missing(
+            &df,
+            &path.display().to_string(),
+            "turnbull_alpha (or interface_energy_j_per_m2)",
+        ));
     }
-    let growth = string_column(&df, "growth").ok_or_else(|| TableError::MissingColumn {
-        path: path.display().to_string(),
-        column: "growth".into(),
-        found: df
-            .get_column_names()
-            .iter()
-            .map(|s| s.as_str())
-            .collect::<Vec<_>>()
-            .join(", "),
-    })?;
+    let growth = string_column(&df, "growth")
+        .ok_or_else(|| missing(&df, &path.display().to_string(), "growth"))?;
     let xc = float_column(&df, "detectable_fraction");
     let df_kind = string_column(&df, "driving_force");
     let nh = float_column(&df, "heterogeneous_nuclei_per_m3");
@@ -467,11 +459,7 @@ pub fn read_raw_materials(
     }
     for need in ["name", "price_per_kg"] {
         if !names.iter().any(|n| n == need) {
-            return Err(TableError::MissingColumn {
-                path: label,
-                column: need.into(),
-                found: names.join(", "),
-            });
+            return Err(missing(&df, &label, need));
         }
     }
     let name = string_column(&df, "name").unwrap_or_default();
