@@ -431,20 +431,38 @@ fn screen(a: ScreenArgs) -> Result<()> {
     }
 }
 
+/// One composition from --mol, --wt or --recipe (the caller checked that exactly one is given).
+fn composition_input(
+    mol: Option<&str>,
+    wt: Option<&str>,
+    recipe: Option<&Path>,
+    tolerance: f64,
+) -> Result<Composition> {
+    Ok(match (mol, wt, recipe) {
+        (Some(t), _, _) => {
+            Composition::parse(t, Basis::MolPercent, tolerance).context("in --mol")?
+        }
+        (None, Some(t), _) => {
+            Composition::parse(t, Basis::WtPercent, tolerance).context("in --wt")?
+        }
+        (None, None, Some(p)) => {
+            let text = data::read_text(p)?;
+            data::parse_recipe(&Source::new(p.display().to_string(), &text), tolerance)?
+        }
+        (None, None, None) => bail!(UsageError(
+            "give a composition with --mol, --wt or --recipe".into()
+        )),
+    })
+}
+
 fn batch(a: BatchArgs) -> Result<()> {
     use crate::batch::{least_cost_batch, BatchSettings};
-    let glass = if let Some(t) = &a.mol {
-        Composition::parse(t, Basis::MolPercent, a.sum_tolerance).context("in --mol")?
-    } else if let Some(t) = &a.wt {
-        Composition::parse(t, Basis::WtPercent, a.sum_tolerance).context("in --wt")?
-    } else {
-        let p = a.recipe.as_ref().expect("clap requires one input");
-        let text = data::read_text(p)?;
-        data::parse_recipe(
-            &Source::new(p.display().to_string(), &text),
-            a.sum_tolerance,
-        )?
-    };
+    let glass = composition_input(
+        a.mol.as_deref(),
+        a.wt.as_deref(),
+        a.recipe.as_deref(),
+        a.sum_tolerance,
+    )?;
     if !(a.glass_kg.is_finite() && a.glass_kg > 0.0) {
         bail!(UsageError(format!(
             "--glass-kg must be positive, got {} kg",
@@ -656,19 +674,8 @@ fn eval(a: EvalArgs) -> Result<()> {
         let melt = melt.with_interface(crate::kinetics::Interface::TurnbullAlpha(e.turnbull_alpha));
         (e, Kinetics::new(&melt, &opts)?)
     } else {
-        let comp = if let Some(t) = &a.mol {
-            Composition::parse(t, Basis::MolPercent, a.sum_tolerance).context("in --mol")?
-        } else if let Some(t) = a.wt_text.as_deref().filter(|t| !t.is_empty()) {
-            Composition::parse(t, Basis::WtPercent, a.sum_tolerance).context("in --wt")?
-        } else if let Some(p) = &a.recipe {
-            let text = data::read_text(p)?;
-            data::parse_recipe(
-                &Source::new(p.display().to_string(), &text),
-                a.sum_tolerance,
-            )?
-        } else {
-            bail!(UsageError("--wt without a value reads --compositions tables as wt%; give a composition or a table".into()));
-        };
+        let wt = a.wt_text.as_deref().filter(|t| !t.is_empty());
+        let comp = composition_input(a.mol.as_deref(), wt, a.recipe.as_deref(), a.sum_tolerance)?;
         let models = load_models(a.models.as_deref(), a.viscosity_model.as_deref())?;
         let opts = kinetic_overrides(&a, KineticOptions::default());
         let e = evaluate_composition(&models, &comp, &opts, slab, &cal)?;
