@@ -546,24 +546,31 @@ pub fn distinct_rows(
     out
 }
 
-/// Tally limits over stored rows: (evaluated, feasible, per-limit (any, only)).
-pub fn summarise_rows(rows: &[Row]) -> LimitSummary {
-    let mut s = LimitSummary {
-        evaluated: rows.len(),
-        ..Default::default()
-    };
-    s.evaluations = rows.iter().map(|r| r.evaluations).sum();
-    s.feasible = rows.iter().filter(|r| r.feasible).count();
-    for l in Limit::ALL {
-        let label = l.label();
-        let any = rows
-            .iter()
-            .filter(|r| r.broken.split("; ").any(|b| b == label))
-            .count();
-        let only = rows.iter().filter(|r| r.broken == label).count();
-        if any > 0 {
-            s.by_limit.push((l, any, only));
+impl LimitSummary {
+    /// Count one stored row: evaluated, feasible, and each limit it breaks
+    /// (alone or with others). Limits stay in [`Limit::ALL`] order.
+    pub fn add(&mut self, r: &Row) {
+        self.evaluated += 1;
+        self.evaluations += r.evaluations;
+        if r.feasible {
+            self.feasible += 1;
+        }
+        for l in Limit::ALL {
+            let label = l.label();
+            if !r.broken.split("; ").any(|b| b == label) {
+                continue;
+            }
+            let only = usize::from(r.broken == label);
+            match self.by_limit.iter_mut().find(|e| e.0 == l) {
+                Some(e) => {
+                    e.1 += 1;
+                    e.2 += only;
+                }
+                None => {
+                    self.by_limit.push((l, 1, only));
+                    self.by_limit.sort_by_key(|e| e.0);
+                }
+            }
         }
     }
-    s
 }

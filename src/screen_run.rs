@@ -318,7 +318,6 @@ struct Pools {
     by_objective: Vec<Row>,
     by_penalty: Vec<Row>,
     tally: screen::LimitSummary,
-    tally_rows: Vec<Row>,
 }
 
 impl Pools {
@@ -332,19 +331,11 @@ impl Pools {
             by_objective: Vec::new(),
             by_penalty: Vec::new(),
             tally: Default::default(),
-            tally_rows: Vec::new(),
         }
     }
 
     fn add(&mut self, mut r: Row) {
-        // The tally is kept as counts: fold rows in batches.
-        self.tally_rows.push(Row {
-            warnings: String::new(),
-            ..r.clone()
-        });
-        if self.tally_rows.len() >= 4096 {
-            self.fold();
-        }
+        self.tally.add(&r);
         r.warnings = String::new();
         if r.feasible {
             push_bounded(&mut self.by_objective, r.clone(), self.keep, |r| {
@@ -354,24 +345,6 @@ impl Pools {
         push_bounded(&mut self.by_penalty, r, self.keep, |r| {
             r.penalised.unwrap_or(f64::INFINITY)
         });
-    }
-
-    fn fold(&mut self) {
-        let s = screen::summarise_rows(&self.tally_rows);
-        self.tally.evaluated += s.evaluated;
-        self.tally.evaluations += s.evaluations;
-        self.tally.feasible += s.feasible;
-        for (l, any, only) in s.by_limit {
-            match self.tally.by_limit.iter_mut().find(|e| e.0 == l) {
-                Some(e) => {
-                    e.1 += any;
-                    e.2 += only;
-                }
-                None => self.tally.by_limit.push((l, any, only)),
-            }
-        }
-        self.tally.by_limit.sort_by_key(|e| e.0);
-        self.tally_rows.clear();
     }
 }
 
@@ -459,8 +432,7 @@ fn rows_frame(plan: &RunPlan, rows: &[&Row], with_rank: bool) -> PolarsResult<Da
     DataFrame::new_infer_height(cols)
 }
 
-fn write_outputs(plan: &RunPlan, out: &Path, mut pool: Pools) -> Result<Outcome> {
-    pool.fold();
+fn write_outputs(plan: &RunPlan, out: &Path, pool: Pools) -> Result<Outcome> {
     let summary = pool.tally.clone();
     let picked = screen::distinct_rows(
         &pool.by_objective,
