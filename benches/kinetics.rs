@@ -7,17 +7,18 @@
 //! Run: cargo bench --bench kinetics
 
 use criterion::{criterion_group, criterion_main, Criterion};
+use quenchwise::assess::{evaluate_composition, Calibration};
 use quenchwise::composition::{Basis, Composition};
-use quenchwise::data::{parse_model_set, Source, DEMO_MODELS};
-use quenchwise::evaluate::{evaluate_composition, Calibration};
+use quenchwise::files::model_set::{parse_model_set, DEMO_MODELS};
+use quenchwise::files::source::Source;
 use quenchwise::kinetics::{KineticOptions, Kinetics, Melt};
 use std::hint::black_box;
 
 /// The shipped demo melt card (demo-datasets/melt-card.toml).
 fn card() -> Melt {
     let text = std::fs::read_to_string("demo-datasets/melt-card.toml").unwrap();
-    let src = quenchwise::data::Source::new("demo-datasets/melt-card.toml", &text);
-    quenchwise::data::parse_melt_card(&src, &KineticOptions::default())
+    let src = quenchwise::files::source::Source::new("demo-datasets/melt-card.toml", &text);
+    quenchwise::files::melt_card::parse_melt_card(&src, &KineticOptions::default())
         .unwrap()
         .0
 }
@@ -51,7 +52,7 @@ fn benches(c: &mut Criterion) {
     g.bench_function("properties_nose_and_critical_rate", |b| {
         b.iter(|| {
             let p = models.properties(black_box(&comp)).unwrap();
-            let melt = models.melt(&p).unwrap();
+            let melt = quenchwise::assess::primary_melt(&models, &p).unwrap();
             Kinetics::new(&melt, &opts).unwrap().analyse().unwrap()
         })
     });
@@ -71,7 +72,7 @@ fn benches(c: &mut Criterion) {
 
     // Cost of the least-cost batch per kg of glass, demo shelf (17 raw materials).
     let cost = quenchwise::batch::CostModel {
-        raws: quenchwise::table::read_raw_materials(None).unwrap(),
+        raws: quenchwise::files::raw_materials::read_raw_materials(None).unwrap(),
         settings: Default::default(),
     };
     let mut g = c.benchmark_group("batch");
@@ -83,12 +84,21 @@ fn benches(c: &mut Criterion) {
     // One 512-candidate chunk of the demo screen's space-filling pass, each
     // candidate fully judged (properties, kinetics, batch cost, every limit),
     // on all cores: candidates per second = 512 / time.
-    let plan = quenchwise::config::load(std::path::Path::new("configs/demo-screen.toml")).unwrap();
-    let simplex = quenchwise::screen::Simplex::new(&plan);
+    let plan =
+        quenchwise::files::screen_config::load(std::path::Path::new("configs/demo-screen.toml"))
+            .unwrap();
+    let simplex = quenchwise::screen::Simplex::new(&plan.problem);
     let mut g = c.benchmark_group("screen");
     g.sample_size(20);
     g.bench_function("demo_chunk_of_512_candidates_all_cores", |b| {
-        b.iter(|| quenchwise::screen::space_filling_chunk(&plan, &simplex, black_box(3)))
+        b.iter(|| {
+            quenchwise::screen::space_filling_chunk(
+                &plan.problem,
+                &plan.search,
+                &simplex,
+                black_box(3),
+            )
+        })
     });
     g.finish();
 }

@@ -1,24 +1,35 @@
 //! quenchwise: predict whether oxide melts vitrify with the quench at hand.
 //!
-//! Numeric core, free of I/O: [`units`], [`composition`], [`quadrature`],
-//! [`kinetics`], [`models`] and [`evaluate`]. Around it: [`data`] (model
-//! files, melt cards, recipes), [`table`] (CSV/Parquet through polars),
-//! [`report`] (text) and [`cli`].
+//! The modules read in the order the data flows; each imports only the ones
+//! above it in this list (a test in `tests/layers.rs` keeps it so):
+//!
+//! - [`units`], [`error`], [`numeric`]: SI newtypes and constants, the one
+//!   error type, scalar solvers;
+//! - [`composition`]: oxides, IUPAC 2021 masses, mol% ↔ wt%;
+//! - [`properties`]: mixture models, viscosity, liquidus surfaces, model sets;
+//! - [`kinetics`]: nucleation, growth, TTT, critical cooling rate;
+//! - [`assess`]: the whole chain for one candidate;
+//! - [`batch`]: raw materials and the least-cost batch;
+//! - [`screen`]: the search under the user's limits;
+//! - [`report`]: text, table columns, pictures, the HTML report;
+//! - [`files`]: every file format and the screen's output folder.
+//!
+//! Everything up to [`report`] is free of I/O. The command line (`cli`) and
+//! one handler per command (`app`) live in the binary.
 
+pub mod assess;
 pub mod batch;
-pub mod cli;
 pub mod composition;
-pub mod config;
-pub mod data;
-pub mod evaluate;
+pub mod error;
+pub mod files;
 pub mod kinetics;
-pub mod models;
-pub mod plot;
-pub mod quadrature;
+pub(crate) mod numeric;
+pub mod properties;
 pub mod report;
-pub mod report_html;
 pub mod screen;
-pub mod screen_run;
-pub mod table;
-pub mod tolerances;
 pub mod units;
+
+/// The tests' named tolerances, one file shared with the integration tests.
+#[cfg(test)]
+#[path = "../tests/tolerances.rs"]
+mod tolerances;

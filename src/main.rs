@@ -1,21 +1,29 @@
-//! quenchwise binary: parse the command line, run, print the error chain once,
-//! and set the exit code (0 fine, 2 bad input, 1 internal error).
+//! quenchwise binary: parse the command line, run the command, print an
+//! error (with its hint) once, and turn the outcome into the exit code:
+//! 0 finished, 1 internal error, 2 bad input or nothing feasible, 130 stopped.
+
+mod app;
+mod cli;
 
 use clap::Parser;
+use quenchwise::error::ErrorKind;
+use std::process::ExitCode;
 
-fn main() {
-    let cli = quenchwise::cli::Cli::parse();
-    if let Err(err) = quenchwise::cli::run(cli) {
-        let mut msg = String::new();
-        for (k, cause) in err.chain().enumerate() {
-            let text = cause.to_string();
-            if k == 0 {
-                msg.push_str(&text);
-            } else if !msg.contains(&text) {
-                msg.push_str(&format!(": {text}"));
+fn main() -> ExitCode {
+    let cli = cli::Cli::parse();
+    match app::run(cli) {
+        Ok(app::Outcome::Finished) => ExitCode::SUCCESS,
+        Ok(app::Outcome::Interrupted) => ExitCode::from(130),
+        Ok(app::Outcome::NothingFeasible) => ExitCode::from(2),
+        Err(err) => {
+            eprintln!("quenchwise: {err}");
+            if let Some(h) = err.hint() {
+                eprintln!("hint: {h}");
+            }
+            match err.kind() {
+                ErrorKind::BadInput => ExitCode::from(2),
+                ErrorKind::Internal => ExitCode::from(1),
             }
         }
-        eprintln!("quenchwise: {msg}");
-        std::process::exit(quenchwise::cli::exit_code(&err));
     }
 }

@@ -11,6 +11,18 @@ use std::fmt;
 /// Offset between the Celsius and Kelvin scales (exact, SI Brochure 9th ed., 2019).
 pub const CELSIUS_OFFSET: f64 = 273.15;
 
+/// Avogadro constant in 1/mol (exact, SI 2019).
+pub const AVOGADRO: f64 = 6.022_140_76e23;
+/// Boltzmann constant in J/K (exact, SI 2019).
+pub const BOLTZMANN: f64 = 1.380_649e-23;
+/// Molar gas constant in J/(mol K) = N_A k_B (exact, SI 2019).
+pub const GAS_CONSTANT: f64 = AVOGADRO * BOLTZMANN;
+
+/// A temperature in kelvin, given as a bare number, in degrees Celsius.
+pub fn kelvin_to_celsius(k: f64) -> f64 {
+    k - CELSIUS_OFFSET
+}
+
 /// An absolute temperature in kelvin.
 #[derive(Debug, Clone, Copy, PartialEq, PartialOrd, serde::Serialize)]
 pub struct Kelvin(pub f64);
@@ -65,14 +77,12 @@ impl KelvinPerSecond {
 }
 
 /// A rate unit a user may type.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum, serde::Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Deserialize)]
 pub enum RateUnit {
     /// kelvin per second
-    #[value(name = "K/s")]
     #[serde(rename = "K/s")]
     PerSecond,
     /// kelvin per minute
-    #[value(name = "K/min")]
     #[serde(rename = "K/min")]
     PerMinute,
 }
@@ -83,6 +93,14 @@ impl RateUnit {
         match self {
             RateUnit::PerSecond => KelvinPerSecond(value),
             RateUnit::PerMinute => KelvinPerSecond::from_per_minute(value),
+        }
+    }
+
+    /// The unit as it is written: "K/s" or "K/min".
+    pub fn symbol(self) -> &'static str {
+        match self {
+            RateUnit::PerSecond => "K/s",
+            RateUnit::PerMinute => "K/min",
         }
     }
 }

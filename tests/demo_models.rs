@@ -2,11 +2,12 @@
 //! against what the trade knows about soda-lime glass formation.
 
 use crate::util::rel;
+use quenchwise::assess::{evaluate_composition, Calibration};
 use quenchwise::composition::{Basis, Composition};
-use quenchwise::data::{parse_model_set, Source, DEMO_MODELS};
-use quenchwise::evaluate::{evaluate_composition, Calibration};
+use quenchwise::files::model_set::{parse_model_set, DEMO_MODELS};
+use quenchwise::files::source::Source;
 use quenchwise::kinetics::KineticOptions;
-use quenchwise::models::{fixpoints, ModelSet};
+use quenchwise::properties::{fixpoints, ModelSet};
 use quenchwise::units::Celsius;
 
 fn demo() -> ModelSet {

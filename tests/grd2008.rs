@@ -1,8 +1,9 @@
 //! The Giordano–Russell–Dingwell (2008) viscosity model and its validity guard.
 
 use quenchwise::composition::{Basis, Composition};
-use quenchwise::data::{parse_viscosity_model, Source, GRD2008_VISCOSITY};
-use quenchwise::kinetics::ViscosityCurve;
+use quenchwise::files::model_set::{parse_viscosity_model, GRD2008_VISCOSITY};
+use quenchwise::files::source::Source;
+use quenchwise::properties::ViscosityCurve;
 use quenchwise::units::{Kelvin, Log10PaS};
 
 /// Source: shared/reference §1.1, regression values [DER] computed from the 2-decimal

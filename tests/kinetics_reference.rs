@@ -1,12 +1,14 @@
 //! The kinetics against closed forms, an independent implementation, a dense
 //! oracle, and the identities of SCIENCE.md §3.
 
+use crate::oracle::dense_reference_critical_rate;
+use crate::tolerances::{CRITICAL_RATE_RTOL, ORACLE_RTOL};
 use crate::util::rel;
 use quenchwise::kinetics::{
-    dense_reference_critical_rate, extended_fraction_constant_rate, DrivingForce, GrowthMode,
-    Interface, KineticOptions, Kinetics, Melt, QuadratureSettings, Rates, ViscosityCurve,
+    extended_fraction_constant_rate, DrivingForce, KineticOptions, Kinetics, Melt,
+    QuadratureSettings, Rates,
 };
-use quenchwise::tolerances::{CRITICAL_RATE_RTOL, ORACLE_RTOL};
+use quenchwise::properties::{GrowthMode, Interface, ViscosityCurve};
 use quenchwise::units::{Kelvin, KelvinPerSecond};
 use std::f64::consts::PI;
 
@@ -397,4 +399,12 @@ fn heterogeneous_nuclei_raise_the_critical_rate() {
         assert!(rc >= last, "{nh}: {rc} < {last}");
         last = rc;
     }
+}
+
+#[test]
+fn adaptive_quadrature_matches_dense_oracle() {
+    let k = Kinetics::new(&card(), &KineticOptions::default()).unwrap();
+    let fast = k.critical_rate().unwrap().0;
+    let slow = dense_reference_critical_rate(&k, 400_000);
+    assert!(rel(fast, slow) < ORACLE_RTOL, "{fast} vs {slow}");
 }

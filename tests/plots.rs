@@ -3,7 +3,7 @@
 
 use crate::util::{check_xml, root, run_in, temp_dir};
 use quenchwise::kinetics::{KineticOptions, Kinetics};
-use quenchwise::plot::{self, TradePoint};
+use quenchwise::report::plot::{self, TradePoint};
 use quenchwise::units::KelvinPerSecond;
 
 fn card() -> Kinetics {

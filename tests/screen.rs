@@ -2,11 +2,11 @@
 //! configs, determinism across thread counts, interrupt and resume, bad configs.
 
 use crate::util::{run_in, temp_dir};
+use quenchwise::assess::{evaluate_composition, Calibration};
 use quenchwise::composition::{Basis, Composition};
-use quenchwise::config::{self, RunPlan};
-use quenchwise::evaluate::{evaluate_composition, Calibration};
+use quenchwise::files::run_folder::{run, Outcome, ScreenOptions};
+use quenchwise::files::screen_config::{self as config, RunPlan};
 use quenchwise::screen::{self, Pass, Simplex};
-use quenchwise::screen_run::{run, Outcome, ScreenOptions};
 use std::path::{Path, PathBuf};
 
 const SMALL: &str = r#"
@@ -51,13 +51,7 @@ fn write_config(dir: &Path, text: &str) -> PathBuf {
 }
 
 fn opts(out: PathBuf) -> ScreenOptions {
-    ScreenOptions {
-        out,
-        resume: false,
-        force: false,
-        stop_after_chunks: None,
-        progress: false,
-    }
+    ScreenOptions::new(out)
 }
 
 fn plan(dir: &Path, text: &str) -> RunPlan {
@@ -77,7 +71,8 @@ fn every_shortlisted_recipe_meets_every_limit_when_re_evaluated() {
         serde_json::from_str(&std::fs::read_to_string(out.join("shortlist.json")).unwrap())
             .unwrap();
     assert!(!short.is_empty());
-    let (cost_model, max_cost, _) = p.cost.as_ref().unwrap();
+    let cost = p.problem.cost.as_ref().unwrap();
+    let (cost_model, max_cost) = (&cost.model, &cost.max_per_kg);
     for r in &short {
         let text = format!(
             "SiO2={} Na2O={} CaO={} Al2O3={}",
@@ -85,8 +80,14 @@ fn every_shortlisted_recipe_meets_every_limit_when_re_evaluated() {
         );
         let c = Composition::parse(&text, Basis::MolPercent, 1e-6).unwrap();
         // Independent re-evaluation through the public chain, not the screen's code.
-        let e = evaluate_composition(&p.models, &c, &p.kinetic_options, None, &Calibration::None)
-            .unwrap();
+        let e = evaluate_composition(
+            &p.problem.models,
+            &c,
+            &p.problem.kinetic_options,
+            None,
+            &Calibration::None,
+        )
+        .unwrap();
         assert!(
             e.critical_rate_k_per_s <= 20.0 / 10.0,
             "{text}: R_c {}",
@@ -150,13 +151,13 @@ size = 1
 "#;
     let d = temp_dir("screen-grid");
     let p = plan(&d, text);
-    let s = Simplex::new(&p);
+    let s = Simplex::new(&p.problem);
     let mut grid_best = f64::INFINITY;
     let mut grid_evals = 0;
     for i in 0..=60 {
         for j in 0..=60 {
             let free = [12.0 + 0.1 * i as f64, 8.0 + 0.1 * j as f64];
-            let c = screen::evaluate_candidate(&p, 0, Pass::SpaceFilling, s.compose(&free));
+            let c = screen::evaluate_candidate(&p.problem, 0, Pass::SpaceFilling, s.compose(&free));
             grid_evals += 1;
             if c.feasible() {
                 grid_best = grid_best.min(c.objective);

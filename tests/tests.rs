@@ -1,5 +1,7 @@
 //! Integration tests, built into one binary so polars links once.
 
+mod oracle;
+mod tolerances;
 mod util;
 
 mod cli_batch;
@@ -8,6 +10,7 @@ mod cli_eval;
 mod demo_models;
 mod grd2008;
 mod kinetics_reference;
+mod layers;
 mod plots;
 mod report_browser;
 mod screen;

@@ -161,8 +161,8 @@ pub fn check_xml(doc: &str) -> Result<(), String> {
 pub fn demo_card() -> quenchwise::kinetics::Melt {
     let path = root().join("demo-datasets/melt-card.toml");
     let text = std::fs::read_to_string(&path).unwrap();
-    let src = quenchwise::data::Source::new(path.display().to_string(), &text);
-    quenchwise::data::parse_melt_card(&src, &Default::default())
+    let src = quenchwise::files::source::Source::new(path.display().to_string(), &text);
+    quenchwise::files::melt_card::parse_melt_card(&src, &Default::default())
         .unwrap()
         .0
 }

@@ -1,0 +1,298 @@
+//! `quenchwise eval`: one composition or melt card (a table, JSON, a TTT
+//! curve, a picture), or a whole table of either evaluated in parallel.
+
+use super::input;
+use super::models::load_models;
+use super::progress::Progress;
+use super::{threads, Outcome};
+use crate::cli::EvalArgs;
+use polars::prelude::{DataFrame, DataType};
+use quenchwise::assess::{
+    evaluate_composition, evaluate_melt, Calibration, Evaluation, SlabQuench,
+};
+use quenchwise::composition::{Basis, Composition};
+use quenchwise::error::{Error, ResultExt};
+use quenchwise::files::melt_card::parse_melt_card;
+use quenchwise::files::source::{read_text, Source};
+use quenchwise::files::table::{
+    append_results, read_composition_table, read_melt_table, write_frame, Table,
+};
+use quenchwise::kinetics::{DrivingForce, KineticOptions, KineticOverrides, Kinetics};
+use quenchwise::report::{plot, sig, text::evaluation_text, CAUTION};
+use quenchwise::units::{Celsius, RateUnit};
+use rayon::prelude::*;
+use std::io::Write;
+use std::path::Path;
+
+/// The kinetic options given on the command line.
+fn overrides(a: &EvalArgs) -> KineticOverrides {
+    KineticOverrides {
+        detectable_fraction: a.detectable_fraction,
+        driving_force: a.driving_force.as_deref().map(|v| {
+            if v == "hoffman" {
+                DrivingForce::Hoffman
+            } else {
+                DrivingForce::Turnbull
+            }
+        }),
+        heterogeneous_nuclei_per_m3: a.nuclei_per_m3,
+        contact_angle_deg: a.contact_angle_deg,
+    }
+}
+
+fn write_stdout(text: &str) -> Result<(), Error> {
+    std::io::stdout()
+        .lock()
+        .write_all(text.as_bytes())
+        .map_err(|e| Error::internal(format!("writing to stdout: {e}")))
+}
+
+pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
+    if let Some(n) = threads(a.threads)? {
+        // The global pool can be built once per process; a second build keeps the first.
+        let _ = rayon::ThreadPoolBuilder::new()
+            .num_threads(n)
+            .build_global();
+    }
+    if !(a.melt_diffusivity > 0.0 && a.melt_diffusivity.is_finite()) {
+        return Err(Error::bad_input(format!(
+            "--melt-diffusivity must be positive, got {} m²/s",
+            a.melt_diffusivity
+        )));
+    }
+    let slab = Some(SlabQuench {
+        surface: Celsius(a.quench_surface_c).to_kelvin(),
+        diffusivity_m2_per_s: a.melt_diffusivity,
+    });
+    let rate_unit: RateUnit = a.rate_unit.into();
+    let cal = match (a.calibrate_rate, a.calibrate_nose_time_s) {
+        (Some(r), _) => Calibration::ToCriticalRate(rate_unit.to_si(r)),
+        (None, Some(t)) => Calibration::ToNoseTime(t),
+        _ => Calibration::None,
+    };
+    let wt_table = a.wt_text.as_deref() == Some("");
+    let inputs = [
+        a.mol.is_some(),
+        a.wt_text.as_deref().is_some_and(|t| !t.is_empty()),
+        a.recipe.is_some(),
+        a.melt.is_some(),
+        a.melts.is_some(),
+        a.compositions.is_some(),
+    ];
+    if inputs.iter().filter(|&&b| b).count() != 1 {
+        return Err(Error::bad_input(
+            "give exactly one input: --mol, --wt, --recipe, --melt, --melts or --compositions",
+        ));
+    }
+    if wt_table && a.compositions.is_none() {
+        return Err(Error::bad_input("--wt without a value reads --compositions tables as wt%; give a composition or a table"));
+    }
+    let table_out = || {
+        a.out
+            .as_deref()
+            .ok_or_else(|| Error::bad_input("a table input needs --out FILE (.csv or .parquet)"))
+    };
+    if let Some(p) = &a.melts {
+        if a.json || a.ttt.is_some() || a.plot.is_some() {
+            return Err(Error::bad_input(
+                "--json, --ttt and --plot apply to one melt or composition, not to --melts",
+            ));
+        }
+        let out = table_out()?;
+        let table = read_melt_table(p)?;
+        let base = overrides(&a).apply(KineticOptions::default());
+        return evaluate_table(table, out, |values| {
+            let (melt, opts) = values.build(&base).map_err(|e| e.to_string())?;
+            evaluate_melt(&melt, &opts, slab, &Calibration::None).map_err(|e| e.to_string())
+        });
+    }
+    if let Some(p) = &a.compositions {
+        let out = table_out()?;
+        let models = load_models(a.models.as_deref(), a.viscosity_model.as_deref())?;
+        let basis = if wt_table {
+            Basis::WtPercent
+        } else {
+            Basis::MolPercent
+        };
+        let opts = overrides(&a).apply(KineticOptions::default());
+        let (table, other) = read_composition_table(p)?;
+        if !other.is_empty() {
+            eprintln!(
+                "quenchwise: columns not read as oxides (passed through): {}",
+                other.join(", ")
+            );
+        }
+        let tolerance = a.sum_tolerance;
+        return evaluate_table(table, out, |pairs| {
+            let comp = Composition::new(pairs, basis, tolerance).map_err(|e| e.to_string())?;
+            evaluate_composition(&models, &comp, &opts, slab, &Calibration::None)
+                .map_err(|e| e.to_string())
+        });
+    }
+    if a.out.is_some() {
+        return Err(Error::bad_input(
+            "--out writes tables: use it with --melts or --compositions",
+        ));
+    }
+    let evaluation = if let Some(p) = &a.melt {
+        let text = read_text(p)?;
+        let (melt, card_opts) = parse_melt_card(
+            &Source::new(p.display().to_string(), &text),
+            &KineticOptions::default(),
+        )?;
+        let opts = overrides(&a).apply(card_opts);
+        evaluate_melt(&melt, &opts, slab, &cal)
+            .with_context(|| format!("evaluating {}", p.display()))?
+    } else {
+        let wt = a.wt_text.as_deref().filter(|t| !t.is_empty());
+        let comp = input::composition(a.mol.as_deref(), wt, a.recipe.as_deref(), a.sum_tolerance)?;
+        let models = load_models(a.models.as_deref(), a.viscosity_model.as_deref())?;
+        let opts = overrides(&a).apply(KineticOptions::default());
+        evaluate_composition(&models, &comp, &opts, slab, &cal)?
+    };
+    let kinetics = evaluation.kinetics()?;
+    if let Some(p) = &a.ttt {
+        write_ttt(p, &kinetics)?;
+    }
+    if let Some(p) = &a.plot {
+        let svg = plot::ttt_svg(&kinetics, &evaluation.kinetic_summary, None, "TTT diagram");
+        write_file(p, svg.as_bytes())?;
+    }
+    if a.json {
+        let json = serde_json::to_string_pretty(&evaluation)
+            .map_err(|e| Error::internal(format!("writing JSON: {e}")))?;
+        write_stdout(&(json + "\n"))?;
+    } else {
+        let mut text = evaluation_text(&evaluation);
+        if matches!(
+            cal,
+            Calibration::ToCriticalRate(_) | Calibration::ToNoseTime(_)
+        ) {
+            text.push_str(&format!(
+                "\nto keep this calibration, set turnbull_alpha = {:.5} (and calibrated_against = \"...\") in your model set or melt card\n",
+                evaluation.turnbull_alpha
+            ));
+        }
+        write_stdout(&text)?;
+    }
+    Ok(Outcome::Finished)
+}
+
+/// Evaluate every row of a table in parallel (output order = input order),
+/// print a summary, and write the table with the results appended.
+fn evaluate_table<T: Sync>(
+    table: Table<T>,
+    out: &Path,
+    evaluate: impl Fn(&T) -> Result<Evaluation, String> + Sync,
+) -> Result<Outcome, Error> {
+    let progress = Progress::new("", "rows", table.rows.len(), 0, false);
+    let results: Vec<Result<Evaluation, String>> = table
+        .rows
+        .par_iter()
+        .map(|row| {
+            let r = row.as_ref().map_err(Clone::clone).and_then(&evaluate);
+            progress.inc();
+            r
+        })
+        .collect();
+    progress.finish();
+    let failed = results.iter().filter(|r| r.is_err()).count();
+    write_stdout(&table_summary(&table.frame, &results, out))?;
+    let mut df = append_results(table.frame, &results)
+        .map_err(|e| Error::internal(format!("assembling the results table: {e}")))?;
+    write_frame(out, &mut df)?;
+    eprintln!(
+        "quenchwise: {} rows evaluated, {} failed (see the error column); wrote {}",
+        results.len(),
+        failed,
+        out.display()
+    );
+    eprintln!("{CAUTION}");
+    Ok(Outcome::Finished)
+}
+
+/// Rows shown on the terminal after a table run; the file has them all.
+const SUMMARY_ROWS: usize = 40;
+
+fn table_summary(df: &DataFrame, results: &[Result<Evaluation, String>], out: &Path) -> String {
+    let names: Option<Vec<Option<String>>> = ["name", "id", "label"].iter().find_map(|c| {
+        let col = df.column(c).ok()?.cast(&DataType::String).ok()?;
+        let ca = col.str().ok()?.clone();
+        Some(ca.iter().map(|v| v.map(str::to_string)).collect())
+    });
+    let mut s = format!(
+        "{:>4}  {:<28} {:<18} {:>9} {:>11} {:>11}  {}\n",
+        "row", "name", "primary phase", "T_L °C", "R_c K/s", "nose K/s", "note"
+    );
+    for (i, r) in results.iter().enumerate().take(SUMMARY_ROWS) {
+        let name = names
+            .as_ref()
+            .and_then(|n| n[i].clone())
+            .unwrap_or_default();
+        let name: String = name.chars().take(28).collect();
+        match r {
+            Ok(e) => {
+                let note = if e.viscosity_extrapolated || e.liquidus_extrapolated {
+                    "extrapolated"
+                } else {
+                    ""
+                };
+                s.push_str(&format!(
+                    "{:>4}  {:<28} {:<18} {:>9.1} {:>11} {:>11}  {}\n",
+                    i + 1,
+                    name,
+                    e.primary_phase.as_deref().unwrap_or("-"),
+                    e.liquidus_c,
+                    sig(e.critical_rate_k_per_s),
+                    sig(e.nose_rate_k_per_s),
+                    note
+                ));
+            }
+            Err(msg) => s.push_str(&format!(
+                "{:>4}  {:<28} {:<18} {:>9} {:>11} {:>11}  error: {}\n",
+                i + 1,
+                name,
+                "-",
+                "-",
+                "-",
+                "-",
+                msg
+            )),
+        }
+    }
+    if results.len() > SUMMARY_ROWS {
+        s.push_str(&format!(
+            "      ... {} more rows in {}\n",
+            results.len() - SUMMARY_ROWS,
+            out.display()
+        ));
+    }
+    s
+}
+
+/// Write a file atomically (temp file, then rename).
+fn write_file(path: &Path, bytes: &[u8]) -> Result<(), Error> {
+    let tmp = path.with_extension(format!(
+        "{}.partial",
+        path.extension().and_then(|e| e.to_str()).unwrap_or("out")
+    ));
+    std::fs::write(&tmp, bytes)
+        .and_then(|_| std::fs::rename(&tmp, path))
+        .map_err(|e| Error::io("writing", path, e))
+}
+
+fn write_ttt(path: &Path, k: &Kinetics) -> Result<(), Error> {
+    let pts = k.ttt_curve(200);
+    let mut s = String::from("temperature_k,temperature_c,time_to_detectable_s,nucleation_rate_per_m3_s,growth_rate_m_per_s\n");
+    for p in pts.iter().filter(|p| p.time_s.is_finite()) {
+        s.push_str(&format!(
+            "{:.3},{:.3},{:.6e},{:.6e},{:.6e}\n",
+            p.temperature.0,
+            p.temperature.to_celsius().0,
+            p.time_s,
+            p.nucleation_per_m3_s,
+            p.growth_m_per_s
+        ));
+    }
+    write_file(path, s.as_bytes()).context(format!("writing the TTT curve to {}", path.display()))
+}

@@ -1,0 +1,394 @@
+//! The command line: every option with its help, grouped by heading, parsed
+//! by clap. Nothing else happens here; `app` runs the commands.
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use quenchwise::assess::DEFAULT_MELT_DIFFUSIVITY_M2_PER_S;
+use quenchwise::composition::DEFAULT_SUM_TOLERANCE;
+use quenchwise::units::RateUnit;
+use std::path::PathBuf;
+
+/// A rate unit on the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum RateUnitArg {
+    /// kelvin per second
+    #[value(name = "K/s")]
+    PerSecond,
+    /// kelvin per minute
+    #[value(name = "K/min")]
+    PerMinute,
+}
+
+impl From<RateUnitArg> for RateUnit {
+    fn from(u: RateUnitArg) -> Self {
+        match u {
+            RateUnitArg::PerSecond => RateUnit::PerSecond,
+            RateUnitArg::PerMinute => RateUnit::PerMinute,
+        }
+    }
+}
+
+/// Predict whether oxide melts turn to glass with the quench you have.
+///
+/// quenchwise turns an oxide composition (or measured melt data) into a
+/// liquidus, a viscosity curve, a TTT curve and a critical cooling rate, using
+/// additive property models and classical nucleation and growth kinetics.
+#[derive(Debug, Parser)]
+#[command(name = "quenchwise", version, max_term_width = 100)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+// EvalArgs is large, but the command line is parsed once per run.
+#[allow(clippy::large_enum_variant)]
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Evaluate one composition, one melt card, or a table of either
+    ///
+    /// Examples:
+    ///   quenchwise eval --mol "SiO2=72 Na2O=14 CaO=10 Al2O3=4"
+    ///   quenchwise eval --wt "SiO2=74 Na2O=13 CaO=10.5 Al2O3=1.3 K2O=0.3 MgO=0.2" --json
+    ///   quenchwise eval --melt demo-datasets/melt-card.toml --ttt ttt.csv
+    ///   quenchwise eval --compositions demo-datasets/candidates.csv --out results.csv
+    #[command(verbatim_doc_comment)]
+    Eval(EvalArgs),
+    /// Search compositions for recipes that vitrify with your quench (overnight-safe)
+    ///
+    /// Reads a screen config (see configs/demo-screen.toml), evaluates a
+    /// space-filling set of candidates in parallel, refines the best, and
+    /// writes a ranked shortlist with batch sheets to --out. Ctrl-C stops after
+    /// the current chunk; --resume continues where it stopped.
+    ///
+    /// Example:
+    ///   quenchwise screen configs/demo-screen.toml --out results/
+    #[command(verbatim_doc_comment)]
+    Screen(ScreenArgs),
+    /// Validate a screen config without running it.
+    Check(CheckArgs),
+    /// Write RESULTS_DIR/report.html: one self-contained page with plots.
+    ///
+    /// The screen writes it at the end of a run by default; run this to write
+    /// it again (e.g. after --no-report). Images are embedded, so the file can
+    /// be emailed and opened without network access.
+    Report(ReportArgs),
+    /// Weigh-out sheet: the least-cost batch of raw materials for a glass
+    ///
+    /// Examples:
+    ///   quenchwise batch --mol "SiO2=72 Na2O=14 CaO=10 Al2O3=4"
+    ///   quenchwise batch --wt "SiO2=74 Na2O=16 CaO=10" --glass-kg 0.5 --json
+    ///   quenchwise batch --recipe my-glass.toml --raw-materials shelf.csv --retention "B2O3=0.95"
+    #[command(verbatim_doc_comment)]
+    Batch(BatchArgs),
+    /// Show the model set: provenance, viscosity model, crystal phases, domains.
+    Models(ModelArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct ScreenArgs {
+    /// The screen config (TOML).
+    #[arg(value_name = "CONFIG")]
+    pub config: PathBuf,
+    /// Output folder for the shortlist, tables, batch sheets and checkpoints.
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    /// Continue an interrupted run in --out (same config required).
+    #[arg(long, conflicts_with = "force")]
+    pub resume: bool,
+    /// Overwrite an existing, non-empty --out folder.
+    #[arg(long)]
+    pub force: bool,
+    /// Worker threads [default: the config's, else all cores].
+    #[arg(long, value_name = "N")]
+    pub threads: Option<usize>,
+    /// Do not write report.html at the end (write it later with `report`).
+    #[arg(long)]
+    pub no_report: bool,
+    /// Stop after N new chunks as if interrupted (for testing resume).
+    #[arg(long, value_name = "N", hide = true)]
+    pub stop_after_chunks: Option<usize>,
+}
+
+#[derive(Debug, Args)]
+pub struct ReportArgs {
+    /// A screen's --out folder.
+    #[arg(value_name = "RESULTS_DIR")]
+    pub dir: PathBuf,
+}
+
+#[derive(Debug, Args)]
+pub struct CheckArgs {
+    /// The screen config (TOML).
+    #[arg(value_name = "CONFIG")]
+    pub config: PathBuf,
+}
+
+#[derive(Debug, Args)]
+#[command(group(clap::ArgGroup::new("glass").required(true).args(["mol", "wt", "recipe"])))]
+pub struct BatchArgs {
+    /// The glass in mol%, e.g. "SiO2=72 Na2O=14 CaO=10 Al2O3=4".
+    #[arg(long, value_name = "OXIDES", help_heading = "Glass")]
+    pub mol: Option<String>,
+    /// The glass in wt%.
+    #[arg(long, value_name = "OXIDES", help_heading = "Glass")]
+    pub wt: Option<String>,
+    /// The glass from a recipe file (TOML: basis = "mol%", [oxides]).
+    #[arg(long, value_name = "FILE", help_heading = "Glass")]
+    pub recipe: Option<PathBuf>,
+    /// Mass of glass to make, kg [default: 1].
+    #[arg(long, value_name = "KG", default_value_t = 1.0, help_heading = "Glass")]
+    pub glass_kg: f64,
+    /// How far (percentage points) amounts may sum from 100 [default: 2].
+    #[arg(long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Glass")]
+    pub sum_tolerance: f64,
+    /// Raw-materials table (CSV or Parquet) [default: the built-in demo shelf].
+    ///
+    /// Columns: name, price_per_kg, and either formula (ideal analysis from
+    /// IUPAC 2021 masses) or <Oxide>_wt_pct columns with loi_wt_pct; optional
+    /// purity_pct (default 100), available_kg, note. The default is
+    /// demo-datasets/raw-materials.csv, whose prices are invented.
+    #[arg(long, value_name = "FILE", help_heading = "Raw materials")]
+    pub raw_materials: Option<PathBuf>,
+    /// Fraction of an oxide kept in the melt, e.g. "B2O3=0.95 Na2O=0.98".
+    ///
+    /// Volatile oxides (B2O3, alkalis, P2O5) partly evaporate; the batch then
+    /// carries more of them. Values in (0, 1]; unlisted oxides keep 1.
+    #[arg(long, value_name = "OXIDE=FRACTION", help_heading = "Raw materials")]
+    pub retention: Option<String>,
+    /// Allowed deviation of each delivered oxide, wt% of glass [default: 0.001].
+    ///
+    /// 0.001 wt% is 10 mg per kg of glass. A multi-oxide mineral that would
+    /// force an oxide beyond this is reported, naming the oxide.
+    #[arg(
+        long,
+        value_name = "WT_PCT",
+        default_value_t = 0.001,
+        help_heading = "Raw materials"
+    )]
+    pub tolerance_wt_pct: f64,
+    /// Print JSON instead of the sheet.
+    #[arg(long, help_heading = "Output", conflicts_with = "csv")]
+    pub json: bool,
+    /// Print the sheet as CSV (raw material, kg, cost).
+    #[arg(long, help_heading = "Output")]
+    pub csv: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct ModelArgs {
+    /// Model set: a TOML file, or the built-in "demo-soda-lime".
+    #[arg(long, value_name = "FILE")]
+    pub models: Option<PathBuf>,
+}
+
+#[derive(Debug, Args)]
+#[command(group(clap::ArgGroup::new("input").required(true).multiple(true).args(["mol", "wt_text", "recipe", "melt", "melts", "compositions"])))]
+pub struct EvalArgs {
+    /// One composition in mol%, e.g. "SiO2=72 Na2O=14 CaO=10 Al2O3=4".
+    ///
+    /// Pairs OXIDE=AMOUNT separated by spaces or commas. Amounts that sum to
+    /// within --sum-tolerance of 100 are normalised (and a note says so).
+    #[arg(long, value_name = "OXIDES", help_heading = "Input")]
+    pub mol: Option<String>,
+
+    /// One composition in wt%; with --compositions: read the table as wt%.
+    ///
+    /// `--wt "SiO2=74 Na2O=13 CaO=10.5 ..."` evaluates one composition given
+    /// in mass percent. Given without a value next to --compositions, it says
+    /// the table's oxide columns are wt% rather than mol%.
+    #[arg(long = "wt", value_name = "OXIDES", num_args = 0..=1, default_missing_value = "", help_heading = "Input")]
+    pub wt_text: Option<String>,
+
+    /// One composition from a recipe file (TOML: basis = "mol%", [oxides]).
+    #[arg(long, value_name = "FILE", help_heading = "Input")]
+    pub recipe: Option<PathBuf>,
+
+    /// A melt card (TOML) with measured viscosity and crystal data.
+    ///
+    /// Skips the composition models. Keys: [viscosity] a, b_k, c_k;
+    /// [crystal] liquidus_k, enthalpy_of_fusion_j_per_mol,
+    /// molar_volume_m3_per_mol, turnbull_alpha or interface_energy_j_per_m2,
+    /// growth ("normal" or "screw"); optional [kinetics] detectable_fraction,
+    /// driving_force, heterogeneous_nuclei_per_m3, contact_angle_deg.
+    /// See demo-datasets/melt-card.toml.
+    #[arg(long, value_name = "FILE", help_heading = "Input")]
+    pub melt: Option<PathBuf>,
+
+    /// A table (CSV or Parquet) of melt cards, one per row; needs --out.
+    ///
+    /// Columns are named like the card keys: a, b_k, c_k, liquidus_k,
+    /// enthalpy_of_fusion_j_per_mol, molar_volume_m3_per_mol, turnbull_alpha
+    /// or interface_energy_j_per_m2, growth, and optionally the [kinetics]
+    /// keys. Rows run in parallel; a failed row gets its reason in `error`.
+    #[arg(long, value_name = "FILE", requires = "out", help_heading = "Input")]
+    pub melts: Option<PathBuf>,
+
+    /// A table (CSV or Parquet) of compositions, one per row; needs --out.
+    ///
+    /// One column per oxide (SiO2, Na2O, ...) in mol% (wt% with --wt); other
+    /// columns (names, ids) are passed through to the output.
+    #[arg(long, value_name = "FILE", requires = "out", help_heading = "Input")]
+    pub compositions: Option<PathBuf>,
+
+    /// Write the table of results here (.csv or .parquet).
+    #[arg(long, value_name = "FILE", help_heading = "Output")]
+    pub out: Option<PathBuf>,
+
+    /// Print one JSON object instead of the table.
+    #[arg(long, help_heading = "Output")]
+    pub json: bool,
+
+    /// Draw the TTT diagram (SVG) with the critical-rate cooling line.
+    #[arg(long, value_name = "FILE.svg", help_heading = "Output")]
+    pub plot: Option<PathBuf>,
+
+    /// Write the TTT curve (T, time to X_c, I, U) to this CSV file.
+    #[arg(long, value_name = "FILE", help_heading = "Output")]
+    pub ttt: Option<PathBuf>,
+
+    /// Model set: a TOML file, or the built-in "demo-soda-lime" (default).
+    #[arg(long, value_name = "FILE", help_heading = "Models")]
+    pub models: Option<PathBuf>,
+
+    /// Replace the set's viscosity model: "grd2008" or a TOML file.
+    ///
+    /// "grd2008" is Giordano, Russell & Dingwell (2008) for natural silicate
+    /// melts; soda-rich technical glasses fall outside its validity and are
+    /// flagged.
+    #[arg(long, value_name = "NAME|FILE", help_heading = "Models")]
+    pub viscosity_model: Option<PathBuf>,
+
+    /// How far (percentage points) amounts may sum from 100 [default: 2].
+    #[arg(long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Models")]
+    pub sum_tolerance: f64,
+
+    /// Detectable crystallised volume fraction X_c [default: 1e-6].
+    ///
+    /// The fraction at which a melt counts as crystallised (Uhlmann 1972).
+    /// Overrides a melt card's value.
+    #[arg(long, value_name = "FRACTION", help_heading = "Kinetics")]
+    pub detectable_fraction: Option<f64>,
+
+    /// Driving-force form: turnbull (default) or hoffman.
+    #[arg(long, value_name = "FORM", value_parser = ["turnbull", "hoffman"], help_heading = "Kinetics")]
+    pub driving_force: Option<String>,
+
+    /// Pre-existing heterogeneous nuclei per m³ [default: 0].
+    #[arg(long, value_name = "PER_M3", help_heading = "Kinetics")]
+    pub nuclei_per_m3: Option<f64>,
+
+    /// Contact angle (degrees) for nucleation on a substrate [default: 180].
+    ///
+    /// 180° is homogeneous nucleation; smaller angles lower the barrier by
+    /// f(θ) = (2 + cos θ)(1 − cos θ)²/4.
+    #[arg(long, value_name = "DEGREES", help_heading = "Kinetics")]
+    pub contact_angle_deg: Option<f64>,
+
+    /// Fit α so the model reproduces this measured critical cooling rate.
+    ///
+    /// The rate is in --rate-unit (K/s by default). Use the α it prints in
+    /// your model set or melt card (as turnbull_alpha, with
+    /// calibrated_against naming the measurement).
+    #[arg(
+        long,
+        value_name = "RATE",
+        help_heading = "Calibration",
+        conflicts_with = "calibrate_nose_time_s"
+    )]
+    pub calibrate_rate: Option<f64>,
+
+    /// Unit of --calibrate-rate: K/s or K/min.
+    #[arg(
+        long,
+        value_name = "UNIT",
+        default_value = "K/s",
+        help_heading = "Calibration"
+    )]
+    pub rate_unit: RateUnitArg,
+
+    /// Fit α so the model reproduces this measured TTT nose time, in s.
+    #[arg(long, value_name = "SECONDS", help_heading = "Calibration")]
+    pub calibrate_nose_time_s: Option<f64>,
+
+    /// Quench-plate temperature for the glassy-thickness estimate, °C [default: 25].
+    #[arg(
+        long,
+        value_name = "DEG_C",
+        default_value_t = 25.0,
+        help_heading = "Quench"
+    )]
+    pub quench_surface_c: f64,
+
+    /// Thermal diffusivity of the melt, m²/s [default: 5e-7].
+    #[arg(long, value_name = "M2_PER_S", default_value_t = DEFAULT_MELT_DIFFUSIVITY_M2_PER_S, help_heading = "Quench")]
+    pub melt_diffusivity: f64,
+
+    /// Worker threads for tables [default: all cores].
+    #[arg(long, value_name = "N", help_heading = "Output")]
+    pub threads: Option<usize>,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn parse(args: &[&str]) -> std::result::Result<Cli, clap::Error> {
+        Cli::try_parse_from(std::iter::once("quenchwise").chain(args.iter().copied()))
+    }
+
+    #[test]
+    fn wt_flag_with_and_without_value() {
+        let c = parse(&["eval", "--compositions", "x.csv", "--out", "y.csv", "--wt"]).unwrap();
+        let Command::Eval(a) = c.command else {
+            panic!()
+        };
+        assert_eq!(a.wt_text.as_deref(), Some(""));
+        let c = parse(&["eval", "--wt", "SiO2=75 Na2O=25"]).unwrap();
+        let Command::Eval(a) = c.command else {
+            panic!()
+        };
+        assert_eq!(a.wt_text.as_deref(), Some("SiO2=75 Na2O=25"));
+    }
+
+    #[test]
+    fn table_inputs_need_out() {
+        assert!(parse(&["eval", "--melts", "x.csv"]).is_err());
+        assert!(parse(&["eval"]).is_err());
+    }
+
+    #[test]
+    fn rate_unit_parses() {
+        let c = parse(&[
+            "eval",
+            "--mol",
+            "SiO2=100",
+            "--calibrate-rate",
+            "3",
+            "--rate-unit",
+            "K/min",
+        ])
+        .unwrap();
+        let Command::Eval(a) = c.command else {
+            panic!()
+        };
+        assert_eq!(a.rate_unit, RateUnitArg::PerMinute);
+        assert!(parse(&["eval", "--mol", "SiO2=100", "--rate-unit", "K/h"]).is_err());
+    }
+
+    #[test]
+    fn help_lines_fit_79_columns() {
+        use clap::CommandFactory;
+        let mut cmd = Cli::command();
+        let sub = cmd.find_subcommand_mut("eval").unwrap();
+        for arg in sub.get_arguments() {
+            if let Some(h) = arg.get_help() {
+                let s = h.to_string();
+                assert!(
+                    s.chars().count() <= 79,
+                    "help of --{} is {} columns",
+                    arg.get_id(),
+                    s.chars().count()
+                );
+            }
+        }
+    }
+}

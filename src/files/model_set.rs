@@ -1,0 +1,387 @@
+//! Model-set files (TOML): a viscosity model, the phases with their liquidus
+//! surfaces and crystal data, and provenance, turned into a validated
+//! [`ModelSet`] with every problem located by line. The two shipped files are
+//! embedded in the binary, so the program runs with no files beside it.
+
+use super::source::{read_text, Collector, DataError, Source};
+use crate::composition::N_OXIDES;
+use crate::properties::{
+    About, FractionBasis, GrowthMode, MixtureModel, ModelSet, Phase, ProductTerm, ViscosityForm,
+    ViscosityModel,
+};
+use crate::units::{Celsius, Kelvin};
+use serde::Deserialize;
+use std::collections::BTreeMap;
+use std::ops::Range;
+use std::path::Path;
+use toml::Spanned;
+
+/// The demo model set, embedded.
+pub const DEMO_MODELS: &str = include_str!("../../configs/models/demo-soda-lime.toml");
+/// The Giordano–Russell–Dingwell (2008) viscosity model, embedded.
+pub const GRD2008_VISCOSITY: &str = include_str!("../../configs/models/grd2008-viscosity.toml");
+/// Name of the default model set.
+pub const DEFAULT_MODEL_SET: &str = "demo-soda-lime";
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct ModelFile {
+    about: AboutFile,
+    viscosity: ViscosityFile,
+    #[serde(default)]
+    phase: Vec<PhaseFile>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct AboutFile {
+    name: String,
+    description: String,
+    source: String,
+    date: String,
+    units: String,
+    #[serde(default)]
+    invented: bool,
+}
+
+#[derive(Deserialize, Clone, Copy, PartialEq, Eq)]
+#[serde(rename_all = "snake_case")]
+enum FormName {
+    Vft,
+    Myega,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct ViscosityFile {
+    form: Spanned<FormName>,
+    name: String,
+    source: String,
+    #[serde(default)]
+    #[allow(dead_code)]
+    note: Option<String>,
+    #[serde(default)]
+    domain: BTreeMap<Spanned<String>, Spanned<[f64; 2]>>,
+    a: Option<MixtureFile>,
+    b_k: Option<MixtureFile>,
+    c_k: Option<MixtureFile>,
+    log_eta_inf: Option<MixtureFile>,
+    tg_k: Option<MixtureFile>,
+    fragility: Option<MixtureFile>,
+}
+
+#[derive(Deserialize, Clone, Copy, PartialEq, Eq)]
+enum TemperatureUnit {
+    #[serde(rename = "K")]
+    Kelvin,
+    #[serde(rename = "degC")]
+    Celsius,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct MixtureFile {
+    basis: FractionBasis,
+    #[serde(default)]
+    unit: Option<TemperatureUnit>,
+    #[serde(default)]
+    constant: f64,
+    #[serde(default)]
+    linear: BTreeMap<Spanned<String>, f64>,
+    #[serde(default)]
+    pairs: BTreeMap<Spanned<String>, f64>,
+    #[serde(default)]
+    products: Vec<ProductFile>,
+    #[serde(default)]
+    standard_errors: BTreeMap<Spanned<String>, f64>,
+    #[serde(default)]
+    #[allow(dead_code)]
+    note: Option<String>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct ProductFile {
+    coefficient: f64,
+    groups: Vec<Spanned<String>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct PhaseFile {
+    name: String,
+    formula: String,
+    enthalpy_of_fusion_j_per_mol: Spanned<f64>,
+    molar_volume_m3_per_mol: Spanned<f64>,
+    melting_point_k: Spanned<f64>,
+    growth: GrowthMode,
+    turnbull_alpha: Spanned<f64>,
+    #[serde(default)]
+    calibrated_against: Option<String>,
+    #[serde(default)]
+    #[allow(dead_code)]
+    note: Option<String>,
+    liquidus: MixtureFile,
+    #[serde(default)]
+    domain: BTreeMap<Spanned<String>, Spanned<[f64; 2]>>,
+}
+
+/// Parse a model set file.
+///
+/// # Errors
+/// Syntax errors, unknown keys or oxides, missing parts, non-positive crystal data;
+/// every problem is reported at once with its line.
+pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
+    let hint = "a model set has [about], [viscosity] and one [[phase]] per crystal phase; see configs/models/demo-soda-lime.toml";
+    let file: ModelFile = src.parse(hint)?;
+    let mut c = Collector::new(src);
+    let viscosity = viscosity_model(&mut c, &file.viscosity);
+    if file.phase.is_empty() {
+        c.push(
+            0..0,
+            "a model set needs at least one [[phase]] with a liquidus surface",
+        );
+    }
+    let mut phases = Vec::new();
+    for p in &file.phase {
+        let enthalpy = c.positive(
+            "enthalpy_of_fusion_j_per_mol",
+            &p.enthalpy_of_fusion_j_per_mol,
+            "J/mol",
+        );
+        let volume = c.positive(
+            "molar_volume_m3_per_mol",
+            &p.molar_volume_m3_per_mol,
+            "m3/mol",
+        );
+        let tm = c.positive("melting_point_k", &p.melting_point_k, "K");
+        let alpha = c.positive("turnbull_alpha", &p.turnbull_alpha, "");
+        if volume > 1e-2 {
+            c.push(p.molar_volume_m3_per_mol.span(), format!("molar_volume_m3_per_mol = {volume} m3/mol is implausible; give m3/mol (e.g. 4.0e-5), not cm3/mol"));
+        }
+        let liquidus = mixture(&mut c, &p.liquidus, true, p.turnbull_alpha.span());
+        let domain = c.domain(&p.domain);
+        phases.push(Phase {
+            name: p.name.clone(),
+            formula: p.formula.clone(),
+            enthalpy_of_fusion_j_per_mol: enthalpy,
+            molar_volume_m3_per_mol: volume,
+            melting_point: Kelvin(tm),
+            growth: p.growth,
+            turnbull_alpha: alpha,
+            calibrated_against: p.calibrated_against.clone(),
+            liquidus_k: liquidus,
+            domain,
+        });
+    }
+    c.finish(hint)?;
+    Ok(ModelSet {
+        about: About {
+            name: file.about.name,
+            description: file.about.description,
+            source: file.about.source,
+            date: file.about.date,
+            units: file.about.units,
+            invented: file.about.invented,
+        },
+        viscosity: viscosity.expect("no problems were recorded"),
+        phases,
+    })
+}
+
+/// Parse a file that holds (at least) a viscosity model; its phases are ignored.
+///
+/// # Errors
+/// As [`parse_model_set`], for the viscosity part.
+pub fn parse_viscosity_model(src: &Source) -> Result<ViscosityModel, DataError> {
+    let hint =
+        "a viscosity file has [about] and [viscosity]; see configs/models/grd2008-viscosity.toml";
+    let file: ModelFile = src.parse(hint)?;
+    let mut c = Collector::new(src);
+    let v = viscosity_model(&mut c, &file.viscosity);
+    c.finish(hint)?;
+    Ok(v.expect("no problems were recorded"))
+}
+
+fn viscosity_model(c: &mut Collector, v: &ViscosityFile) -> Option<ViscosityModel> {
+    let span = v.form.span();
+    let domain = c.domain(&v.domain);
+    let need = |c: &mut Collector, m: &Option<MixtureFile>, key: &str, temp: bool| match m {
+        Some(m) => Some(mixture(c, m, temp, span.clone())),
+        None => {
+            c.push(
+                span.clone(),
+                format!("this viscosity form needs [viscosity.{key}]"),
+            );
+            None
+        }
+    };
+    let form = match v.form.get_ref() {
+        FormName::Vft => {
+            for (k, m) in [
+                ("log_eta_inf", &v.log_eta_inf),
+                ("tg_k", &v.tg_k),
+                ("fragility", &v.fragility),
+            ] {
+                if m.is_some() {
+                    c.push(
+                        span.clone(),
+                        format!("[viscosity.{k}] belongs to form = \"myega\", not \"vft\""),
+                    );
+                }
+            }
+            let a = need(c, &v.a, "a", false);
+            let b = need(c, &v.b_k, "b_k", true);
+            let cc = need(c, &v.c_k, "c_k", true);
+            match (a, b, cc) {
+                (Some(a), Some(b_k), Some(c_k)) => Some(ViscosityForm::Vft { a, b_k, c_k }),
+                _ => None,
+            }
+        }
+        FormName::Myega => {
+            let l = need(c, &v.log_eta_inf, "log_eta_inf", false);
+            let t = need(c, &v.tg_k, "tg_k", true);
+            let m = need(c, &v.fragility, "fragility", false);
+            match (l, t, m) {
+                (Some(log_eta_inf), Some(tg_k), Some(fragility)) => Some(ViscosityForm::Myega {
+                    log_eta_inf,
+                    tg_k,
+                    fragility,
+                }),
+                _ => None,
+            }
+        }
+    };
+    // A B coefficient in °C would be wrong: B is a temperature *difference*.
+    if let (Some(ViscosityForm::Vft { .. }), Some(b)) = (&form, &v.b_k) {
+        if b.unit == Some(TemperatureUnit::Celsius) {
+            c.push(
+                span.clone(),
+                "b_k is a temperature difference: give it in K (unit = \"K\")",
+            );
+        }
+    }
+    form.map(|form| ViscosityModel {
+        name: v.name.clone(),
+        source: v.source.clone(),
+        form,
+        domain,
+    })
+}
+
+/// The model set named `name` (built in) or read from a file path.
+///
+/// # Errors
+/// An unknown name, an unreadable or invalid file.
+pub fn load_model_set(spec: Option<&Path>) -> Result<ModelSet, DataError> {
+    match spec {
+        None => parse_model_set(&Source::new("<built-in demo-soda-lime>", DEMO_MODELS)),
+        Some(p) if p.as_os_str() == DEFAULT_MODEL_SET => {
+            parse_model_set(&Source::new("<built-in demo-soda-lime>", DEMO_MODELS))
+        }
+        Some(p) => {
+            let text = read_text(p)?;
+            parse_model_set(&Source::new(p.display().to_string(), &text))
+        }
+    }
+}
+
+/// A viscosity model by built-in name (`grd2008`, `demo-soda-lime`) or file path.
+///
+/// # Errors
+/// An unreadable or invalid file.
+pub fn load_viscosity_model(spec: &Path) -> Result<ViscosityModel, DataError> {
+    match spec.to_str() {
+        Some("grd2008") => {
+            parse_viscosity_model(&Source::new("<built-in grd2008>", GRD2008_VISCOSITY))
+        }
+        Some(DEFAULT_MODEL_SET) => {
+            parse_viscosity_model(&Source::new("<built-in demo-soda-lime>", DEMO_MODELS))
+        }
+        _ => {
+            let text = read_text(spec)?;
+            parse_viscosity_model(&Source::new(spec.display().to_string(), &text))
+        }
+    }
+}
+
+fn mixture(
+    c: &mut Collector,
+    m: &MixtureFile,
+    want_temperature: bool,
+    span: Range<usize>,
+) -> MixtureModel {
+    let mut out = MixtureModel::constant(m.constant);
+    out.basis = m.basis;
+    for (k, v) in &m.linear {
+        if let Some(o) = c.oxide(k) {
+            out.linear[o.index()] = *v;
+        }
+    }
+    for (k, v) in &m.pairs {
+        match k.get_ref().split_once('*') {
+            Some((a, b)) => {
+                let a = Spanned::new(k.span(), a.trim().to_string());
+                let b = Spanned::new(k.span(), b.trim().to_string());
+                if let (Some(a), Some(b)) = (c.oxide(&a), c.oxide(&b)) {
+                    out.pairs.push((a.index(), b.index(), *v));
+                }
+            }
+            None => c.push(
+                k.span(),
+                format!("pair '{}' must be written OXIDE*OXIDE", k.get_ref()),
+            ),
+        }
+    }
+    for p in &m.products {
+        let groups: Vec<_> = p.groups.iter().filter_map(|g| c.expr(g)).collect();
+        out.products.push(ProductTerm {
+            coefficient: p.coefficient,
+            groups,
+        });
+    }
+    if !m.standard_errors.is_empty() {
+        let mut se = [0.0; N_OXIDES];
+        for (k, v) in &m.standard_errors {
+            if let Some(o) = c.oxide(k) {
+                se[o.index()] = *v;
+            }
+        }
+        out.linear_standard_errors = Some(se);
+    }
+    match (want_temperature, m.unit) {
+        (true, None) => c.push(span, "a temperature model needs unit = \"K\" or \"degC\""),
+        (true, Some(TemperatureUnit::Celsius)) => {
+            // Convert once, here: an additive model in °C is the same model in K
+            // with the constant shifted (fractions sum to one).
+            out.constant = Celsius(out.constant).to_kelvin().0;
+        }
+        _ => {}
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn built_in_files_parse() {
+        let m = parse_model_set(&Source::new("demo", DEMO_MODELS)).unwrap();
+        assert!(!m.phases.is_empty());
+        parse_viscosity_model(&Source::new("grd", GRD2008_VISCOSITY)).unwrap();
+    }
+
+    #[test]
+    fn unknown_oxide_is_located() {
+        let text = DEMO_MODELS.replacen("SiO2 = [", "SiO3 = [", 1);
+        let err = parse_model_set(&Source::new("m.toml", &text))
+            .unwrap_err()
+            .to_string();
+        let line = text.lines().position(|l| l.contains("SiO3 = [")).unwrap() + 1;
+        assert!(
+            err.contains(&format!("m.toml:{line}: unknown oxide 'SiO3'")),
+            "{err}"
+        );
+    }
+}

@@ -1,0 +1,356 @@
+//! The result files of a screen, written and read back: the shortlist and
+//! candidates tables (columns from `report::records`, defined once), the
+//! batch sheets, and what `quenchwise report` needs to draw a finished run.
+
+use super::screen_config::{self, RunPlan};
+use super::table::read_frame;
+use crate::batch::least_cost_batch;
+use crate::composition::{Composition, Oxide, N_OXIDES};
+use crate::error::{Error, ResultExt};
+use crate::report::html::{ReportRecipe, ScreenReport};
+use crate::report::plot::TradePoint;
+use crate::report::records::{oxide_column, oxide_of_column, Cell, RESULT_FIELDS};
+use crate::report::text::{batch_text, evaluation_text};
+use crate::screen::{evaluate_candidate_with, Pass, Row, ScreenProblem, Shortlisted};
+use crate::units::kelvin_to_celsius;
+use polars::prelude::*;
+use std::path::{Path, PathBuf};
+
+/// Write a file atomically: a temp file beside it, then a rename.
+///
+/// # Errors
+/// The write or the rename fails.
+pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), Error> {
+    let tmp = path.with_extension("partial");
+    std::fs::write(&tmp, bytes).map_err(|e| Error::io("writing", &tmp, e))?;
+    std::fs::rename(&tmp, path).map_err(|e| Error::io("renaming", &tmp, e))
+}
+
+/// The screen's table of rows: `rank` and the result columns for the
+/// shortlist; index, pass, feasibility, broken limits, objective, the result
+/// columns and the error for the candidates.
+///
+/// # Errors
+/// Polars refuses the columns.
+pub fn rows_frame(
+    problem: &ScreenProblem,
+    rows: &[&Row],
+    with_rank: bool,
+) -> PolarsResult<DataFrame> {
+    let mut cols: Vec<Column> = Vec::new();
+    if with_rank {
+        cols.push(Column::new(
+            "rank".into(),
+            (1..=rows.len() as u32).collect::<Vec<_>>(),
+        ));
+    } else {
+        cols.push(Column::new(
+            "index".into(),
+            rows.iter().map(|r| r.index).collect::<Vec<_>>(),
+        ));
+        cols.push(Column::new(
+            "refined".into(),
+            rows.iter().map(|r| r.refined).collect::<Vec<_>>(),
+        ));
+        cols.push(Column::new(
+            "feasible".into(),
+            rows.iter().map(|r| r.feasible).collect::<Vec<_>>(),
+        ));
+        cols.push(Column::new(
+            "broken_limits".into(),
+            rows.iter().map(|r| r.broken.labels()).collect::<Vec<_>>(),
+        ));
+        cols.push(Column::new(
+            "objective".into(),
+            rows.iter().map(|r| r.objective).collect::<Vec<_>>(),
+        ));
+    }
+    for (o, ..) in &problem.oxides {
+        cols.push(Column::new(
+            oxide_column(*o).into(),
+            rows.iter()
+                .map(|r| r.mol_pct[o.index()])
+                .collect::<Vec<_>>(),
+        ));
+    }
+    for f in RESULT_FIELDS {
+        let cells: Vec<Cell> = rows.iter().map(|r| (f.get)(r)).collect();
+        let col = if cells.iter().all(|c| matches!(c, Cell::Num(_))) {
+            Column::new(
+                f.name.into(),
+                cells
+                    .iter()
+                    .map(|c| match c {
+                        Cell::Num(v) => *v,
+                        Cell::Text(_) => None,
+                    })
+                    .collect::<Vec<_>>(),
+            )
+        } else {
+            Column::new(
+                f.name.into(),
+                cells
+                    .iter()
+                    .map(|c| match c {
+                        Cell::Text(v) => v.map(str::to_string),
+                        Cell::Num(v) => v.map(|x| x.to_string()),
+                    })
+                    .collect::<Vec<_>>(),
+            )
+        };
+        cols.push(col);
+    }
+    if !with_rank {
+        cols.push(Column::new(
+            "error".into(),
+            rows.iter().map(|r| r.error.clone()).collect::<Vec<_>>(),
+        ));
+    }
+    DataFrame::new_infer_height(cols)
+}
+
+/// The shortlist as JSON: one object per recipe with its rank, the oxide
+/// columns and the result columns.
+pub fn shortlist_json(problem: &ScreenProblem, rows: &[&Row]) -> String {
+    let json: Vec<serde_json::Value> = rows
+        .iter()
+        .enumerate()
+        .map(|(i, r)| {
+            let mut m = serde_json::Map::new();
+            m.insert("rank".into(), (i + 1).into());
+            for (o, ..) in &problem.oxides {
+                m.insert(oxide_column(*o), r.mol_pct[o.index()].into());
+            }
+            for f in RESULT_FIELDS {
+                let v = match (f.get)(r) {
+                    Cell::Num(v) => v.map(serde_json::Value::from).unwrap_or_default(),
+                    Cell::Text(v) => v.map(serde_json::Value::from).unwrap_or_default(),
+                };
+                m.insert(f.name.into(), v);
+            }
+            serde_json::Value::Object(m)
+        })
+        .collect();
+    serde_json::to_string_pretty(&json).unwrap_or_else(|_| "[]".into())
+}
+
+/// The least-cost batch sheet of a glass (text and CSV), when the plan prices glasses.
+fn batch_sheet(plan: &RunPlan, comp: &Composition) -> Result<Option<(String, String)>, Error> {
+    let (Some(model), Some(limit)) = (&plan.batch_model, &plan.problem.cost) else {
+        return Ok(None);
+    };
+    let b = least_cost_batch(&model.raws, comp, 1.0, &model.settings)?;
+    let text = batch_text(&b, comp, &limit.label);
+    let mut csv = String::from("raw_material,mass_kg_per_kg_glass,cost\n");
+    for l in &b.lines {
+        csv.push_str(&format!(
+            "\"{}\",{:.6},{:.4}\n",
+            l.name.replace('"', "\"\""),
+            l.mass_kg,
+            l.cost
+        ));
+    }
+    Ok(Some((text, csv)))
+}
+
+/// Write `batch-sheets/rank-NN.txt` (and `.csv` when priced) for the shortlist.
+///
+/// # Errors
+/// A write fails, or a batch cannot be made.
+pub fn write_batch_sheets(
+    plan: &RunPlan,
+    out: &Path,
+    shortlist: &[Shortlisted],
+) -> Result<(), Error> {
+    let sheets = out.join("batch-sheets");
+    std::fs::create_dir_all(&sheets).map_err(|e| Error::io("creating", &sheets, e))?;
+    for (i, s) in shortlist.iter().enumerate() {
+        let Some(e) = &s.candidate.evaluation else {
+            continue;
+        };
+        let comp = Composition::from_mol_percent_array(&s.row.composition(), 1e-6)?;
+        let mut text = evaluation_text(e);
+        if let Some((sheet, csv)) = batch_sheet(plan, &comp)? {
+            text.push('\n');
+            text.push_str(&sheet);
+            write_atomic(
+                &sheets.join(format!("rank-{:02}.csv", i + 1)),
+                csv.as_bytes(),
+            )?;
+        }
+        write_atomic(
+            &sheets.join(format!("rank-{:02}.txt", i + 1)),
+            text.as_bytes(),
+        )?;
+    }
+    Ok(())
+}
+
+/// The shortlisted compositions as written to shortlist.csv, in rank order.
+fn read_shortlist(dir: &Path) -> Result<Vec<Vec<(Oxide, f64)>>, Error> {
+    let df = read_frame(&dir.join("shortlist.csv"))?;
+    let mut cols = Vec::new();
+    for name in df.get_column_names() {
+        if let Some(o) = oxide_of_column(name.as_str()) {
+            let v = df
+                .column(name.as_str())
+                .and_then(|c| c.cast(&DataType::Float64))
+                .map_err(|e| Error::bad_input(format!("shortlist.csv: {e}")))?;
+            let v = v
+                .f64()
+                .map_err(|e| Error::bad_input(format!("shortlist.csv: {e}")))?
+                .iter()
+                .map(|x| x.unwrap_or(0.0))
+                .collect::<Vec<_>>();
+            cols.push((o, v));
+        }
+    }
+    Ok((0..df.height())
+        .map(|i| cols.iter().map(|(o, v)| (*o, v[i])).collect())
+        .collect())
+}
+
+/// Every candidate (thinned to at most about 4000) against cost and against
+/// melting temperature, and the shortlisted recipes marked.
+fn trade_points(
+    dir: &Path,
+    short: &[ReportRecipe],
+) -> Result<(Vec<TradePoint>, Vec<TradePoint>), Error> {
+    let df = read_frame(&dir.join("candidates.parquet"))?;
+    let bad = |e: PolarsError| Error::bad_input(format!("candidates.parquet: {e}"));
+    let get = |n: &str| -> Result<Vec<Option<f64>>, Error> {
+        Ok(df
+            .column(n)
+            .and_then(|c| c.cast(&DataType::Float64))
+            .map_err(bad)?
+            .f64()
+            .map_err(bad)?
+            .iter()
+            .collect())
+    };
+    let rc = get("critical_rate_k_per_s")?;
+    let cost = get("cost_per_kg")?;
+    let tm = get("melting_temperature_k")?;
+    let feasible: Vec<bool> = df
+        .column("feasible")
+        .map_err(bad)?
+        .bool()
+        .map_err(bad)?
+        .iter()
+        .map(|b| b.unwrap_or(false))
+        .collect();
+    // A fixed stride keeps the file small and the picture reproducible.
+    let stride = (df.height() / 4000).max(1);
+    let mut by_cost = Vec::new();
+    let mut by_tm = Vec::new();
+    let mut add = |rc: Option<f64>, c: Option<f64>, t: Option<f64>, feasible, shortlisted| {
+        if let Some(r) = rc {
+            if let Some(c) = c {
+                by_cost.push(TradePoint {
+                    x: c,
+                    critical_rate: r,
+                    feasible,
+                    shortlisted,
+                });
+            }
+            if let Some(t) = t {
+                by_tm.push(TradePoint {
+                    x: kelvin_to_celsius(t),
+                    critical_rate: r,
+                    feasible,
+                    shortlisted,
+                });
+            }
+        }
+    };
+    for i in (0..df.height()).step_by(stride) {
+        add(rc[i], cost[i], tm[i], feasible[i], false);
+    }
+    for s in short {
+        let r = &s.row;
+        add(
+            r.critical_rate_k_per_s,
+            r.cost_per_kg,
+            r.melting_temperature_k,
+            true,
+            true,
+        );
+    }
+    Ok((by_cost, by_tm))
+}
+
+/// Everything `report` needs from a finished run's folder: the plan as run,
+/// the shortlist re-evaluated from its compositions, the trade-offs and the
+/// summary.
+///
+/// # Errors
+/// The folder holds no finished screen, or its files cannot be read.
+pub fn read_finished_run(dir: &Path) -> Result<(RunPlan, Vec<ReportRecipe>, String), Error> {
+    if !dir.join("provenance.json").exists() {
+        return Err(Error::bad_input(format!(
+            "{} holds no screen results (no provenance.json)",
+            dir.display()
+        ))
+        .with_hint("give the --out folder of a finished `quenchwise screen` run"));
+    }
+    let prov_path = dir.join("provenance.json");
+    let text =
+        std::fs::read_to_string(&prov_path).map_err(|e| Error::io("reading", &prov_path, e))?;
+    let prov: serde_json::Value = serde_json::from_str(&text)
+        .map_err(|e| Error::bad_input(format!("{}: {e}", prov_path.display())))?;
+    let base = prov["config_dir"].as_str().map(PathBuf::from);
+    let plan = screen_config::load_with_base(&dir.join("config-as-run.toml"), base.as_deref())?;
+    let problem = &plan.problem;
+    let mut recipes = Vec::new();
+    for (i, listed) in read_shortlist(dir)?.into_iter().enumerate() {
+        let mut x = [0.0; N_OXIDES];
+        for &(o, v) in &listed {
+            x[o.index()] = v;
+        }
+        let comp = Composition::from_mol_percent_array(&x, 1e-3)
+            .with_context(|| format!("shortlist.csv, rank {}", i + 1))?;
+        let c = evaluate_candidate_with(
+            problem,
+            i as u64,
+            Pass::SpaceFilling,
+            x,
+            Some(crate::assess::SlabQuench::default()),
+        );
+        let row = Row::new(&c, problem);
+        let evaluation = c.evaluation.ok_or_else(|| {
+            c.error
+                .clone()
+                .unwrap_or_else(|| "the chain could not be evaluated".into())
+        });
+        let batch = batch_sheet(&plan, &comp).ok().flatten().map(|(t, _)| t);
+        recipes.push(ReportRecipe {
+            rank: i + 1,
+            mol_pct: listed,
+            row,
+            evaluation,
+            batch_text: batch,
+        });
+    }
+    let summary = std::fs::read_to_string(dir.join("summary.txt")).unwrap_or_default();
+    Ok((plan, recipes, summary))
+}
+
+/// Write `DIR/report.html` for a finished screen and return its path.
+///
+/// # Errors
+/// Missing or unreadable result files, or a config that no longer loads.
+pub fn write_report(dir: &Path) -> Result<PathBuf, Error> {
+    let (plan, recipes, summary) = read_finished_run(dir)?;
+    let (by_cost, by_melting) = trade_points(dir, &recipes)?;
+    let html = crate::report::html::screen_report_html(&ScreenReport {
+        problem: &plan.problem,
+        seed: plan.search.seed,
+        recipes,
+        by_cost,
+        by_melting,
+        summary,
+    });
+    let path = dir.join("report.html");
+    write_atomic(&path, html.as_bytes())?;
+    Ok(path)
+}

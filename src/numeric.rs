@@ -1,0 +1,75 @@
+//! Scalar root finding and minimisation (Brent's methods, through argmin),
+//! shared by the property models (isokoms of a MYEGA curve) and the kinetics
+//! (the TTT nose, calibration of the kinetic factor).
+//!
+//! References
+//! - R. P. Brent, Algorithms for Minimization without Derivatives,
+//!   Prentice-Hall (1973), chapters 4 and 5.
+
+use argmin::core::{CostFunction, Error as ArgminError, Executor, State};
+use argmin::solver::brent::{BrentOpt, BrentRoot};
+
+struct Scalar<F: Fn(f64) -> f64>(F);
+
+impl<F: Fn(f64) -> f64> CostFunction for Scalar<F> {
+    type Param = f64;
+    type Output = f64;
+    fn cost(&self, p: &f64) -> Result<f64, ArgminError> {
+        Ok((self.0)(*p))
+    }
+}
+
+/// A root of `f` in [lo, hi] (the signs at the ends must differ), to an
+/// absolute tolerance `tol`.
+///
+/// # Errors
+/// The solver fails or returns no point; the message says why.
+pub(crate) fn brent_root<F: Fn(f64) -> f64>(
+    f: F,
+    lo: f64,
+    hi: f64,
+    tol: f64,
+) -> Result<f64, String> {
+    let res = Executor::new(Scalar(f), BrentRoot::new(lo, hi, tol))
+        .configure(|s| s.max_iters(200))
+        .run()
+        .map_err(|e| e.to_string())?;
+    res.state()
+        .get_best_param()
+        .copied()
+        .ok_or_else(|| "root finder returned no point".to_string())
+}
+
+/// The minimiser of `f` in [lo, hi], to a relative tolerance `rel`.
+///
+/// # Errors
+/// The solver fails or returns no point; the message says why.
+pub(crate) fn brent_min<F: Fn(f64) -> f64>(
+    f: F,
+    lo: f64,
+    hi: f64,
+    rel: f64,
+) -> Result<f64, String> {
+    let res = Executor::new(Scalar(f), BrentOpt::new(lo, hi).set_tolerance(rel, 1e-3))
+        .configure(|s| s.max_iters(200))
+        .run()
+        .map_err(|e| e.to_string())?;
+    res.state()
+        .get_best_param()
+        .copied()
+        .ok_or_else(|| "minimiser returned no point".to_string())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn finds_a_root_and_a_minimum() {
+        // x² − 2 has the root √2; (x − 1)² + 3 has its minimum at 1.
+        let r = brent_root(|x| x * x - 2.0, 0.0, 3.0, 1e-12).unwrap();
+        assert!((r - 2f64.sqrt()).abs() < 1e-10, "{r}");
+        let m = brent_min(|x| (x - 1.0) * (x - 1.0) + 3.0, -4.0, 5.0, 1e-8).unwrap();
+        assert!((m - 1.0).abs() < 1e-6, "{m}");
+    }
+}

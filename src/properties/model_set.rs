@@ -1,0 +1,155 @@
+//! A model set: one viscosity model, the liquidus surface and crystal data of
+//! every phase that can appear, and their provenance. [`ModelSet::properties`]
+//! turns a composition into the properties the kinetics need.
+//!
+//! The liquidus is the maximum over the phases' liquidus surfaces; the phase
+//! that gives it is the primary phase (docs/science.md, "Liquidus").
+//!
+//! References
+//! - D. Turnbull, "Under what conditions can a glass be formed?", Contemp.
+//!   Phys. 10 (1969) 473–488, doi:10.1080/00107516908204405 (T_g/T_L).
+
+use super::crystal::GrowthMode;
+use super::mixture::{Domain, MixtureModel};
+use super::viscosity::{fixpoints, ViscosityCurve, ViscosityError, ViscosityModel};
+use crate::composition::Composition;
+use crate::error::Diagnostic;
+use crate::units::{Kelvin, Log10PaS};
+
+/// A crystalline phase that can appear on cooling.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Phase {
+    pub name: String,
+    pub formula: String,
+    pub enthalpy_of_fusion_j_per_mol: f64,
+    pub molar_volume_m3_per_mol: f64,
+    pub melting_point: Kelvin,
+    pub growth: GrowthMode,
+    pub turnbull_alpha: f64,
+    /// What α was calibrated against, if it was.
+    pub calibrated_against: Option<String>,
+    /// Liquidus surface of this phase, in K.
+    pub liquidus_k: MixtureModel,
+    pub domain: Domain,
+}
+
+/// Provenance of a model set.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct About {
+    pub name: String,
+    pub description: String,
+    pub source: String,
+    pub date: String,
+    /// The units the file states for its coefficients.
+    pub units: String,
+    /// True when the coefficients are invented (demo data).
+    pub invented: bool,
+}
+
+/// Viscosity + liquidus surfaces + crystal data: everything composition → melt.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ModelSet {
+    pub about: About,
+    pub viscosity: ViscosityModel,
+    pub phases: Vec<Phase>,
+}
+
+/// Why a composition has no properties.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum ModelError {
+    #[error("viscosity model '{model}' gives {what} for this composition: outside model validity")]
+    NonPhysicalViscosity { model: String, what: String },
+    #[error("the viscosity curve never reaches 10^{level} Pa·s, needed for the {name}")]
+    NoFixpoint { name: &'static str, level: f64 },
+    #[error("liquidus surface of {phase} gives {value:.1} K: outside model validity")]
+    NonPhysicalLiquidus { phase: String, value: f64 },
+    #[error(transparent)]
+    Viscosity(#[from] ViscosityError),
+}
+
+impl Diagnostic for ModelError {}
+
+/// Predicted properties of one composition.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Properties {
+    pub viscosity: ViscosityCurve,
+    pub liquidus: Kelvin,
+    /// Index into [`ModelSet::phases`].
+    pub primary_phase: usize,
+    pub melting_temperature: Kelvin,
+    pub working_point: Kelvin,
+    pub softening_point: Kelvin,
+    pub glass_transition: Kelvin,
+    pub strain_point: Kelvin,
+    pub fragility: f64,
+    /// T_g / T_L.
+    pub reduced_glass_transition: f64,
+    /// Why the viscosity prediction is an extrapolation (empty when inside).
+    pub viscosity_flags: Vec<String>,
+    /// Why the liquidus prediction is an extrapolation (empty when inside).
+    pub liquidus_flags: Vec<String>,
+}
+
+fn isokom(curve: &ViscosityCurve, level: f64, name: &'static str) -> Result<Kelvin, ModelError> {
+    curve
+        .temperature_at(Log10PaS(level))
+        .map_err(|_| ModelError::NoFixpoint { name, level })
+}
+
+impl ModelSet {
+    /// Properties of a composition.
+    ///
+    /// # Errors
+    /// A non-physical viscosity or liquidus for this composition, or a missing fixpoint.
+    pub fn properties(&self, c: &Composition) -> Result<Properties, ModelError> {
+        let (viscosity, viscosity_flags) = self.viscosity.curve(c)?;
+        let x = c.fractions();
+        let mut best = (0, f64::NEG_INFINITY);
+        for (k, p) in self.phases.iter().enumerate() {
+            let t = p.liquidus_k.eval(x);
+            if t > best.1 {
+                best = (k, t);
+            }
+        }
+        let (primary, tl) = best;
+        let phase = &self.phases[primary];
+        if tl.is_nan() || tl <= 0.0 || !tl.is_finite() {
+            return Err(ModelError::NonPhysicalLiquidus {
+                phase: phase.name.clone(),
+                value: tl,
+            });
+        }
+        let liquidus_flags: Vec<String> = phase
+            .domain
+            .violations(c)
+            .into_iter()
+            .map(|v| format!("outside model validity of the {} liquidus: {v}", phase.name))
+            .collect();
+        let tg = isokom(&viscosity, fixpoints::GLASS_TRANSITION, "glass transition")?;
+        Ok(Properties {
+            viscosity,
+            liquidus: Kelvin(tl),
+            primary_phase: primary,
+            melting_temperature: isokom(&viscosity, fixpoints::MELTING, "melting temperature")?,
+            working_point: isokom(&viscosity, fixpoints::WORKING, "working point")?,
+            softening_point: isokom(&viscosity, fixpoints::SOFTENING, "softening point")?,
+            glass_transition: tg,
+            strain_point: isokom(&viscosity, fixpoints::STRAIN, "strain point")?,
+            fragility: viscosity.fragility()?,
+            reduced_glass_transition: tg.0 / tl,
+            viscosity_flags,
+            liquidus_flags,
+        })
+    }
+
+    /// Whether every phase's kinetic factor was calibrated against a measurement.
+    pub fn kinetics_calibrated(&self, primary: usize) -> bool {
+        self.phases[primary].calibrated_against.is_some()
+    }
+
+    /// The same set with another viscosity model.
+    pub fn with_viscosity(mut self, v: ViscosityModel) -> Self {
+        self.viscosity = v;
+        self
+    }
+}

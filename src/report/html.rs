@@ -1,0 +1,439 @@
+//! The report of a screen as one self-contained HTML page (inline SVG,
+//! inline CSS, no scripts, no network) that says which recipes to melt first
+//! and why. It renders values it is given; reading a results folder is the
+//! job of `files::results`.
+
+use super::plot::{self, TradePoint};
+use super::text::{sig, CAUTION};
+use crate::assess::Evaluation;
+use crate::composition::Oxide;
+use crate::screen::{Row, ScreenProblem};
+use crate::units::kelvin_to_celsius;
+use std::fmt::Write;
+
+fn esc(s: &str) -> String {
+    s.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+        .replace('"', "&quot;")
+}
+
+/// Drop the XML declaration so the SVG can sit inline in HTML.
+fn inline(svg: &str) -> String {
+    let s = svg.trim_start();
+    match s.strip_prefix("<?xml") {
+        Some(rest) => rest
+            .split_once("?>")
+            .map(|x| x.1.to_string())
+            .unwrap_or_default(),
+        None => s.to_string(),
+    }
+}
+
+const STYLE: &str = "
+body{font-family:Georgia,'DejaVu Serif',serif;background:#fcfaf5;color:#2f3742;max-width:1000px;margin:2em auto;padding:0 1em;line-height:1.45}
+h1{font-size:1.7em;border-bottom:3px solid #146e70;padding-bottom:.2em}
+h2{font-size:1.3em;color:#146e70;margin-top:2em}
+h3{font-size:1.1em}
+table{border-collapse:collapse;margin:.6em 0;font-size:.92em}
+th,td{border-bottom:1px solid #d8d4c8;padding:.25em .6em;text-align:right}
+th{background:#efece2}
+td.l,th.l{text-align:left}
+pre{background:#f3f0e6;padding:.8em;overflow-x:auto;font-size:.85em}
+.caution{border-left:6px solid #aa3c32;background:#f7e9e4;padding:.6em 1em}
+.note{color:#6b6b60;font-size:.9em}
+figure{margin:1em 0}
+";
+
+/// One shortlisted recipe as the report shows it.
+#[derive(Debug, Clone)]
+pub struct ReportRecipe {
+    /// 1 for the best.
+    pub rank: usize,
+    /// The amounts of the screen's oxides, mol%, in the screen's column order.
+    pub mol_pct: Vec<(Oxide, f64)>,
+    /// The values listed in the shortlist.
+    pub row: Row,
+    /// The full evaluation, or why it could not be made.
+    pub evaluation: Result<Evaluation, String>,
+    /// The weigh-out sheet, when the screen priced its recipes.
+    pub batch_text: Option<String>,
+}
+
+/// Everything the report of a finished screen shows.
+#[derive(Debug, Clone)]
+pub struct ScreenReport<'a> {
+    pub problem: &'a ScreenProblem,
+    pub seed: u64,
+    pub recipes: Vec<ReportRecipe>,
+    /// Every evaluated candidate, thinned, against cost per kg.
+    pub by_cost: Vec<TradePoint>,
+    /// The same against melting temperature in °C.
+    pub by_melting: Vec<TradePoint>,
+    /// The run summary (summary.txt).
+    pub summary: String,
+}
+
+fn property_table(e: &Evaluation) -> String {
+    let mut t = String::from("<table><tr><th class=l>property</th><th>°C</th><th>K</th></tr>");
+    let row = |t: &mut String, name: &str, k: Option<f64>| {
+        if let Some(k) = k {
+            let _ = write!(
+                t,
+                "<tr><td class=l>{name}</td><td>{:.1}</td><td>{:.1}</td></tr>",
+                kelvin_to_celsius(k),
+                k
+            );
+        }
+    };
+    row(
+        &mut t,
+        &format!(
+            "liquidus T_L ({})",
+            esc(e.primary_phase.as_deref().unwrap_or("-"))
+        ),
+        Some(e.liquidus_k),
+    );
+    row(
+        &mut t,
+        "melting temperature (10 Pa·s)",
+        e.melting_temperature_k,
+    );
+    row(&mut t, "working point (10³ Pa·s)", e.working_point_k);
+    row(&mut t, "softening point (10^6.6 Pa·s)", e.softening_point_k);
+    row(
+        &mut t,
+        "glass transition T_g (10¹² Pa·s)",
+        Some(e.glass_transition_k),
+    );
+    row(&mut t, "TTT nose", Some(e.nose_temperature_k));
+    t.push_str("</table><table><tr><th class=l>kinetics</th><th>value</th></tr>");
+    let _ = write!(
+        t,
+        "<tr><td class=l>critical cooling rate R_c</td><td>{} K/s ({} K/min)</td></tr>\
+         <tr><td class=l>nose-method rate</td><td>{} K/s</td></tr>\
+         <tr><td class=l>nose time</td><td>{} s</td></tr>\
+         <tr><td class=l>T_g/T_L</td><td>{}</td></tr>\
+         <tr><td class=l>thickest glassy slab (both faces on a 25 °C plate)</td><td>{} mm</td></tr>\
+         <tr><td class=l>kinetic factor α</td><td>{:.4} ({})</td></tr></table>",
+        sig(e.critical_rate_k_per_s),
+        sig(e.critical_rate_k_per_min),
+        sig(e.nose_rate_k_per_s),
+        sig(e.nose_time_s),
+        e.reduced_glass_transition
+            .map(|r| format!("{r:.3}"))
+            .unwrap_or_default(),
+        e.max_glassy_thickness_mm
+            .map(sig)
+            .unwrap_or_else(|| "-".into()),
+        e.turnbull_alpha,
+        if e.kinetics_calibrated {
+            "calibrated"
+        } else {
+            "NOT calibrated"
+        }
+    );
+    if !e.warnings.is_empty() {
+        t.push_str("<p class=note>");
+        for w in &e.warnings {
+            let _ = write!(t, "⚠ {}<br>", esc(w));
+        }
+        t.push_str("</p>");
+    }
+    t
+}
+
+fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> String {
+    let mut h = String::new();
+    let parts: Vec<String> = l
+        .mol_pct
+        .iter()
+        .filter(|(_, v)| *v > 0.0)
+        .map(|(o, v)| format!("{v:.2} {o}"))
+        .collect();
+    let _ = write!(
+        h,
+        "<h3 id=rank-{0}>Rank {0}: {1} (mol%)</h3>",
+        l.rank,
+        esc(&describe(e, &parts))
+    );
+    let margin = (problem.equipment.rate.0 / e.critical_rate_k_per_s).log10();
+    let _ = write!(
+        h,
+        "<p>Critical cooling rate <b>{} K/s</b> against {} K/s for {}: a margin of <b>{:.2} decades</b> (the safety factor asks for {:.2}).</p>",
+        sig(e.critical_rate_k_per_s),
+        sig(problem.equipment.rate.0),
+        esc(&problem.equipment.name),
+        margin,
+        problem.equipment.safety_factor.log10()
+    );
+    h.push_str(&property_table(e));
+    match e.kinetics() {
+        Ok(k) => {
+            let s = &e.kinetic_summary;
+            let title = format!("TTT diagram, rank {}", l.rank);
+            let _ = write!(
+                h,
+                "<figure>{}</figure>",
+                inline(&plot::ttt_svg(
+                    &k,
+                    s,
+                    Some((problem.equipment.rate, &problem.equipment.name)),
+                    &title
+                ))
+            );
+            let _ = write!(
+                h,
+                "<figure>{}</figure>",
+                inline(&plot::fraction_svg(
+                    &k,
+                    s,
+                    &format!("Continuous cooling, rank {}", l.rank)
+                ))
+            );
+            let bars: Vec<(String, f64)> = l
+                .mol_pct
+                .iter()
+                .map(|(o, v)| (o.formula().to_string(), *v))
+                .collect();
+            let _ = write!(
+                h,
+                "<figure>{}</figure>",
+                inline(&plot::composition_svg(
+                    &bars,
+                    &format!("Composition, rank {}", l.rank)
+                ))
+            );
+            let _ = write!(
+                h,
+                "<figure>{}</figure>",
+                inline(&plot::rates_svg(
+                    &k,
+                    &format!("Nucleation and growth, rank {}", l.rank)
+                ))
+            );
+        }
+        Err(err) => {
+            let _ = write!(
+                h,
+                "<p class=caution>no curves: {}</p>",
+                esc(&err.to_string())
+            );
+        }
+    }
+    if let Some(text) = &l.batch_text {
+        let _ = write!(h, "<h4>Batch sheet</h4><pre>{}</pre>", esc(text));
+    }
+    h
+}
+
+/// The composition as "72.00 SiO2 · 14.00 Na2O" in the program's oxide order.
+fn describe(e: &Evaluation, listed: &[String]) -> String {
+    match &e.composition_mol_pct {
+        Some(comp) => Oxide::ALL
+            .iter()
+            .filter_map(|o| comp.get(o.formula()).map(|v| format!("{v:.2} {o}")))
+            .collect::<Vec<_>>()
+            .join(" · "),
+        None => listed.join(" · "),
+    }
+}
+
+/// The report of a finished screen as one HTML page.
+pub fn screen_report_html(r: &ScreenReport) -> String {
+    let plan = r.problem;
+    let mut h = String::new();
+    let _ = write!(
+        h,
+        "<!DOCTYPE html><html lang=en><head><meta charset=utf-8><title>quenchwise screen report</title><style>{STYLE}</style></head><body>"
+    );
+    let _ = write!(
+        h,
+        "<h1>Glass-forming screen: which recipes to melt first</h1>"
+    );
+    let _ = write!(
+        h,
+        "<p class=caution><b>Safety.</b> {}</p>",
+        esc(CAUTION.trim_start_matches("caution: "))
+    );
+    // Job summary.
+    let _ = write!(h, "<h2>The job</h2><table>");
+    let row = |h: &mut String, k: &str, v: String| {
+        let _ = write!(
+            h,
+            "<tr><td class=l>{k}</td><td class=l>{}</td></tr>",
+            esc(&v)
+        );
+    };
+    row(
+        &mut h,
+        "equipment",
+        format!(
+            "{}: {} K/s, safety factor {}",
+            plan.equipment.name,
+            sig(plan.equipment.rate.0),
+            plan.equipment.safety_factor
+        ),
+    );
+    row(
+        &mut h,
+        "critical rate must be at most",
+        format!("{} K/s", sig(plan.allowed_rate().0)),
+    );
+    row(
+        &mut h,
+        "furnace",
+        format!(
+            "melting temperature (10 Pa·s) ≤ {:.0} °C; liquidus ≤ {:.0} °C",
+            plan.furnace_max.to_celsius().0,
+            plan.liquidus_max.to_celsius().0
+        ),
+    );
+    if let Some(c) = &plan.cost {
+        row(
+            &mut h,
+            "cost",
+            format!(
+                "≤ {} per kg of glass; raw materials: {}",
+                c.max_per_kg, c.label
+            ),
+        );
+    }
+    row(
+        &mut h,
+        "objective",
+        format!("{:?}", plan.objective).to_lowercase(),
+    );
+    let ranges: Vec<String> = plan
+        .oxides
+        .iter()
+        .map(|(o, lo, hi)| format!("{o} {lo}–{hi}"))
+        .collect();
+    row(&mut h, "oxide ranges (mol%)", ranges.join(", "));
+    for c in &plan.constraints {
+        row(
+            &mut h,
+            "constraint",
+            format!(
+                "{} {}{}",
+                c.text,
+                c.min.map(|m| format!("≥ {m} ")).unwrap_or_default(),
+                c.max.map(|m| format!("≤ {m}")).unwrap_or_default()
+            ),
+        );
+    }
+    row(
+        &mut h,
+        "model set",
+        format!(
+            "{} — {} ({})",
+            plan.models.about.name, plan.models.about.description, plan.models.about.source
+        ),
+    );
+    row(
+        &mut h,
+        "viscosity model",
+        format!(
+            "{} ({})",
+            plan.models.viscosity.name, plan.models.viscosity.source
+        ),
+    );
+    let calibrated = plan
+        .models
+        .phases
+        .iter()
+        .all(|p| p.calibrated_against.is_some());
+    row(
+        &mut h,
+        "kinetics calibrated",
+        if calibrated {
+            "yes".into()
+        } else {
+            "NO: the kinetic factor is not tied to a measurement of this system; absolute rates may be off by decades".into()
+        },
+    );
+    row(&mut h, "seed", r.seed.to_string());
+    h.push_str("</table>");
+    if plan.models.about.invented {
+        h.push_str("<p class=caution>The model set has <b>invented</b> coefficients: this report demonstrates the tool and must not drive real melts.</p>");
+    }
+    // Shortlist table.
+    let _ = write!(h, "<h2>Shortlist</h2>");
+    if r.recipes.is_empty() {
+        h.push_str("<p class=caution>No recipe met every limit. See the constraint summary below for the limit that binds.</p>");
+    } else {
+        h.push_str("<table><tr><th>rank</th>");
+        for (o, _) in &r.recipes[0].mol_pct {
+            let _ = write!(h, "<th>{o}<br>mol%</th>");
+        }
+        h.push_str("<th>R_c<br>K/s</th><th>margin<br>decades</th><th>melting<br>°C</th><th>liquidus<br>°C</th><th class=l>primary phase</th><th>T_g<br>°C</th><th>cost<br>per kg</th></tr>");
+        for l in &r.recipes {
+            let _ = write!(h, "<tr><td><a href=#rank-{0}>{0}</a></td>", l.rank);
+            for (_, v) in &l.mol_pct {
+                let _ = write!(h, "<td>{v:.2}</td>");
+            }
+            let f = |v: Option<f64>, d: usize| v.map(|v| format!("{v:.d$}")).unwrap_or_default();
+            let c = |v: Option<f64>| f(v.map(kelvin_to_celsius), 0);
+            let w = &l.row;
+            let _ = write!(
+                h,
+                "<td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class=l>{}</td><td>{}</td><td>{}</td></tr>",
+                w.critical_rate_k_per_s.map(sig).unwrap_or_default(),
+                f(w.margin_decades, 2),
+                c(w.melting_temperature_k),
+                c(w.liquidus_k),
+                esc(w.primary_phase.as_deref().unwrap_or_default()),
+                c(w.glass_transition_k),
+                f(w.cost_per_kg, 3),
+            );
+        }
+        h.push_str("</table>");
+    }
+    // Trade-offs.
+    let _ = write!(h, "<h2>Trade-offs over every evaluated candidate</h2>");
+    if plan.cost.is_some() {
+        let _ = write!(
+            h,
+            "<figure>{}</figure>",
+            inline(&plot::tradeoff_svg(
+                &r.by_cost,
+                "cost per kg of glass",
+                plan.allowed_rate().0,
+                "Critical rate against cost"
+            ))
+        );
+    }
+    let _ = write!(
+        h,
+        "<figure>{}</figure>",
+        inline(&plot::tradeoff_svg(
+            &r.by_melting,
+            "melting temperature (10 Pa·s) / °C",
+            plan.allowed_rate().0,
+            "Critical rate against melting temperature"
+        ))
+    );
+    // Per-recipe sections.
+    let _ = write!(h, "<h2>The recipes</h2>");
+    for l in &r.recipes {
+        match &l.evaluation {
+            Ok(e) => h.push_str(&recipe_section(plan, l, e)),
+            Err(err) => {
+                let _ = write!(
+                    h,
+                    "<h3>Rank {}</h3><p class=caution>could not be re-evaluated: {}</p>",
+                    l.rank,
+                    esc(err)
+                );
+            }
+        }
+    }
+    // Constraint summary.
+    let _ = write!(
+        h,
+        "<h2>Constraint summary</h2><pre>{}</pre>",
+        esc(r.summary.trim())
+    );
+    let _ = write!(h, "<p class=note>Written by quenchwise {}. The numbers are model estimates to shortlist experiments; confirm glassiness by XRD or DSC.</p></body></html>", env!("CARGO_PKG_VERSION"));
+    h
+}

@@ -1,0 +1,355 @@
+//! Human-readable text for an evaluation: every number with its unit, °C beside
+//! K and K/min beside K/s, extrapolation marks on the lines they affect, and
+//! the safety caution.
+
+use crate::assess::Evaluation;
+use crate::batch::Batch;
+use crate::composition::{Composition, Oxide};
+use crate::kinetics::DrivingForce;
+use crate::screen::{LimitSummary, ScreenProblem};
+use crate::units::kelvin_to_celsius as c;
+use std::fmt::Write;
+
+/// One short caution line (docs/science.md, "Cautions"), printed under every evaluation.
+pub const CAUTION: &str = "caution: melts at 1000-1600 °C and quenching (steam bursts, ejected glass) burn; batch dusts \
+(crystalline silica, boric acid, Ba/Pb compounds, Li2CO3) are health hazards. These are model estimates to shortlist \
+experiments: confirm glassiness by XRD/DSC and follow your lab's safety rules and licensed practice.";
+
+/// A number in a compact form that keeps 3 significant figures across decades.
+pub fn sig(x: f64) -> String {
+    if !x.is_finite() {
+        return format!("{x}");
+    }
+    let a = x.abs();
+    if a != 0.0 && !(1e-3..1e5).contains(&a) {
+        format!("{x:.2e}")
+    } else if a >= 100.0 {
+        format!("{x:.0}")
+    } else if a >= 10.0 {
+        format!("{x:.1}")
+    } else if a >= 1.0 {
+        format!("{x:.2}")
+    } else {
+        format!("{x:.3}")
+    }
+}
+
+/// A duration in s with a readable unit beside it: "7200 s (2.00 h)".
+pub fn duration(s: f64) -> String {
+    if !s.is_finite() {
+        return "never".into();
+    }
+    let (v, u) = if s < 120.0 {
+        (s, "s")
+    } else if s < 7200.0 {
+        (s / 60.0, "min")
+    } else if s < 2.0 * 86400.0 {
+        (s / 3600.0, "h")
+    } else if s < 2.0 * 365.25 * 86400.0 {
+        (s / 86400.0, "days")
+    } else {
+        (s / (365.25 * 86400.0), "years")
+    };
+    format!("{} s ({} {u})", sig(s), sig(v))
+}
+
+/// The evaluation as a readable table.
+pub fn evaluation_text(e: &Evaluation) -> String {
+    let mut o = String::new();
+    let mv = if e.viscosity_extrapolated { "  !V" } else { "" };
+    let ml = if e.liquidus_extrapolated { "  !L" } else { "" };
+    // Lines that use both: the reduced glass transition and the kinetics.
+    let mk = format!(
+        "{}{}",
+        if mv.is_empty() { "" } else { "  !V" },
+        if ml.is_empty() { "" } else { "  !L" }
+    );
+    if let Some(comp) = &e.composition_mol_pct {
+        // In the program's oxide order, not alphabetical.
+        let parts: Vec<String> = Oxide::ALL
+            .iter()
+            .filter_map(|o| comp.get(o.formula()).map(|v| format!("{v:.2} {o}")))
+            .collect();
+        let _ = writeln!(o, "composition   {} (mol%)", parts.join(" · "));
+    } else {
+        let _ = writeln!(
+            o,
+            "melt card     (viscosity and crystal data given directly)"
+        );
+    }
+    if let Some(m) = &e.model_set {
+        let _ = writeln!(o, "model set     {m}");
+    }
+    let row = |o: &mut String, label: &str, value: String, mark: &str| {
+        let _ = writeln!(o, "  {label:<34} {value}{mark}");
+    };
+    let t = |k: f64| format!("{:>7.1} °C  {:>7.1} K", c(k), k);
+    let _ = writeln!(o, "\nliquidus and crystal");
+    row(
+        &mut o,
+        "liquidus T_L",
+        format!(
+            "{}{}",
+            t(e.liquidus_k),
+            e.primary_phase
+                .as_ref()
+                .map(|p| format!("   primary phase: {p}"))
+                .unwrap_or_default()
+        ),
+        ml,
+    );
+    let _ = writeln!(o, "\nviscosity");
+    if let Some(v) = e.melting_temperature_k {
+        row(&mut o, "melting temperature (10 Pa·s)", t(v), mv);
+    }
+    if let Some(v) = e.working_point_k {
+        row(&mut o, "working point (10^3 Pa·s)", t(v), mv);
+    }
+    if let Some(v) = e.softening_point_k {
+        row(&mut o, "softening point (10^6.6 Pa·s)", t(v), mv);
+    }
+    row(
+        &mut o,
+        "glass transition T_g (10^12 Pa·s)",
+        t(e.glass_transition_k),
+        mv,
+    );
+    if let Some(v) = e.strain_point_k {
+        row(&mut o, "strain point (10^13.5 Pa·s)", t(v), mv);
+    }
+    row(&mut o, "fragility m", format!("{:>7.1}", e.fragility), mv);
+    if let Some(r) = e.reduced_glass_transition {
+        let verdict = if r >= 2.0 / 3.0 {
+            "≥ 2/3: easy glass former (Turnbull)"
+        } else {
+            "< 2/3"
+        };
+        row(
+            &mut o,
+            "reduced glass transition T_g/T_L",
+            format!("{r:>7.3}   {verdict}"),
+            &mk,
+        );
+    }
+    let _ = writeln!(
+        o,
+        "\ncrystallisation (CNT + JMAK, X_c = {:e}, {} driving force{})",
+        e.detectable_fraction,
+        match e.driving_force {
+            DrivingForce::Turnbull => "Turnbull",
+            DrivingForce::Hoffman => "Hoffman",
+        },
+        if e.heterogeneous_nuclei_per_m3 > 0.0 {
+            format!(
+                ", {} pre-existing nuclei/m³",
+                sig(e.heterogeneous_nuclei_per_m3)
+            )
+        } else {
+            String::new()
+        }
+    );
+    row(
+        &mut o,
+        "TTT nose",
+        format!(
+            "{}   after {}",
+            t(e.nose_temperature_k),
+            duration(e.nose_time_s)
+        ),
+        &mk,
+    );
+    row(
+        &mut o,
+        "nose-method rate (T_L − T_n)/t_n",
+        format!(
+            "{} K/s   {} K/min",
+            sig(e.nose_rate_k_per_s),
+            sig(e.nose_rate_k_per_min)
+        ),
+        &mk,
+    );
+    row(
+        &mut o,
+        "critical cooling rate R_c",
+        format!(
+            "{} K/s   {} K/min",
+            sig(e.critical_rate_k_per_s),
+            sig(e.critical_rate_k_per_min)
+        ),
+        &mk,
+    );
+    if let Some(mm) = e.max_glassy_thickness_mm {
+        row(
+            &mut o,
+            "thickest glassy slab",
+            format!(
+                "{} mm   (cooled through both faces by a {:.0} °C plate; κ = {:.1e} m²/s)",
+                sig(mm),
+                c(e.quench_surface_k),
+                e.melt_thermal_diffusivity_m2_per_s
+            ),
+            &mk,
+        );
+    }
+    row(
+        &mut o,
+        "kinetic factor",
+        format!(
+            "α = {:.4}   σ = {:.4} J/m²   {}",
+            e.turnbull_alpha,
+            e.interface_energy_j_per_m2,
+            match &e.calibrated_against {
+                Some(s) => format!("calibrated against {s}"),
+                None => "NOT calibrated".into(),
+            }
+        ),
+        "",
+    );
+    if !e.warnings.is_empty() {
+        let _ = writeln!(o, "\nnotes");
+        for w in &e.warnings {
+            let _ = writeln!(o, "  - {w}");
+        }
+        if e.viscosity_extrapolated || e.liquidus_extrapolated {
+            let _ = writeln!(
+                o,
+                "  (!V: uses an extrapolated viscosity; !L: uses an extrapolated liquidus)"
+            );
+        }
+    }
+    let _ = writeln!(o, "\n{CAUTION}");
+    o
+}
+
+/// A batch sheet as a readable table, with the oxide balance and handling cautions.
+pub fn batch_text(b: &Batch, glass: &Composition, shelf: &str) -> String {
+    let mut o = String::new();
+    let _ = writeln!(
+        o,
+        "batch for {:.3} kg of glass   {} (mol%)",
+        b.glass_kg,
+        glass.describe()
+    );
+    let _ = writeln!(o, "raw materials  {}", shelf);
+    let _ = writeln!(
+        o,
+        "\n  {:<26} {:>12} {:>10} {:>10}",
+        "raw material", "mass / kg", "mass / g", "cost"
+    );
+    for l in &b.lines {
+        let _ = writeln!(
+            o,
+            "  {:<26} {:>12.5} {:>10.1} {:>10.3}",
+            l.name,
+            l.mass_kg,
+            l.mass_kg * 1e3,
+            l.cost
+        );
+    }
+    let _ = writeln!(
+        o,
+        "  {:<26} {:>12.5} {:>10.1} {:>10.3}",
+        "total batch",
+        b.batch_kg,
+        b.batch_kg * 1e3,
+        b.cost_total
+    );
+    let _ = writeln!(
+        o,
+        "\n  gas released on melting    {:.5} kg (CO2, H2O, volatilised oxide)",
+        b.gas_kg
+    );
+    let _ = writeln!(
+        o,
+        "  batch-to-glass ratio       {:.4}",
+        b.batch_to_glass_ratio
+    );
+    let _ = writeln!(
+        o,
+        "  cost per kg of glass       {:.3} (currency of the price list)",
+        b.cost_per_kg_glass
+    );
+    let want = glass.wt_percent();
+    let _ = writeln!(o, "\n  oxide balance, batch re-melted on paper (wt%):");
+    let _ = writeln!(o, "  {:<8} {:>9} {:>10}", "oxide", "target", "delivered");
+    for (name, got) in &b.delivered_wt_pct {
+        let t = name
+            .parse::<Oxide>()
+            .map(|ox| want[ox.index()])
+            .unwrap_or(0.0);
+        let _ = writeln!(o, "  {:<8} {:>9.3} {:>10.3}", name, t, got);
+    }
+    let cautions: Vec<String> = b
+        .lines
+        .iter()
+        .filter_map(|l| l.handling.map(|h| format!("  - {}: {h}", l.name)))
+        .collect();
+    let _ = writeln!(o, "\nhandling");
+    for c in cautions {
+        let _ = writeln!(o, "{c}");
+    }
+    let _ = writeln!(
+        o,
+        "  weigh and mix batch dusts under extraction with eye and respiratory protection; follow your lab's safety rules and the suppliers' safety data sheets."
+    );
+    o
+}
+
+/// The label of the built-in raw materials, as outputs show it.
+pub const DEMO_SHELF_LABEL: &str = "built-in demo shelf (INVENTED prices)";
+
+/// The limits that rejected candidates, most first (and a hint when asked).
+pub fn binding_text(s: &LimitSummary, with_hint: bool) -> String {
+    let mut by: Vec<_> = s.by_limit.clone();
+    by.sort_by_key(|e| std::cmp::Reverse(e.1));
+    let mut t = String::from("limits that rejected candidates (breaking it / breaking only it):");
+    for (l, any, only) in by {
+        t.push_str(&format!("\n  {:<52} {any:>7} / {only:>7}", l.label()));
+    }
+    if with_hint {
+        t.push_str(
+            "\nhint: relax the limit that rejects most candidates alone, or widen the oxide ranges",
+        );
+    }
+    t
+}
+
+/// The run summary printed at the end of a screen and written to summary.txt.
+pub fn screen_summary_text(
+    config: &str,
+    problem: &ScreenProblem,
+    s: &LimitSummary,
+    shortlisted: usize,
+) -> String {
+    format!(
+        "screen {}: {} candidates kept ({} evaluations with refinement), {} meet every limit, {} shortlisted\n\
+         equipment: {} at {:.3} K/s with safety factor {} → R_c must be ≤ {:.3} K/s\n\
+         furnace: melting temperature ≤ {:.0} °C, liquidus ≤ {:.0} °C\n{}\n{}\n",
+        config,
+        s.evaluated,
+        s.evaluations,
+        s.feasible,
+        shortlisted,
+        problem.equipment.name,
+        problem.equipment.rate.0,
+        problem.equipment.safety_factor,
+        problem.allowed_rate().0,
+        problem.furnace_max.to_celsius().0,
+        problem.liquidus_max.to_celsius().0,
+        binding_text(s, false),
+        CAUTION
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn compact_numbers() {
+        assert_eq!(sig(0.01534), "0.015");
+        assert_eq!(sig(1.234e-7), "1.23e-7");
+        assert_eq!(sig(1234.0), "1234");
+        assert_eq!(duration(90.0), "90.0 s (90.0 s)");
+    }
+}

@@ -1,0 +1,65 @@
+//! The space-filling first pass: a Sobol sequence (Joe & Kuo direction
+//! numbers) randomised by the seed, mapped into the oxide limits, evaluated in
+//! chunks addressable by index (for checkpoints and cluster shards).
+//!
+//! References
+//! - I. M. Sobol', USSR Comput. Math. Math. Phys. 7 (1967) 86–112,
+//!   doi:10.1016/0041-5553(67)90144-9; S. Joe, F. Y. Kuo, SIAM J. Sci. Comput.
+//!   30 (2008) 2635–2654, doi:10.1137/070709359.
+//! - R. Cranley, T. N. L. Patterson, SIAM J. Numer. Anal. 13 (1976) 904–914,
+//!   doi:10.1137/0713071 (random shift of a lattice rule).
+
+use super::candidate::{evaluate_candidate, Candidate, Pass};
+use super::problem::{ScreenProblem, Search};
+use super::simplex::Simplex;
+use sobol::params::JoeKuoD6;
+use sobol::Sobol;
+
+/// SplitMix64 (Steele, Lea & Flood 2014): a seed → well-mixed 64-bit numbers.
+fn splitmix64(mut z: u64) -> u64 {
+    z = z.wrapping_add(0x9e3779b97f4a7c15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xbf58476d1ce4e5b9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94d049bb133111eb);
+    z ^ (z >> 31)
+}
+
+/// The unit-cube points of one chunk of the space-filling pass: a Sobol sequence
+/// randomised by the seed with a Cranley–Patterson rotation (u + s mod 1, one
+/// shift s per dimension; Cranley & Patterson 1976, SIAM J. Numer. Anal. 13, 904).
+pub fn sobol_points(dims: usize, seed: u64, start: usize, count: usize) -> Vec<Vec<f64>> {
+    let shift: Vec<f64> = (0..dims)
+        .map(|d| (splitmix64(seed ^ splitmix64(d as u64)) >> 11) as f64 / (1u64 << 53) as f64)
+        .collect();
+    Sobol::<f64>::new(dims.max(1), &JoeKuoD6::minimal())
+        .skip(start)
+        .take(count)
+        .map(|u| u.iter().zip(&shift).map(|(u, s)| (u + s).fract()).collect())
+        .collect()
+}
+
+/// Evaluate chunk `k` of the space-filling pass (points k·size … (k+1)·size − 1).
+pub fn space_filling_chunk(
+    problem: &ScreenProblem,
+    search: &Search,
+    simplex: &Simplex,
+    k: usize,
+) -> Vec<Candidate> {
+    use rayon::prelude::*;
+    let start = k * search.chunk_size;
+    let count = search
+        .chunk_size
+        .min(search.first_pass_points.saturating_sub(start));
+    let pts = sobol_points(simplex.dims(), search.seed, start, count);
+    pts.par_iter()
+        .enumerate()
+        .map(|(j, u)| {
+            let x = simplex.compose(&simplex.from_unit(u));
+            evaluate_candidate(problem, (start + j) as u64, Pass::SpaceFilling, x)
+        })
+        .collect()
+}
+
+/// Number of chunks in the space-filling pass.
+pub fn chunk_count(search: &Search) -> usize {
+    search.first_pass_points.div_ceil(search.chunk_size)
+}

@@ -1,0 +1,40 @@
+//! The screen: search the bounded composition simplex for recipes that vitrify
+//! with the user's quench, melt in their furnace and fit their budget.
+//!
+//! Two passes, both deterministic and addressable by index so a run can be
+//! split into chunks (for checkpoints now, for a cluster's job array later):
+//! 1. a space-filling pass: Sobol points (Joe & Kuo direction numbers) mapped
+//!    into the oxide limits, the balance oxide closing the sum to 100 mol%;
+//!    points that break a limit or a linear constraint are counted and skipped;
+//! 2. local refinement with Nelder–Mead (argmin) from the best distinct seeds,
+//!    on the free oxides, with finite penalties for every violated limit.
+//!
+//! Then a shortlist of distinct feasible recipes ranked by the objective.
+//! No I/O here: [`run`] takes a store for checkpoints and an observer for
+//! progress; `files::run_folder` keeps them on disk and writes the outputs.
+//!
+//! References
+//! - I. M. Sobol', USSR Comput. Math. Math. Phys. 7 (1967) 86–112,
+//!   doi:10.1016/0041-5553(67)90144-9; S. Joe, F. Y. Kuo, SIAM J. Sci. Comput.
+//!   30 (2008) 2635–2654, doi:10.1137/070709359.
+//! - J. A. Nelder, R. Mead, Comput. J. 7 (1965) 308–313, doi:10.1093/comjnl/7.4.308.
+
+pub mod candidate;
+pub mod first_pass;
+pub mod limits;
+pub mod problem;
+pub mod refine;
+pub mod run;
+pub mod select;
+pub mod simplex;
+
+pub use candidate::{evaluate_candidate, evaluate_candidate_with, Candidate, Pass, Row};
+pub use first_pass::{chunk_count, sobol_points, space_filling_chunk};
+pub use limits::{Limit, LimitSet, LimitSummary};
+pub use problem::{
+    CostLimit, Equipment, LinearConstraint, ObjectiveKind, ScreenProblem, Search, Weights,
+};
+pub use refine::refine;
+pub use run::{run, ScreenEnd, ScreenObserver, ScreenStore, Shortlisted, Unobserved};
+pub use select::{distinct_rows, rank, Pools};
+pub use simplex::{composition_violation, dist2, Simplex};

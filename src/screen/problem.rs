@@ -1,0 +1,124 @@
+//! What a screen solves, built in code: the oxides that vary and their
+//! limits, the user's equipment, furnace, budget and property bounds, the
+//! objective and the shape of the shortlist ([`ScreenProblem`]); and how the
+//! search looks for it ([`Search`]). A screen config file is one way to build
+//! both (see `files::screen_config`); tests build them directly.
+
+use crate::assess::GlassCost;
+use crate::composition::{Oxide, N_OXIDES};
+use crate::kinetics::KineticOptions;
+use crate::properties::ModelSet;
+use crate::units::{Kelvin, KelvinPerSecond};
+use std::sync::Arc;
+
+/// A linear constraint on mol%: min ≤ Σ w_i x_i ≤ max.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LinearConstraint {
+    /// The expression as the user wrote it, e.g. "Na2O + K2O".
+    pub text: String,
+    pub weights: [f64; N_OXIDES],
+    pub min: Option<f64>,
+    pub max: Option<f64>,
+}
+
+/// Objective weights for the blend (per decade of margin, per cost unit, per 100 K).
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct Weights {
+    pub margin: f64,
+    pub cost: f64,
+    pub melting_temperature: f64,
+}
+
+impl Default for Weights {
+    fn default() -> Self {
+        Weights {
+            margin: 1.0,
+            cost: 0.0,
+            melting_temperature: 0.0,
+        }
+    }
+}
+
+/// What the screen ranks by.
+#[derive(serde::Deserialize, Clone, Copy, PartialEq, Eq, Debug, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ObjectiveKind {
+    /// Largest margin log10(R_equipment / R_c).
+    Margin,
+    /// Least cost per kg of glass.
+    Cost,
+    /// Lowest melting temperature (η = 10 Pa·s).
+    MeltingTemperature,
+    /// Weighted blend of the three.
+    Blend,
+}
+
+/// The quench the recipes must survive.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Equipment {
+    pub name: String,
+    /// The cooling rate the equipment delivers.
+    pub rate: KelvinPerSecond,
+    /// R_c must be at most rate / safety factor.
+    pub safety_factor: f64,
+}
+
+/// A cost ceiling and the model that prices a glass.
+#[derive(Debug, Clone)]
+pub struct CostLimit {
+    pub model: Arc<dyn GlassCost>,
+    /// Largest cost per kg of glass, in the currency of the price list.
+    pub max_per_kg: f64,
+    /// Where the prices come from (shown in outputs).
+    pub label: String,
+}
+
+/// The question a screen answers.
+#[derive(Debug, Clone)]
+pub struct ScreenProblem {
+    /// The oxides that vary, with [min, max] mol%, in [`Oxide::ALL`] order.
+    pub oxides: Vec<(Oxide, f64, f64)>,
+    pub constraints: Vec<LinearConstraint>,
+    pub equipment: Equipment,
+    /// The furnace's maximum: the melting temperature (10 Pa·s) must stay below.
+    pub furnace_max: Kelvin,
+    /// The liquidus must stay below this (furnace maximum − margin).
+    pub liquidus_max: Kelvin,
+    pub cost: Option<CostLimit>,
+    pub glass_transition_bounds: Option<(Kelvin, Kelvin)>,
+    /// Working point minus softening point, K.
+    pub working_range_bounds_k: Option<(f64, f64)>,
+    pub objective: ObjectiveKind,
+    pub weights: Weights,
+    /// Candidates outside the models' validity domains may count as feasible.
+    pub allow_extrapolation: bool,
+    pub models: ModelSet,
+    pub kinetic_options: KineticOptions,
+    /// Recipes in the shortlist.
+    pub shortlist_size: usize,
+    /// No two shortlisted recipes closer than this (Euclidean, mol%).
+    pub min_distance_mol_pct: f64,
+}
+
+impl ScreenProblem {
+    /// The largest critical rate allowed: R_equipment / safety factor.
+    pub fn allowed_rate(&self) -> KelvinPerSecond {
+        KelvinPerSecond(self.equipment.rate.0 / self.equipment.safety_factor)
+    }
+}
+
+/// How the search goes: these settings change which candidates are tried,
+/// so they are part of what makes a result reproducible.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Search {
+    /// Randomises the quasi-random first pass; same seed, same shortlist.
+    pub seed: u64,
+    /// Candidates in the space-filling first pass.
+    pub first_pass_points: usize,
+    /// Candidates per chunk (the unit of checkpoints and of cluster shards).
+    pub chunk_size: usize,
+    /// Best distinct seeds refined locally.
+    pub refine_from: usize,
+    /// Nelder–Mead iterations per refinement.
+    pub refine_iterations: u64,
+}

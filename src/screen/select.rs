@@ -1,0 +1,141 @@
+//! Selection: the one ranking order every step uses (it decides what resume
+//! and thread counts must reproduce), the pick of distinct rows, and the
+//! bounded pools that keep only what selection needs while candidates stream
+//! past, so memory stays flat however many candidates are evaluated.
+
+use super::candidate::Row;
+use super::limits::{Limit, LimitSummary};
+use super::problem::{ScreenProblem, Search};
+use super::simplex::dist2;
+use std::cmp::Ordering;
+
+/// The ranking of two rows by a key (lower first), ties broken by the
+/// first-pass rows before refined ones, then by index: a total order, so the
+/// result does not depend on the order rows arrive in.
+pub fn rank(a: &Row, b: &Row, key: impl Fn(&Row) -> f64) -> Ordering {
+    key(a)
+        .total_cmp(&key(b))
+        .then(a.refined.cmp(&b.refined))
+        .then(a.index.cmp(&b.index))
+}
+
+/// The objective of a row (lower is better; missing counts as worst).
+pub fn objective_key(r: &Row) -> f64 {
+    r.objective.unwrap_or(f64::INFINITY)
+}
+
+/// The penalised objective of a row (lower is better; missing counts as worst).
+pub fn penalised_key(r: &Row) -> f64 {
+    r.penalised.unwrap_or(f64::INFINITY)
+}
+
+/// Pick up to `n` rows, best first by `key`, no two closer than `min_dist` mol%.
+pub fn distinct_rows(
+    rows: &[Row],
+    n: usize,
+    min_dist: f64,
+    usable: impl Fn(&Row) -> bool,
+    key: impl Fn(&Row) -> f64,
+) -> Vec<&Row> {
+    let mut order: Vec<&Row> = rows.iter().filter(|r| usable(r)).collect();
+    order.sort_by(|a, b| rank(a, b, &key));
+    let mut out: Vec<&Row> = Vec::new();
+    for r in order {
+        if out.len() >= n {
+            break;
+        }
+        let x = r.composition();
+        if out
+            .iter()
+            .all(|o| dist2(&o.composition(), &x) >= min_dist * min_dist)
+        {
+            out.push(r);
+        }
+    }
+    out
+}
+
+/// What selection needs from a stream of candidates, in bounded memory: the
+/// best rows by objective (feasible) and by penalised objective (seeds for
+/// refinement), and the tally of broken limits.
+pub struct Pools {
+    keep: usize,
+    by_objective: Vec<Row>,
+    by_penalty: Vec<Row>,
+    tally: LimitSummary,
+}
+
+impl Pools {
+    /// Empty pools sized for a problem and a search.
+    pub fn new(problem: &ScreenProblem, search: &Search) -> Self {
+        // Greedy distinct selection looks far down the ranking when many good
+        // points sit close together; 200 per pick is ample for min distances of
+        // a few mol%.
+        let keep = 200 * (problem.shortlist_size.max(search.refine_from) + 1);
+        Pools {
+            keep,
+            by_objective: Vec::new(),
+            by_penalty: Vec::new(),
+            tally: Default::default(),
+        }
+    }
+
+    /// Count a row and keep it if it may still be selected.
+    pub fn add(&mut self, mut r: Row) {
+        self.tally.add(r.broken, r.evaluations);
+        // Warnings are restored when the selected rows are evaluated again.
+        r.warnings = String::new();
+        if r.feasible {
+            push_bounded(&mut self.by_objective, r.clone(), self.keep, objective_key);
+        }
+        push_bounded(&mut self.by_penalty, r, self.keep, penalised_key);
+    }
+
+    /// The compositions to refine: the best distinct rows by penalised
+    /// objective that lie inside the composition limits.
+    pub fn seeds(
+        &self,
+        problem: &ScreenProblem,
+        search: &Search,
+    ) -> Vec<[f64; crate::composition::N_OXIDES]> {
+        distinct_rows(
+            &self.by_penalty,
+            search.refine_from,
+            problem.min_distance_mol_pct,
+            |r| {
+                r.penalised.is_some()
+                    && r.error.is_none()
+                    && !r.broken.contains(Limit::CompositionLimits)
+            },
+            penalised_key,
+        )
+        .iter()
+        .map(|r| r.composition())
+        .collect()
+    }
+
+    /// The shortlist: the best distinct feasible rows by objective.
+    pub fn shortlist(&self, problem: &ScreenProblem) -> Vec<&Row> {
+        distinct_rows(
+            &self.by_objective,
+            problem.shortlist_size,
+            problem.min_distance_mol_pct,
+            |r| r.feasible,
+            objective_key,
+        )
+    }
+
+    /// The tally of broken limits so far.
+    pub fn tally(&self) -> &LimitSummary {
+        &self.tally
+    }
+}
+
+/// Keep the `keep` best rows by key, in [`rank`] order.
+fn push_bounded(v: &mut Vec<Row>, r: Row, keep: usize, key: impl Fn(&Row) -> f64) {
+    v.push(r);
+    if v.len() > 2 * keep {
+        v.sort_by(|a, b| rank(a, b, &key));
+        v.truncate(keep);
+    }
+}

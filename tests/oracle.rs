@@ -1,0 +1,35 @@
+//! A slow, independent oracle for the kinetic quadrature: trapezoid sums on a
+//! dense uniform grid, with the running growth integral accumulated by the
+//! trapezoid rule too. It uses only the public rates I(T) and U(T).
+
+use quenchwise::kinetics::Kinetics;
+use quenchwise::units::Kelvin;
+use std::f64::consts::PI;
+
+/// R_c = [4π J/(3 X_c)]^¼ with J on `points` uniform intervals of [T_e, T_L].
+pub fn dense_reference_critical_rate(k: &Kinetics, points: usize) -> f64 {
+    let (a, b) = (k.freeze_temperature().0, k.melt().liquidus.0);
+    let h = (b - a) / points as f64;
+    let mut ln_terms = Vec::with_capacity(points + 1);
+    let mut g = 0.0;
+    let mut u_prev = 0.0;
+    for n in 0..=points {
+        let t = a + h * n as f64;
+        let r = k.rates(Kelvin(t.min(b)));
+        let u = r.ln_growth.exp();
+        if n > 0 {
+            g += 0.5 * h * (u + u_prev);
+        }
+        u_prev = u;
+        let wgt = if n == 0 || n == points { 0.5 * h } else { h };
+        if g > 0.0 && r.ln_nucleation > f64::NEG_INFINITY {
+            ln_terms.push(wgt.ln() + r.ln_nucleation + 3.0 * g.ln());
+        }
+    }
+    let m = ln_terms.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let ln_j = m + ln_terms.iter().map(|t| (t - m).exp()).sum::<f64>().ln();
+    let xc = k.options().detectable_fraction;
+    ((4.0 * PI / (3.0 * xc)).ln() + ln_j)
+        .mul_add(0.25, 0.0)
+        .exp()
+}
