@@ -130,7 +130,7 @@ fn calibration_reproduces_the_measured_rate() {
 
 #[test]
 fn grd2008_flags_soda_rich_melts_on_the_lines_it_affects() {
-    // Source: shared/reference §1.1 scope warning / §7 item 7.
+    // Source: the model's stated scope (natural melts), checked by hand.
     let d = temp_dir("eval-grd");
     let r = run_in(
         &d,

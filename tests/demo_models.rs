@@ -20,9 +20,11 @@ fn published(a: f64, b: f64, t0: f64, level: f64) -> f64 {
 }
 
 /// (name, wt% without SO3, VFT A, B, T0 °C, liquidus °C)
-/// Source: shared/reference §9 — Seward & Vascott (eds.), High temperature glass melt
-/// property database for process modeling, ACerS 2005, as tabulated [SEC]. The VFT
-/// constants are read with η in Pa·s (the unit trap noted there).
+/// Source: Seward & Vascott (eds.), High temperature glass melt
+/// property database for process modeling, ACerS 2005, as tabulated in a secondary
+/// source (the encyclopedic "Soda–lime glass" table). The VFT constants are read
+/// with η in Pa·s: read as dPa·s they would put the float glass's softening point
+/// near 677 °C, far below the ≈720–730 °C known for such glass (common practice).
 /// SO3 (0.2 wt% in the container glass) is not one of our oxides and is left out;
 /// the rest is renormalised (a note says so).
 fn published_glasses() -> Vec<(&'static str, &'static str, f64, f64, f64, f64)> {
@@ -76,7 +78,7 @@ fn viscosity_fixpoints_match_the_published_container_and_float_glasses() {
 
 #[test]
 fn liquidus_matches_the_published_glasses_within_25_k() {
-    // Source: shared/reference §9 liquidus 1040 °C (container) and 1000 °C (float).
+    // Source: Seward & Vascott (2005), liquidus 1040 °C (container) and 1000 °C (float).
     // Measured here: 2 K and 5 K off.
     let m = demo();
     for (name, wt, _, _, _, tl) in published_glasses() {
@@ -89,8 +91,8 @@ fn liquidus_matches_the_published_glasses_within_25_k() {
 
 #[test]
 fn ordinary_soda_lime_vitrifies_when_poured_and_air_cooled() {
-    // Common practice: soda-lime melts left to cool in air (~1–10 K/s, shared/reference
-    // §6.4 [MEM]) come out glassy. The demo must give R_c well below 1 K/s for them.
+    // Common practice: soda-lime melts left to cool in air (~1–10 K/s, from memory)
+    // come out glassy. The demo must give R_c well below 1 K/s for them.
     let m = demo();
     for (name, wt, ..) in published_glasses() {
         let c = Composition::parse(wt, Basis::WtPercent, 2.0).unwrap();

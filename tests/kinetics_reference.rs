@@ -1,5 +1,5 @@
 //! The kinetics against closed forms, an independent implementation, a dense
-//! oracle, and the identities of SCIENCE.md §3.
+//! oracle, and the identities of docs/science.md, "Continuous cooling".
 
 use crate::oracle::dense_reference_critical_rate;
 use crate::tolerances::{CRITICAL_RATE_RTOL, ORACLE_RTOL};
@@ -53,10 +53,10 @@ fn with_nuclei() -> (Melt, KineticOptions) {
 
 #[test]
 fn agrees_with_an_independent_scipy_implementation() {
-    // Source: tests/reference/cnt_scipy.py, an independent implementation of SCIENCE.md §3
+    // Source: tests/reference/cnt_scipy.py, an independent implementation of docs/science.md
     // (NumPy 2.4.6 / SciPy 1.17.1, 400 001-point trapezoid + Simpson, brentq,
     // minimize_scalar), run 2026-12-02. Its grid error is far below 1e-5, so the
-    // 0.1 % accuracy target of SCIENCE.md applies; the "done" bar is 0.5 %.
+    // 0.1 % accuracy target of docs/science.md applies; the "done" bar is 0.5 %.
     let cases = [
         (
             "card",
@@ -106,7 +106,7 @@ fn agrees_with_an_independent_scipy_implementation() {
 
 #[test]
 fn constant_rates_reduce_to_the_isothermal_jmak_law() {
-    // Source: SCIENCE.md §3 — with constant I and U the continuous-cooling integral is
+    // Source: docs/science.md, "Continuous cooling" — with constant I and U the continuous-cooling integral is
     // exactly (π/3) I U³ t⁴ with t = (T_L − T_e)/R (Avrami 1939, isothermal JMAK).
     let (i, u) = (3.0e7_f64, 2.0e-7_f64);
     let (lo, hi) = (600.0, 1100.0);
@@ -134,7 +134,7 @@ fn constant_rates_reduce_to_the_isothermal_jmak_law() {
         let t = (hi - lo) / r;
         let exact = PI / 3.0 * i * u.powi(3) * t.powi(4);
         assert!(rel(x, exact) < 1e-12, "R = {r}: {x} vs {exact}");
-        // Pre-existing nuclei alone: (4π/3) N_h (U t)³ (SCIENCE.md §3).
+        // Pre-existing nuclei alone: (4π/3) N_h (U t)³ (docs/science.md, "TTT curve").
         let nh = 1e10;
         let none = |_: Kelvin| Rates {
             ln_nucleation: f64::NEG_INFINITY,
@@ -150,7 +150,7 @@ fn constant_rates_reduce_to_the_isothermal_jmak_law() {
 
 #[test]
 fn transformed_fraction_scales_as_rate_to_the_minus_four() {
-    // Source: SCIENCE.md §3, X(R) = 4π J / (3 R⁴) for homogeneous nucleation.
+    // Source: docs/science.md, "Continuous cooling", X(R) = 4π J / (3 R⁴) for homogeneous nucleation.
     let k = Kinetics::new(&card(), &KineticOptions::default()).unwrap();
     let x1 = k.extended_fraction_at_rate(KelvinPerSecond(1e-4)).unwrap();
     let x2 = k.extended_fraction_at_rate(KelvinPerSecond(1e-3)).unwrap();
@@ -262,7 +262,7 @@ fn default_quadrature_meets_the_target_over_a_family_of_melts() {
 
 #[test]
 fn lower_end_of_the_window_does_not_matter_once_low_enough() {
-    // Source: SCIENCE.md §3 — R_c must not depend on T_e (here η = 10^15 vs 10^18 Pa·s).
+    // Source: docs/science.md, "Continuous cooling" — R_c must not depend on T_e (here η = 10^15 vs 10^18 Pa·s).
     let fine = QuadratureSettings {
         initial_panels: 6,
         log_range_split: 2.0,
@@ -296,7 +296,7 @@ fn lower_end_of_the_window_does_not_matter_once_low_enough() {
 
 #[test]
 fn nose_method_overestimates_the_critical_rate() {
-    // Source: SCIENCE.md §3 notes (common practice): for typical glass formers the
+    // Source: common practice (Weinberg, Uhlmann & Zanotto 1989, J. Am. Ceram. Soc. 72, 2054, from memory): for typical glass formers the
     // nose method overestimates R_c several-fold to tenfold. We accept 2× to 40×.
     for (m, o) in [(card(), KineticOptions::default()), screw_hoffman()] {
         let s = Kinetics::new(&m, &o).unwrap().analyse().unwrap();

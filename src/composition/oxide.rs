@@ -62,7 +62,7 @@ pub fn atomic_weight(e: Element) -> f64 {
         K => 39.0983,      // 39.0983(1)
         Ca => 40.078,      // 40.078(4)
         Ti => 47.867,      // 47.867(1)
-        Mn => 54.938043,   // 54.938043(2); not in shared/reference, from memory of Table 1
+        Mn => 54.938043,   // 54.938043(2); from memory of Table 1
         Fe => 55.845,      // 55.845(2)
         Zn => 65.38,       // 65.38(2)
         Sr => 87.62,       // 87.62(1)

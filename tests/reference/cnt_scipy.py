@@ -1,4 +1,4 @@
-"""Independent reference for quenchwise's kinetics tests (SCIENCE.md section 3).
+"""Independent reference for quenchwise's kinetics tests (docs/science.md, "Nucleation and growth" to "Continuous cooling").
 
 Written separately from the Rust code, with NumPy/SciPy only: a dense uniform
 grid (cumulative trapezoid for the inner growth integral, Simpson for the outer
