@@ -20,7 +20,7 @@ use std::path::{Path, PathBuf};
 ///
 /// # Errors
 /// The write or the rename fails.
-pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), Error> {
+pub(crate) fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), Error> {
     let tmp = path.with_extension("partial");
     std::fs::write(&tmp, bytes).map_err(|e| Error::io("writing", &tmp, e))?;
     std::fs::rename(&tmp, path).map_err(|e| Error::io("renaming", &tmp, e))
@@ -32,7 +32,7 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), Error> {
 ///
 /// # Errors
 /// Polars refuses the columns.
-pub fn rows_frame(
+pub(crate) fn rows_frame(
     problem: &ScreenProblem,
     rows: &[&Row],
     with_rank: bool,
@@ -111,7 +111,7 @@ pub fn rows_frame(
 
 /// The shortlist as JSON: one object per recipe with its rank, the oxide
 /// columns and the result columns.
-pub fn shortlist_json(problem: &ScreenProblem, rows: &[&Row]) -> String {
+pub(crate) fn shortlist_json(problem: &ScreenProblem, rows: &[&Row]) -> String {
     let json: Vec<serde_json::Value> = rows
         .iter()
         .enumerate()
@@ -157,7 +157,7 @@ fn batch_sheet(plan: &RunPlan, comp: &Composition) -> Result<Option<(String, Str
 ///
 /// # Errors
 /// A write fails, or a batch cannot be made.
-pub fn write_batch_sheets(
+pub(crate) fn write_batch_sheets(
     plan: &RunPlan,
     out: &Path,
     shortlist: &[Shortlisted],
@@ -285,7 +285,7 @@ fn trade_points(
 ///
 /// # Errors
 /// The folder holds no finished screen, or its files cannot be read.
-pub fn read_finished_run(dir: &Path) -> Result<(RunPlan, Vec<ReportRecipe>, String), Error> {
+pub(crate) fn read_finished_run(dir: &Path) -> Result<(RunPlan, Vec<ReportRecipe>, String), Error> {
     if !dir.join("provenance.json").exists() {
         return Err(Error::bad_input(format!(
             "{} holds no screen results (no provenance.json)",

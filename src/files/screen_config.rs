@@ -191,7 +191,7 @@ pub struct RunPlan {
 }
 
 /// FNV-1a, 64 bit (a stable hash for checkpoint headers).
-pub fn fnv1a(bytes: &[u8]) -> u64 {
+pub(crate) fn fnv1a(bytes: &[u8]) -> u64 {
     let mut h: u64 = 0xcbf29ce484222325;
     for b in bytes {
         h ^= *b as u64;

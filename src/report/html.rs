@@ -240,7 +240,7 @@ fn describe(e: &Evaluation, listed: &[String]) -> String {
 }
 
 /// The report of a finished screen as one HTML page.
-pub fn screen_report_html(r: &ScreenReport) -> String {
+pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
     let plan = r.problem;
     let mut h = String::new();
     let _ = write!(

@@ -25,7 +25,7 @@ pub mod limits;
 pub mod problem;
 pub mod refine;
 pub mod run;
-pub mod select;
+pub(crate) mod select;
 pub mod simplex;
 
 pub use candidate::{evaluate_candidate, evaluate_candidate_with, Candidate, Pass, Row};
@@ -36,5 +36,4 @@ pub use problem::{
 };
 pub use refine::refine;
 pub use run::{run, ScreenEnd, ScreenObserver, ScreenStore, Shortlisted, Unobserved};
-pub use select::{distinct_rows, rank, Pools};
 pub use simplex::{composition_violation, dist2, Simplex};

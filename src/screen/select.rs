@@ -12,7 +12,7 @@ use std::cmp::Ordering;
 /// The ranking of two rows by a key (lower first), ties broken by the
 /// first-pass rows before refined ones, then by index: a total order, so the
 /// result does not depend on the order rows arrive in.
-pub fn rank(a: &Row, b: &Row, key: impl Fn(&Row) -> f64) -> Ordering {
+pub(crate) fn rank(a: &Row, b: &Row, key: impl Fn(&Row) -> f64) -> Ordering {
     key(a)
         .total_cmp(&key(b))
         .then(a.refined.cmp(&b.refined))
@@ -20,17 +20,17 @@ pub fn rank(a: &Row, b: &Row, key: impl Fn(&Row) -> f64) -> Ordering {
 }
 
 /// The objective of a row (lower is better; missing counts as worst).
-pub fn objective_key(r: &Row) -> f64 {
+pub(crate) fn objective_key(r: &Row) -> f64 {
     r.objective.unwrap_or(f64::INFINITY)
 }
 
 /// The penalised objective of a row (lower is better; missing counts as worst).
-pub fn penalised_key(r: &Row) -> f64 {
+pub(crate) fn penalised_key(r: &Row) -> f64 {
     r.penalised.unwrap_or(f64::INFINITY)
 }
 
 /// Pick up to `n` rows, best first by `key`, no two closer than `min_dist` mol%.
-pub fn distinct_rows(
+pub(crate) fn distinct_rows(
     rows: &[Row],
     n: usize,
     min_dist: f64,
@@ -58,7 +58,7 @@ pub fn distinct_rows(
 /// What selection needs from a stream of candidates, in bounded memory: the
 /// best rows by objective (feasible) and by penalised objective (seeds for
 /// refinement), and the tally of broken limits.
-pub struct Pools {
+pub(crate) struct Pools {
     keep: usize,
     by_objective: Vec<Row>,
     by_penalty: Vec<Row>,
@@ -67,7 +67,7 @@ pub struct Pools {
 
 impl Pools {
     /// Empty pools sized for a problem and a search.
-    pub fn new(problem: &ScreenProblem, search: &Search) -> Self {
+    pub(crate) fn new(problem: &ScreenProblem, search: &Search) -> Self {
         // Greedy distinct selection looks far down the ranking when many good
         // points sit close together; 200 per pick is ample for min distances of
         // a few mol%.
@@ -81,7 +81,7 @@ impl Pools {
     }
 
     /// Count a row and keep it if it may still be selected.
-    pub fn add(&mut self, mut r: Row) {
+    pub(crate) fn add(&mut self, mut r: Row) {
         self.tally.add(r.broken, r.evaluations);
         // Warnings are restored when the selected rows are evaluated again.
         r.warnings = String::new();
@@ -93,7 +93,7 @@ impl Pools {
 
     /// The compositions to refine: the best distinct rows by penalised
     /// objective that lie inside the composition limits.
-    pub fn seeds(
+    pub(crate) fn seeds(
         &self,
         problem: &ScreenProblem,
         search: &Search,
@@ -115,7 +115,7 @@ impl Pools {
     }
 
     /// The shortlist: the best distinct feasible rows by objective.
-    pub fn shortlist(&self, problem: &ScreenProblem) -> Vec<&Row> {
+    pub(crate) fn shortlist(&self, problem: &ScreenProblem) -> Vec<&Row> {
         distinct_rows(
             &self.by_objective,
             problem.shortlist_size,
@@ -126,7 +126,7 @@ impl Pools {
     }
 
     /// The tally of broken limits so far.
-    pub fn tally(&self) -> &LimitSummary {
+    pub(crate) fn tally(&self) -> &LimitSummary {
         &self.tally
     }
 }
