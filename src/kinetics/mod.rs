@@ -1,7 +1,8 @@
 //! Crystallisation kinetics of a supercooled melt: classical nucleation and
 //! growth, TTT curves, and the critical cooling rate by JMAK.
 //!
-//! The equations are those of docs/science.md, "Kinetics". A [`Melt`] holds what the kinetics
+//! The equations are those of docs/science.md, "Nucleation and growth" to
+//! "Continuous cooling". A [`Melt`] holds what the kinetics
 //! need (viscosity curve, liquidus, crystal data); [`KineticOptions`] the
 //! choices (detectable fraction, driving-force form, pre-existing nuclei).
 //! [`Kinetics`] is the prepared form used in the hot path: all rates are kept as
