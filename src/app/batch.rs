@@ -8,7 +8,7 @@ use quenchwise::batch::{least_cost_batch, BatchSettings};
 use quenchwise::composition::parse_pairs;
 use quenchwise::error::{Error, ResultExt};
 use quenchwise::files::raw_materials::read_raw_materials;
-use quenchwise::report::text::{batch_text, DEMO_SHELF_LABEL};
+use quenchwise::report::text::{batch_csv, batch_text, DEMO_SHELF_LABEL};
 use std::io::Write;
 
 pub fn batch(a: BatchArgs) -> Result<Outcome, Error> {
@@ -56,16 +56,7 @@ pub fn batch(a: BatchArgs) -> Result<Outcome, Error> {
             .map_err(|e| Error::internal(format!("writing JSON: {e}")))?
             + "\n"
     } else if a.csv {
-        let mut s = String::from("raw_material,mass_kg,cost\n");
-        for l in &sheet.lines {
-            s.push_str(&format!(
-                "\"{}\",{:.6},{:.4}\n",
-                l.name.replace('"', "\"\""),
-                l.mass_kg,
-                l.cost
-            ));
-        }
-        s
+        batch_csv(&sheet, "mass_kg")
     } else {
         batch_text(&sheet, &glass, &shelf)
     };

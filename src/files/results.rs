@@ -10,7 +10,7 @@ use crate::error::{Error, ResultExt};
 use crate::report::html::{ReportRecipe, ScreenReport};
 use crate::report::plot::TradePoint;
 use crate::report::records::{oxide_column, oxide_of_column, Cell, RESULT_FIELDS};
-use crate::report::text::{batch_text, evaluation_text};
+use crate::report::text::{batch_csv, batch_text, evaluation_text};
 use crate::screen::{evaluate_candidate_with, Pass, Row, ScreenProblem, Shortlisted};
 use crate::units::kelvin_to_celsius;
 use polars::prelude::*;
@@ -141,15 +141,7 @@ fn batch_sheet(plan: &RunPlan, comp: &Composition) -> Result<Option<(String, Str
     };
     let b = least_cost_batch(&model.raws, comp, 1.0, &model.settings)?;
     let text = batch_text(&b, comp, &limit.label);
-    let mut csv = String::from("raw_material,mass_kg_per_kg_glass,cost\n");
-    for l in &b.lines {
-        csv.push_str(&format!(
-            "\"{}\",{:.6},{:.4}\n",
-            l.name.replace('"', "\"\""),
-            l.mass_kg,
-            l.cost
-        ));
-    }
+    let csv = batch_csv(&b, "mass_kg_per_kg_glass");
     Ok(Some((text, csv)))
 }
 

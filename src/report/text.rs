@@ -295,6 +295,20 @@ pub fn batch_text(b: &Batch, glass: &Composition, shelf: &str) -> String {
     o
 }
 
+/// A batch sheet as CSV: raw material, mass (under `mass_column`), cost.
+pub fn batch_csv(b: &Batch, mass_column: &str) -> String {
+    let mut s = format!("raw_material,{mass_column},cost\n");
+    for l in &b.lines {
+        s.push_str(&format!(
+            "\"{}\",{:.6},{:.4}\n",
+            l.name.replace('"', "\"\""),
+            l.mass_kg,
+            l.cost
+        ));
+    }
+    s
+}
+
 /// The label of the built-in raw materials, as outputs show it.
 pub const DEMO_SHELF_LABEL: &str = "built-in demo shelf (INVENTED prices)";
 
