@@ -9,7 +9,8 @@
 use crate::composition::{Composition, Oxide};
 use crate::error::{Diagnostic, Error};
 use crate::kinetics::{
-    DrivingForce, KineticOptions, KineticSummary, Kinetics, KineticsError, Melt,
+    Calibrated, CrystalPhase, DrivingForce, KineticOptions, KineticSummary, Kinetics,
+    KineticsError, Melt, Transport,
 };
 use crate::properties::{GrowthMode, Interface, ModelError, ModelSet, Properties};
 use crate::units::{Kelvin, KelvinPerSecond};
@@ -61,6 +62,16 @@ pub enum Calibration {
     ToNoseTime(f64),
 }
 
+/// Beyond these the model's numbers are extrapolations no experiment in a
+/// glass lab can check (common practice for what a lab can verify): a TTT nose
+/// later than a day, a glassy slab thicker than 100 mm, a critical rate below
+/// 1e-3 K/s (3.6 K/h, slower than any DSC cooling run).
+pub const VOUCH_NOSE_TIME_S: f64 = 86_400.0;
+/// See [`VOUCH_NOSE_TIME_S`].
+pub const VOUCH_THICKNESS_MM: f64 = 100.0;
+/// See [`VOUCH_NOSE_TIME_S`].
+pub const VOUCH_CRITICAL_RATE_K_PER_S: f64 = 1e-3;
+
 /// Everything quenchwise reports for one melt or composition.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Evaluation {
@@ -68,10 +79,15 @@ pub struct Evaluation {
     pub composition_mol_pct: Option<BTreeMap<String, f64>>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub model_set: Option<String>,
+    /// The phase with the highest liquidus (the first to appear on cooling).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub primary_phase: Option<String>,
+    /// The phase with the largest share of the crystallised volume at R_c.
+    pub limiting_phase: String,
     pub liquidus_k: f64,
     pub liquidus_c: f64,
+    /// Every phase's liquidus, K (clipped at its melting point).
+    pub liquidus_by_phase_k: BTreeMap<String, f64>,
     pub glass_transition_k: f64,
     pub glass_transition_c: f64,
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -93,16 +109,28 @@ pub struct Evaluation {
     pub nose_rate_k_per_min: f64,
     pub critical_rate_k_per_s: f64,
     pub critical_rate_k_per_min: f64,
+    /// The critical rate each phase alone would need, K/s.
+    pub critical_rate_by_phase_k_per_s: BTreeMap<String, f64>,
     pub nose_nucleation_rate_per_m3_s: f64,
     pub nose_growth_rate_m_per_s: f64,
+    /// α of the limiting phase.
     pub turnbull_alpha: f64,
+    /// σ of the limiting phase, J/m².
     pub interface_energy_j_per_m2: f64,
+    /// The limiting phase's kinetic factor is tied to a measurement.
     pub kinetics_calibrated: bool,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub calibrated_against: Option<String>,
     pub detectable_fraction: f64,
     pub driving_force: DrivingForce,
+    /// Pre-existing nuclei of each phase, per m³.
     pub heterogeneous_nuclei_per_m3: f64,
+    /// Contact angle of nucleation on the sample's walls (180: none), degrees.
+    pub wall_contact_angle_deg: f64,
+    /// Thickness of the sample whose walls nucleate, m.
+    pub sample_thickness_m: f64,
+    /// How diffusion follows viscosity near T_g.
+    pub transport: String,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub max_glassy_thickness_mm: Option<f64>,
     pub quench_surface_k: f64,
@@ -111,6 +139,9 @@ pub struct Evaluation {
     pub viscosity_extrapolated: bool,
     /// The liquidus prediction is an extrapolation (see warnings).
     pub liquidus_extrapolated: bool,
+    /// R_c, the nose time and the glassy thickness are all within what the
+    /// model can vouch for (see [`VOUCH_NOSE_TIME_S`]).
+    pub vouched: bool,
     pub warnings: Vec<String>,
     /// The melt the kinetics were computed for (not written to files).
     #[serde(skip)]
@@ -151,20 +182,31 @@ impl Diagnostic for EvalError {
     }
 }
 
-/// The melt of a composition's primary phase, for the kinetics.
+/// The melt of a composition: its viscosity curve and every phase whose
+/// liquidus lies above T_g (the others cannot crystallise from the liquid).
 ///
 /// # Errors
 /// Crystal data or a liquidus that the kinetics refuse.
-pub fn primary_melt(models: &ModelSet, props: &Properties) -> Result<Melt, KineticsError> {
-    let p = &models.phases[props.primary_phase];
-    Melt::new(
-        props.viscosity,
-        props.liquidus,
-        p.enthalpy_of_fusion_j_per_mol,
-        p.molar_volume_m3_per_mol,
-        Interface::TurnbullAlpha(p.turnbull_alpha),
-        p.growth,
-    )
+pub fn composition_melt(models: &ModelSet, props: &Properties) -> Result<Melt, KineticsError> {
+    let tg = props.glass_transition.0;
+    let phases = models
+        .phases
+        .iter()
+        .zip(&props.liquidus_by_phase)
+        .filter(|(_, l)| l.liquidus_k > tg)
+        .map(|(p, l)| CrystalPhase {
+            name: p.name.clone(),
+            liquidus: Kelvin(l.liquidus_k),
+            enthalpy_of_fusion_j_per_mol: p.enthalpy_of_fusion_j_per_mol,
+            molar_volume_m3_per_mol: p.molar_volume_m3_per_mol,
+            interface: Interface::TurnbullAlpha(p.turnbull_alpha),
+            growth: p.growth,
+            heat_capacity_change_j_per_mol_k: p.heat_capacity_change_j_per_mol_k.unwrap_or(0.0),
+            melting_point: Some(p.melting_point),
+            nuclei_per_m3: None,
+        })
+        .collect();
+    Melt::with_phases(props.viscosity, phases)
 }
 
 fn calibrate(
@@ -172,17 +214,20 @@ fn calibrate(
     opts: &KineticOptions,
     cal: &Calibration,
 ) -> Result<(Melt, Option<String>), KineticsError> {
+    let name = |c: &Calibrated| c.melt.phases[c.phase].name.clone();
     Ok(match cal {
-        Calibration::None => (*melt, None),
-        Calibration::Given(s) => (*melt, Some(s.clone())),
-        Calibration::ToCriticalRate(r) => (
-            Kinetics::calibrate_to_critical_rate(melt, opts, *r)?,
-            Some(format!("measured critical cooling rate {} K/s", r.0)),
-        ),
-        Calibration::ToNoseTime(t) => (
-            Kinetics::calibrate_to_nose_time(melt, opts, *t)?,
-            Some(format!("measured nose time {t} s")),
-        ),
+        Calibration::None => (melt.clone(), None),
+        Calibration::Given(s) => (melt.clone(), Some(s.clone())),
+        Calibration::ToCriticalRate(r) => {
+            let c = Kinetics::calibrate_to_critical_rate(melt, opts, *r, None)?;
+            let what = format!("measured critical cooling rate {} K/s ({})", r.0, name(&c));
+            (c.melt, Some(what))
+        }
+        Calibration::ToNoseTime(t) => {
+            let c = Kinetics::calibrate_to_nose_time(melt, opts, *t, None)?;
+            let what = format!("measured nose time {t} s ({})", name(&c));
+            (c.melt, Some(what))
+        }
     })
 }
 
@@ -204,17 +249,74 @@ fn kinetic_part(
         },
         None => None,
     };
-    let js = melt.entropy_of_fusion_over_r();
-    match melt.growth {
-        GrowthMode::Normal if js > 4.0 => warnings.push(format!(
-            "growth is 'normal' but ΔS_m/R = {js:.1} > 4 suggests screw-dislocation growth (Jackson)"
-        )),
-        GrowthMode::Screw if js < 2.0 => warnings.push(format!(
-            "growth is 'screw' but ΔS_m/R = {js:.1} < 2 suggests normal growth (Jackson)"
-        )),
-        _ => {}
+    for ps in &s.phases {
+        let p = &melt.phases[ps.index];
+        let js = p.entropy_of_fusion_over_r();
+        let (at, what) = match p.melting_point {
+            Some(_) => ("", "T_m"),
+            None => (" (T_L standing for T_m)", "T_L"),
+        };
+        match p.growth {
+            GrowthMode::Normal if js > 4.0 => warnings.push(format!(
+                "{}: growth is 'normal' but ΔS_m/R = ΔH_m/(R {what}) = {js:.1} > 4 suggests screw-dislocation growth (Jackson){at}",
+                p.name
+            )),
+            GrowthMode::Screw if js < 2.0 => warnings.push(format!(
+                "{}: growth is 'screw' but ΔS_m/R = ΔH_m/(R {what}) = {js:.1} < 2 suggests normal growth (Jackson){at}",
+                p.name
+            )),
+            _ => {}
+        }
+    }
+    let td = opts.decoupling_ratio * s.glass_transition.0;
+    if s.nose_temperature.0 < td {
+        warnings.push(format!(
+            "the TTT nose ({:.0} K) lies below {:.2} T_g = {:.0} K, where diffusion decouples from viscosity: {}",
+            s.nose_temperature.0,
+            opts.decoupling_ratio,
+            td,
+            match opts.transport {
+                Transport::StokesEinstein => "Stokes–Einstein, used here, underestimates the rates there",
+                Transport::Fractional { .. } => "the fractional Stokes–Einstein law used there is itself uncertain",
+            }
+        ));
     }
     Ok((s, thickness, warnings))
+}
+
+/// What the model cannot vouch for in an evaluation, as phrases (empty when
+/// everything is within reach of an experiment).
+fn beyond_vouching(e: &Evaluation) -> Vec<String> {
+    let mut out = Vec::new();
+    if e.nose_time_s > VOUCH_NOSE_TIME_S {
+        out.push(format!(
+            "a nose time of {:.1} days",
+            e.nose_time_s / 86_400.0
+        ));
+    }
+    if let Some(mm) = e.max_glassy_thickness_mm {
+        if mm > VOUCH_THICKNESS_MM {
+            out.push(format!("a glassy slab of {mm:.0} mm"));
+        }
+    }
+    if e.critical_rate_k_per_s < VOUCH_CRITICAL_RATE_K_PER_S {
+        out.push(format!(
+            "a critical rate of {:.1e} K/s",
+            e.critical_rate_k_per_s
+        ));
+    }
+    out
+}
+
+/// A description of the transport law.
+fn transport_text(opts: &KineticOptions) -> String {
+    match opts.transport {
+        Transport::StokesEinstein => "stokes_einstein".into(),
+        Transport::Fractional { exponent } => format!(
+            "fractional (D ∝ (T/η)^{exponent} below {} T_g)",
+            opts.decoupling_ratio
+        ),
+    }
 }
 
 fn base(
@@ -230,8 +332,14 @@ fn base(
         composition_mol_pct: None,
         model_set: None,
         primary_phase: None,
+        limiting_phase: s.limiting_phase().name.clone(),
         liquidus_k: s.liquidus.0,
         liquidus_c: s.liquidus.to_celsius().0,
+        liquidus_by_phase_k: melt
+            .phases
+            .iter()
+            .map(|p| (p.name.clone(), p.liquidus.0))
+            .collect(),
         glass_transition_k: s.glass_transition.0,
         glass_transition_c: s.glass_transition.to_celsius().0,
         melting_temperature_k: None,
@@ -248,6 +356,11 @@ fn base(
         nose_rate_k_per_min: s.nose_rate.per_minute(),
         critical_rate_k_per_s: s.critical_rate.0,
         critical_rate_k_per_min: s.critical_rate.per_minute(),
+        critical_rate_by_phase_k_per_s: s
+            .phases
+            .iter()
+            .map(|p| (p.name.clone(), p.critical_rate.0))
+            .collect(),
         nose_nucleation_rate_per_m3_s: s.nose_nucleation_per_m3_s,
         nose_growth_rate_m_per_s: s.nose_growth_m_per_s,
         turnbull_alpha: s.turnbull_alpha,
@@ -257,15 +370,31 @@ fn base(
         detectable_fraction: opts.detectable_fraction,
         driving_force: opts.driving_force,
         heterogeneous_nuclei_per_m3: opts.heterogeneous_nuclei_per_m3,
+        wall_contact_angle_deg: opts.contact_angle_deg,
+        sample_thickness_m: opts.sample_thickness_m,
+        transport: transport_text(opts),
         max_glassy_thickness_mm: thickness,
         quench_surface_k: q.surface.0,
         melt_thermal_diffusivity_m2_per_s: q.diffusivity_m2_per_s,
         viscosity_extrapolated: false,
         liquidus_extrapolated: false,
+        vouched: true,
         warnings: Vec::new(),
-        melt: *melt,
+        melt: melt.clone(),
         options: *opts,
-        kinetic_summary: *s,
+        kinetic_summary: s.clone(),
+    }
+}
+
+/// Mark what the model cannot vouch for.
+fn vouch(e: &mut Evaluation) {
+    let beyond = beyond_vouching(e);
+    e.vouched = beyond.is_empty();
+    if !e.vouched {
+        e.warnings.push(format!(
+            "beyond what the model can vouch for: {} (a real melt would crystallise from defects or impurities long before)",
+            beyond.join(", ")
+        ));
     }
 }
 
@@ -289,6 +418,7 @@ pub fn evaluate_melt(
         e.warnings.push(UNCALIBRATED.to_string());
     }
     e.warnings.extend(warnings);
+    vouch(&mut e);
     Ok(e)
 }
 
@@ -304,15 +434,26 @@ pub fn evaluate_composition(
     cal: &Calibration,
 ) -> Result<Evaluation, EvalError> {
     let props: Properties = models.properties(comp)?;
-    let melt = primary_melt(models, &props)?;
+    let melt = composition_melt(models, &props)?;
     let phase = &models.phases[props.primary_phase];
-    let cal = match (cal, &phase.calibrated_against) {
-        (Calibration::None, Some(s)) => Calibration::Given(s.clone()),
-        (c, _) => c.clone(),
-    };
-    let (melt, calibrated_against) = calibrate(&melt, opts, &cal)?;
+    let (melt, calibrated_against) = calibrate(&melt, opts, cal)?;
     let (s, thickness, kin_warnings) = kinetic_part(&melt, opts, slab)?;
+    // Without a calibration asked for, the limiting phase's own record counts.
+    let calibrated_against = calibrated_against.or_else(|| {
+        let limiting = &melt.phases[s.limiting_phase().index].name;
+        models
+            .phases
+            .iter()
+            .find(|p| &p.name == limiting)
+            .and_then(|p| p.calibrated_against.clone())
+    });
     let mut e = base(&s, &melt, opts, slab, thickness, calibrated_against);
+    e.liquidus_by_phase_k = models
+        .phases
+        .iter()
+        .zip(&props.liquidus_by_phase)
+        .map(|(p, l)| (p.name.clone(), l.liquidus_k))
+        .collect();
     let pct = comp.mol_percent();
     e.composition_mol_pct = Some(
         Oxide::ALL
@@ -346,6 +487,7 @@ pub fn evaluate_composition(
         e.warnings.push(UNCALIBRATED.to_string());
     }
     e.warnings.extend(kin_warnings);
+    vouch(&mut e);
     Ok(e)
 }
 

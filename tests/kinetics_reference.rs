@@ -367,18 +367,21 @@ fn thickest_glassy_slab_reaches_exactly_the_detectable_fraction() {
 #[test]
 fn calibrated_alpha_reproduces_its_target() {
     let target = KelvinPerSecond(0.5);
-    let m =
-        Kinetics::calibrate_to_critical_rate(&card(), &KineticOptions::default(), target).unwrap();
+    let c = Kinetics::calibrate_to_critical_rate(&card(), &KineticOptions::default(), target, None)
+        .unwrap();
+    let m = c.melt;
     let got = Kinetics::new(&m, &KineticOptions::default())
         .unwrap()
         .critical_rate()
         .unwrap();
     assert!(rel(got.0, target.0) < 1e-8, "{}", got.0);
     assert!(
-        m.turnbull_alpha() < 0.33,
+        m.phases[c.phase].turnbull_alpha() < 0.33,
         "a faster rate needs a smaller barrier"
     );
-    let m = Kinetics::calibrate_to_nose_time(&card(), &KineticOptions::default(), 100.0).unwrap();
+    let m = Kinetics::calibrate_to_nose_time(&card(), &KineticOptions::default(), 100.0, None)
+        .unwrap()
+        .melt;
     let s = Kinetics::new(&m, &KineticOptions::default())
         .unwrap()
         .analyse()

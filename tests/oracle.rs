@@ -8,7 +8,7 @@ use std::f64::consts::PI;
 
 /// R_c = [4π J/(3 X_c)]^¼ with J on `points` uniform intervals of [T_e, T_L].
 pub fn dense_reference_critical_rate(k: &Kinetics, points: usize) -> f64 {
-    let (a, b) = (k.freeze_temperature().0, k.melt().liquidus.0);
+    let (a, b) = (k.freeze_temperature().0, k.liquidus().0);
     let h = (b - a) / points as f64;
     let mut ln_terms = Vec::with_capacity(points + 1);
     let mut g = 0.0;

@@ -17,7 +17,7 @@ use quenchwise::files::source::{read_text, Source};
 use quenchwise::files::table::{
     append_results, read_composition_table, read_melt_table, write_frame, Table,
 };
-use quenchwise::kinetics::{DrivingForce, KineticOptions, KineticOverrides, Kinetics};
+use quenchwise::kinetics::{DrivingForce, KineticOptions, KineticOverrides, Kinetics, Transport};
 use quenchwise::report::{plot, sig, text::evaluation_text, CAUTION};
 use quenchwise::units::{Celsius, RateUnit};
 use rayon::prelude::*;
@@ -37,6 +37,11 @@ fn overrides(a: &EvalArgs) -> KineticOverrides {
         }),
         heterogeneous_nuclei_per_m3: a.nuclei_per_m3,
         contact_angle_deg: a.contact_angle_deg,
+        sample_thickness_m: a.sample_thickness_mm.map(|mm| mm / 1e3),
+        transport: a
+            .fractional_exponent
+            .map(|exponent| Transport::Fractional { exponent }),
+        decoupling_ratio: a.decoupling_ratio,
     }
 }
 

@@ -205,10 +205,13 @@ pub struct EvalArgs {
     /// A melt card (TOML) with measured viscosity and crystal data.
     ///
     /// Skips the composition models. Keys: [viscosity] a, b_k, c_k;
-    /// [crystal] liquidus_k, enthalpy_of_fusion_j_per_mol,
-    /// molar_volume_m3_per_mol, turnbull_alpha or interface_energy_j_per_m2,
-    /// growth ("normal" or "screw"); optional [kinetics] detectable_fraction,
-    /// driving_force, heterogeneous_nuclei_per_m3, contact_angle_deg.
+    /// [crystal] (or one [[crystal]] with a name per phase) liquidus_k,
+    /// enthalpy_of_fusion_j_per_mol, molar_volume_m3_per_mol, turnbull_alpha
+    /// or interface_energy_j_per_m2, growth ("normal" or "screw"), optional
+    /// heat_capacity_change_j_per_mol_k, melting_point_k,
+    /// heterogeneous_nuclei_per_m3; optional [kinetics] detectable_fraction,
+    /// driving_force, heterogeneous_nuclei_per_m3, contact_angle_deg,
+    /// sample_thickness_m, transport, fractional_exponent, decoupling_ratio.
     /// See demo-datasets/melt-card.toml.
     #[arg(long, value_name = "FILE", help_heading = "Input")]
     pub melt: Option<PathBuf>,
@@ -272,16 +275,41 @@ pub struct EvalArgs {
     #[arg(long, value_name = "FORM", value_parser = ["turnbull", "hoffman"], help_heading = "Kinetics")]
     pub driving_force: Option<String>,
 
-    /// Pre-existing heterogeneous nuclei per m³ [default: 0].
+    /// Pre-existing nuclei of each crystal phase per m³ [default: 0].
+    ///
+    /// Impurities, undissolved batch grains and crucible debris that are
+    /// already nuclei when cooling starts. 1e9 per m³ is one per mm³.
     #[arg(long, value_name = "PER_M3", help_heading = "Kinetics")]
     pub nuclei_per_m3: Option<f64>,
 
-    /// Contact angle (degrees) for nucleation on a substrate [default: 180].
+    /// Contact angle of crystals nucleating on the sample's walls, degrees.
     ///
-    /// 180° is homogeneous nucleation; smaller angles lower the barrier by
-    /// f(θ) = (2 + cos θ)(1 − cos θ)²/4.
+    /// Adds nucleation on the crucible or mould walls, per unit area: about
+    /// one site per λ² of wall, the barrier lowered by f(θ) = (2 + cos θ)(1 −
+    /// cos θ)²/4, turned into a rate per volume with the wall area 2/d of a
+    /// sample d thick (--sample-thickness-mm). 180 (the default) means no
+    /// wall nucleation; homogeneous nucleation in the volume is always on.
     #[arg(long, value_name = "DEGREES", help_heading = "Kinetics")]
     pub contact_angle_deg: Option<f64>,
+
+    /// Thickness of the sample whose walls nucleate, mm [default: 10].
+    #[arg(long, value_name = "MM", help_heading = "Kinetics")]
+    pub sample_thickness_mm: Option<f64>,
+
+    /// Below the decoupling temperature, let D ∝ (T/η)^XI (0 < XI ≤ 1).
+    ///
+    /// Near T_g diffusion decouples from viscosity and Stokes–Einstein
+    /// underestimates the rates. This fractional Stokes–Einstein law applies
+    /// below --decoupling-ratio × T_g and joins Stokes–Einstein there.
+    /// Without it, Stokes–Einstein holds at every temperature.
+    #[arg(long, value_name = "XI", help_heading = "Kinetics")]
+    pub fractional_exponent: Option<f64>,
+
+    /// Decoupling temperature as a multiple of T_g [default: 1.2].
+    ///
+    /// Where the fractional law takes over; a TTT nose below it is flagged.
+    #[arg(long, value_name = "RATIO", help_heading = "Kinetics")]
+    pub decoupling_ratio: Option<f64>,
 
     /// Fit α so the model reproduces this measured critical cooling rate.
     ///

@@ -1,22 +1,32 @@
-//! Melt cards (TOML): a melt measured by the user (VFT viscosity, liquidus,
-//! crystal data, optional kinetic options) turned into a validated melt, with
-//! the line of any bad value. Table rows of melt cards share [`MeltValues`].
+//! Melt cards (TOML): a melt measured by the user (VFT viscosity, and one
+//! `[crystal]` or several `[[crystal]]` phases with liquidus and crystal data,
+//! optional `[kinetics]`) turned into a validated melt, with the line of any
+//! bad value. Table rows of melt cards share [`MeltValues`]; screen configs
+//! share the `[kinetics]` table ([`KineticsTable`]).
 
 use super::source::{DataError, Source};
 use crate::error::Diagnostic;
-use crate::kinetics::{DrivingForce, KineticOptions, KineticOverrides, KineticsError, Melt};
+use crate::kinetics::{
+    CrystalPhase, DrivingForce, KineticOptions, KineticOverrides, KineticsError, Melt, Transport,
+};
 use crate::properties::{GrowthMode, Interface, ViscosityCurve, ViscosityError};
 use crate::units::Kelvin;
 use serde::Deserialize;
+use std::ops::Range;
 use toml::Spanned;
+
+/// ξ of the fractional Stokes–Einstein law when a file asks for it without a
+/// value (from memory: Ediger, Harrowell & Yu 2008 report ξ from about 1 for
+/// strong liquids falling with fragility; 0.7 suits a fragile silicate).
+pub const DEFAULT_FRACTIONAL_EXPONENT: f64 = 0.7;
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
-struct CardFile {
+struct CardFile<C> {
     viscosity: CardViscosity,
-    crystal: CardCrystal,
+    crystal: C,
     #[serde(default)]
-    kinetics: Option<CardKinetics>,
+    kinetics: Option<KineticsTable>,
 }
 
 #[derive(Deserialize)]
@@ -30,21 +40,96 @@ struct CardViscosity {
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct CardCrystal {
+    #[serde(default)]
+    name: Option<Spanned<String>>,
     liquidus_k: Spanned<f64>,
     enthalpy_of_fusion_j_per_mol: Spanned<f64>,
     molar_volume_m3_per_mol: Spanned<f64>,
     turnbull_alpha: Option<Spanned<f64>>,
     interface_energy_j_per_m2: Option<Spanned<f64>>,
     growth: Spanned<GrowthMode>,
+    #[serde(default)]
+    heat_capacity_change_j_per_mol_k: Option<Spanned<f64>>,
+    #[serde(default)]
+    melting_point_k: Option<Spanned<f64>>,
+    #[serde(default)]
+    heterogeneous_nuclei_per_m3: Option<Spanned<f64>>,
 }
 
-#[derive(Deserialize)]
+/// The `[kinetics]` table of a melt card or a screen config: which
+/// nucleation is on and how the kinetics are computed. Every key is optional.
+#[derive(Deserialize, Default)]
 #[serde(deny_unknown_fields)]
-struct CardKinetics {
+pub(crate) struct KineticsTable {
     detectable_fraction: Option<Spanned<f64>>,
     driving_force: Option<DrivingForce>,
     heterogeneous_nuclei_per_m3: Option<Spanned<f64>>,
     contact_angle_deg: Option<Spanned<f64>>,
+    sample_thickness_m: Option<Spanned<f64>>,
+    transport: Option<Spanned<TransportName>>,
+    fractional_exponent: Option<Spanned<f64>>,
+    decoupling_ratio: Option<Spanned<f64>>,
+}
+
+#[derive(Deserialize, Clone, Copy, PartialEq, Eq)]
+#[serde(rename_all = "snake_case")]
+enum TransportName {
+    StokesEinstein,
+    Fractional,
+}
+
+impl KineticsTable {
+    /// The overrides the table gives.
+    pub(crate) fn overrides(&self) -> KineticOverrides {
+        let v = |s: &Option<Spanned<f64>>| s.as_ref().map(|v| *v.get_ref());
+        let exponent = v(&self.fractional_exponent).unwrap_or(DEFAULT_FRACTIONAL_EXPONENT);
+        let transport = match self.transport.as_ref().map(|t| *t.get_ref()) {
+            Some(TransportName::StokesEinstein) => Some(Transport::StokesEinstein),
+            Some(TransportName::Fractional) => Some(Transport::Fractional { exponent }),
+            None => self
+                .fractional_exponent
+                .is_some()
+                .then_some(Transport::Fractional { exponent }),
+        };
+        KineticOverrides {
+            detectable_fraction: v(&self.detectable_fraction),
+            driving_force: self.driving_force,
+            heterogeneous_nuclei_per_m3: v(&self.heterogeneous_nuclei_per_m3),
+            contact_angle_deg: v(&self.contact_angle_deg),
+            sample_thickness_m: v(&self.sample_thickness_m),
+            transport,
+            decoupling_ratio: v(&self.decoupling_ratio),
+        }
+    }
+
+    /// Where the key a validation error names sits in the file.
+    pub(crate) fn span_of(&self, name: &str) -> Option<Range<usize>> {
+        let s = |o: &Option<Spanned<f64>>| o.as_ref().map(|v| v.span());
+        match name {
+            "detectable_fraction" => s(&self.detectable_fraction),
+            "heterogeneous_nuclei_per_m3" => s(&self.heterogeneous_nuclei_per_m3),
+            "contact_angle_deg" => s(&self.contact_angle_deg),
+            "sample_thickness_m" => s(&self.sample_thickness_m),
+            "fractional_exponent" => s(&self.fractional_exponent),
+            "decoupling_ratio" => s(&self.decoupling_ratio),
+            _ => None,
+        }
+    }
+}
+
+/// One crystal phase of a melt card or a table row, before validation.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CrystalValues {
+    pub name: String,
+    pub liquidus_k: f64,
+    pub enthalpy_of_fusion_j_per_mol: f64,
+    pub molar_volume_m3_per_mol: f64,
+    pub turnbull_alpha: Option<f64>,
+    pub interface_energy_j_per_m2: Option<f64>,
+    pub growth: GrowthMode,
+    pub heat_capacity_change_j_per_mol_k: Option<f64>,
+    pub melting_point_k: Option<f64>,
+    pub heterogeneous_nuclei_per_m3: Option<f64>,
 }
 
 /// The values of a melt card or a table row, before validation.
@@ -53,12 +138,8 @@ pub struct MeltValues {
     pub a: f64,
     pub b_k: f64,
     pub c_k: f64,
-    pub liquidus_k: f64,
-    pub enthalpy_of_fusion_j_per_mol: f64,
-    pub molar_volume_m3_per_mol: f64,
-    pub turnbull_alpha: Option<f64>,
-    pub interface_energy_j_per_m2: Option<f64>,
-    pub growth: GrowthMode,
+    /// At least one.
+    pub crystals: Vec<CrystalValues>,
     /// The card's `[kinetics]` values, where given.
     pub kinetics: KineticOverrides,
 }
@@ -67,17 +148,43 @@ pub struct MeltValues {
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum MeltValueError {
     #[error("give exactly one of turnbull_alpha and interface_energy_j_per_m2")]
-    InterfaceChoice,
+    InterfaceChoice { crystal: usize },
     #[error(transparent)]
     Kinetics(#[from] KineticsError),
+    #[error("{error}")]
+    Crystal {
+        crystal: usize,
+        error: KineticsError,
+    },
 }
 
 impl Diagnostic for MeltValueError {
     fn hint(&self) -> Option<String> {
         match self {
-            MeltValueError::InterfaceChoice => None,
-            MeltValueError::Kinetics(e) => e.hint(),
+            MeltValueError::InterfaceChoice { .. } => None,
+            MeltValueError::Kinetics(e) | MeltValueError::Crystal { error: e, .. } => e.hint(),
         }
+    }
+}
+
+impl CrystalValues {
+    fn phase(&self, k: usize) -> Result<CrystalPhase, MeltValueError> {
+        let interface = match (self.turnbull_alpha, self.interface_energy_j_per_m2) {
+            (Some(a), None) => Interface::TurnbullAlpha(a),
+            (None, Some(s)) => Interface::EnergyJPerM2(s),
+            _ => return Err(MeltValueError::InterfaceChoice { crystal: k }),
+        };
+        Ok(CrystalPhase {
+            name: self.name.clone(),
+            liquidus: Kelvin(self.liquidus_k),
+            enthalpy_of_fusion_j_per_mol: self.enthalpy_of_fusion_j_per_mol,
+            molar_volume_m3_per_mol: self.molar_volume_m3_per_mol,
+            interface,
+            growth: self.growth,
+            heat_capacity_change_j_per_mol_k: self.heat_capacity_change_j_per_mol_k.unwrap_or(0.0),
+            melting_point: self.melting_point_k.map(Kelvin),
+            nuclei_per_m3: self.heterogeneous_nuclei_per_m3,
+        })
     }
 }
 
@@ -85,25 +192,80 @@ impl MeltValues {
     /// Validate into a melt and its kinetic options (starting from `base` options).
     ///
     /// # Errors
-    /// Both or neither interface values; anything [`Melt::new`] or
-    /// [`KineticOptions::validate`] refuses.
+    /// Both or neither interface values; anything [`Melt::with_phases`] or
+    /// [`KineticOptions::validate`] refuses, naming the crystal.
     pub fn build(&self, base: &KineticOptions) -> Result<(Melt, KineticOptions), MeltValueError> {
-        let interface = match (self.turnbull_alpha, self.interface_energy_j_per_m2) {
-            (Some(a), None) => Interface::TurnbullAlpha(a),
-            (None, Some(s)) => Interface::EnergyJPerM2(s),
-            _ => return Err(MeltValueError::InterfaceChoice),
-        };
-        let melt = Melt::new(
-            ViscosityCurve::vft(self.a, self.b_k, self.c_k).map_err(KineticsError::from)?,
-            Kelvin(self.liquidus_k),
-            self.enthalpy_of_fusion_j_per_mol,
-            self.molar_volume_m3_per_mol,
-            interface,
-            self.growth,
-        )?;
+        let viscosity =
+            ViscosityCurve::vft(self.a, self.b_k, self.c_k).map_err(KineticsError::from)?;
+        let mut phases = Vec::with_capacity(self.crystals.len());
+        for (k, c) in self.crystals.iter().enumerate() {
+            let p = c.phase(k)?;
+            // Each phase alone first, so an error names its crystal.
+            Melt::with_phases(viscosity, vec![p.clone()])
+                .map_err(|error| MeltValueError::Crystal { crystal: k, error })?;
+            phases.push(p);
+        }
+        let melt = Melt::with_phases(viscosity, phases)?;
         let opts = self.kinetics.apply(*base);
         opts.validate()?;
         Ok((melt, opts))
+    }
+}
+
+/// The key a kinetics error is about, for locating it.
+fn key_of(e: &KineticsError) -> &'static str {
+    match e {
+        KineticsError::Value(v) | KineticsError::Viscosity(ViscosityError::Value(v)) => v.name(),
+        KineticsError::LiquidusBelowDivergence { .. } => "liquidus_k",
+        _ => "",
+    }
+}
+
+impl CardCrystal {
+    fn values(&self, k: usize, several: bool) -> CrystalValues {
+        let v = |s: &Option<Spanned<f64>>| s.as_ref().map(|v| *v.get_ref());
+        CrystalValues {
+            name: self
+                .name
+                .as_ref()
+                .map(|n| n.get_ref().clone())
+                .unwrap_or_else(|| {
+                    if several {
+                        format!("crystal {}", k + 1)
+                    } else {
+                        "crystal".into()
+                    }
+                }),
+            liquidus_k: *self.liquidus_k.get_ref(),
+            enthalpy_of_fusion_j_per_mol: *self.enthalpy_of_fusion_j_per_mol.get_ref(),
+            molar_volume_m3_per_mol: *self.molar_volume_m3_per_mol.get_ref(),
+            turnbull_alpha: v(&self.turnbull_alpha),
+            interface_energy_j_per_m2: v(&self.interface_energy_j_per_m2),
+            growth: *self.growth.get_ref(),
+            heat_capacity_change_j_per_mol_k: v(&self.heat_capacity_change_j_per_mol_k),
+            melting_point_k: v(&self.melting_point_k),
+            heterogeneous_nuclei_per_m3: v(&self.heterogeneous_nuclei_per_m3),
+        }
+    }
+
+    fn span_of(&self, name: &str) -> Option<Range<usize>> {
+        let s = |o: &Option<Spanned<f64>>| o.as_ref().map(|v| v.span());
+        match name {
+            "liquidus_k" => Some(self.liquidus_k.span()),
+            "enthalpy_of_fusion_j_per_mol" => Some(self.enthalpy_of_fusion_j_per_mol.span()),
+            "molar_volume_m3_per_mol" => Some(self.molar_volume_m3_per_mol.span()),
+            "turnbull_alpha" => s(&self.turnbull_alpha),
+            "interface_energy_j_per_m2" => s(&self.interface_energy_j_per_m2),
+            "heat_capacity_change_j_per_mol_k" => s(&self.heat_capacity_change_j_per_mol_k),
+            "melting_point_k" => s(&self.melting_point_k),
+            "heterogeneous_nuclei_per_m3" => s(&self.heterogeneous_nuclei_per_m3),
+            _ => None,
+        }
+        .or_else(|| {
+            (name == "name")
+                .then(|| self.name.as_ref().map(|n| n.span()))
+                .flatten()
+        })
     }
 }
 
@@ -115,70 +277,136 @@ pub fn parse_melt_card(
     src: &Source,
     base: &KineticOptions,
 ) -> Result<(Melt, KineticOptions), DataError> {
-    let hint = "a melt card has [viscosity] a, b_k, c_k; [crystal] liquidus_k, enthalpy_of_fusion_j_per_mol, molar_volume_m3_per_mol, turnbull_alpha (or interface_energy_j_per_m2), growth; optional [kinetics]";
-    let card: CardFile = src.parse(hint)?;
-    let k = card.kinetics.as_ref();
+    let hint = "a melt card has [viscosity] a, b_k, c_k; [crystal] (or one [[crystal]] per phase, each with a name) liquidus_k, enthalpy_of_fusion_j_per_mol, molar_volume_m3_per_mol, turnbull_alpha (or interface_energy_j_per_m2), growth; optional [kinetics]";
+    // [crystal] for one phase, [[crystal]] for several: look at the shape first,
+    // then read with spans.
+    let several = src
+        .text
+        .parse::<toml::Table>()
+        .ok()
+        .and_then(|t| t.get("crystal").map(|c| c.is_array()))
+        .unwrap_or(false);
+    let (viscosity, crystals, kinetics) = if several {
+        let card: CardFile<Vec<CardCrystal>> = src.parse(hint)?;
+        (card.viscosity, card.crystal, card.kinetics)
+    } else {
+        let card: CardFile<CardCrystal> = src.parse(hint)?;
+        (card.viscosity, vec![card.crystal], card.kinetics)
+    };
+    let kinetics = kinetics.unwrap_or_default();
+    if crystals.is_empty() {
+        return Err(src.error(
+            vec![src.problem(0..0, "a melt card needs at least one [[crystal]]")],
+            Some(hint.to_string()),
+        ));
+    }
     let values = MeltValues {
-        a: *card.viscosity.a.get_ref(),
-        b_k: *card.viscosity.b_k.get_ref(),
-        c_k: *card.viscosity.c_k.get_ref(),
-        liquidus_k: *card.crystal.liquidus_k.get_ref(),
-        enthalpy_of_fusion_j_per_mol: *card.crystal.enthalpy_of_fusion_j_per_mol.get_ref(),
-        molar_volume_m3_per_mol: *card.crystal.molar_volume_m3_per_mol.get_ref(),
-        turnbull_alpha: card.crystal.turnbull_alpha.as_ref().map(|v| *v.get_ref()),
-        interface_energy_j_per_m2: card
-            .crystal
-            .interface_energy_j_per_m2
-            .as_ref()
-            .map(|v| *v.get_ref()),
-        growth: *card.crystal.growth.get_ref(),
-        kinetics: KineticOverrides {
-            detectable_fraction: k
-                .and_then(|k| k.detectable_fraction.as_ref().map(|v| *v.get_ref())),
-            driving_force: k.and_then(|k| k.driving_force),
-            heterogeneous_nuclei_per_m3: k
-                .and_then(|k| k.heterogeneous_nuclei_per_m3.as_ref().map(|v| *v.get_ref())),
-            contact_angle_deg: k.and_then(|k| k.contact_angle_deg.as_ref().map(|v| *v.get_ref())),
-        },
+        a: *viscosity.a.get_ref(),
+        b_k: *viscosity.b_k.get_ref(),
+        c_k: *viscosity.c_k.get_ref(),
+        crystals: crystals
+            .iter()
+            .enumerate()
+            .map(|(k, c)| c.values(k, several))
+            .collect(),
+        kinetics: kinetics.overrides(),
     };
     values.build(base).map_err(|e| {
         // Point at the key the error is about.
         let span = match &e {
-            MeltValueError::InterfaceChoice => card.crystal.growth.span(),
-            MeltValueError::Kinetics(ke) => {
-                let name = match ke {
-                    KineticsError::Value(v)
-                    | KineticsError::Viscosity(ViscosityError::Value(v)) => v.name(),
-                    KineticsError::LiquidusBelowDivergence { .. } => "liquidus_k",
-                    _ => "",
-                };
-                let pick = |o: Option<&Spanned<f64>>| o.map(|s| s.span());
-                match name {
-                    "a" => Some(card.viscosity.a.span()),
-                    "b_k" => Some(card.viscosity.b_k.span()),
-                    "c_k" => Some(card.viscosity.c_k.span()),
-                    "liquidus_k" => Some(card.crystal.liquidus_k.span()),
-                    "enthalpy_of_fusion_j_per_mol" => {
-                        Some(card.crystal.enthalpy_of_fusion_j_per_mol.span())
-                    }
-                    "molar_volume_m3_per_mol" => Some(card.crystal.molar_volume_m3_per_mol.span()),
-                    "turnbull_alpha" => pick(card.crystal.turnbull_alpha.as_ref()),
-                    "interface_energy_j_per_m2" => {
-                        pick(card.crystal.interface_energy_j_per_m2.as_ref())
-                    }
-                    "detectable_fraction" => pick(k.and_then(|k| k.detectable_fraction.as_ref())),
-                    "heterogeneous_nuclei_per_m3" => {
-                        pick(k.and_then(|k| k.heterogeneous_nuclei_per_m3.as_ref()))
-                    }
-                    "contact_angle_deg" => pick(k.and_then(|k| k.contact_angle_deg.as_ref())),
-                    _ => None,
+            MeltValueError::InterfaceChoice { crystal } => Some(crystals[*crystal].growth.span()),
+            MeltValueError::Crystal { crystal, error } => crystals[*crystal]
+                .span_of(key_of(error))
+                .or(Some(crystals[*crystal].growth.span())),
+            MeltValueError::Kinetics(ke) => match (ke, key_of(ke)) {
+                (KineticsError::DuplicatePhase(_), _) => {
+                    crystals.last().and_then(|c| c.span_of("name"))
                 }
-                .unwrap_or(0..0)
-            }
-        };
+                (_, "a") => Some(viscosity.a.span()),
+                (_, "b_k") => Some(viscosity.b_k.span()),
+                (_, "c_k") => Some(viscosity.c_k.span()),
+                (_, name) => kinetics.span_of(name),
+            },
+        }
+        .unwrap_or(0..0);
         src.error(
             vec![src.problem(span, e.to_string())],
             e.hint().or(Some(hint.to_string())),
         )
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const TWO: &str = r#"
+[viscosity]
+a = -2.8
+b_k = 4500.0
+c_k = 480.0
+
+[[crystal]]
+name = "alpha phase"
+liquidus_k = 1300.0
+enthalpy_of_fusion_j_per_mol = 60000.0
+molar_volume_m3_per_mol = 6.0e-5
+turnbull_alpha = 0.33
+growth = "normal"
+
+[[crystal]]
+name = "beta phase"
+liquidus_k = 1250.0
+enthalpy_of_fusion_j_per_mol = 40000.0
+molar_volume_m3_per_mol = 5.0e-5
+turnbull_alpha = 0.30
+growth = "screw"
+heterogeneous_nuclei_per_m3 = 1e9
+
+[kinetics]
+contact_angle_deg = 60.0
+sample_thickness_m = 0.004
+transport = "fractional"
+"#;
+
+    #[test]
+    fn several_crystals_and_the_kinetics_table_are_read() {
+        let (m, o) =
+            parse_melt_card(&Source::new("two.toml", TWO), &KineticOptions::default()).unwrap();
+        assert_eq!(m.phases.len(), 2);
+        assert_eq!(m.phases[1].name, "beta phase");
+        assert_eq!(m.phases[1].nuclei_per_m3, Some(1e9));
+        assert_eq!(m.liquidus().0, 1300.0);
+        assert_eq!(o.contact_angle_deg, 60.0);
+        assert_eq!(o.sample_thickness_m, 0.004);
+        assert_eq!(
+            o.transport,
+            Transport::Fractional {
+                exponent: DEFAULT_FRACTIONAL_EXPONENT
+            }
+        );
+    }
+
+    #[test]
+    fn a_bad_value_in_the_second_crystal_names_its_line() {
+        let text = TWO.replace(
+            "molar_volume_m3_per_mol = 5.0e-5",
+            "molar_volume_m3_per_mol = -5.0e-5",
+        );
+        let err = parse_melt_card(&Source::new("two.toml", &text), &KineticOptions::default())
+            .unwrap_err()
+            .to_string();
+        let line = text.lines().position(|l| l.contains("-5.0e-5")).unwrap() + 1;
+        assert!(
+            err.contains(&format!(
+                "two.toml:{line}: molar_volume_m3_per_mol must be positive"
+            )),
+            "{err}"
+        );
+        let text = TWO.replace("\"beta phase\"", "\"alpha phase\"");
+        let err = parse_melt_card(&Source::new("two.toml", &text), &KineticOptions::default())
+            .unwrap_err()
+            .to_string();
+        assert!(err.contains("'alpha phase' is given twice"), "{err}");
+    }
 }

@@ -6,8 +6,8 @@
 use super::source::{read_text, Collector, DataError, Source};
 use crate::composition::N_OXIDES;
 use crate::properties::{
-    About, FractionBasis, GrowthMode, MixtureModel, ModelSet, Phase, ProductTerm, ViscosityForm,
-    ViscosityModel,
+    About, FractionBasis, GrowthMode, LiquidusSurface, MixtureModel, ModelSet, Phase, ProductTerm,
+    ViscosityForm, ViscosityModel,
 };
 use crate::units::{Celsius, Kelvin};
 use serde::Deserialize;
@@ -109,7 +109,7 @@ struct ProductFile {
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct PhaseFile {
-    name: String,
+    name: Spanned<String>,
     formula: String,
     enthalpy_of_fusion_j_per_mol: Spanned<f64>,
     molar_volume_m3_per_mol: Spanned<f64>,
@@ -121,9 +121,29 @@ struct PhaseFile {
     #[serde(default)]
     #[allow(dead_code)]
     note: Option<String>,
-    liquidus: MixtureFile,
+    #[serde(default)]
+    heat_capacity_change_j_per_mol_k: Option<Spanned<f64>>,
+    /// A liquidus surface as a mixture model (K or °C) ...
+    #[serde(default)]
+    liquidus: Option<MixtureFile>,
+    /// ... or by freezing-point depression from the fusion data.
+    #[serde(default)]
+    freezing_point_depression: Option<FreezingFile>,
     #[serde(default)]
     domain: BTreeMap<Spanned<String>, Spanned<[f64; 2]>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FreezingFile {
+    /// Oxide units per formula unit, e.g. { Na2O = 1, SiO2 = 2 }.
+    components: BTreeMap<Spanned<String>, Spanned<f64>>,
+    /// A mixture model added to ln a (dimensionless).
+    #[serde(default)]
+    correction: Option<MixtureFile>,
+    #[serde(default)]
+    #[allow(dead_code)]
+    note: Option<String>,
 }
 
 /// Parse a model set file.
@@ -159,10 +179,68 @@ pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
         if volume > 1e-2 {
             c.push(p.molar_volume_m3_per_mol.span(), format!("molar_volume_m3_per_mol = {volume} m3/mol is implausible; give m3/mol (e.g. 4.0e-5), not cm3/mol"));
         }
-        let liquidus = mixture(&mut c, &p.liquidus, true, p.turnbull_alpha.span());
+        let name_span = p.name.span();
+        if phases.iter().any(|q: &Phase| &q.name == p.name.get_ref()) {
+            c.push(
+                name_span.clone(),
+                format!("the phase '{}' is given twice", p.name.get_ref()),
+            );
+        }
+        let liquidus = match (&p.liquidus, &p.freezing_point_depression) {
+            (Some(m), None) => LiquidusSurface::Mixture(mixture(&mut c, m, true, name_span)),
+            (None, Some(f)) => {
+                let mut nu = [0.0; N_OXIDES];
+                for (k, v) in &f.components {
+                    if let Some(o) = c.oxide(k) {
+                        let n = *v.get_ref();
+                        if !(n.is_finite() && n > 0.0) {
+                            c.push(
+                                v.span(),
+                                format!("{o} must count a positive number of oxide units per formula unit, got {n}"),
+                            );
+                        }
+                        nu[o.index()] = n;
+                    }
+                }
+                if f.components.is_empty() {
+                    c.push(
+                        name_span,
+                        "freezing_point_depression needs components, e.g. { Na2O = 1, SiO2 = 2 }",
+                    );
+                }
+                let correction = f
+                    .correction
+                    .as_ref()
+                    .map(|m| mixture(&mut c, m, false, p.name.span()));
+                LiquidusSurface::FreezingPointDepression {
+                    stoichiometry: nu,
+                    correction,
+                }
+            }
+            _ => {
+                c.push(
+                    name_span,
+                    format!(
+                        "phase '{}' needs exactly one of [phase.liquidus] (a mixture model) and [phase.freezing_point_depression]",
+                        p.name.get_ref()
+                    ),
+                );
+                LiquidusSurface::Mixture(MixtureModel::constant(f64::NAN))
+            }
+        };
+        let dcp = p.heat_capacity_change_j_per_mol_k.as_ref().map(|v| {
+            let x = *v.get_ref();
+            if !(x.is_finite() && x >= 0.0) {
+                c.push(
+                    v.span(),
+                    format!("heat_capacity_change_j_per_mol_k must be zero or positive, got {x} J/(mol K)"),
+                );
+            }
+            x
+        });
         let domain = c.domain(&p.domain);
         phases.push(Phase {
-            name: p.name.clone(),
+            name: p.name.get_ref().clone(),
             formula: p.formula.clone(),
             enthalpy_of_fusion_j_per_mol: enthalpy,
             molar_volume_m3_per_mol: volume,
@@ -170,7 +248,8 @@ pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
             growth: p.growth,
             turnbull_alpha: alpha,
             calibrated_against: p.calibrated_against.clone(),
-            liquidus_k: liquidus,
+            heat_capacity_change_j_per_mol_k: dcp,
+            liquidus,
             domain,
         });
     }

@@ -3,6 +3,7 @@
 //! kept apart from how the run goes (threads, the config's path, text and
 //! hash). Errors name the file, the line and the key, all at once.
 
+use super::melt_card::KineticsTable;
 use super::model_set::{load_model_set, load_viscosity_model};
 use super::raw_materials::read_raw_materials;
 use super::source::{read_text, DataError, Problem, Source};
@@ -10,7 +11,7 @@ use crate::batch::{BatchSettings, CostModel};
 use crate::composition::expr::parse_linear;
 use crate::composition::Oxide;
 use crate::error::Error;
-use crate::kinetics::{DrivingForce, KineticOptions, KineticOverrides};
+use crate::kinetics::KineticOptions;
 use crate::report::text::DEMO_SHELF_LABEL;
 use crate::screen::{
     CostLimit, Equipment, LinearConstraint, ObjectiveKind, ScreenProblem, Search, Weights,
@@ -42,7 +43,7 @@ struct RawConfig {
     #[serde(default)]
     models: Option<RawModels>,
     #[serde(default)]
-    kinetics: Option<RawKinetics>,
+    kinetics: Option<KineticsTable>,
 }
 
 #[derive(Deserialize)]
@@ -164,15 +165,6 @@ fn default_distance() -> f64 {
 struct RawModels {
     set: Option<String>,
     viscosity: Option<String>,
-}
-
-#[derive(Deserialize)]
-#[serde(deny_unknown_fields)]
-struct RawKinetics {
-    detectable_fraction: Option<f64>,
-    driving_force: Option<DrivingForce>,
-    heterogeneous_nuclei_per_m3: Option<f64>,
-    contact_angle_deg: Option<f64>,
 }
 
 /// A validated screen config: the problem and the search, and how the run goes.
@@ -425,19 +417,14 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
             let [lo, hi] = *b.get_ref();
             (lo, hi)
         });
-    let kin = raw
-        .kinetics
-        .as_ref()
-        .map(|k| KineticOverrides {
-            detectable_fraction: k.detectable_fraction,
-            driving_force: k.driving_force,
-            heterogeneous_nuclei_per_m3: k.heterogeneous_nuclei_per_m3,
-            contact_angle_deg: k.contact_angle_deg,
-        })
-        .unwrap_or_default()
-        .apply(KineticOptions::default());
+    let kin_table = raw.kinetics.unwrap_or_default();
+    let kin = kin_table.overrides().apply(KineticOptions::default());
     if let Err(e) = kin.validate() {
-        push(0..0, format!("[kinetics]: {e}"));
+        let span = match &e {
+            crate::kinetics::KineticsError::Value(v) => kin_table.span_of(v.name()),
+            _ => None,
+        };
+        push(span.unwrap_or(0..0), format!("[kinetics]: {e}"));
     }
     let shortlist = raw.shortlist.unwrap_or(RawShortlist {
         size: default_size(),

@@ -3,7 +3,7 @@
 //! problem kept as that row's error; evaluation results appended as columns.
 //! Evaluating the rows is the caller's business (in parallel, in `app`).
 
-use super::melt_card::MeltValues;
+use super::melt_card::{CrystalValues, MeltValues};
 use crate::assess::Evaluation;
 use crate::composition::Oxide;
 use crate::error::{Diagnostic, ErrorKind};
@@ -212,6 +212,8 @@ pub fn read_melt_table(path: &Path) -> Result<Table<MeltValues>, TableError> {
     let df_kind = string_column(&df, "driving_force");
     let nh = float_column(&df, "heterogeneous_nuclei_per_m3");
     let theta = float_column(&df, "contact_angle_deg");
+    let thick = float_column(&df, "sample_thickness_m");
+    let dcp = float_column(&df, "heat_capacity_change_j_per_mol_k");
     let pick = |v: &Option<Vec<Option<f64>>>, i: usize| v.as_ref().and_then(|v| v[i]);
     let rows = (0..n)
         .map(|i| -> Result<MeltValues, String> {
@@ -246,17 +248,26 @@ pub fn read_melt_table(path: &Path) -> Result<Table<MeltValues>, TableError> {
                 a: need(&a, "a")?,
                 b_k: need(&b, "b_k")?,
                 c_k: need(&c, "c_k")?,
-                liquidus_k: need(&tl, "liquidus_k")?,
-                enthalpy_of_fusion_j_per_mol: need(&dh, "enthalpy_of_fusion_j_per_mol")?,
-                molar_volume_m3_per_mol: need(&vm, "molar_volume_m3_per_mol")?,
-                turnbull_alpha: pick(&alpha, i),
-                interface_energy_j_per_m2: pick(&sigma, i),
-                growth,
+                crystals: vec![CrystalValues {
+                    name: "crystal".into(),
+                    liquidus_k: need(&tl, "liquidus_k")?,
+                    enthalpy_of_fusion_j_per_mol: need(&dh, "enthalpy_of_fusion_j_per_mol")?,
+                    molar_volume_m3_per_mol: need(&vm, "molar_volume_m3_per_mol")?,
+                    turnbull_alpha: pick(&alpha, i),
+                    interface_energy_j_per_m2: pick(&sigma, i),
+                    growth,
+                    heat_capacity_change_j_per_mol_k: pick(&dcp, i),
+                    melting_point_k: None,
+                    heterogeneous_nuclei_per_m3: None,
+                }],
                 kinetics: KineticOverrides {
                     detectable_fraction: pick(&xc, i),
                     driving_force,
                     heterogeneous_nuclei_per_m3: pick(&nh, i),
                     contact_angle_deg: pick(&theta, i),
+                    sample_thickness_m: pick(&thick, i),
+                    transport: None,
+                    decoupling_ratio: None,
                 },
             })
         })

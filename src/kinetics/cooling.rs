@@ -1,31 +1,108 @@
 //! Continuous cooling: the transformed fraction after cooling at a constant
 //! rate (JMAK with time-dependent rates), the critical cooling rate, any
 //! measured cooling path, and the thickest slab a plate quench keeps glassy.
-//! See docs/science.md, "Continuous cooling".
+//! Every phase crystallises at once and the extended volumes add (Avrami
+//! 1939–41), each phase nucleating and growing only below its own liquidus.
+//! See docs/science.md, "Continuous cooling" and "Several phases".
 
 use super::melt::DEFAULT_DETECTABLE_FRACTION;
 use super::quadrature::{self, Cooling, CoolingIntegrals, Quadrature, QuadratureSettings, NODES};
-use super::rates::{Kinetics, Rates};
+use super::rates::{log_add, Kinetics, PhaseRates, Rates};
 use super::ttt::solve_quartic_cubic;
 use super::KineticsError;
 use crate::error::{finite, positive};
 use crate::units::{Kelvin, KelvinPerSecond};
 use std::f64::consts::PI;
 
+/// ln(4π/3).
+fn ln_4pi_3() -> f64 {
+    (4.0 * PI / 3.0).ln()
+}
+
+/// The extended fraction after cooling with a rate scale s, as
+/// X_ext = A y⁴ + B y³ with y = 1/s, kept as logarithms: A = (4π/3) J from
+/// nuclei that form on cooling, B = (4π/3) N_h G³ from nuclei already there.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(super) struct Extent {
+    pub(super) ln_a: f64,
+    pub(super) ln_b: f64,
+}
+
+impl Extent {
+    const NONE: Extent = Extent {
+        ln_a: f64::NEG_INFINITY,
+        ln_b: f64::NEG_INFINITY,
+    };
+
+    fn of(ci: &CoolingIntegrals, nuclei: f64) -> Extent {
+        Extent {
+            ln_a: ln_4pi_3() + ci.ln_j,
+            ln_b: if nuclei > 0.0 {
+                ln_4pi_3() + nuclei.ln() + 3.0 * ci.ln_g_total
+            } else {
+                f64::NEG_INFINITY
+            },
+        }
+    }
+
+    fn add(self, o: Extent) -> Extent {
+        Extent {
+            ln_a: log_add(self.ln_a, o.ln_a),
+            ln_b: log_add(self.ln_b, o.ln_b),
+        }
+    }
+
+    /// ln X_ext at rate scale s = e^ln_scale.
+    pub(super) fn ln_at(&self, ln_scale: f64) -> f64 {
+        log_add(self.ln_a - 4.0 * ln_scale, self.ln_b - 3.0 * ln_scale)
+    }
+
+    /// The rate scale at which X_ext = X_c.
+    pub(super) fn critical_scale(&self, xc: f64) -> f64 {
+        (-solve_quartic_cubic(self.ln_a, self.ln_b, xc.ln())).exp()
+    }
+}
+
+/// The cooling integrals of one phase.
+#[derive(Debug, Clone, Copy)]
+pub(super) struct PhaseIntegrals {
+    /// Index of the phase in the melt.
+    pub(super) phase: usize,
+    pub(super) integrals: CoolingIntegrals,
+    pub(super) extent: Extent,
+}
+
 impl Kinetics {
-    pub(super) fn cooling_integrals(
+    /// The cooling integrals of every phase that can crystallise.
+    pub(super) fn phase_integrals(
         &self,
         cooling: Cooling,
+    ) -> Result<Vec<PhaseIntegrals>, KineticsError> {
+        let mut out = Vec::with_capacity(self.phases.len());
+        for (i, p) in &self.phases {
+            let ci = self.integrals_of(p, cooling)?;
+            out.push(PhaseIntegrals {
+                phase: *i,
+                integrals: ci,
+                extent: Extent::of(&ci, p.nuclei),
+            });
+        }
+        Ok(out)
+    }
+
+    fn integrals_of(
+        &self,
+        p: &PhaseRates,
+        cooling: Cooling,
     ) -> Result<CoolingIntegrals, KineticsError> {
-        let nh = self.opts.heterogeneous_nuclei_per_m3;
-        let ln_nuclei = if nh > 0.0 {
-            (4.0 * PI / 3.0 * nh).ln()
+        let ln_nuclei = if p.nuclei > 0.0 {
+            ln_4pi_3() + p.nuclei.ln()
         } else {
             f64::NEG_INFINITY
         };
         Quadrature::cooling_integrals_with(
-            &|t| self.rates_raw(t),
-            (self.freeze, self.tl),
+            &|t| self.rates_of(p, t),
+            (self.freeze, p.tl),
             cooling,
             &self.quad,
             (ln_nuclei, self.opts.detectable_fraction.ln()),
@@ -37,12 +114,10 @@ impl Kinetics {
     /// # Errors
     /// Numerical failure (no nucleation or growth anywhere in the window).
     pub fn critical_rate(&self) -> Result<KelvinPerSecond, KineticsError> {
-        let ci = self.cooling_integrals(Cooling::Constant)?;
-        Ok(KelvinPerSecond(critical_scale(
-            &ci,
-            self.opts.heterogeneous_nuclei_per_m3,
-            self.opts.detectable_fraction,
-        )))
+        let total = total_extent(&self.phase_integrals(Cooling::Constant)?);
+        Ok(KelvinPerSecond(
+            total.critical_scale(self.opts.detectable_fraction),
+        ))
     }
 
     /// Transformed fraction X = 1 − exp(−X_ext) after cooling from T_L to T_e at a constant rate.
@@ -53,15 +128,15 @@ impl Kinetics {
         Ok(-(-self.extended_fraction_at_rate(rate)?).exp_m1())
     }
 
-    /// Extended (Avrami) fraction X_ext after constant-rate cooling from T_L to T_e:
-    /// X_ext = (4π/3)[J/R⁴ + N_h (∫U dT/R)³].
+    /// Extended (Avrami) fraction X_ext after constant-rate cooling from T_L to T_e,
+    /// summed over phases: X_ext = Σ_k (4π/3)[J_k/R⁴ + N_h,k (∫U_k dT/R)³].
     ///
     /// # Errors
     /// As [`Kinetics::fraction_at_rate`].
     pub fn extended_fraction_at_rate(&self, rate: KelvinPerSecond) -> Result<f64, KineticsError> {
         positive("cooling rate", rate.0, "K/s")?;
-        let ci = self.cooling_integrals(Cooling::Constant)?;
-        Ok(ln_extended_fraction(&ci, self.opts.heterogeneous_nuclei_per_m3, rate.0.ln()).exp())
+        let total = total_extent(&self.phase_integrals(Cooling::Constant)?);
+        Ok(total.ln_at(rate.0.ln()).exp())
     }
 
     /// Largest slab that stays glassy when its centre cools as the first Fourier
@@ -85,17 +160,13 @@ impl Kinetics {
                 freeze: self.freeze,
             });
         }
-        let ci = self.cooling_integrals(Cooling::Newtonian { surface: surface.0 })?;
-        let k = critical_scale(
-            &ci,
-            self.opts.heterogeneous_nuclei_per_m3,
-            self.opts.detectable_fraction,
-        );
+        let total = total_extent(&self.phase_integrals(Cooling::Newtonian { surface: surface.0 })?);
+        let k = total.critical_scale(self.opts.detectable_fraction);
         Ok(0.5 * PI * (thermal_diffusivity_m2_per_s / k).sqrt())
     }
 
     /// Crystallised fraction along a cooling path given as (time s, temperature K) points,
-    /// linear between points: X_ext = (4π/3)[∫ I(τ) (∫_τ^{t_end} U ds)³ dτ + N_h (∫ U ds)³].
+    /// linear between points: X_ext = Σ_k (4π/3)[∫ I_k(τ) (∫_τ^{t_end} U_k ds)³ dτ + N_h,k (∫ U_k ds)³].
     ///
     /// # Errors
     /// Fewer than two points, times not increasing, non-finite values.
@@ -113,13 +184,9 @@ impl Kinetics {
         let rule = quadrature::rule();
         // Sub-panels in time: at most 1 K of temperature change each, so I and U
         // are smooth on every panel; isothermal holds need one panel.
-        struct Node {
-            ln_i: f64,
-            u: f64,
-        }
         struct TimePanel {
             half: f64,
-            nodes: [Node; NODES],
+            temps: [f64; NODES],
         }
         let mut panels: Vec<TimePanel> = Vec::new();
         for w in path.windows(2) {
@@ -132,46 +199,37 @@ impl Kinetics {
                 let times = rule.nodes_on(a, b);
                 panels.push(TimePanel {
                     half: 0.5 * (b - a),
-                    nodes: std::array::from_fn(|i| {
-                        let temp = k0 + (k1 - k0) * (times[i] - t0) / (t1 - t0);
-                        let r = self.rates_raw(temp);
-                        Node {
-                            ln_i: r.ln_nucleation,
-                            u: r.ln_growth.exp(),
-                        }
-                    }),
+                    temps: std::array::from_fn(|i| k0 + (k1 - k0) * (times[i] - t0) / (t1 - t0)),
                 });
             }
         }
-        // Backward running growth length ∫_τ^{t_end} U ds at every node. The
-        // integration matrix integrates from the panel start, so
-        // G(τ_i) = G(panel end) + panel integral − ∫_{start}^{τ_i} U ds.
-        let mut g_after = 0.0;
-        let mut ln_terms = Vec::new();
-        for p in panels.iter().rev() {
-            let u = |j: usize| p.nodes[j].u;
-            let total: f64 = p.half * (0..NODES).map(|j| rule.w[j] * u(j)).sum::<f64>();
-            for i in 0..NODES {
-                let partial: f64 = p.half * (0..NODES).map(|j| rule.s[i][j] * u(j)).sum::<f64>();
-                let g = (g_after + total - partial).max(0.0);
-                if p.nodes[i].ln_i > f64::NEG_INFINITY && g > 0.0 {
-                    ln_terms.push((p.half * rule.w[i]).ln() + p.nodes[i].ln_i + 3.0 * g.ln());
+        let c = ln_4pi_3();
+        let mut ln_ext = f64::NEG_INFINITY;
+        for (_, phase) in &self.phases {
+            // Backward running growth length ∫_τ^{t_end} U ds at every node. The
+            // integration matrix integrates from the panel start, so
+            // G(τ_i) = G(panel end) + panel integral − ∫_{start}^{τ_i} U ds.
+            let mut g_after = 0.0;
+            for p in panels.iter().rev() {
+                let r: [Rates; NODES] = std::array::from_fn(|i| self.rates_of(phase, p.temps[i]));
+                let u: [f64; NODES] = std::array::from_fn(|i| r[i].ln_growth.exp());
+                let total: f64 = p.half * (0..NODES).map(|j| rule.w[j] * u[j]).sum::<f64>();
+                for i in 0..NODES {
+                    let partial: f64 =
+                        p.half * (0..NODES).map(|j| rule.s[i][j] * u[j]).sum::<f64>();
+                    let g = (g_after + total - partial).max(0.0);
+                    if r[i].ln_nucleation > f64::NEG_INFINITY && g > 0.0 {
+                        let term =
+                            c + (p.half * rule.w[i]).ln() + r[i].ln_nucleation + 3.0 * g.ln();
+                        ln_ext = log_add(ln_ext, term);
+                    }
                 }
+                g_after += total;
             }
-            g_after += total;
+            if phase.nuclei > 0.0 && g_after > 0.0 {
+                ln_ext = log_add(ln_ext, c + phase.nuclei.ln() + 3.0 * g_after.ln());
+            }
         }
-        let c = (4.0 * PI / 3.0).ln();
-        let mut terms: Vec<f64> = ln_terms.iter().map(|t| t + c).collect();
-        let nh = self.opts.heterogeneous_nuclei_per_m3;
-        if nh > 0.0 && g_after > 0.0 {
-            terms.push(c + nh.ln() + 3.0 * g_after.ln());
-        }
-        let m = terms.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-        let ln_ext = if m == f64::NEG_INFINITY {
-            f64::NEG_INFINITY
-        } else {
-            m + terms.iter().map(|t| (t - m).exp()).sum::<f64>().ln()
-        };
         let ext = ln_ext.exp();
         Ok(PathResult {
             extended_fraction: ext,
@@ -181,42 +239,20 @@ impl Kinetics {
     }
 }
 
+/// The sum of the phases' extents.
+pub(super) fn total_extent(phases: &[PhaseIntegrals]) -> Extent {
+    phases.iter().fold(Extent::NONE, |acc, p| acc.add(p.extent))
+}
+
 /// Outcome of a cooling path.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct PathResult {
-    /// Extended (Avrami) fraction X_ext.
+    /// Extended (Avrami) fraction X_ext, summed over phases.
     pub extended_fraction: f64,
     /// X = 1 − exp(−X_ext), always in [0, 1].
     pub transformed_fraction: f64,
     /// X_ext stays below the detectable fraction.
     pub vitrifies: bool,
-}
-
-/// ln of the extended crystallised fraction after cooling with a rate scale:
-/// X_ext = (4π/3) [J/s⁴ + N_h (G/s)³] for scale s (R, or k for Newtonian cooling).
-fn ln_extended_fraction(ci: &CoolingIntegrals, nh: f64, ln_scale: f64) -> f64 {
-    let c = (4.0 * PI / 3.0).ln();
-    let p = c + ci.ln_j - 4.0 * ln_scale;
-    if nh > 0.0 {
-        let q = c + nh.ln() + 3.0 * (ci.ln_g_total - ln_scale);
-        let m = p.max(q);
-        m + ((p - m).exp() + (q - m).exp()).ln()
-    } else {
-        p
-    }
-}
-
-/// The rate scale s at which X_ext = X_c (the critical rate for constant cooling).
-pub(super) fn critical_scale(ci: &CoolingIntegrals, nh: f64, xc: f64) -> f64 {
-    let c = (4.0 * PI / 3.0).ln();
-    let ln_a = c + ci.ln_j;
-    let ln_b = if nh > 0.0 {
-        c + nh.ln() + 3.0 * ci.ln_g_total
-    } else {
-        f64::NEG_INFINITY
-    };
-    // A y⁴ + B y³ = X_c with y = 1/s.
-    (-solve_quartic_cubic(ln_a, ln_b, xc.ln())).exp()
 }
 
 /// Extended fraction X_ext after cooling at a constant rate over a window
@@ -240,5 +276,5 @@ pub fn extended_fraction_constant_rate<R: Fn(Kelvin) -> Rates>(
         &QuadratureSettings::default(),
         (f64::NEG_INFINITY, DEFAULT_DETECTABLE_FRACTION.ln()),
     )?;
-    Ok(ln_extended_fraction(&ci, nuclei_per_m3, rate.0.ln()).exp())
+    Ok(Extent::of(&ci, nuclei_per_m3).ln_at(rate.0.ln()).exp())
 }

@@ -39,14 +39,16 @@ pub mod quadrature;
 pub mod rates;
 pub mod ttt;
 
+pub use calibration::Calibrated;
 pub use cooling::{extended_fraction_constant_rate, PathResult};
 pub use melt::{
-    wetting_factor, DrivingForce, KineticOptions, KineticOverrides, Melt,
-    DEFAULT_DETECTABLE_FRACTION, DEFAULT_FREEZE_LOG_VISCOSITY,
+    wetting_factor, CrystalPhase, DrivingForce, KineticOptions, KineticOverrides, Melt, Transport,
+    DEFAULT_DECOUPLING_RATIO, DEFAULT_DETECTABLE_FRACTION, DEFAULT_FREEZE_LOG_VISCOSITY,
+    DEFAULT_SAMPLE_THICKNESS_M,
 };
 pub use quadrature::QuadratureSettings;
 pub use rates::{Kinetics, Rates};
-pub use ttt::{KineticSummary, TttPoint};
+pub use ttt::{KineticSummary, PhaseSummary, TttPoint};
 
 use crate::error::{Diagnostic, ValueError};
 use crate::properties::ViscosityError;
@@ -76,6 +78,12 @@ pub enum KineticsError {
     CalibrationBracket { lo: f64, hi: f64 },
     #[error("numerical failure: {0}")]
     Numerical(String),
+    #[error("a melt needs at least one crystal phase")]
+    NoPhase,
+    #[error("the crystal phase '{0}' is given twice")]
+    DuplicatePhase(String),
+    #[error("the melt has no crystal phase number {0}")]
+    NoSuchPhase(usize),
 }
 
 impl Diagnostic for KineticsError {

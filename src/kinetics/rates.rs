@@ -1,9 +1,12 @@
-//! Nucleation and growth rates of a prepared melt: Stokes–Einstein diffusion,
-//! the driving force, the classical nucleation barrier and interface-controlled
-//! growth, all kept as natural logarithms because I(T) spans hundreds of
-//! decades. See docs/science.md, "Nucleation and growth".
+//! Nucleation and growth rates of a prepared melt, phase by phase: diffusion
+//! (Stokes–Einstein, or fractional below the decoupling temperature), the
+//! driving force (Turnbull with ΔC_p, or Hoffman), the classical barrier,
+//! steady nucleation in the volume and on the sample's walls, and
+//! interface-controlled growth. Every rate is kept as a natural logarithm
+//! because I(T) spans hundreds of decades. See docs/science.md, "Nucleation
+//! and growth" and "Transport near the glass transition".
 
-use super::melt::{wetting_factor, DrivingForce, KineticOptions, Melt};
+use super::melt::{wetting_factor, DrivingForce, KineticOptions, Melt, Transport};
 use super::quadrature::QuadratureSettings;
 use super::KineticsError;
 use crate::properties::{GrowthMode, GLASS_TRANSITION_LOG_VISCOSITY};
@@ -20,6 +23,11 @@ pub struct Rates {
 }
 
 impl Rates {
+    /// No nucleation and no growth.
+    pub const NONE: Rates = Rates {
+        ln_nucleation: f64::NEG_INFINITY,
+        ln_growth: f64::NEG_INFINITY,
+    };
     /// I in m⁻³ s⁻¹ (may underflow to 0).
     pub fn nucleation_per_m3_s(&self) -> f64 {
         self.ln_nucleation.exp()
@@ -30,38 +38,65 @@ impl Rates {
     }
 }
 
-/// A melt prepared for fast evaluation of I(T) and U(T).
+/// ln(e^a + e^b) without overflow.
+pub(crate) fn log_add(a: f64, b: f64) -> f64 {
+    let m = a.max(b);
+    if m == f64::NEG_INFINITY {
+        return m;
+    }
+    m + ((a - m).exp() + (b - m).exp()).ln()
+}
+
+/// One phase prepared for fast evaluation.
+#[derive(Debug, Clone)]
+pub(super) struct PhaseRates {
+    /// T_L of this phase, K.
+    pub(super) tl: f64,
+    dh: f64,
+    dcp: f64,
+    /// ln(k_B / (3π λ)): D = exp(this) · T/η.
+    ln_d_pref: f64,
+    /// ln(N_v / λ²).
+    ln_i_pref: f64,
+    /// ln(2/d · λ⁻² / λ²): wall sites per volume over λ².
+    ln_wall_pref: f64,
+    /// ln(1/λ).
+    ln_u_pref: f64,
+    /// W*/(k_B T) = kw / (ΔG_m² T) in the volume, ΔG_m in J/mol.
+    kw: f64,
+    /// The same on the walls (× f(θ)); None without wall nucleation.
+    kw_wall: Option<f64>,
+    screw: bool,
+    /// Pre-existing nuclei per m³.
+    pub(super) nuclei: f64,
+}
+
+/// A melt prepared for fast evaluation of I(T) and U(T) of every phase.
 #[derive(Debug, Clone)]
 pub struct Kinetics {
     pub(super) melt: Melt,
     pub(super) opts: KineticOptions,
+    /// The phases that can crystallise (liquidus above T_g), with their index in the melt.
+    pub(super) phases: Vec<(usize, PhaseRates)>,
+    /// The melt's liquidus (the highest of its phases'), K.
     pub(super) tl: f64,
-    dh: f64,
-    ln_d_pref: f64,
-    ln_i_pref: f64,
-    ln_u_pref: f64,
-    /// W*/(k_B T) = kw / (ΔG_m² T), ΔG_m in J/mol.
-    kw: f64,
     /// Lower end T_e of the kinetic window (η = 10^freeze).
     pub(super) freeze: f64,
     pub(super) quad: QuadratureSettings,
     /// T_g (η = 10^12 Pa·s).
     pub(super) tg: f64,
+    /// Fractional transport below T_d: (T_d, ln(T_d/η(T_d)), exponent).
+    decoupling: Option<(f64, f64, f64)>,
 }
 
 impl Kinetics {
-    /// Validate and build a melt.
+    /// Prepare a melt for kinetic evaluation. Phases whose liquidus lies at or
+    /// below T_g cannot crystallise from the liquid and are left out.
     ///
     /// # Errors
-    /// Non-finite or non-positive ΔH_m, V_m, liquidus or interface value; a
-    /// liquidus at or below the VFT divergence.
+    /// Invalid options; every liquidus at or below T_g.
     pub fn new(melt: &Melt, opts: &KineticOptions) -> Result<Self, KineticsError> {
         opts.validate()?;
-        let vm = melt.molar_volume_m3_per_mol;
-        let lambda = (vm / AVOGADRO).cbrt();
-        let nv = AVOGADRO / vm;
-        let sigma = melt.interface_energy_j_per_m2();
-        let f_theta = wetting_factor(opts.contact_angle_deg);
         let tg = melt
             .viscosity
             .temperature_at(Log10PaS(GLASS_TRANSITION_LOG_VISCOSITY))?
@@ -70,22 +105,55 @@ impl Kinetics {
             .viscosity
             .temperature_at(Log10PaS(opts.freeze_log_viscosity))?
             .0;
-        let tl = melt.liquidus.0;
+        let tl = melt.liquidus().0;
         if tl <= tg {
             return Err(KineticsError::LiquidusBelowGlassTransition { liquidus: tl, tg });
         }
+        let wall = (opts.contact_angle_deg < 180.0).then(|| wetting_factor(opts.contact_angle_deg));
+        let phases = melt
+            .phases
+            .iter()
+            .enumerate()
+            .filter(|(_, p)| p.liquidus.0 > tg)
+            .map(|(i, p)| {
+                let vm = p.molar_volume_m3_per_mol;
+                let lambda = (vm / AVOGADRO).cbrt();
+                let nv = AVOGADRO / vm;
+                let sigma = p.interface_energy_j_per_m2();
+                let kw = 16.0 * PI * sigma.powi(3) * vm * vm / (3.0 * BOLTZMANN);
+                let rates = PhaseRates {
+                    tl: p.liquidus.0,
+                    dh: p.enthalpy_of_fusion_j_per_mol,
+                    dcp: p.heat_capacity_change_j_per_mol_k,
+                    ln_d_pref: (BOLTZMANN / (3.0 * PI * lambda)).ln(),
+                    ln_i_pref: nv.ln() - 2.0 * lambda.ln(),
+                    ln_wall_pref: (2.0 / opts.sample_thickness_m).ln() - 4.0 * lambda.ln(),
+                    ln_u_pref: -lambda.ln(),
+                    kw,
+                    kw_wall: wall.map(|f| f * kw),
+                    screw: p.growth == GrowthMode::Screw,
+                    nuclei: p.nuclei_per_m3.unwrap_or(opts.heterogeneous_nuclei_per_m3),
+                };
+                (i, rates)
+            })
+            .collect();
+        let decoupling = match opts.transport {
+            Transport::StokesEinstein => None,
+            Transport::Fractional { exponent } => {
+                let td = opts.decoupling_ratio * tg;
+                let ln_x = td.ln() - LN_10 * melt.viscosity.log10_eta(td);
+                Some((td, ln_x, exponent))
+            }
+        };
         Ok(Kinetics {
-            melt: *melt,
+            melt: melt.clone(),
             opts: *opts,
+            phases,
             tl,
-            dh: melt.enthalpy_of_fusion_j_per_mol,
-            ln_d_pref: (BOLTZMANN / (3.0 * PI * lambda)).ln(),
-            ln_i_pref: nv.ln() - 2.0 * lambda.ln(),
-            ln_u_pref: -lambda.ln(),
-            kw: 16.0 * PI * sigma.powi(3) * f_theta * vm * vm / (3.0 * BOLTZMANN),
             freeze,
             tg,
             quad: QuadratureSettings::default(),
+            decoupling,
         })
     }
 
@@ -115,41 +183,89 @@ impl Kinetics {
         Kelvin(self.freeze)
     }
 
-    /// ΔG_m in J/mol at T (Turnbull or Hoffman form).
+    /// The melt's liquidus (the highest of its phases').
+    pub fn liquidus(&self) -> Kelvin {
+        Kelvin(self.tl)
+    }
+
+    /// The indices (into the melt's phases) of the phases that can crystallise.
+    pub fn active_phases(&self) -> impl Iterator<Item = usize> + '_ {
+        self.phases.iter().map(|(i, _)| *i)
+    }
+
+    /// ln(T/η) with the transport law in force: Stokes–Einstein gives
+    /// D = (k_B/3πλ)·T/η; below T_d the fractional law scales it as (T/η)^ξ.
     #[inline]
-    fn driving_force(&self, t: f64) -> f64 {
-        let d = self.dh * (self.tl - t) / self.tl;
+    fn ln_mobility(&self, t: f64) -> f64 {
+        let ln_x = t.ln() - LN_10 * self.melt.viscosity.log10_eta(t);
+        match self.decoupling {
+            Some((td, ln_xd, xi)) if t < td => ln_xd + xi * (ln_x - ln_xd),
+            _ => ln_x,
+        }
+    }
+
+    /// Diffusivity D(T) in m²/s controlling phase `k`'s kinetics.
+    pub fn diffusivity_m2_per_s(&self, k: usize, t: Kelvin) -> Option<f64> {
+        let (_, p) = self.phases.iter().find(|(i, _)| *i == k)?;
+        Some((p.ln_d_pref + self.ln_mobility(t.0)).exp())
+    }
+
+    /// ΔG_m in J/mol of phase `p` at T (positive below its liquidus).
+    #[inline]
+    fn driving_force(&self, p: &PhaseRates, t: f64) -> f64 {
+        let dt = p.tl - t;
         match self.opts.driving_force {
-            DrivingForce::Turnbull => d,
-            DrivingForce::Hoffman => d * t / self.tl,
+            DrivingForce::Turnbull => {
+                let linear = p.dh * dt / p.tl;
+                if p.dcp > 0.0 {
+                    linear - p.dcp * (dt - t * (p.tl / t).ln())
+                } else {
+                    linear
+                }
+            }
+            DrivingForce::Hoffman => p.dh * dt * t / (p.tl * p.tl),
         }
     }
 
-    /// Stokes–Einstein diffusivity D(T) in m²/s.
-    pub fn diffusivity_m2_per_s(&self, t: Kelvin) -> f64 {
-        (self.ln_d_pref + t.0.ln() - LN_10 * self.melt.viscosity.log10_eta(t.0)).exp()
+    /// ln I and ln U of the phase with index `k` at T; zero rates for a phase
+    /// that cannot crystallise.
+    pub fn phase_rates(&self, k: usize, t: Kelvin) -> Rates {
+        match self.phases.iter().find(|(i, _)| *i == k) {
+            Some((_, p)) => self.rates_of(p, t.0),
+            None => Rates::NONE,
+        }
     }
 
-    /// ln I and ln U at T (steady homogeneous nucleation, interface-controlled growth).
-    #[inline]
+    /// ln I and ln U summed over the phases (the nucleation rate of any crystal,
+    /// and the fastest growth), at T.
     pub fn rates(&self, t: Kelvin) -> Rates {
-        self.rates_raw(t.0)
+        self.phases
+            .iter()
+            .map(|(_, p)| self.rates_of(p, t.0))
+            .fold(Rates::NONE, |acc, r| Rates {
+                ln_nucleation: log_add(acc.ln_nucleation, r.ln_nucleation),
+                ln_growth: acc.ln_growth.max(r.ln_growth),
+            })
     }
 
     #[inline]
-    pub(super) fn rates_raw(&self, t: f64) -> Rates {
-        if t >= self.tl {
-            return Rates {
-                ln_nucleation: f64::NEG_INFINITY,
-                ln_growth: f64::NEG_INFINITY,
-            };
+    pub(super) fn rates_of(&self, p: &PhaseRates, t: f64) -> Rates {
+        if t >= p.tl {
+            return Rates::NONE;
         }
-        let dg = self.driving_force(t);
-        let ln_d = self.ln_d_pref + t.ln() - LN_10 * self.melt.viscosity.log10_eta(t);
-        let ln_nucleation = self.ln_i_pref + ln_d - self.kw / (dg * dg * t);
-        let mut ln_growth = self.ln_u_pref + ln_d + (-(-dg / (GAS_CONSTANT * t)).exp_m1()).ln();
-        if self.melt.growth == GrowthMode::Screw {
-            ln_growth += ((self.tl - t) / (2.0 * PI * self.tl)).ln();
+        let dg = self.driving_force(p, t);
+        if dg.is_nan() || dg <= 0.0 {
+            return Rates::NONE;
+        }
+        let ln_d = p.ln_d_pref + self.ln_mobility(t);
+        let barrier = 1.0 / (dg * dg * t);
+        let mut ln_nucleation = p.ln_i_pref + ln_d - p.kw * barrier;
+        if let Some(kw_wall) = p.kw_wall {
+            ln_nucleation = log_add(ln_nucleation, p.ln_wall_pref + ln_d - kw_wall * barrier);
+        }
+        let mut ln_growth = p.ln_u_pref + ln_d + (-(-dg / (GAS_CONSTANT * t)).exp_m1()).ln();
+        if p.screw {
+            ln_growth += ((p.tl - t) / (2.0 * PI * p.tl)).ln();
         }
         Rates {
             ln_nucleation,

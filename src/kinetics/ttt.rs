@@ -1,18 +1,37 @@
-//! Isothermal transformation: the TTT curve t(T) = [3X_c/(π I U³)]^¼ (with
-//! pre-existing nuclei, the root of (π/3) I U³ t⁴ + (4π/3) N_h U³ t³ = X_c), its
-//! nose, and the summary of a melt's kinetics. See docs/science.md, "TTT curve".
+//! Isothermal transformation: the TTT curve, the time t(T) at which the
+//! phases together reach the detectable fraction, Σ_k [(π/3) I_k U_k³ t⁴ +
+//! (4π/3) N_h,k U_k³ t³] = X_c (t = [3X_c/(π I U³)]^¼ for one phase without
+//! nuclei), its nose, and the summary of a melt's kinetics with each phase's
+//! part. See docs/science.md, "TTT curve" and "Several phases".
 
-use super::cooling::critical_scale;
+use super::cooling::{total_extent, PhaseIntegrals};
 use super::quadrature::Cooling;
-use super::rates::Kinetics;
+use super::rates::{log_add, Kinetics};
 use super::KineticsError;
 use crate::numeric::brent_min;
 use crate::units::{Kelvin, KelvinPerSecond};
 use std::f64::consts::PI;
 
+/// One phase's part of a melt's kinetics.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct PhaseSummary {
+    /// Index of the phase in the melt.
+    pub index: usize,
+    pub name: String,
+    pub liquidus: Kelvin,
+    /// The critical rate if this phase alone crystallised.
+    pub critical_rate: KelvinPerSecond,
+    /// This phase's share of the crystallised volume at the melt's critical rate
+    /// (the shares sum to one).
+    pub share: f64,
+    pub interface_energy_j_per_m2: f64,
+    pub turnbull_alpha: f64,
+}
+
 /// What [`Kinetics::analyse`] finds.
-#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct KineticSummary {
+    /// The melt's liquidus (the highest of its phases').
     pub liquidus: Kelvin,
     pub glass_transition: Kelvin,
     /// Lower end of the kinetic window (η = 10^freeze Pa·s).
@@ -21,14 +40,27 @@ pub struct KineticSummary {
     pub nose_time_s: f64,
     pub nose_rate: KelvinPerSecond,
     pub critical_rate: KelvinPerSecond,
-    /// I at the nose, m⁻³ s⁻¹.
+    /// I at the nose (all phases), m⁻³ s⁻¹.
     pub nose_nucleation_per_m3_s: f64,
-    /// U at the nose, m/s.
+    /// U at the nose (fastest phase), m/s.
     pub nose_growth_m_per_s: f64,
+    /// σ of the limiting phase, J/m².
     pub interface_energy_j_per_m2: f64,
+    /// α of the limiting phase.
     pub turnbull_alpha: f64,
+    /// Every phase that can crystallise, in the melt's order.
+    pub phases: Vec<PhaseSummary>,
+    /// Position in `phases` of the phase with the largest share at R_c.
+    pub limiting: usize,
     /// I and U evaluations used (a cost measure).
     pub evaluations: usize,
+}
+
+impl KineticSummary {
+    /// The limiting phase's summary.
+    pub fn limiting_phase(&self) -> &PhaseSummary {
+        &self.phases[self.limiting]
+    }
 }
 
 /// A point of the TTT curve.
@@ -37,7 +69,9 @@ pub struct TttPoint {
     pub temperature: Kelvin,
     /// Isothermal time to reach the detectable fraction, s (∞ where nothing forms).
     pub time_s: f64,
+    /// I summed over the phases, m⁻³ s⁻¹.
     pub nucleation_per_m3_s: f64,
+    /// U of the fastest-growing phase, m/s.
     pub growth_m_per_s: f64,
 }
 
@@ -69,34 +103,38 @@ pub(super) fn solve_quartic_cubic(ln_a: f64, ln_b: f64, ln_x: f64) -> f64 {
 }
 
 impl Kinetics {
-    /// ln of the isothermal time to reach X_c at T, with pre-existing nuclei:
-    /// (π/3) I U³ t⁴ + (4π/3) N_h U³ t³ = X_c.
+    /// ln of the isothermal time to reach X_c at T, all phases together:
+    /// Σ_k [(π/3) I_k U_k³ t⁴ + (4π/3) N_h,k U_k³ t³] = X_c.
     pub(super) fn ln_ttt_time(&self, t: f64) -> f64 {
-        let r = self.rates_raw(t);
-        if r.ln_growth == f64::NEG_INFINITY {
-            return f64::INFINITY;
-        }
-        let ln_a = (PI / 3.0).ln() + r.ln_nucleation + 3.0 * r.ln_growth;
-        let nh = self.opts.heterogeneous_nuclei_per_m3;
-        let ln_b = if nh > 0.0 {
-            (4.0 * PI / 3.0 * nh).ln() + 3.0 * r.ln_growth
-        } else {
-            f64::NEG_INFINITY
-        };
+        let (ln_a, ln_b) = self.isothermal_coefficients(t);
         if ln_a == f64::NEG_INFINITY && ln_b == f64::NEG_INFINITY {
             return f64::INFINITY;
         }
         solve_quartic_cubic(ln_a, ln_b, self.opts.detectable_fraction.ln())
     }
 
+    /// ln Σ_k (π/3) I_k U_k³ and ln Σ_k (4π/3) N_h,k U_k³ at T.
+    fn isothermal_coefficients(&self, t: f64) -> (f64, f64) {
+        let mut ln_a = f64::NEG_INFINITY;
+        let mut ln_b = f64::NEG_INFINITY;
+        for (_, p) in &self.phases {
+            let r = self.rates_of(p, t);
+            if r.ln_growth == f64::NEG_INFINITY {
+                continue;
+            }
+            ln_a = log_add(ln_a, (PI / 3.0).ln() + r.ln_nucleation + 3.0 * r.ln_growth);
+            if p.nuclei > 0.0 {
+                ln_b = log_add(ln_b, (4.0 * PI / 3.0 * p.nuclei).ln() + 3.0 * r.ln_growth);
+            }
+        }
+        (ln_a, ln_b)
+    }
+
     /// Isothermal transformed fraction after `time_s` at T by JMAK:
-    /// X = 1 − exp(−X_ext), X_ext = (π/3) I U³ t⁴ + (4π/3) N_h U³ t³.
+    /// X = 1 − exp(−X_ext), X_ext = Σ_k [(π/3) I_k U_k³ t⁴ + (4π/3) N_h,k U_k³ t³].
     pub fn isothermal_fraction(&self, t: Kelvin, time_s: f64) -> f64 {
-        let r = self.rates_raw(t.0);
-        let ext = (PI / 3.0) * (r.ln_nucleation + 3.0 * r.ln_growth).exp() * time_s.powi(4)
-            + (4.0 * PI / 3.0)
-                * self.opts.heterogeneous_nuclei_per_m3
-                * (r.ln_growth.exp() * time_s).powi(3);
+        let (ln_a, ln_b) = self.isothermal_coefficients(t.0);
+        let ext = ln_a.exp() * time_s.powi(4) + ln_b.exp() * time_s.powi(3);
         -(-ext).exp_m1()
     }
 
@@ -106,7 +144,7 @@ impl Kinetics {
         (0..n)
             .map(|k| {
                 let t = self.freeze + (self.tl - self.freeze) * (k as f64 + 0.5) / n as f64;
-                let r = self.rates_raw(t);
+                let r = self.rates(Kelvin(t));
                 TttPoint {
                     temperature: Kelvin(t),
                     time_s: self.ln_ttt_time(t).exp(),
@@ -116,24 +154,17 @@ impl Kinetics {
             })
             .collect()
     }
-    /// Nose, nose-method rate and critical cooling rate.
+
+    /// Nose, nose-method rate and critical cooling rate, with each phase's part.
     ///
     /// # Errors
     /// Numerical failure; a nose below the glass transition.
     pub fn analyse(&self) -> Result<KineticSummary, KineticsError> {
-        let ci = self.cooling_integrals(Cooling::Constant)?;
-        let critical = critical_scale(
-            &ci,
-            self.opts.heterogeneous_nuclei_per_m3,
-            self.opts.detectable_fraction,
-        );
-        let (t0, _, half) = ci.nose_guess;
-        // Gauss–Legendre nodes are at most 0.37 half-widths apart (0.04 from a panel
-        // edge), so the nose lies within half a half-width of the best node.
-        let lo = (t0 - 0.5 * half).max(self.freeze);
-        let hi = (t0 + 0.5 * half).min(self.tl);
-        let nose_t =
-            brent_min(|t| self.ln_ttt_time(t), lo, hi, 1e-6).map_err(KineticsError::Numerical)?;
+        let integrals = self.phase_integrals(Cooling::Constant)?;
+        let total = total_extent(&integrals);
+        let xc = self.opts.detectable_fraction;
+        let critical = total.critical_scale(xc);
+        let nose_t = self.nose(&integrals)?;
         let nose_time = self.ln_ttt_time(nose_t).exp();
         if nose_t < self.tg {
             return Err(KineticsError::NoseBelowGlassTransition {
@@ -141,7 +172,34 @@ impl Kinetics {
                 tg: self.tg,
             });
         }
-        let r = self.rates_raw(nose_t);
+        let ln_total = total.ln_at(critical.ln());
+        let phases: Vec<PhaseSummary> = integrals
+            .iter()
+            .map(|pi| {
+                let p = &self.melt.phases[pi.phase];
+                PhaseSummary {
+                    index: pi.phase,
+                    name: p.name.clone(),
+                    liquidus: p.liquidus,
+                    critical_rate: KelvinPerSecond(pi.extent.critical_scale(xc)),
+                    share: (pi.extent.ln_at(critical.ln()) - ln_total).exp(),
+                    interface_energy_j_per_m2: p.interface_energy_j_per_m2(),
+                    turnbull_alpha: p.turnbull_alpha(),
+                }
+            })
+            .collect();
+        let limiting = phases
+            .iter()
+            .enumerate()
+            .fold((0, f64::NEG_INFINITY), |best, (i, p)| {
+                if p.share > best.1 {
+                    (i, p.share)
+                } else {
+                    best
+                }
+            })
+            .0;
+        let r = self.rates(Kelvin(nose_t));
         Ok(KineticSummary {
             liquidus: Kelvin(self.tl),
             glass_transition: Kelvin(self.tg),
@@ -152,10 +210,32 @@ impl Kinetics {
             critical_rate: KelvinPerSecond(critical),
             nose_nucleation_per_m3_s: r.nucleation_per_m3_s(),
             nose_growth_m_per_s: r.growth_m_per_s(),
-            interface_energy_j_per_m2: self.melt.interface_energy_j_per_m2(),
-            turnbull_alpha: self.melt.turnbull_alpha(),
-            evaluations: ci.evaluations,
+            interface_energy_j_per_m2: phases[limiting].interface_energy_j_per_m2,
+            turnbull_alpha: phases[limiting].turnbull_alpha,
+            evaluations: integrals.iter().map(|p| p.integrals.evaluations).sum(),
+            phases,
+            limiting,
         })
+    }
+
+    /// The temperature of the TTT nose: each phase's quadrature nodes bracket
+    /// its own nose; the bracket where the combined time is shortest is
+    /// searched by Brent's method.
+    fn nose(&self, integrals: &[PhaseIntegrals]) -> Result<f64, KineticsError> {
+        let mut best = (f64::INFINITY, self.freeze, 0.0);
+        for pi in integrals {
+            let (t0, _, half) = pi.integrals.nose_guess;
+            let v = self.ln_ttt_time(t0);
+            if v < best.0 {
+                best = (v, t0, half);
+            }
+        }
+        let (_, t0, half) = best;
+        // Gauss–Legendre nodes are at most 0.37 half-widths apart (0.04 from a panel
+        // edge), so the nose lies within half a half-width of the best node.
+        let lo = (t0 - 0.5 * half).max(self.freeze);
+        let hi = (t0 + 0.5 * half).min(self.tl);
+        brent_min(|t| self.ln_ttt_time(t), lo, hi, 1e-6).map_err(KineticsError::Numerical)
     }
 }
 

@@ -3,11 +3,13 @@
 //! No I/O: model files are read by `files`, this layer only evaluates.
 
 pub mod crystal;
+pub mod liquidus;
 pub mod mixture;
 pub mod model_set;
 pub mod viscosity;
 
 pub use crystal::{GrowthMode, Interface};
+pub use liquidus::{LiquidusSurface, PhaseLiquidus};
 pub use mixture::{Domain, FractionBasis, MixtureModel, ProductTerm};
 pub use model_set::{About, ModelError, ModelSet, Phase, Properties};
 pub use viscosity::{

@@ -10,7 +10,8 @@
 //!   Phys. 10 (1969) 473–488, doi:10.1080/00107516908204405 (T_g/T_L).
 
 use super::crystal::GrowthMode;
-use super::mixture::{Domain, MixtureModel};
+use super::liquidus::{LiquidusSurface, PhaseLiquidus};
+use super::mixture::Domain;
 use super::viscosity::{fixpoints, ViscosityCurve, ViscosityError, ViscosityModel};
 use crate::composition::Composition;
 use crate::error::Diagnostic;
@@ -28,9 +29,23 @@ pub struct Phase {
     pub turnbull_alpha: f64,
     /// What α was calibrated against, if it was.
     pub calibrated_against: Option<String>,
-    /// Liquidus surface of this phase, in K.
-    pub liquidus_k: MixtureModel,
+    /// ΔC_p = C_p(liquid) − C_p(crystal) near T_m, J/(mol K), where known.
+    pub heat_capacity_change_j_per_mol_k: Option<f64>,
+    /// Where the phase starts to form, as a function of composition.
+    pub liquidus: LiquidusSurface,
+    /// Where the liquidus surface is meant to hold (mol%).
     pub domain: Domain,
+}
+
+impl Phase {
+    /// This phase's liquidus at a composition (clipped at its melting point).
+    pub fn liquidus_at(&self, c: &Composition) -> PhaseLiquidus {
+        self.liquidus.at(
+            c.fractions(),
+            self.melting_point.0,
+            self.enthalpy_of_fusion_j_per_mol,
+        )
+    }
 }
 
 /// Provenance of a model set.
@@ -73,9 +88,12 @@ impl Diagnostic for ModelError {}
 #[derive(Debug, Clone, PartialEq)]
 pub struct Properties {
     pub viscosity: ViscosityCurve,
+    /// The highest of the phases' liquidus temperatures.
     pub liquidus: Kelvin,
-    /// Index into [`ModelSet::phases`].
+    /// Index into [`ModelSet::phases`] of the phase with the highest liquidus.
     pub primary_phase: usize,
+    /// Every phase's liquidus, in the model set's order.
+    pub liquidus_by_phase: Vec<PhaseLiquidus>,
     pub melting_temperature: Kelvin,
     pub working_point: Kelvin,
     pub softening_point: Kelvin,
@@ -103,29 +121,42 @@ impl ModelSet {
     /// A non-physical viscosity or liquidus for this composition, or a missing fixpoint.
     pub fn properties(&self, c: &Composition) -> Result<Properties, ModelError> {
         let (viscosity, viscosity_flags) = self.viscosity.curve(c)?;
-        let x = c.fractions();
+        let by_phase: Vec<PhaseLiquidus> = self.phases.iter().map(|p| p.liquidus_at(c)).collect();
         let mut best = (0, f64::NEG_INFINITY);
-        for (k, p) in self.phases.iter().enumerate() {
-            let t = p.liquidus_k.eval(x);
-            if t > best.1 {
-                best = (k, t);
+        for (k, p) in by_phase.iter().enumerate() {
+            if p.liquidus_k.is_nan() {
+                return Err(ModelError::NonPhysicalLiquidus {
+                    phase: self.phases[k].name.clone(),
+                    value: p.liquidus_k,
+                });
+            }
+            if p.liquidus_k > best.1 {
+                best = (k, p.liquidus_k);
             }
         }
         let (primary, tl) = best;
         let phase = &self.phases[primary];
-        if tl.is_nan() || tl <= 0.0 || !tl.is_finite() {
+        if tl <= 0.0 || !tl.is_finite() {
             return Err(ModelError::NonPhysicalLiquidus {
                 phase: phase.name.clone(),
                 value: tl,
             });
         }
-        let liquidus_flags: Vec<String> = phase
+        let tg = isokom(&viscosity, fixpoints::GLASS_TRANSITION, "glass transition")?;
+        let mut liquidus_flags: Vec<String> = phase
             .domain
             .violations(c)
             .into_iter()
             .map(|v| format!("outside model validity of the {} liquidus: {v}", phase.name))
             .collect();
-        let tg = isokom(&viscosity, fixpoints::GLASS_TRANSITION, "glass transition")?;
+        for (p, l) in self.phases.iter().zip(&by_phase) {
+            if l.clipped && l.liquidus_k > tg.0 {
+                liquidus_flags.push(format!(
+                    "the {} liquidus surface gives {:.0} K, above the phase's melting point {:.0} K: clipped there",
+                    p.name, l.surface_k, l.liquidus_k
+                ));
+            }
+        }
         Ok(Properties {
             viscosity,
             liquidus: Kelvin(tl),
@@ -137,6 +168,7 @@ impl ModelSet {
             strain_point: isokom(&viscosity, fixpoints::STRAIN, "strain point")?,
             fragility: viscosity.fragility()?,
             reduced_glass_transition: tg.0 / tl,
+            liquidus_by_phase: by_phase,
             viscosity_flags,
             liquidus_flags,
         })
