@@ -214,13 +214,12 @@ impl Kinetics {
                 let r: [Rates; NODES] = std::array::from_fn(|i| self.rates_of(phase, p.temps[i]));
                 let u: [f64; NODES] = std::array::from_fn(|i| r[i].ln_growth.exp());
                 let total: f64 = p.half * (0..NODES).map(|j| rule.w[j] * u[j]).sum::<f64>();
-                for i in 0..NODES {
+                for (i, ri) in r.iter().enumerate() {
                     let partial: f64 =
                         p.half * (0..NODES).map(|j| rule.s[i][j] * u[j]).sum::<f64>();
                     let g = (g_after + total - partial).max(0.0);
-                    if r[i].ln_nucleation > f64::NEG_INFINITY && g > 0.0 {
-                        let term =
-                            c + (p.half * rule.w[i]).ln() + r[i].ln_nucleation + 3.0 * g.ln();
+                    if ri.ln_nucleation > f64::NEG_INFINITY && g > 0.0 {
+                        let term = c + (p.half * rule.w[i]).ln() + ri.ln_nucleation + 3.0 * g.ln();
                         ln_ext = log_add(ln_ext, term);
                     }
                 }
