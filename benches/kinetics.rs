@@ -52,7 +52,7 @@ fn benches(c: &mut Criterion) {
     g.bench_function("properties_nose_and_critical_rate", |b| {
         b.iter(|| {
             let p = models.properties(black_box(&comp)).unwrap();
-            let melt = quenchwise::assess::primary_melt(&models, &p).unwrap();
+            let melt = quenchwise::assess::composition_melt(&models, &p).unwrap();
             Kinetics::new(&melt, &opts).unwrap().analyse().unwrap()
         })
     });
