@@ -386,13 +386,31 @@ fn base(
     }
 }
 
+/// Add the glassy-slab estimate to an evaluation made without it, and mark
+/// again what the model cannot vouch for.
+///
+/// # Errors
+/// The slab cannot be computed (e.g. a quench surface above the freeze temperature).
+pub fn add_glassy_thickness(e: &mut Evaluation, slab: SlabQuench) -> Result<(), KineticsError> {
+    let k = e.kinetics()?;
+    let h = k.max_glassy_half_thickness_m(slab.surface, slab.diffusivity_m2_per_s)?;
+    e.max_glassy_thickness_mm = Some(2.0 * h * 1e3);
+    e.quench_surface_k = slab.surface.0;
+    e.melt_thermal_diffusivity_m2_per_s = slab.diffusivity_m2_per_s;
+    e.warnings.retain(|w| !w.starts_with(BEYOND_VOUCHING));
+    vouch(e);
+    Ok(())
+}
+
+const BEYOND_VOUCHING: &str = "beyond what the model can vouch for";
+
 /// Mark what the model cannot vouch for.
 fn vouch(e: &mut Evaluation) {
     let beyond = beyond_vouching(e);
     e.vouched = beyond.is_empty();
     if !e.vouched {
         e.warnings.push(format!(
-            "beyond what the model can vouch for: {} (a real melt would crystallise from defects or impurities long before)",
+            "{BEYOND_VOUCHING}: {} (a real melt would crystallise from defects or impurities long before)",
             beyond.join(", ")
         ));
     }

@@ -5,8 +5,8 @@ use crate::oracle::dense_reference_critical_rate;
 use crate::tolerances::{CRITICAL_RATE_RTOL, ORACLE_RTOL};
 use crate::util::rel;
 use quenchwise::kinetics::{
-    extended_fraction_constant_rate, DrivingForce, KineticOptions, Kinetics, Melt,
-    QuadratureSettings, Rates,
+    extended_fraction_constant_rate, CrystalPhase, DrivingForce, KineticOptions, Kinetics, Melt,
+    QuadratureSettings, Rates, Transport,
 };
 use quenchwise::properties::{GrowthMode, Interface, ViscosityCurve};
 use quenchwise::units::{Kelvin, KelvinPerSecond};
@@ -410,4 +410,174 @@ fn adaptive_quadrature_matches_dense_oracle() {
     let fast = k.critical_rate().unwrap().0;
     let slow = dense_reference_critical_rate(&k, 400_000);
     assert!(rel(fast, slow) < ORACLE_RTOL, "{fast} vs {slow}");
+}
+
+/// The two-phase melt of the independent reference: "alpha" is the demo card's
+/// crystal, "beta" a second, screw-growing phase with a lower liquidus.
+fn two_phases() -> Melt {
+    let mut beta = CrystalPhase::new(
+        "beta",
+        Kelvin(1250.0),
+        40000.0,
+        5.0e-5,
+        Interface::TurnbullAlpha(0.30),
+        GrowthMode::Screw,
+    );
+    beta.nuclei_per_m3 = None;
+    Melt::with_phases(
+        ViscosityCurve::vft(-2.8, 4500.0, 480.0).unwrap(),
+        vec![
+            CrystalPhase::new(
+                "alpha",
+                Kelvin(1300.0),
+                60000.0,
+                6.0e-5,
+                Interface::TurnbullAlpha(0.33),
+                GrowthMode::Normal,
+            ),
+            beta,
+        ],
+    )
+    .unwrap()
+}
+
+#[test]
+fn several_phases_agree_with_the_independent_reference() {
+    // Source: tests/reference/cnt_scipy.py, cases two_phases, wall_and_nuclei and
+    // decoupled_dcp: an independent NumPy/SciPy implementation of docs/science.md,
+    // "Several phases", "Wall nucleation" and "Transport near the glass transition",
+    // written from the equations without reading this code (400 001-point grids,
+    // grid error < 1e-9), run 2026-12-02 with NumPy 2.4.6 / SciPy 1.17.1. The accuracy
+    // target of R_c applies (0.1 %); the nose as in the single-phase check.
+    let mut wall = two_phases();
+    wall.phases[1].nuclei_per_m3 = Some(1e9);
+    let wall_opts = KineticOptions {
+        contact_angle_deg: 60.0,
+        sample_thickness_m: 0.004,
+        ..KineticOptions::default()
+    };
+    let mut dcp = two_phases();
+    dcp.phases.truncate(1);
+    dcp.phases[0].heat_capacity_change_j_per_mol_k = 30.0;
+    let dcp_opts = KineticOptions {
+        transport: Transport::Fractional { exponent: 0.7 },
+        decoupling_ratio: 1.2,
+        ..KineticOptions::default()
+    };
+    type Case<'a> = (&'a str, Melt, KineticOptions, f64, &'a [f64], f64, f64);
+    let cases: [Case; 3] = [
+        (
+            "two_phases",
+            two_phases(),
+            KineticOptions::default(),
+            1.10248014e-02,
+            &[4.65863138e-04, 1.10247926e-02],
+            933.252359,
+            3.15193010e+03,
+        ),
+        (
+            "wall_and_nuclei",
+            wall,
+            wall_opts,
+            4.25723322e+01,
+            &[4.25491459e+01, 9.19558322e+00],
+            1050.511312,
+            1.14556975e+00,
+        ),
+        (
+            "decoupled_dcp",
+            dcp,
+            dcp_opts,
+            3.46833491e-05,
+            &[3.46833491e-05],
+            882.568792,
+            1.05243404e+06,
+        ),
+    ];
+    for (name, m, o, rc, by_phase, tn, tt) in cases {
+        let s = Kinetics::new(&m, &o).unwrap().analyse().unwrap();
+        assert!(
+            rel(s.critical_rate.0, rc) < CRITICAL_RATE_RTOL,
+            "{name}: R_c {} vs {rc}",
+            s.critical_rate.0
+        );
+        for (p, want) in s.phases.iter().zip(by_phase) {
+            assert!(
+                rel(p.critical_rate.0, *want) < CRITICAL_RATE_RTOL,
+                "{name}/{}: R_c {} vs {want}",
+                p.name,
+                p.critical_rate.0
+            );
+        }
+        assert!(
+            (s.nose_temperature.0 - tn).abs() < 0.05,
+            "{name}: T_n {} vs {tn}",
+            s.nose_temperature.0
+        );
+        assert!(
+            rel(s.nose_time_s, tt) < 1e-5,
+            "{name}: t_n {} vs {tt}",
+            s.nose_time_s
+        );
+    }
+}
+
+#[test]
+fn without_nuclei_the_phases_add_as_fourth_powers() {
+    // Source: Avrami (1939–41), extended volumes add; with J_k/R⁴ terms only,
+    // X_c = Σ (4π/3) J_k / R_c⁴ gives R_c = (Σ_k R_c,k⁴)^¼ exactly (docs/science.md,
+    // "Several phases"). The shares at R_c are (R_c,k/R_c)⁴ and sum to one.
+    let s = Kinetics::new(&two_phases(), &KineticOptions::default())
+        .unwrap()
+        .analyse()
+        .unwrap();
+    let sum: f64 = s.phases.iter().map(|p| p.critical_rate.0.powi(4)).sum();
+    assert!(rel(s.critical_rate.0, sum.powf(0.25)) < 1e-12);
+    for p in &s.phases {
+        let want = (p.critical_rate.0 / s.critical_rate.0).powi(4);
+        assert!(
+            rel(p.share, want) < 1e-10,
+            "{}: {} vs {want}",
+            p.name,
+            p.share
+        );
+    }
+    assert_eq!(s.limiting_phase().name, "beta");
+}
+
+#[test]
+fn a_phase_below_the_glass_transition_cannot_crystallise() {
+    // A second phase whose liquidus lies below T_g (784 K here) contributes
+    // nothing: the result is the single-phase one exactly.
+    let mut m = two_phases();
+    m.phases[1].liquidus = Kelvin(780.0);
+    let k = Kinetics::new(&m, &KineticOptions::default()).unwrap();
+    assert_eq!(k.active_phases().collect::<Vec<_>>(), vec![0]);
+    let one = Kinetics::new(&card(), &KineticOptions::default())
+        .unwrap()
+        .critical_rate()
+        .unwrap();
+    assert_eq!(k.critical_rate().unwrap(), one);
+}
+
+#[test]
+fn wall_nucleation_counts_sites_per_area() {
+    // docs/science.md, "Wall nucleation": per unit volume the wall rate is
+    // (2/d) λ⁻² (D/λ²) exp(−f(θ) W*/kT), so it scales as 1/d: a sample ten
+    // times thinner has ten times the wall rate. At θ = 180° there is none.
+    let melt = card();
+    let at = |theta: f64, d: f64| {
+        let o = KineticOptions {
+            contact_angle_deg: theta,
+            sample_thickness_m: d,
+            ..KineticOptions::default()
+        };
+        Kinetics::new(&melt, &o).unwrap()
+    };
+    let t = Kelvin(950.0);
+    let none = at(180.0, 0.01).rates(t).nucleation_per_m3_s();
+    let thick = at(60.0, 0.01).rates(t).nucleation_per_m3_s() - none;
+    let thin = at(60.0, 0.001).rates(t).nucleation_per_m3_s() - none;
+    assert!(thick > 0.0);
+    assert!(rel(thin / thick, 10.0) < 1e-9, "{}", thin / thick);
 }

@@ -82,7 +82,18 @@ pub(crate) fn rows_frame(
                     .iter()
                     .map(|c| match c {
                         Cell::Num(v) => *v,
-                        Cell::Text(_) => None,
+                        _ => None,
+                    })
+                    .collect::<Vec<_>>(),
+            )
+        } else if cells.iter().all(|c| matches!(c, Cell::Bool(_))) {
+            Column::new(
+                f.name.into(),
+                cells
+                    .iter()
+                    .map(|c| match c {
+                        Cell::Bool(v) => *v,
+                        _ => None,
                     })
                     .collect::<Vec<_>>(),
             )
@@ -94,6 +105,7 @@ pub(crate) fn rows_frame(
                     .map(|c| match c {
                         Cell::Text(v) => v.map(str::to_string),
                         Cell::Num(v) => v.map(|x| x.to_string()),
+                        Cell::Bool(v) => v.map(|x| x.to_string()),
                     })
                     .collect::<Vec<_>>(),
             )
@@ -125,6 +137,7 @@ pub(crate) fn shortlist_json(problem: &ScreenProblem, rows: &[&Row]) -> String {
                 let v = match (f.get)(r) {
                     Cell::Num(v) => v.map(serde_json::Value::from).unwrap_or_default(),
                     Cell::Text(v) => v.map(serde_json::Value::from).unwrap_or_default(),
+                    Cell::Bool(v) => v.map(serde_json::Value::from).unwrap_or_default(),
                 };
                 m.insert(f.name.into(), v);
             }

@@ -15,6 +15,7 @@ use crate::kinetics::KineticOptions;
 use crate::report::text::DEMO_SHELF_LABEL;
 use crate::screen::{
     CostLimit, Equipment, LinearConstraint, ObjectiveKind, ScreenProblem, Search, Weights,
+    DEFAULT_MARGIN_CAP_DECADES,
 };
 use crate::units::{Celsius, RateUnit};
 use serde::Deserialize;
@@ -106,7 +107,14 @@ struct RawFurnace {
     max_temperature_c: Spanned<f64>,
     #[serde(default)]
     liquidus_margin_c: Option<Spanned<f64>>,
+    #[serde(default)]
+    melting_margin_c: Option<Spanned<f64>>,
 }
+
+/// How far below the furnace maximum the melting temperature must stay when
+/// the config does not say, °C (common practice: a furnace is not run at its
+/// rated maximum, and the 10 Pa·s point is only where fining starts).
+pub const DEFAULT_MELTING_MARGIN_C: f64 = 20.0;
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -131,6 +139,8 @@ struct RawObjective {
     kind: ObjectiveKind,
     #[serde(default)]
     weights: Option<RawWeights>,
+    #[serde(default)]
+    margin_cap_decades: Option<Spanned<f64>>,
 }
 
 #[derive(Deserialize, Clone, Copy)]
@@ -321,17 +331,38 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
             format!("max_temperature_c must be between 0 and 3000 °C, got {fmax}"),
         );
     }
-    let margin = raw
-        .furnace
-        .liquidus_margin_c
+    let mut furnace_margin = |key: &str, m: &Option<Spanned<f64>>, default: f64| -> f64 {
+        let v = m.as_ref().map(|m| *m.get_ref()).unwrap_or(default);
+        if let Some(m) = m {
+            if !(v.is_finite() && v >= 0.0 && v < fmax) {
+                push(
+                    m.span(),
+                    format!(
+                        "{key} must be zero or positive and below max_temperature_c, got {v} °C"
+                    ),
+                );
+            }
+        }
+        v
+    };
+    let margin = furnace_margin("liquidus_margin_c", &raw.furnace.liquidus_margin_c, 0.0);
+    let melting_margin = furnace_margin(
+        "melting_margin_c",
+        &raw.furnace.melting_margin_c,
+        DEFAULT_MELTING_MARGIN_C,
+    );
+    let cap = raw
+        .objective
         .as_ref()
-        .map(|m| *m.get_ref())
-        .unwrap_or(0.0);
-    if let Some(m) = &raw.furnace.liquidus_margin_c {
-        if !(margin.is_finite() && margin >= 0.0) {
+        .and_then(|o| o.margin_cap_decades.as_ref());
+    let margin_cap = cap
+        .map(|c| *c.get_ref())
+        .unwrap_or(DEFAULT_MARGIN_CAP_DECADES);
+    if let Some(c) = cap {
+        if !(margin_cap.is_finite() && margin_cap > 0.0) {
             push(
-                m.span(),
-                format!("liquidus_margin_c must be zero or positive, got {margin}"),
+                c.span(),
+                format!("margin_cap_decades must be positive, got {margin_cap}"),
             );
         }
     }
@@ -460,12 +491,14 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
                 safety_factor: safety,
             },
             furnace_max: Celsius(fmax).to_kelvin(),
+            melting_max: Celsius(fmax - melting_margin).to_kelvin(),
             liquidus_max: Celsius(fmax - margin).to_kelvin(),
             cost,
             glass_transition_bounds: tg_bounds,
             working_range_bounds_k: wr,
             objective,
             weights,
+            margin_cap_decades: margin_cap,
             allow_extrapolation: raw.search.allow_extrapolation,
             models,
             kinetic_options: kin,

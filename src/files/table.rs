@@ -313,6 +313,34 @@ pub fn read_composition_table(
     Ok((Table { frame: df, rows }, other))
 }
 
+/// A column name safe for any table tool: letters, digits and underscores.
+fn column_safe(name: &str) -> String {
+    name.chars()
+        .map(|c| if c.is_ascii_alphanumeric() { c } else { '_' })
+        .collect()
+}
+
+/// Per-phase maps ("critical_rate_by_phase_k_per_s": {"devitrite": ...})
+/// become flat columns ("critical_rate_devitrite_k_per_s").
+fn flatten_by_phase(
+    m: serde_json::Map<String, serde_json::Value>,
+) -> serde_json::Map<String, serde_json::Value> {
+    let mut out = serde_json::Map::new();
+    for (k, v) in m {
+        match v {
+            serde_json::Value::Object(inner) if k.contains("_by_phase") => {
+                for (phase, x) in inner {
+                    out.insert(k.replace("by_phase", &column_safe(&phase)), x);
+                }
+            }
+            other => {
+                out.insert(k, other);
+            }
+        }
+    }
+    out
+}
+
 /// The input frame with the evaluation columns and an `error` column appended.
 ///
 /// # Errors
@@ -325,7 +353,7 @@ pub fn append_results(
         .iter()
         .map(|r| match r {
             Ok(e) => match serde_json::to_value(e) {
-                Ok(serde_json::Value::Object(m)) => Some(m),
+                Ok(serde_json::Value::Object(m)) => Some(flatten_by_phase(m)),
                 _ => None,
             },
             Err(_) => None,

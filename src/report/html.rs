@@ -284,10 +284,16 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
         &mut h,
         "furnace",
         format!(
-            "melting temperature (10 Pa·s) ≤ {:.0} °C; liquidus ≤ {:.0} °C",
+            "{:.0} °C: melting temperature (10 Pa·s) ≤ {:.0} °C; liquidus ≤ {:.0} °C",
             plan.furnace_max.to_celsius().0,
+            plan.melting_max.to_celsius().0,
             plan.liquidus_max.to_celsius().0
         ),
+    );
+    row(
+        &mut h,
+        "nucleation counted",
+        super::text::nucleation_text(&plan.kinetic_options),
     );
     if let Some(c) = &plan.cost {
         row(

@@ -12,6 +12,8 @@ pub enum Cell<'a> {
     Num(Option<f64>),
     /// A text (None where there is none).
     Text(Option<&'a str>),
+    /// A yes/no (None where there is none).
+    Bool(Option<bool>),
 }
 
 /// A named column and how to read it from a row.
@@ -23,7 +25,7 @@ pub struct Field {
 
 /// The result columns every screen table carries after the composition,
 /// in this order.
-pub const RESULT_FIELDS: [Field; 9] = [
+pub const RESULT_FIELDS: [Field; 11] = [
     Field {
         name: "critical_rate_k_per_s",
         get: |r| Cell::Num(r.critical_rate_k_per_s),
@@ -47,6 +49,14 @@ pub const RESULT_FIELDS: [Field; 9] = [
     Field {
         name: "primary_phase",
         get: |r| Cell::Text(r.primary_phase.as_deref()),
+    },
+    Field {
+        name: "limiting_phase",
+        get: |r| Cell::Text(r.limiting_phase.as_deref()),
+    },
+    Field {
+        name: "vouched",
+        get: |r| Cell::Bool(r.vouched),
     },
     Field {
         name: "glass_transition_k",

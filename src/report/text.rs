@@ -5,7 +5,7 @@
 use crate::assess::Evaluation;
 use crate::batch::Batch;
 use crate::composition::{Composition, Oxide};
-use crate::kinetics::DrivingForce;
+use crate::kinetics::{DrivingForce, KineticOptions, Transport};
 use crate::screen::{LimitSummary, ScreenProblem};
 use crate::units::kelvin_to_celsius as c;
 use std::fmt::Write;
@@ -98,6 +98,15 @@ pub fn evaluation_text(e: &Evaluation) -> String {
         ),
         ml,
     );
+    if e.liquidus_by_phase_k.len() > 1 {
+        let mut by: Vec<(&String, &f64)> = e.liquidus_by_phase_k.iter().collect();
+        by.sort_by(|a, b| b.1.total_cmp(a.1));
+        let parts: Vec<String> = by
+            .iter()
+            .map(|(n, k)| format!("{n} {:.0} °C", c(**k)))
+            .collect();
+        row(&mut o, "liquidus of each phase", parts.join(" · "), ml);
+    }
     let _ = writeln!(o, "\nviscosity");
     if let Some(v) = e.melting_temperature_k {
         row(&mut o, "melting temperature (10 Pa·s)", t(v), mv);
@@ -133,21 +142,14 @@ pub fn evaluation_text(e: &Evaluation) -> String {
     }
     let _ = writeln!(
         o,
-        "\ncrystallisation (CNT + JMAK, X_c = {:e}, {} driving force{})",
+        "\ncrystallisation (CNT + JMAK, every phase above T_g, X_c = {:e}, {} driving force)",
         e.detectable_fraction,
         match e.driving_force {
             DrivingForce::Turnbull => "Turnbull",
             DrivingForce::Hoffman => "Hoffman",
         },
-        if e.heterogeneous_nuclei_per_m3 > 0.0 {
-            format!(
-                ", {} pre-existing nuclei/m³",
-                sig(e.heterogeneous_nuclei_per_m3)
-            )
-        } else {
-            String::new()
-        }
     );
+    row(&mut o, "nucleation", nucleation_text(&e.options), "");
     row(
         &mut o,
         "TTT nose",
@@ -172,12 +174,25 @@ pub fn evaluation_text(e: &Evaluation) -> String {
         &mut o,
         "critical cooling rate R_c",
         format!(
-            "{} K/s   {} K/min",
+            "{} K/s   {} K/min   limited by {}",
             sig(e.critical_rate_k_per_s),
-            sig(e.critical_rate_k_per_min)
+            sig(e.critical_rate_k_per_min),
+            e.limiting_phase
         ),
         &mk,
     );
+    if e.critical_rate_by_phase_k_per_s.len() > 1 {
+        let mut by: Vec<(&String, &f64)> = e.critical_rate_by_phase_k_per_s.iter().collect();
+        by.sort_by(|a, b| b.1.total_cmp(a.1));
+        for (name, r) in by {
+            row(
+                &mut o,
+                &format!("  {name} alone"),
+                format!("{} K/s", sig(*r)),
+                &mk,
+            );
+        }
+    }
     if let Some(mm) = e.max_glassy_thickness_mm {
         row(
             &mut o,
@@ -295,6 +310,32 @@ pub fn batch_text(b: &Batch, glass: &Composition, shelf: &str) -> String {
     o
 }
 
+/// Which nucleation the kinetics count, and the transport law, in words.
+pub fn nucleation_text(o: &KineticOptions) -> String {
+    let mut parts = vec!["in the volume (homogeneous)".to_string()];
+    if o.contact_angle_deg < 180.0 {
+        parts.push(format!(
+            "on the walls of a {} mm sample (contact angle {}°)",
+            sig(o.sample_thickness_m * 1e3),
+            sig(o.contact_angle_deg)
+        ));
+    }
+    if o.heterogeneous_nuclei_per_m3 > 0.0 {
+        parts.push(format!(
+            "{} pre-existing nuclei/m³ of each phase",
+            sig(o.heterogeneous_nuclei_per_m3)
+        ));
+    }
+    let mut s = parts.join(" + ");
+    if let Transport::Fractional { exponent } = o.transport {
+        s.push_str(&format!(
+            "; D ∝ (T/η)^{exponent} below {} T_g",
+            o.decoupling_ratio
+        ));
+    }
+    s
+}
+
 /// A batch sheet as CSV: raw material, mass (under `mass_column`), cost.
 pub fn batch_csv(b: &Batch, mass_column: &str) -> String {
     let mut s = format!("raw_material,{mass_column},cost\n");
@@ -338,7 +379,8 @@ pub fn screen_summary_text(
     format!(
         "screen {}: {} candidates kept ({} evaluations with refinement), {} meet every limit, {} shortlisted\n\
          equipment: {} at {:.3} K/s with safety factor {} → R_c must be ≤ {:.3} K/s\n\
-         furnace: melting temperature ≤ {:.0} °C, liquidus ≤ {:.0} °C\n{}\n{}\n",
+         furnace: {:.0} °C; melting temperature ≤ {:.0} °C, liquidus ≤ {:.0} °C\n\
+         nucleation: {}\n{}\n{}\n",
         config,
         s.evaluated,
         s.evaluations,
@@ -349,7 +391,9 @@ pub fn screen_summary_text(
         problem.equipment.safety_factor,
         problem.allowed_rate().0,
         problem.furnace_max.to_celsius().0,
+        problem.melting_max.to_celsius().0,
         problem.liquidus_max.to_celsius().0,
+        nucleation_text(&problem.kinetic_options),
         binding_text(s, false),
         CAUTION
     )

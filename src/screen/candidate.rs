@@ -5,7 +5,9 @@
 use super::limits::{Limit, LimitSet};
 use super::problem::{ObjectiveKind, ScreenProblem};
 use super::simplex::composition_violation;
-use crate::assess::{evaluate_composition, Calibration, Evaluation, SlabQuench};
+use crate::assess::{
+    add_glassy_thickness, evaluate_composition, Calibration, Evaluation, SlabQuench,
+};
 use crate::composition::{Composition, N_OXIDES};
 use crate::error::Error;
 
@@ -125,10 +127,10 @@ pub fn evaluate_candidate_with(
         ));
     }
     let tm = e.melting_temperature_k.unwrap_or(f64::INFINITY);
-    if tm > problem.furnace_max.0 {
+    if tm > problem.melting_max.0 {
         c.violations.push((
             Limit::MeltingTemperature,
-            (tm - problem.furnace_max.0) / 100.0,
+            (tm - problem.melting_max.0) / 100.0,
         ));
     }
     if e.liquidus_k > problem.liquidus_max.0 {
@@ -166,14 +168,32 @@ pub fn evaluate_candidate_with(
             }
         }
     }
-    let margin = (problem.equipment.rate.0 / e.critical_rate_k_per_s).log10();
+    let mut e = e;
+    let uses_margin = match problem.objective {
+        ObjectiveKind::Margin => true,
+        ObjectiveKind::Blend => problem.weights.margin != 0.0,
+        _ => false,
+    };
+    if uses_margin && c.violations.is_empty() && e.max_glassy_thickness_mm.is_none() {
+        // Whether the model can vouch for a feasible recipe decides its rank.
+        if let Err(err) = add_glassy_thickness(&mut e, SlabQuench::default()) {
+            e.warnings
+                .push(format!("glassy thickness not computed: {err}"));
+        }
+    }
+    let cap = problem.margin_cap_decades;
+    let margin = (problem.equipment.rate.0 / e.critical_rate_k_per_s)
+        .log10()
+        .min(cap);
+    // Recipes the model cannot vouch for rank after every recipe it can.
+    let unvouched = if e.vouched { 0.0 } else { cap + 1.0 };
     let w = problem.weights;
     c.objective = match problem.objective {
-        ObjectiveKind::Margin => -margin,
+        ObjectiveKind::Margin => -margin + unvouched,
         ObjectiveKind::Cost => c.cost_per_kg.unwrap_or(f64::INFINITY),
         ObjectiveKind::MeltingTemperature => tm,
         ObjectiveKind::Blend => {
-            -w.margin * margin
+            -w.margin * (margin - unvouched)
                 + w.cost * c.cost_per_kg.unwrap_or(0.0)
                 + w.melting_temperature * tm / 100.0
         }
@@ -201,6 +221,10 @@ pub struct Row {
     pub melting_temperature_k: Option<f64>,
     pub liquidus_k: Option<f64>,
     pub primary_phase: Option<String>,
+    /// The phase with the largest share of the crystallised volume at R_c.
+    pub limiting_phase: Option<String>,
+    /// R_c, nose time and glassy thickness are within what the model can vouch for.
+    pub vouched: Option<bool>,
     pub glass_transition_k: Option<f64>,
     pub working_point_k: Option<f64>,
     pub softening_point_k: Option<f64>,
@@ -233,6 +257,8 @@ impl Row {
             melting_temperature_k: e.and_then(|e| e.melting_temperature_k).and_then(finite),
             liquidus_k: e.and_then(|e| finite(e.liquidus_k)),
             primary_phase: e.and_then(|e| e.primary_phase.clone()),
+            limiting_phase: e.map(|e| e.limiting_phase.clone()),
+            vouched: e.map(|e| e.vouched),
             glass_transition_k: e.and_then(|e| finite(e.glass_transition_k)),
             working_point_k: e.and_then(|e| e.working_point_k).and_then(finite),
             softening_point_k: e.and_then(|e| e.softening_point_k).and_then(finite),

@@ -13,7 +13,7 @@ pub enum Limit {
     Evaluation,
     /// R_c above equipment rate / safety factor.
     CoolingRate,
-    /// Melting temperature (10 Pa·s) above the furnace maximum.
+    /// Melting temperature (10 Pa·s) above the furnace maximum − margin.
     MeltingTemperature,
     /// Liquidus above furnace maximum − margin.
     Liquidus,
@@ -46,7 +46,7 @@ impl Limit {
             Limit::ModelDomain => "model validity domain",
             Limit::Evaluation => "kinetics could not be evaluated",
             Limit::CoolingRate => "critical rate above equipment rate / safety factor",
-            Limit::MeltingTemperature => "melting temperature above furnace maximum",
+            Limit::MeltingTemperature => "melting temperature above furnace maximum minus margin",
             Limit::Liquidus => "liquidus above furnace maximum minus margin",
             Limit::Cost => "cost above ceiling (or no feasible batch)",
             Limit::GlassTransition => "glass transition outside range",

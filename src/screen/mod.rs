@@ -33,6 +33,7 @@ pub use first_pass::{chunk_count, sobol_points, space_filling_chunk};
 pub use limits::{Limit, LimitSet, LimitSummary};
 pub use problem::{
     CostLimit, Equipment, LinearConstraint, ObjectiveKind, ScreenProblem, Search, Weights,
+    DEFAULT_MARGIN_CAP_DECADES,
 };
 pub use refine::refine;
 pub use run::{run, ScreenEnd, ScreenObserver, ScreenStore, Shortlisted, Unobserved};

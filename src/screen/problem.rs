@@ -21,6 +21,9 @@ pub struct LinearConstraint {
     pub max: Option<f64>,
 }
 
+/// Margins above this count as this, decades (the default cap).
+pub const DEFAULT_MARGIN_CAP_DECADES: f64 = 3.0;
+
 /// Objective weights for the blend (per decade of margin, per cost unit, per 100 K).
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct Weights {
@@ -80,8 +83,11 @@ pub struct ScreenProblem {
     pub oxides: Vec<(Oxide, f64, f64)>,
     pub constraints: Vec<LinearConstraint>,
     pub equipment: Equipment,
-    /// The furnace's maximum: the melting temperature (10 Pa·s) must stay below.
+    /// The furnace's maximum temperature.
     pub furnace_max: Kelvin,
+    /// The melting temperature (10 Pa·s) must stay below this (furnace maximum
+    /// − melting margin).
+    pub melting_max: Kelvin,
     /// The liquidus must stay below this (furnace maximum − margin).
     pub liquidus_max: Kelvin,
     pub cost: Option<CostLimit>,
@@ -90,6 +96,9 @@ pub struct ScreenProblem {
     pub working_range_bounds_k: Option<(f64, f64)>,
     pub objective: ObjectiveKind,
     pub weights: Weights,
+    /// Margins above this (decades) count as this in the objectives: beyond
+    /// it, extra margin is model noise.
+    pub margin_cap_decades: f64,
     /// Candidates outside the models' validity domains may count as feasible.
     pub allow_extrapolation: bool,
     pub models: ModelSet,

@@ -9,12 +9,16 @@ use super::problem::{ScreenProblem, Search};
 use super::simplex::dist2;
 use std::cmp::Ordering;
 
-/// The ranking of two rows by a key (lower first), ties broken by the
-/// first-pass rows before refined ones, then by index: a total order, so the
-/// result does not depend on the order rows arrive in.
+/// The ranking of two rows by a key (lower first), ties broken by cost, then
+/// by melting temperature (lower first), then first-pass rows before refined
+/// ones, then by index: a total order, so the result does not depend on the
+/// order rows arrive in.
 pub(crate) fn rank(a: &Row, b: &Row, key: impl Fn(&Row) -> f64) -> Ordering {
+    let worst = |v: Option<f64>| v.unwrap_or(f64::INFINITY);
     key(a)
         .total_cmp(&key(b))
+        .then(worst(a.cost_per_kg).total_cmp(&worst(b.cost_per_kg)))
+        .then(worst(a.melting_temperature_k).total_cmp(&worst(b.melting_temperature_k)))
         .then(a.refined.cmp(&b.refined))
         .then(a.index.cmp(&b.index))
 }
