@@ -139,3 +139,57 @@ fn every_phase_surface_and_alpha_is_marked_invented_in_the_file() {
     }
     assert!(rel(1.0, 1.0) == 0.0);
 }
+
+/// The corners of a domain box intersected with Σ x = 100 mol%: every point
+/// with all coordinates but one at a bound and that one closing the sum.
+fn domain_corners(min: &[f64], max: &[f64]) -> Vec<Vec<f64>> {
+    let n = min.len();
+    let varying: Vec<usize> = (0..n)
+        .filter(|&i| max[i] > min[i] || max[i] > 0.0)
+        .collect();
+    let mut out = Vec::new();
+    for &free in &varying {
+        let others: Vec<usize> = varying.iter().copied().filter(|&i| i != free).collect();
+        for bits in 0..(1u64 << others.len()) {
+            let mut x = vec![0.0; n];
+            for (k, &i) in others.iter().enumerate() {
+                x[i] = if bits >> k & 1 == 1 { max[i] } else { min[i] };
+            }
+            x[free] = 100.0 - x.iter().sum::<f64>();
+            if x[free] >= min[free] - 1e-9 && x[free] <= max[free] + 1e-9 {
+                out.push(x);
+            }
+        }
+    }
+    out
+}
+
+#[test]
+fn no_liquidus_surface_rises_above_its_melting_point_in_its_domain() {
+    // Thermodynamics (docs/science.md, "Liquidus"): a phase cannot be stable above
+    // its own melting point (or decomposition temperature). A linear surface takes
+    // its maximum over the domain at a corner, so checking the corners is exact.
+    use quenchwise::composition::N_OXIDES;
+    use quenchwise::properties::LiquidusSurface;
+    let m = demo();
+    for p in &m.phases {
+        let LiquidusSurface::Mixture(surface) = &p.liquidus else {
+            continue;
+        };
+        let corners = domain_corners(&p.domain.min, &p.domain.max);
+        assert!(!corners.is_empty(), "{}: empty domain", p.name);
+        let highest = corners
+            .iter()
+            .map(|x| {
+                let f: [f64; N_OXIDES] = std::array::from_fn(|i| x[i] / 100.0);
+                surface.eval(&f)
+            })
+            .fold(f64::NEG_INFINITY, f64::max);
+        assert!(
+            highest <= p.melting_point.0,
+            "{}: surface reaches {highest:.0} K in its domain, above T_m = {:.0} K",
+            p.name,
+            p.melting_point.0
+        );
+    }
+}
