@@ -193,3 +193,41 @@ fn no_liquidus_surface_rises_above_its_melting_point_in_its_domain() {
         );
     }
 }
+
+#[test]
+fn critical_rate_is_continuous_across_primary_field_boundaries() {
+    // Every phase counts (Avrami: extended volumes add), so R_c is a sum of
+    // continuous terms and cannot jump where the primary phase changes. Before,
+    // with the primary phase alone, one 0.25 mol% step at 14 Na2O (CaO 9.75 →
+    // 10) jumped ×16. Common practice: no measured melt shows such a sawtooth.
+    let m = demo();
+    let mut last: Option<(f64, String)> = None;
+    let mut fields = Vec::new();
+    let mut limiting = Vec::new();
+    let mut worst = 1.0_f64;
+    for i in 0..=100 {
+        let ca = 6.0 + 0.1 * i as f64;
+        let text = format!("Na2O=14 CaO={ca} SiO2={}", 86.0 - ca);
+        let c = Composition::parse(&text, Basis::MolPercent, 1e-9).unwrap();
+        let e = evaluate_composition(&m, &c, &KineticOptions::default(), None, &Calibration::None)
+            .unwrap();
+        let primary = e.primary_phase.clone().unwrap();
+        if fields.last() != Some(&primary) {
+            fields.push(primary.clone());
+        }
+        if limiting.last() != Some(&e.limiting_phase) {
+            limiting.push(e.limiting_phase.clone());
+        }
+        if let Some((rc, _)) = &last {
+            let r = e.critical_rate_k_per_s / rc;
+            worst = worst.max(r.max(1.0 / r));
+        }
+        last = Some((e.critical_rate_k_per_s, primary));
+    }
+    assert!(fields.len() >= 2, "the scan crosses no field boundary: {fields:?}");
+    assert!(
+        limiting.len() >= 3,
+        "the limiting phase changes too rarely: {limiting:?}"
+    );
+    assert!(worst < 1.5, "a 0.1 mol% step changes R_c ×{worst:.2}");
+}
