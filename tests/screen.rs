@@ -3,6 +3,7 @@
 
 use crate::util::{run_in, temp_dir};
 use quenchwise::assess::{evaluate_composition, Calibration};
+use quenchwise::batch::{least_cost_batch, BatchSettings};
 use quenchwise::composition::{Basis, Composition};
 use quenchwise::files::run_folder::{run, Outcome, ScreenOptions};
 use quenchwise::files::screen_config::{self as config, RunPlan};
@@ -25,19 +26,19 @@ Al2O3 = [0.0, 3.0]
 
 [[constraint]]
 expr = "Na2O + CaO"
-max = 28.0
+max = 26.0
 
 [equipment]
-cooling_rate = 20.0
+cooling_rate = 2.0
 unit = "K/s"
 safety_factor = 10.0
 
 [furnace]
 max_temperature_c = 1480.0
-liquidus_margin_c = 150.0
+liquidus_margin_c = 465.0
 
 [cost]
-max_per_kg_glass = 0.40
+max_per_kg_glass = 0.24
 
 [shortlist]
 size = 4
@@ -62,11 +63,33 @@ fn plan(dir: &Path, text: &str) -> RunPlan {
 fn every_shortlisted_recipe_meets_every_limit_when_re_evaluated() {
     let d = temp_dir("screen-recheck");
     let p = plan(&d, SMALL);
+    // The limits as derived from the config, by hand: R_c ≤ 2/10 K/s; melting
+    // temperature ≤ 1480 − 20 (the default melting margin) = 1460 °C; liquidus
+    // ≤ 1480 − 465 = 1015 °C.
+    assert!((p.problem.allowed_rate().0 - 0.2).abs() < 1e-15);
+    assert!((p.problem.melting_max.0 - 1733.15).abs() < 1e-9);
+    assert!((p.problem.liquidus_max.0 - 1288.15).abs() < 1e-9);
     let out = d.join("out");
     assert!(matches!(
         run(&p, &opts(out.clone())).unwrap(),
         Outcome::Finished { .. }
     ));
+    // Every limit rejects some of the space, so the checks below can fail.
+    let limits = std::fs::read_to_string(out.join("limits.csv")).unwrap();
+    for label in [
+        "critical rate above equipment rate / safety factor",
+        "melting temperature above furnace maximum minus margin",
+        "liquidus above furnace maximum minus margin",
+        "cost above ceiling (or no feasible batch)",
+        "composition limits",
+    ] {
+        let line = limits
+            .lines()
+            .find(|l| l.contains(label))
+            .unwrap_or_else(|| panic!("{label} never binds:\n{limits}"));
+        let only: usize = line.rsplit(',').next().unwrap().trim().parse().unwrap();
+        assert!(only > 0, "{label} never binds alone: {line}");
+    }
     let short: Vec<serde_json::Value> =
         serde_json::from_str(&std::fs::read_to_string(out.join("shortlist.json")).unwrap())
             .unwrap();
@@ -89,28 +112,58 @@ fn every_shortlisted_recipe_meets_every_limit_when_re_evaluated() {
         )
         .unwrap();
         assert!(
-            e.critical_rate_k_per_s <= 20.0 / 10.0,
+            e.critical_rate_k_per_s <= 2.0 / 10.0,
             "{text}: R_c {}",
             e.critical_rate_k_per_s
         );
         assert!(
-            e.melting_temperature_k.unwrap() <= 1480.0 + 273.15,
+            e.melting_temperature_k.unwrap() <= 1460.0 + 273.15,
             "{text}"
         );
-        assert!(e.liquidus_k <= 1330.0 + 273.15, "{text}");
+        assert!(e.liquidus_k <= 1015.0 + 273.15, "{text}");
         assert!(
             !e.viscosity_extrapolated && !e.liquidus_extrapolated,
             "{text}"
         );
-        assert!(
-            cost_model.cost_per_kg_glass(&c).unwrap() <= *max_cost,
-            "{text}"
-        );
+        // The screen prices a glass with the least-cost batch: the same number
+        // as the batch sheet's programme, solved again from the raw materials.
+        let cost = cost_model.cost_per_kg_glass(&c).unwrap();
+        assert!(cost <= *max_cost, "{text}");
+        let sheet = least_cost_batch(
+            &p.batch_model.as_ref().unwrap().raws,
+            &c,
+            1.0,
+            &BatchSettings::default(),
+        )
+        .unwrap();
+        assert!((sheet.cost_per_kg_glass - cost).abs() < 1e-12, "{text}");
         let pct = c.mol_percent();
         let na = pct[quenchwise::composition::Oxide::Na2O.index()];
         let ca = pct[quenchwise::composition::Oxide::CaO.index()];
-        assert!(na + ca <= 28.0 + 1e-9, "{text}");
+        assert!(na + ca <= 26.0 + 1e-9, "{text}");
     }
+    // Distinct recipes (Euclidean distance in mol% at least 1.5), ranked by margin.
+    let comp = |r: &serde_json::Value| -> Vec<f64> {
+        ["SiO2", "Na2O", "CaO", "Al2O3"]
+            .iter()
+            .map(|o| r[format!("{o}_mol_pct")].as_f64().unwrap())
+            .collect()
+    };
+    for (i, a) in short.iter().enumerate() {
+        for b in &short[i + 1..] {
+            let d2: f64 = comp(a)
+                .iter()
+                .zip(comp(b))
+                .map(|(x, y)| (x - y) * (x - y))
+                .sum();
+            assert!(d2.sqrt() >= 1.5 - 1e-9, "{a} and {b} are {} apart", d2.sqrt());
+        }
+    }
+    let margins: Vec<f64> = short
+        .iter()
+        .map(|r| r["margin_decades"].as_f64().unwrap())
+        .collect();
+    assert!(margins.windows(2).all(|w| w[0] >= w[1]), "{margins:?}");
     for f in [
         "shortlist.csv",
         "shortlist.parquet",
@@ -189,7 +242,7 @@ size = 1
 #[test]
 fn infeasible_config_names_the_binding_limits() {
     let d = temp_dir("screen-infeasible");
-    let text = SMALL.replace("cooling_rate = 20.0", "cooling_rate = 1e-15");
+    let text = SMALL.replace("cooling_rate = 2.0", "cooling_rate = 1e-15");
     let cfg = write_config(&d, &text);
     let r = run_in(&d, &["screen", cfg.to_str().unwrap(), "--out", "out"]);
     r.code(2)
