@@ -154,7 +154,10 @@ fn every_phase_surface_and_alpha_is_marked_invented_in_the_file() {
     assert_eq!(blocks.len(), phases);
     for b in blocks {
         let first = b.lines().find(|l| !l.trim().is_empty()).unwrap_or_default();
-        assert!(first.starts_with('#') && first.contains("INVENTED"), "{first}");
+        assert!(
+            first.starts_with('#') && first.contains("INVENTED"),
+            "{first}"
+        );
     }
 }
 
@@ -242,7 +245,10 @@ fn critical_rate_is_continuous_across_primary_field_boundaries() {
         }
         last = Some((e.critical_rate_k_per_s, primary));
     }
-    assert!(fields.len() >= 2, "the scan crosses no field boundary: {fields:?}");
+    assert!(
+        fields.len() >= 2,
+        "the scan crosses no field boundary: {fields:?}"
+    );
     assert!(
         limiting.len() >= 3,
         "the limiting phase changes too rarely: {limiting:?}"

@@ -336,7 +336,10 @@ fn nose_method_overestimates_the_critical_rate() {
     ] {
         let s = Kinetics::new(&m, &o).unwrap().analyse().unwrap();
         let ratio = s.nose_rate.0 / s.critical_rate.0;
-        assert!(ratio > 10.0, "ratio {ratio}: the nose method should overestimate");
+        assert!(
+            ratio > 10.0,
+            "ratio {ratio}: the nose method should overestimate"
+        );
         assert!(rel(ratio, want) < 5e-3, "ratio {ratio} vs {want}");
     }
 }
@@ -435,7 +438,11 @@ fn heterogeneous_nuclei_raise_the_critical_rate() {
     };
     let mut last = 0.0;
     for nh in [0.0, 1e3, 1e6, 1e9, 1e12] {
-        let rc = Kinetics::new(&m, &with(nh)).unwrap().critical_rate().unwrap().0;
+        let rc = Kinetics::new(&m, &with(nh))
+            .unwrap()
+            .critical_rate()
+            .unwrap()
+            .0;
         assert!(rc > last, "{nh}: {rc} <= {last}");
         last = rc;
     }

@@ -156,7 +156,11 @@ fn every_shortlisted_recipe_meets_every_limit_when_re_evaluated() {
                 .zip(comp(b))
                 .map(|(x, y)| (x - y) * (x - y))
                 .sum();
-            assert!(d2.sqrt() >= 1.5 - 1e-9, "{a} and {b} are {} apart", d2.sqrt());
+            assert!(
+                d2.sqrt() >= 1.5 - 1e-9,
+                "{a} and {b} are {} apart",
+                d2.sqrt()
+            );
         }
     }
     let margins: Vec<f64> = short

@@ -34,3 +34,12 @@ pub const NOSE_RATIO_SCREW_HOFFMAN: f64 = 11.6;
 pub const DEMO_FIXPOINT_RESIDUAL_K: f64 = 4.5;
 /// The same for their liquidus (measured 2.1 K and 4.1 K; README: 5 K).
 pub const DEMO_LIQUIDUS_RESIDUAL_K: f64 = 5.0;
+
+/// Batch masses and costs against a hand computation: the programme may move
+/// every oxide by its tolerance, 1e-5 kg per kg of glass, which shifts a mass
+/// by a few 1e-5 kg; 5e-5 kg (or 5e-5 of the currency) holds that.
+pub const LP_KG_TOL: f64 = 5e-5;
+/// The oxide balance of a batch re-melted on paper, wt%: each of up to seven
+/// oxides may fall short by 0.001 wt%, and renormalising the delivered mass
+/// to 100 % moves every share by up to 7 × 0.001 × its fraction: at most 0.008.
+pub const LP_DELIVERED_WT_PCT_TOL: f64 = 0.008;
