@@ -11,6 +11,8 @@ mod demo_models;
 mod grd2008;
 mod kinetics_reference;
 mod layers;
+mod main_job;
+mod model_files;
 mod plots;
 mod report_browser;
 mod screen;
