@@ -7,10 +7,11 @@ use quenchwise::batch::{least_cost_batch, BatchSettings};
 use quenchwise::composition::{Basis, Composition};
 use quenchwise::files::run_folder::{run, Outcome, ScreenOptions};
 use quenchwise::files::screen_config::{self as config, RunPlan};
-use quenchwise::screen::{self, Pass, Simplex};
+use quenchwise::screen::{self, Pass, Simplex, Stage};
 use std::path::{Path, PathBuf};
 
-const SMALL: &str = r#"
+/// A small screen in which every limit binds somewhere (8 chunks of 64).
+pub(crate) const SMALL: &str = r#"
 [search]
 seed = 7
 first_pass_points = 512
@@ -277,8 +278,9 @@ fn interrupted_and_resumed_equals_uninterrupted() {
     assert_eq!(
         run(&p, &o).unwrap(),
         Outcome::Interrupted {
-            chunks_done: 3,
-            chunks: 8
+            stage: Stage::FirstPass,
+            done: 3,
+            total: 8
         }
     );
     assert!(!d.join("split/shortlist.csv").exists());
@@ -315,7 +317,7 @@ fn existing_output_and_changed_config_are_refused() {
         &["screen", cfg.to_str().unwrap(), "--out", "out", "--resume"],
     )
     .code(2)
-    .stderr_has("refusing to resume: the config changed");
+    .stderr_has("refusing to resume: the config, or a file it reads");
     run_in(
         &d,
         &["screen", cfg.to_str().unwrap(), "--out", "out", "--force"],

@@ -36,5 +36,7 @@ pub use problem::{
     DEFAULT_MARGIN_CAP_DECADES,
 };
 pub use refine::refine;
-pub use run::{run, ScreenEnd, ScreenObserver, ScreenStore, Shortlisted, Unobserved};
+pub use run::{
+    run, run_chunks, ScreenEnd, ScreenObserver, ScreenStore, Shortlisted, Stage, Unobserved,
+};
 pub use simplex::{composition_violation, dist2, Simplex};

@@ -43,6 +43,11 @@ pub trait ScreenStore: Send {
     /// # Errors
     /// The row cannot be kept.
     fn save_refined(&mut self, i: usize, row: &Row) -> Result<(), Error>;
+    /// What the store had to repair since last asked (say, a damaged chunk it
+    /// dropped so that the run computes it again), for the user to read.
+    fn take_notices(&mut self) -> Vec<String> {
+        Vec::new()
+    }
 }
 
 /// Who watches a run. Every method has a default that does nothing.
@@ -62,6 +67,8 @@ pub trait ScreenObserver: Send {
     fn stop_requested(&mut self) -> bool {
         false
     }
+    /// Something the user should read (a repaired checkpoint, say).
+    fn notice(&mut self, _text: &str) {}
 }
 
 /// An observer that watches nothing.
@@ -76,6 +83,28 @@ pub struct Shortlisted {
     pub candidate: Candidate,
 }
 
+/// The stages of a run, in order.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Stage {
+    /// The space-filling pass, chunk by chunk.
+    FirstPass,
+    /// Refinement of the best distinct seeds.
+    Refinement,
+    /// Writing the tables, batch sheets and report (outside this module).
+    Outputs,
+}
+
+impl Stage {
+    /// What is counted in this stage, for messages ("12/64 chunks").
+    pub fn unit(self) -> &'static str {
+        match self {
+            Stage::FirstPass => "chunks",
+            Stage::Refinement => "refined seeds",
+            Stage::Outputs => "output files",
+        }
+    }
+}
+
 /// How a run ended.
 #[derive(Debug, Clone)]
 pub enum ScreenEnd {
@@ -83,8 +112,63 @@ pub enum ScreenEnd {
         shortlist: Vec<Shortlisted>,
         summary: LimitSummary,
     },
-    /// Stopped on request; everything kept so far resumes.
-    Interrupted { chunks_done: usize, chunks: usize },
+    /// Stopped on request during `stage` with `done` of `total` of its units
+    /// kept; everything kept so far resumes.
+    Interrupted {
+        stage: Stage,
+        done: usize,
+        total: usize,
+    },
+    /// Only a range of first-pass chunks was asked for ([`run_chunks`]), and
+    /// all of them are kept.
+    ChunksKept { chunks: std::ops::Range<usize> },
+}
+
+/// Evaluate and keep first-pass chunks `range` (a shard of a split run), and
+/// nothing else. Chunks already kept are skipped.
+///
+/// # Errors
+/// The store fails.
+pub fn run_chunks(
+    problem: &ScreenProblem,
+    search: &Search,
+    range: std::ops::Range<usize>,
+    store: &mut dyn ScreenStore,
+    observer: &mut dyn ScreenObserver,
+) -> Result<ScreenEnd, Error> {
+    let simplex = Simplex::new(problem);
+    let total = range.len();
+    let mut done = range.clone().filter(|&k| store.has_chunk(k)).count();
+    for k in range.clone() {
+        if store.has_chunk(k) {
+            continue;
+        }
+        if observer.stop_requested() {
+            return Ok(ScreenEnd::Interrupted {
+                stage: Stage::FirstPass,
+                done,
+                total,
+            });
+        }
+        let rows = chunk_rows(problem, search, &simplex, k);
+        store.save_chunk(k, &rows)?;
+        done += 1;
+        observer.chunk_done(done, total);
+    }
+    Ok(ScreenEnd::ChunksKept { chunks: range })
+}
+
+fn chunk_rows(problem: &ScreenProblem, search: &Search, simplex: &Simplex, k: usize) -> Vec<Row> {
+    space_filling_chunk(problem, search, simplex, k)
+        .iter()
+        .map(|c| Row::new(c, problem))
+        .collect()
+}
+
+fn forward_notices(store: &mut dyn ScreenStore, observer: &mut dyn ScreenObserver) {
+    for n in store.take_notices() {
+        observer.notice(&n);
+    }
 }
 
 /// Run (or resume) a screen.
@@ -102,21 +186,24 @@ pub fn run(
     let mut done = (0..chunks).filter(|&k| store.has_chunk(k)).count();
     let mut pools = Pools::new(problem, search);
     for k in 0..chunks {
-        let rows = match store.load_chunk(k)? {
+        // Stop between any two chunks, kept or not: reading back a long run's
+        // chunks takes time too.
+        if observer.stop_requested() {
+            return Ok(ScreenEnd::Interrupted {
+                stage: Stage::FirstPass,
+                done,
+                total: chunks,
+            });
+        }
+        let kept = store.load_chunk(k);
+        forward_notices(store, observer);
+        let rows = match kept? {
             Some(rows) => rows,
             None => {
-                if observer.stop_requested() {
-                    return Ok(ScreenEnd::Interrupted {
-                        chunks_done: done,
-                        chunks,
-                    });
-                }
-                let rows: Vec<Row> = space_filling_chunk(problem, search, &simplex, k)
-                    .iter()
-                    .map(|c| Row::new(c, problem))
-                    .collect();
+                let rows = chunk_rows(problem, search, &simplex, k);
                 store.save_chunk(k, &rows)?;
-                done += 1;
+                // A damaged chunk was counted as kept and is computed again.
+                done = (done + 1).min(chunks);
                 observer.chunk_done(done, chunks);
                 rows
             }
@@ -127,35 +214,44 @@ pub fn run(
         }
     }
     observer.first_pass_done();
-    // Refinement from the best distinct seeds (by penalised objective).
+    // Refinement from the best distinct seeds (by penalised objective), as
+    // many at a time as there are worker threads, so that a stop request
+    // waits for one round at most.
     let seeds = pools.seeds(problem, search);
     let mut refined: Vec<Option<Row>> = Vec::with_capacity(seeds.len());
     for i in 0..seeds.len() {
-        refined.push(store.load_refined(i)?);
+        let kept = store.load_refined(i);
+        forward_notices(store, observer);
+        refined.push(kept?);
     }
     let todo: Vec<usize> = (0..seeds.len()).filter(|&i| refined[i].is_none()).collect();
-    if !todo.is_empty() && observer.stop_requested() {
-        return Ok(ScreenEnd::Interrupted {
-            chunks_done: chunks,
-            chunks,
-        });
-    }
-    let results: Vec<Result<(usize, Row), Error>> = {
-        use rayon::prelude::*;
-        todo.par_iter()
-            .map(|&i| {
-                let (c, n) = refine(problem, search, &simplex, i, &seeds[i])
-                    .map_err(|e| Error::internal(format!("refining seed {i}: {e}")))?;
-                let mut row = Row::new(&c, problem);
-                row.evaluations = n;
-                Ok((i, row))
-            })
-            .collect()
-    };
-    for r in results {
-        let (i, row) = r?;
-        store.save_refined(i, &row)?;
-        refined[i] = Some(row);
+    let round = rayon::current_num_threads().max(1);
+    for batch in todo.chunks(round) {
+        if observer.stop_requested() {
+            return Ok(ScreenEnd::Interrupted {
+                stage: Stage::Refinement,
+                done: refined.iter().filter(|r| r.is_some()).count(),
+                total: seeds.len(),
+            });
+        }
+        let results: Vec<Result<(usize, Row), Error>> = {
+            use rayon::prelude::*;
+            batch
+                .par_iter()
+                .map(|&i| {
+                    let (c, n) = refine(problem, search, &simplex, i, &seeds[i])
+                        .map_err(|e| Error::internal(format!("refining seed {i}: {e}")))?;
+                    let mut row = Row::new(&c, problem);
+                    row.evaluations = n;
+                    Ok((i, row))
+                })
+                .collect()
+        };
+        for r in results {
+            let (i, row) = r?;
+            store.save_refined(i, &row)?;
+            refined[i] = Some(row);
+        }
     }
     let refined: Vec<Row> = refined.into_iter().flatten().collect();
     if !refined.is_empty() {
