@@ -22,19 +22,25 @@
 pub mod candidate;
 pub mod first_pass;
 pub mod limits;
+pub mod polytope;
 pub mod problem;
+pub(crate) mod qp;
 pub mod refine;
 pub mod run;
 pub(crate) mod select;
 pub mod simplex;
+pub mod sqp;
 
-pub use candidate::{evaluate_candidate, evaluate_candidate_with, Candidate, Pass, Row};
+pub use candidate::{
+    evaluate_candidate, evaluate_candidate_with, Candidate, Gauge, Pass, Row, BINDING_GAUGE_TOL,
+};
 pub use first_pass::{chunk_count, sobol_points, space_filling_chunk};
 pub use limits::{Limit, LimitSet, LimitSummary};
+pub use polytope::Polytope;
 pub use problem::{
     CostLimit, Equipment, LinearConstraint, ObjectiveKind, ScreenProblem, Search, Weights,
     DEFAULT_MARGIN_CAP_DECADES,
 };
-pub use refine::refine;
+pub use refine::{refine, RefineError, ScreenModel};
 pub use run::{run, ScreenEnd, ScreenObserver, ScreenStore, Shortlisted, Unobserved};
 pub use simplex::{composition_violation, dist2, Simplex};
