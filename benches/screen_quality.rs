@@ -323,6 +323,29 @@ fn compare(kind: ObjectiveKind, step: f64) {
     }
 }
 
+/// The margin objective along a line through the best margin point found: its
+/// roughness sets the finite-difference step.
+fn noise() {
+    let p = plan(ObjectiveKind::Margin);
+    let simplex = Simplex::new(&p.problem);
+    let model = ScreenModel {
+        problem: &p.problem,
+        simplex: &simplex,
+    };
+    let y0 = [2.64, 0.28, 17.85, 0.13, 4.07, 6.42];
+    for i in [0usize, 2, 4] {
+        let vals: Vec<String> = (0..=20)
+            .map(|k| {
+                let mut y = y0.to_vec();
+                y[i] += 0.002 * k as f64;
+                let q = model.eval(&y).unwrap();
+                format!("{:.6}", q.f)
+            })
+            .collect();
+        println!("coordinate {i}, steps of 0.002 mol%: {}", vals.join(" "));
+    }
+}
+
 /// The first pass alone: how many of its points break the composition limits.
 fn first_pass() {
     let p = plan(ObjectiveKind::MeltingTemperature);
@@ -419,11 +442,14 @@ fn methods(kind: ObjectiveKind) {
             .map(|s| {
                 let (y, n) = f(&simplex.free_of(s));
                 let c = evaluate_candidate(problem, 0, Pass::Refinement, simplex.compose(&y));
-                if !c.feasible() && std::env::var_os("QW_DEBUG").is_some() {
+                if std::env::var_os("QW_DEBUG").is_some() {
                     eprintln!(
-                        "{label}: infeasible {:?} at {}",
+                        "{label}: {:.4} {:?} at {} [{}] ({} evaluations)",
+                        shown(kind, c.objective),
                         c.violations,
-                        describe(problem, &c.mol_pct)
+                        describe(problem, &c.mol_pct),
+                        c.binding.join(", "),
+                        n
                     );
                 }
                 (c.objective, c.feasible(), n)
@@ -581,6 +607,9 @@ fn main() {
         (ObjectiveKind::Margin, "margin", 0.5),
     ];
     println!("screen quality benchmark: demo space, demo limits, cost ceiling lifted; 16384 first-pass points, 8 seeds x 80 iterations; {} threads", rayon::current_num_threads());
+    if what == "noise" {
+        noise();
+    }
     if what == "firstpass" || what == "all" {
         first_pass();
     }

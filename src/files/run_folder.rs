@@ -19,8 +19,9 @@ use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::Arc;
 
-/// Checkpoint format version.
-const FORMAT: u32 = 2;
+/// Checkpoint format version (3: first-pass points mapped into the composition
+/// polytope, rows carry their binding limits).
+const FORMAT: u32 = 3;
 
 /// How a run is started.
 #[derive(Debug, Clone)]

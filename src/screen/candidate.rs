@@ -8,6 +8,7 @@ use super::problem::{ObjectiveKind, ScreenProblem};
 use super::simplex::composition_violation;
 use crate::assess::{
     add_glassy_thickness, evaluate_composition, Calibration, Evaluation, SlabQuench,
+    VOUCH_CRITICAL_RATE_K_PER_S, VOUCH_NOSE_TIME_S, VOUCH_THICKNESS_MM,
 };
 use crate::composition::{Composition, N_OXIDES};
 use crate::error::Error;
@@ -183,6 +184,45 @@ pub(crate) fn gauges(problem: &ScreenProblem, e: &Evaluation, cost: Option<f64>)
     g
 }
 
+/// Whether the objective ranks recipes by their margin (and so ranks those
+/// the model cannot vouch for last).
+pub(crate) fn uses_margin(problem: &ScreenProblem) -> bool {
+    match problem.objective {
+        ObjectiveKind::Margin => true,
+        ObjectiveKind::Blend => problem.weights.margin != 0.0,
+        _ => false,
+    }
+}
+
+/// What the model can vouch for (see `assess::VOUCH_NOSE_TIME_S`) as gauges
+/// in decades (≤ 0: vouched): nose time, glassy slab (when computed) and the
+/// lowest critical rate. With a margin objective the best recipes often sit
+/// on one of these, so the refinement treats them as constraints.
+pub(crate) fn vouch_gauges(e: &Evaluation) -> Vec<Gauge> {
+    let slab = e.max_glassy_thickness_mm.unwrap_or(0.0);
+    vec![
+        Gauge {
+            limit: Limit::Evaluation,
+            label: "vouched nose time (1 day)",
+            value: (e.nose_time_s / VOUCH_NOSE_TIME_S).log10(),
+        },
+        Gauge {
+            limit: Limit::Evaluation,
+            label: "vouched glassy slab (100 mm)",
+            value: if slab > 0.0 {
+                (slab / VOUCH_THICKNESS_MM).log10()
+            } else {
+                -10.0
+            },
+        },
+        Gauge {
+            limit: Limit::Evaluation,
+            label: "vouched critical rate (1e-3 K/s)",
+            value: (VOUCH_CRITICAL_RATE_K_PER_S / e.critical_rate_k_per_s).log10(),
+        },
+    ]
+}
+
 /// The validity boxes of the viscosity model and of the primary phase's
 /// liquidus surface at a composition: the signed distance to their nearest
 /// face in mol% (< 0 inside, > 0 outside) and the faces within `tol` mol%
@@ -278,12 +318,7 @@ pub(crate) fn objective(
     cost: Option<f64>,
     judge_vouching: bool,
 ) -> f64 {
-    let uses_margin = match problem.objective {
-        ObjectiveKind::Margin => true,
-        ObjectiveKind::Blend => problem.weights.margin != 0.0,
-        _ => false,
-    };
-    if uses_margin && judge_vouching && e.max_glassy_thickness_mm.is_none() {
+    if uses_margin(problem) && judge_vouching && e.max_glassy_thickness_mm.is_none() {
         if let Err(err) = add_glassy_thickness(e, SlabQuench::default()) {
             e.warnings
                 .push(format!("glassy thickness not computed: {err}"));
@@ -381,6 +416,10 @@ pub fn evaluate_candidate_with(
     if c.violations.is_empty() {
         let (_, faces) =
             domain_distance(problem, &x, e.primary_phase.as_deref(), ACTIVE_TOL_MOL_PCT);
+        let mut gs = gs;
+        if uses_margin(problem) && e.vouched {
+            gs.extend(vouch_gauges(&e));
+        }
         c.binding = binding_labels(problem, &x, &gs, &faces);
     }
     c.evaluation = Some(e);

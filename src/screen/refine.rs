@@ -9,12 +9,14 @@
 //! so that benchmarks can hand the same problem to other solvers.
 
 use super::candidate::{
-    domain_distance, evaluate_candidate, gauges, measure, objective, Candidate, Pass,
+    domain_distance, evaluate_candidate, gauges, measure, objective, uses_margin, vouch_gauges,
+    Candidate, Pass,
 };
 use super::polytope::Polytope;
 use super::problem::{ScreenProblem, Search};
 use super::simplex::Simplex;
 use super::sqp::{self, ConstrainedModel, Point};
+use crate::assess::{add_glassy_thickness, SlabQuench};
 use crate::composition::N_OXIDES;
 
 /// Why a seed cannot be refined.
@@ -57,6 +59,14 @@ impl ConstrainedModel for ScreenModel<'_> {
         };
         let mut e = m.evaluation;
         let mut g: Vec<f64> = gauges(problem, &e, cost).iter().map(|g| g.value).collect();
+        if uses_margin(problem) {
+            // Recipes the model cannot vouch for rank last: their bounds are
+            // constraints here (the slab is computed at every point for this).
+            if e.max_glassy_thickness_mm.is_none() {
+                add_glassy_thickness(&mut e, SlabQuench::default()).ok()?;
+            }
+            g.extend(vouch_gauges(&e).iter().map(|g| g.value));
+        }
         let mut admissible = true;
         if !problem.allow_extrapolation {
             let (dist, _) = domain_distance(problem, &x, e.primary_phase.as_deref(), 0.0);
@@ -68,6 +78,12 @@ impl ConstrainedModel for ScreenModel<'_> {
             }
         }
         let feasible = g.iter().all(|v| *v <= 0.0);
+        if uses_margin(problem) {
+            // Vouching is a constraint here: the objective leaves out the
+            // jump that ranks unvouched recipes last (it would wreck the
+            // finite differences next to the bound).
+            e.vouched = true;
+        }
         let f = objective(problem, &mut e, cost, feasible);
         Some(Point { f, g, admissible })
     }
