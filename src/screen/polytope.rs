@@ -107,6 +107,13 @@ impl Polytope {
         Polytope { rows, levels }
     }
 
+    /// A polytope from its rows (all of the same length).
+    pub fn from_rows(rows: Vec<Row>) -> Self {
+        let n = rows.first().map(|r| r.a.len()).unwrap_or(0);
+        let levels = projections(&rows, n);
+        Polytope { rows, levels }
+    }
+
     /// Number of free coordinates.
     pub fn dims(&self) -> usize {
         self.rows.first().map(|r| r.a.len()).unwrap_or(0)
@@ -240,4 +247,61 @@ fn normalise(rows: Vec<(Vec<f64>, f64)>) -> Option<Vec<(Vec<f64>, f64)>> {
         }
     }
     Some(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn row(a: &[f64], b: f64) -> Row {
+        Row {
+            a: a.to_vec(),
+            b,
+            label: String::new(),
+        }
+    }
+
+    /// A triangle-cut box: 0 ≤ y ≤ 10, y0 + y1 + y2 ≤ 12, y0 − y1 ≥ −2.
+    fn cut_box() -> Polytope {
+        let mut rows = Vec::new();
+        for d in 0..3 {
+            let mut a = vec![0.0; 3];
+            a[d] = 1.0;
+            rows.push(row(&a, 10.0));
+            a[d] = -1.0;
+            rows.push(row(&a, 0.0));
+        }
+        rows.push(row(&[1.0, 1.0, 1.0], 12.0));
+        rows.push(row(&[-1.0, 1.0, 0.0], 2.0));
+        Polytope::from_rows(rows)
+    }
+
+    #[test]
+    fn every_cube_point_maps_inside() {
+        let p = cut_box();
+        assert!(!p.is_empty());
+        // A plain grid of the cube, ends included.
+        let ticks = [0.0, 0.1, 0.37, 0.5, 0.81, 1.0];
+        for a in ticks {
+            for b in ticks {
+                for c in ticks {
+                    let y = p.map_unit(&[a, b, c]).unwrap();
+                    let worst = p.slacks(&y).iter().fold(f64::INFINITY, |m, s| m.min(*s));
+                    assert!(worst >= -1e-12, "{a} {b} {c} → {y:?} (slack {worst})");
+                }
+            }
+        }
+        // The map reaches the extremes: u = 0 gives y0's least value (0), u = 1
+        // on the first coordinate its largest (10, allowed by y0 − y1 ≥ −2).
+        assert!(p.map_unit(&[0.0, 0.5, 0.5]).unwrap()[0].abs() < 1e-12);
+        assert!((p.map_unit(&[1.0, 0.0, 0.0]).unwrap()[0] - 10.0).abs() < 1e-12);
+        // Given y0 = 0, y1 ≤ 2 (y0 − y1 ≥ −2): u1 = 1 gives exactly 2.
+        assert!((p.map_unit(&[0.0, 1.0, 0.5]).unwrap()[1] - 2.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn empty_polytope_is_reported() {
+        let p = Polytope::from_rows(vec![row(&[1.0, 0.0], 1.0), row(&[-1.0, 0.0], -2.0)]);
+        assert!(p.is_empty() && p.map_unit(&[0.5, 0.5]).is_none());
+    }
 }

@@ -117,7 +117,22 @@ pub fn refine(
     }
     let model = ScreenModel { problem, simplex };
     let out = sqp::minimise(&model, &polytope, &y0, &settings(search));
-    let x = simplex.compose(&out.y);
+    // Rounding leaves a coordinate on its bound off by ~1e-15: put it on it.
+    let y: Vec<f64> = out
+        .y
+        .iter()
+        .zip(&simplex.free)
+        .map(|(v, &(_, lo, hi))| {
+            if (v - lo).abs() < 1e-9 {
+                lo
+            } else if (v - hi).abs() < 1e-9 {
+                hi
+            } else {
+                *v
+            }
+        })
+        .collect();
+    let x = simplex.compose(&y);
     Ok((
         evaluate_candidate(
             problem,
