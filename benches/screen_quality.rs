@@ -559,7 +559,8 @@ fn cobyla_run(
     };
     let n_g = model.eval(y0).map(|p| p.g.len()).unwrap_or(0);
     let f = |y: &[f64], _: &mut ()| eval(y).map(|p| p.f).unwrap_or(1e6);
-    let mut cons: Vec<Box<dyn Fn(&[f64], &mut ()) -> f64>> = Vec::new();
+    type Con<'c> = dyn Fn(&[f64], &mut ()) -> f64 + 'c;
+    let mut cons: Vec<Box<Con>> = Vec::new();
     for r in &poly.rows {
         let (a, b) = (r.a.clone(), r.b);
         cons.push(Box::new(move |y: &[f64], _: &mut ()| {
@@ -572,7 +573,7 @@ fn cobyla_run(
             e(y).map(|p| -p.g[j]).unwrap_or(-1e3)
         }));
     }
-    let cons_ref: Vec<&dyn Fn(&[f64], &mut ()) -> f64> = cons.iter().map(|c| c.as_ref()).collect();
+    let cons_ref: Vec<&Con> = cons.iter().map(|c| c.as_ref()).collect();
     let bounds: Vec<(f64, f64)> = (0..y0.len()).map(|_| (-100.0, 100.0)).collect();
     let y = match cobyla::minimize(
         f,

@@ -34,6 +34,9 @@ pub struct Row {
     pub label: String,
 }
 
+/// One inequality `a · y ≤ b` as (a, b).
+type Ineq = (Vec<f64>, f64);
+
 /// The polytope of feasible free coordinates.
 #[derive(Debug, Clone)]
 pub struct Polytope {
@@ -41,7 +44,7 @@ pub struct Polytope {
     /// Projections onto the leading coordinates: `levels[d]` holds the
     /// inequalities over y_0 … y_d (coefficients beyond d are zero), or
     /// `None` when the polytope is empty.
-    levels: Option<Vec<Vec<(Vec<f64>, f64)>>>,
+    levels: Option<Vec<Vec<Ineq>>>,
 }
 
 impl Polytope {
@@ -178,8 +181,8 @@ fn dot(a: &[f64], b: &[f64]) -> f64 {
 
 /// Fourier–Motzkin projections of `rows` onto y_0 … y_d for every d, or `None`
 /// when the system has no solution.
-fn projections(rows: &[Row], n: usize) -> Option<Vec<Vec<(Vec<f64>, f64)>>> {
-    let mut cur: Vec<(Vec<f64>, f64)> = rows.iter().map(|r| (r.a.clone(), r.b)).collect();
+fn projections(rows: &[Row], n: usize) -> Option<Vec<Vec<Ineq>>> {
+    let mut cur: Vec<Ineq> = rows.iter().map(|r| (r.a.clone(), r.b)).collect();
     cur = normalise(cur)?;
     let mut levels = vec![Vec::new(); n];
     for d in (0..n).rev() {
@@ -226,8 +229,8 @@ fn projections(rows: &[Row], n: usize) -> Option<Vec<Vec<(Vec<f64>, f64)>>> {
 
 /// Scale every row to unit largest coefficient, drop duplicates (keeping the
 /// tightest), drop rows without coefficients (or report infeasibility).
-fn normalise(rows: Vec<(Vec<f64>, f64)>) -> Option<Vec<(Vec<f64>, f64)>> {
-    let mut out: Vec<(Vec<f64>, f64)> = Vec::new();
+fn normalise(rows: Vec<Ineq>) -> Option<Vec<Ineq>> {
+    let mut out: Vec<Ineq> = Vec::new();
     for (a, b) in rows {
         let m = a.iter().fold(0.0f64, |m, v| m.max(v.abs()));
         if m < 1e-12 {

@@ -153,15 +153,17 @@ fn eliminate(mut mat: Vec<Vec<f64>>) -> Option<Vec<f64>> {
         .fold(0.0f64, |s, v| s.max(v.abs()));
     for col in 0..n {
         let piv = (col..n).max_by(|&a, &b| mat[a][col].abs().total_cmp(&mat[b][col].abs()))?;
-        if !(mat[piv][col].abs() > 1e-14 * big) {
+        let usable = mat[piv][col].abs() > 1e-14 * big;
+        if !usable {
             return None;
         }
         mat.swap(col, piv);
         for r in col + 1..n {
             let f = mat[r][col] / mat[col][col];
             if f != 0.0 {
-                for k in col..=n {
-                    mat[r][k] -= f * mat[col][k];
+                let pivot = mat[col].clone();
+                for (m, p) in mat[r][col..].iter_mut().zip(&pivot[col..]) {
+                    *m -= f * p;
                 }
             }
         }

@@ -349,7 +349,7 @@ fn damped_bfgs(b: &mut [Vec<f64>], s: &[f64], r: &[f64]) {
     let n = s.len();
     let bs: Vec<f64> = (0..n).map(|i| dot(&b[i], s)).collect();
     let sbs = dot(s, &bs);
-    if !(sbs > 0.0) {
+    if sbs.is_nan() || sbs <= 0.0 {
         return;
     }
     let sr = dot(s, r);
@@ -362,7 +362,7 @@ fn damped_bfgs(b: &mut [Vec<f64>], s: &[f64], r: &[f64]) {
         .map(|i| theta * r[i] + (1.0 - theta) * bs[i])
         .collect();
     let srr = dot(s, &rr);
-    if !(srr > 0.0) {
+    if srr.is_nan() || srr <= 0.0 {
         return;
     }
     for i in 0..n {
