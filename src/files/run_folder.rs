@@ -38,7 +38,9 @@ use std::path::{Component, Path, PathBuf};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::{Arc, Mutex};
 
-/// Checkpoint format version.
+/// Checkpoint format version (3: first-pass points mapped into the
+/// composition polytope, rows carry their binding limits, headers the run
+/// hash and shard).
 const FORMAT: u32 = 3;
 
 /// The list of files quenchwise wrote in an output folder.
