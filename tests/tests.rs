@@ -18,3 +18,4 @@ mod plots;
 mod report_browser;
 mod run_folder;
 mod screen;
+mod slurm;

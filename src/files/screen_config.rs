@@ -187,6 +187,11 @@ pub struct RunPlan {
     /// Worker threads (None: all cores).
     pub threads: Option<usize>,
     pub config_path: PathBuf,
+    /// The folder that relative paths inside the config are taken from
+    /// (absolute when it exists): the config's own folder, or the base it was
+    /// loaded with. Recorded in checkpoints and provenance, so that a merge or
+    /// a report run from another folder reads the same files.
+    pub base_dir: PathBuf,
     pub config_text: String,
     /// FNV-1a hash of the config text and the program version.
     pub config_hash: u64,
@@ -233,6 +238,14 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
     let dir = base
         .map(Path::to_path_buf)
         .unwrap_or_else(|| path.parent().unwrap_or(Path::new(".")).to_path_buf());
+    let base_dir = {
+        let d = if dir.as_os_str().is_empty() {
+            Path::new(".")
+        } else {
+            dir.as_path()
+        };
+        std::fs::canonicalize(d).unwrap_or_else(|_| d.to_path_buf())
+    };
 
     let n = *raw.search.first_pass_points.get_ref();
     if n == 0 || n > 50_000_000 {
@@ -515,6 +528,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         batch_model,
         threads: raw.search.threads,
         config_path: path.to_path_buf(),
+        base_dir,
         config_text: text.clone(),
         config_hash,
     })
