@@ -524,3 +524,135 @@ size = 3
     assert!((at[0] + at[1] - 18.0).abs() < 1e-9, "grid best {at:?}");
     assert!(binding.contains("Na2O + K2O cap"), "{binding}");
 }
+
+/// Each place of the shortlist holds a refined recipe at least the shortlist
+/// distance from those above it, at least as good as the place a greedy pick
+/// over the first pass alone would fill, and says when that distance binds.
+#[test]
+fn each_place_is_refined_and_beats_the_first_pass_pick() {
+    use quenchwise::files::table::read_frame;
+    let d = temp_dir("screen-places");
+    for (name, objective) in [("cost", "cost"), ("melting", "melting_temperature")] {
+        let p = plan(
+            &d,
+            &format!("{SMALL}\n[objective]\nkind = \"{objective}\"\n"),
+        );
+        let out = d.join(name);
+        run(&p, &opts(out.clone())).unwrap();
+        let min_d = p.problem.min_distance_mol_pct;
+        let oxides: Vec<String> = p
+            .problem
+            .oxides
+            .iter()
+            .map(|(o, ..)| format!("{o}_mol_pct"))
+            .collect();
+        let floats = |df: &polars::prelude::DataFrame, c: &str| -> Vec<f64> {
+            df.column(c)
+                .unwrap()
+                .cast(&polars::prelude::DataType::Float64)
+                .unwrap()
+                .f64()
+                .unwrap()
+                .iter()
+                .map(|v| v.unwrap_or(f64::INFINITY))
+                .collect()
+        };
+        let xs = |df: &polars::prelude::DataFrame| -> Vec<Vec<f64>> {
+            let cols: Vec<Vec<f64>> = oxides.iter().map(|c| floats(df, c)).collect();
+            (0..df.height())
+                .map(|i| cols.iter().map(|c| c[i]).collect())
+                .collect()
+        };
+        let dist = |a: &[f64], b: &[f64]| -> f64 {
+            a.iter()
+                .zip(b)
+                .map(|(x, y)| (x - y) * (x - y))
+                .sum::<f64>()
+                .sqrt()
+        };
+        let cand = read_frame(&out.join("candidates.parquet")).unwrap();
+        let (cx, cobj) = (xs(&cand), floats(&cand, "objective"));
+        let refined: Vec<bool> = cand
+            .column("refined")
+            .unwrap()
+            .bool()
+            .unwrap()
+            .iter()
+            .map(|b| b.unwrap())
+            .collect();
+        let feasible: Vec<bool> = cand
+            .column("feasible")
+            .unwrap()
+            .bool()
+            .unwrap()
+            .iter()
+            .map(|b| b.unwrap())
+            .collect();
+        let short = read_frame(&out.join("shortlist.csv")).unwrap();
+        let sx = xs(&short);
+        let binding: Vec<String> = short
+            .column("binding")
+            .unwrap()
+            .str()
+            .unwrap()
+            .iter()
+            .map(|s| s.unwrap_or("").to_string())
+            .collect();
+        // The objective of each shortlisted recipe, found in the candidates table.
+        let sobj: Vec<f64> = sx
+            .iter()
+            .map(|x| {
+                let i = (0..cx.len())
+                    .min_by(|&a, &b| dist(&cx[a], x).total_cmp(&dist(&cx[b], x)))
+                    .unwrap();
+                assert!(
+                    dist(&cx[i], x) < 1e-9,
+                    "a shortlisted recipe is not in the table"
+                );
+                cobj[i]
+            })
+            .collect();
+        // Greedy over first-pass rows only, as a shortlist without refinement.
+        let mut order: Vec<usize> = (0..cx.len())
+            .filter(|&i| !refined[i] && feasible[i])
+            .collect();
+        order.sort_by(|&a, &b| cobj[a].total_cmp(&cobj[b]));
+        let mut greedy: Vec<usize> = Vec::new();
+        for i in order {
+            if greedy.iter().all(|&g| dist(&cx[g], &cx[i]) >= min_d) {
+                greedy.push(i);
+            }
+        }
+        assert_eq!(sx.len(), 4, "{name}");
+        for k in 0..sx.len() {
+            for j in 0..k {
+                let dj = dist(&sx[j], &sx[k]);
+                assert!(
+                    dj >= min_d - 1e-9,
+                    "{name}: ranks {} and {} are {dj} mol% apart",
+                    j + 1,
+                    k + 1
+                );
+                // Source of the check: the distance constraint itself.
+                if binding[k].contains(&format!("from rank {}", j + 1)) {
+                    assert!(
+                        dj <= min_d + 2e-3,
+                        "{name}: rank {} labelled but {dj} apart",
+                        k + 1
+                    );
+                }
+            }
+            assert!(
+                sobj[k] <= cobj[greedy[k]] + 1e-12,
+                "{name}: place {} holds {} where the first pass alone gives {}",
+                k + 1,
+                sobj[k],
+                cobj[greedy[k]]
+            );
+        }
+        assert!(
+            binding.iter().skip(1).any(|b| b.contains("mol% from rank")),
+            "{name}: no place is held at the distance: {binding:?}"
+        );
+    }
+}
