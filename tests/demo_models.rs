@@ -224,7 +224,10 @@ fn critical_rate_is_continuous_across_primary_field_boundaries() {
         }
         last = Some((e.critical_rate_k_per_s, primary));
     }
-    assert!(fields.len() >= 2, "the scan crosses no field boundary: {fields:?}");
+    assert!(
+        fields.len() >= 2,
+        "the scan crosses no field boundary: {fields:?}"
+    );
     assert!(
         limiting.len() >= 3,
         "the limiting phase changes too rarely: {limiting:?}"
