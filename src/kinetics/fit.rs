@@ -140,8 +140,11 @@ pub enum KineticFitError {
         #[source]
         source: KineticsError,
     },
-    #[error("{}", rows.join("\n"))]
-    Unreachable { rows: Vec<String> },
+    #[error("{}", rows.iter().map(|(r, m)| format!("row {r}: {m}")).collect::<Vec<_>>().join("\n"))]
+    Unreachable {
+        /// (row, why) for each measurement the model cannot reach.
+        rows: Vec<(usize, String)>,
+    },
     #[error("row {row}: the phase '{phase}' cannot crystallise in this melt (its liquidus lies at or below T_g, or the model set lacks it)")]
     PhaseNotInMelt { row: usize, phase: String },
     #[error("nothing to fit: {0}")]
@@ -666,16 +669,17 @@ fn check_reachable(setup: &Setup) -> Result<(), KineticFitError> {
         let y = point.measurement.value().log10();
         // A hair of slack: a value the model reaches exactly at an end is reachable.
         if y < lo - 1e-9 || y > hi + 1e-9 {
-            rows.push(format!(
-                "row {}: the measured {} = {} cannot be reached: with α in [{}, {}] the model gives {} to {}",
+            rows.push((
                 point.row,
+                format!(
+                "the measured {} = {} cannot be reached: with α in [{}, {}] the model gives {} to {}",
                 point.measurement.describe(),
                 short(point.measurement.value()),
                 ALPHA_RANGE.0,
                 ALPHA_RANGE.1,
                 short(10f64.powf(lo)),
                 short(10f64.powf(hi)),
-            ));
+            )));
         }
     }
     if rows.is_empty() {

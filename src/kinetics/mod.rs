@@ -78,6 +78,8 @@ pub enum KineticsError {
     BadPath { index: usize },
     #[error("no kinetic factor in [{lo}, {hi}] reproduces the measured value")]
     CalibrationBracket { lo: f64, hi: f64 },
+    #[error("{0}")]
+    Unreachable(String),
     #[error("numerical failure: {0}")]
     Numerical(String),
     #[error("a melt needs at least one crystal phase")]
