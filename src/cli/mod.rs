@@ -81,6 +81,216 @@ pub enum Command {
     Batch(BatchArgs),
     /// Show the model set: provenance, viscosity model, crystal phases, domains.
     Models(ModelArgs),
+    /// Fit the models to your own measurements and write a model set
+    ///
+    /// Three steps, each reading a table (CSV or Parquet) and writing a model
+    /// set that eval, screen and the next step load:
+    ///   quenchwise fit viscosity viscosity.csv --models demo-soda-lime \
+    ///       --name my-glasses --out my-glasses.toml
+    ///   quenchwise fit liquidus liquidus.csv --models my-glasses.toml \
+    ///       --out my-glasses.toml
+    ///   quenchwise fit kinetics critical-rates.csv --models my-glasses.toml \
+    ///       --out my-glasses.toml
+    /// See demo-datasets/README.md for the columns and an invented example.
+    #[command(verbatim_doc_comment)]
+    Fit(FitArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct FitArgs {
+    #[command(subcommand)]
+    pub what: FitCommand,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum FitCommand {
+    /// VFT (or MYEGA) viscosity model from viscosity points
+    ///
+    /// DATA columns: one per oxide (mol%, or wt% with --wt), temperature_k
+    /// or temperature_c, log10_viscosity_pa_s or log10_viscosity_dpa_s
+    /// (poise), optional glass (a label; rows of one glass share it).
+    ///
+    /// Example:
+    ///   quenchwise fit viscosity demo-datasets/fit-viscosity.csv \
+    ///       --out lab-viscosity.toml --residuals visc-residuals.csv
+    #[command(verbatim_doc_comment)]
+    Viscosity(FitViscosityArgs),
+    /// Liquidus surface of each phase from measured liquidus temperatures
+    ///
+    /// DATA columns: one per oxide, liquidus_k or liquidus_c, and
+    /// primary_phase (a phase of the base set, --models).
+    ///
+    /// Example:
+    ///   quenchwise fit liquidus demo-datasets/fit-liquidus.csv \
+    ///       --models demo-soda-lime --name lab --out lab.toml
+    #[command(verbatim_doc_comment)]
+    Liquidus(FitLiquidusArgs),
+    /// Turnbull α of each phase (and nuclei density) from measured kinetics
+    ///
+    /// DATA columns: one per oxide and any of critical_rate_k_per_s (or
+    /// critical_rate_k_per_min), nose_time_s (with nose_temperature_k: the
+    /// time to the detectable fraction held there), nucleation_rate_per_m3_s
+    /// or growth_rate_m_per_s (with temperature_k), optional phase.
+    ///
+    /// Example:
+    ///   quenchwise fit kinetics demo-datasets/fit-critical-rates.csv \
+    ///       --models lab.toml --nuclei-per-m3 1e9 --out lab.toml
+    #[command(verbatim_doc_comment)]
+    Kinetics(FitKineticsArgs),
+}
+
+/// What every fit reads and writes.
+#[derive(Debug, Args)]
+pub struct FitCommon {
+    /// The measurements: a CSV or Parquet table.
+    #[arg(value_name = "DATA")]
+    pub data: PathBuf,
+
+    /// Write the fitted model set (TOML) here; an existing file is replaced.
+    ///
+    /// The file holds the coefficients with their covariance, the fit
+    /// statistics, the validity domains and the data's SHA-256. eval
+    /// --models, screen ([models] set) and the next fit step load it.
+    /// Example: --out lab.toml
+    #[arg(long, value_name = "FILE.toml", help_heading = "Output")]
+    pub out: PathBuf,
+
+    /// Name of the fitted set [default: the base set's name].
+    ///
+    /// Required when the base set is the built-in demo-soda-lime, so a
+    /// fitted set never passes for the demo. Example: --name lab-glasses
+    #[arg(long, value_name = "NAME", help_heading = "Output")]
+    pub name: Option<String>,
+
+    /// Write every point's residual to this CSV file.
+    ///
+    /// One row per measurement: measured, fitted, residual (fitted minus
+    /// measured, in the unit of the fit), and the held-out prediction.
+    /// Example: --residuals residuals.csv
+    #[arg(long, value_name = "FILE.csv", help_heading = "Output")]
+    pub residuals: Option<PathBuf>,
+
+    /// Draw the residuals (SVG): fitted and held out, with ±2σ lines.
+    #[arg(long, value_name = "FILE.svg", help_heading = "Output")]
+    pub plot: Option<PathBuf>,
+
+    /// Read the oxide columns as wt% [default: mol%].
+    #[arg(long, help_heading = "Data")]
+    pub wt: bool,
+
+    /// How far (percentage points) a row may sum from 100 [default: 2].
+    ///
+    /// Rows within it are normalised to 100; others are errors naming the
+    /// row. Example: --sum-tolerance 0.5
+    #[arg(long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Data")]
+    pub sum_tolerance: f64,
+}
+
+/// A viscosity form to fit.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum FormArg {
+    /// log10 η = A + B/(T − C)
+    Vft,
+    /// Mauro et al. (2009)
+    Myega,
+}
+
+#[derive(Debug, Args)]
+pub struct FitViscosityArgs {
+    #[command(flatten)]
+    pub common: FitCommon,
+
+    /// Base model set: the fitted viscosity replaces its own [default: none].
+    ///
+    /// Without it, --out is a viscosity file ([about] and [viscosity]) for
+    /// eval --viscosity-model or a screen's [models] viscosity. With it,
+    /// --out is a whole model set. A TOML file or "demo-soda-lime".
+    #[arg(long, value_name = "FILE", help_heading = "Model")]
+    pub models: Option<PathBuf>,
+
+    /// Viscosity form: vft or myega [default: vft].
+    #[arg(long, value_enum, default_value = "vft", help_heading = "Model")]
+    pub form: FormArg,
+
+    /// Make A (VFT) or log10 η∞ (MYEGA) linear in composition.
+    ///
+    /// By default it is one constant for every glass (B and C, or T_g and
+    /// m, are always linear in the mole fractions of the oxides the data
+    /// contain).
+    #[arg(long, help_heading = "Model")]
+    pub a_linear: bool,
+
+    /// Add a pair term x_i·x_j to a parameter, e.g. b_k:Na2O*CaO.
+    ///
+    /// PARAMETER:OXIDE*OXIDE, the parameter one of a, b_k, c_k (VFT) or
+    /// log_eta_inf, tg_k, fragility (MYEGA); repeat for more. Unit: that of
+    /// the parameter per unit mole fraction squared. Default: none.
+    #[arg(long = "pair", value_name = "PARAM:A*B", help_heading = "Model")]
+    pub pairs: Vec<String>,
+
+    /// Skip the leave-one-glass-out error (one refit per glass).
+    #[arg(long, help_heading = "Model")]
+    pub no_cv: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct FitLiquidusArgs {
+    #[command(flatten)]
+    pub common: FitCommon,
+
+    /// Base model set whose phases the data name (TOML file or built-in).
+    ///
+    /// Its phases, crystal data and unfitted surfaces are kept. Example:
+    /// --models demo-soda-lime
+    #[arg(long, value_name = "FILE", help_heading = "Model")]
+    pub models: PathBuf,
+
+    /// Fit only a constant shift of this phase's base surface (repeatable).
+    ///
+    /// For a phase with few rows: one coefficient instead of one per oxide.
+    /// Example: --shift cristobalite
+    #[arg(long = "shift", value_name = "PHASE", help_heading = "Model")]
+    pub shift: Vec<String>,
+
+    /// Replace the base set's viscosity model: "grd2008" or a TOML file.
+    #[arg(long, value_name = "NAME|FILE", help_heading = "Model")]
+    pub viscosity_model: Option<PathBuf>,
+}
+
+#[derive(Debug, Args)]
+pub struct FitKineticsArgs {
+    #[command(flatten)]
+    pub common: FitCommon,
+
+    /// Base model set (TOML file or built-in); its α are the starting point.
+    ///
+    /// Its viscosity and liquidus give each row's melt, so fit those first.
+    /// Example: --models lab.toml
+    #[arg(long, value_name = "FILE", help_heading = "Model")]
+    pub models: PathBuf,
+
+    /// Fit α of this phase (repeatable) [default: the phases the data fix].
+    ///
+    /// By default: the phases named in the phase column, else the phase
+    /// limiting each measured R_c or nose, else the primary phase of each
+    /// measured rate. Example: --phase devitrite --phase wollastonite
+    #[arg(long = "phase", value_name = "PHASE", help_heading = "Model")]
+    pub phases: Vec<String>,
+
+    /// Also fit one density of pre-existing nuclei, per m³, for every phase.
+    #[arg(long, help_heading = "Model")]
+    pub fit_nuclei: bool,
+
+    /// Scatter of one measurement, in decades (log10) [default: from fit].
+    ///
+    /// Used for the standard errors instead of the residuals' scatter;
+    /// needed when there are no more measurements than parameters.
+    /// Example: --log10-sd 0.15 (a measured R_c good to about ±40 %).
+    #[arg(long, value_name = "DECADES", help_heading = "Model")]
+    pub log10_sd: Option<f64>,
+
+    #[command(flatten)]
+    pub kinetics: KineticArgs,
 }
 
 #[derive(Debug, Args)]
@@ -175,9 +385,65 @@ pub struct BatchArgs {
 
 #[derive(Debug, Args)]
 pub struct ModelArgs {
-    /// Model set: a TOML file, or the built-in "demo-soda-lime".
+    /// Model set: a TOML file, or the built-in "demo-soda-lime" (default).
+    #[arg(value_name = "FILE", conflicts_with = "models")]
+    pub file: Option<PathBuf>,
+    /// The same as FILE.
     #[arg(long, value_name = "FILE")]
     pub models: Option<PathBuf>,
+}
+
+/// The kinetic options `eval` and `fit kinetics` share.
+#[derive(Debug, Args)]
+pub struct KineticArgs {
+    /// Detectable crystallised volume fraction X_c [default: 1e-6].
+    ///
+    /// The fraction at which a melt counts as crystallised (Uhlmann 1972).
+    /// Overrides a melt card's value.
+    #[arg(long, value_name = "FRACTION", help_heading = "Kinetics")]
+    pub detectable_fraction: Option<f64>,
+
+    /// Driving-force form: turnbull (default) or hoffman.
+    #[arg(long, value_name = "FORM", value_parser = ["turnbull", "hoffman"], help_heading = "Kinetics")]
+    pub driving_force: Option<String>,
+
+    /// Pre-existing nuclei of each crystal phase per m³ [default: 0].
+    ///
+    /// Impurities, undissolved batch grains and crucible debris that are
+    /// already nuclei when cooling starts. 1e9 per m³ is one per mm³. With
+    /// a model set whose α were fitted (quenchwise fit kinetics), the
+    /// default is the density the fit used.
+    #[arg(long, value_name = "PER_M3", help_heading = "Kinetics")]
+    pub nuclei_per_m3: Option<f64>,
+
+    /// Contact angle of crystals nucleating on the sample's walls, degrees.
+    ///
+    /// Adds nucleation on the crucible or mould walls, per unit area: about
+    /// one site per λ² of wall, the barrier lowered by f(θ) = (2 + cos θ)(1 −
+    /// cos θ)²/4, turned into a rate per volume with the wall area 2/d of a
+    /// sample d thick (--sample-thickness-mm). 180 (the default) means no
+    /// wall nucleation; homogeneous nucleation in the volume is always on.
+    #[arg(long, value_name = "DEGREES", help_heading = "Kinetics")]
+    pub contact_angle_deg: Option<f64>,
+
+    /// Thickness of the sample whose walls nucleate, mm [default: 10].
+    #[arg(long, value_name = "MM", help_heading = "Kinetics")]
+    pub sample_thickness_mm: Option<f64>,
+
+    /// Below the decoupling temperature, let D ∝ (T/η)^XI (0 < XI ≤ 1).
+    ///
+    /// Near T_g diffusion decouples from viscosity and Stokes–Einstein
+    /// underestimates the rates. This fractional Stokes–Einstein law applies
+    /// below --decoupling-ratio × T_g and joins Stokes–Einstein there.
+    /// Without it, Stokes–Einstein holds at every temperature.
+    #[arg(long, value_name = "XI", help_heading = "Kinetics")]
+    pub fractional_exponent: Option<f64>,
+
+    /// Decoupling temperature as a multiple of T_g [default: 1.2].
+    ///
+    /// Where the fractional law takes over; a TTT nose below it is flagged.
+    #[arg(long, value_name = "RATIO", help_heading = "Kinetics")]
+    pub decoupling_ratio: Option<f64>,
 }
 
 #[derive(Debug, Args)]
@@ -264,52 +530,8 @@ pub struct EvalArgs {
     #[arg(long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Models")]
     pub sum_tolerance: f64,
 
-    /// Detectable crystallised volume fraction X_c [default: 1e-6].
-    ///
-    /// The fraction at which a melt counts as crystallised (Uhlmann 1972).
-    /// Overrides a melt card's value.
-    #[arg(long, value_name = "FRACTION", help_heading = "Kinetics")]
-    pub detectable_fraction: Option<f64>,
-
-    /// Driving-force form: turnbull (default) or hoffman.
-    #[arg(long, value_name = "FORM", value_parser = ["turnbull", "hoffman"], help_heading = "Kinetics")]
-    pub driving_force: Option<String>,
-
-    /// Pre-existing nuclei of each crystal phase per m³ [default: 0].
-    ///
-    /// Impurities, undissolved batch grains and crucible debris that are
-    /// already nuclei when cooling starts. 1e9 per m³ is one per mm³.
-    #[arg(long, value_name = "PER_M3", help_heading = "Kinetics")]
-    pub nuclei_per_m3: Option<f64>,
-
-    /// Contact angle of crystals nucleating on the sample's walls, degrees.
-    ///
-    /// Adds nucleation on the crucible or mould walls, per unit area: about
-    /// one site per λ² of wall, the barrier lowered by f(θ) = (2 + cos θ)(1 −
-    /// cos θ)²/4, turned into a rate per volume with the wall area 2/d of a
-    /// sample d thick (--sample-thickness-mm). 180 (the default) means no
-    /// wall nucleation; homogeneous nucleation in the volume is always on.
-    #[arg(long, value_name = "DEGREES", help_heading = "Kinetics")]
-    pub contact_angle_deg: Option<f64>,
-
-    /// Thickness of the sample whose walls nucleate, mm [default: 10].
-    #[arg(long, value_name = "MM", help_heading = "Kinetics")]
-    pub sample_thickness_mm: Option<f64>,
-
-    /// Below the decoupling temperature, let D ∝ (T/η)^XI (0 < XI ≤ 1).
-    ///
-    /// Near T_g diffusion decouples from viscosity and Stokes–Einstein
-    /// underestimates the rates. This fractional Stokes–Einstein law applies
-    /// below --decoupling-ratio × T_g and joins Stokes–Einstein there.
-    /// Without it, Stokes–Einstein holds at every temperature.
-    #[arg(long, value_name = "XI", help_heading = "Kinetics")]
-    pub fractional_exponent: Option<f64>,
-
-    /// Decoupling temperature as a multiple of T_g [default: 1.2].
-    ///
-    /// Where the fractional law takes over; a TTT nose below it is flagged.
-    #[arg(long, value_name = "RATIO", help_heading = "Kinetics")]
-    pub decoupling_ratio: Option<f64>,
+    #[command(flatten)]
+    pub kinetics: KineticArgs,
 
     /// Fit α so the model reproduces this measured critical cooling rate.
     ///
@@ -384,6 +606,60 @@ mod tests {
     }
 
     #[test]
+    fn fit_commands_parse() {
+        let c = parse(&[
+            "fit",
+            "viscosity",
+            "v.csv",
+            "--out",
+            "v.toml",
+            "--form",
+            "myega",
+            "--pair",
+            "tg_k:Na2O*CaO",
+            "--pair",
+            "fragility:SiO2*Na2O",
+        ])
+        .unwrap();
+        let Command::Fit(FitArgs {
+            what: FitCommand::Viscosity(a),
+        }) = c.command
+        else {
+            panic!()
+        };
+        assert_eq!(a.form, FormArg::Myega);
+        assert_eq!(a.pairs.len(), 2);
+        assert!(
+            parse(&["fit", "liquidus", "l.csv", "--out", "x.toml"]).is_err(),
+            "--models is required"
+        );
+        let c = parse(&[
+            "fit",
+            "kinetics",
+            "k.csv",
+            "--models",
+            "m.toml",
+            "--out",
+            "x.toml",
+            "--phase",
+            "devitrite",
+            "--fit-nuclei",
+            "--nuclei-per-m3",
+            "1e9",
+        ])
+        .unwrap();
+        let Command::Fit(FitArgs {
+            what: FitCommand::Kinetics(a),
+        }) = c.command
+        else {
+            panic!()
+        };
+        assert_eq!(a.phases, vec!["devitrite"]);
+        assert_eq!(a.kinetics.nuclei_per_m3, Some(1e9));
+        assert!(parse(&["models", "a.toml", "--models", "b.toml"]).is_err());
+    }
+
+    #[test]
     fn rate_unit_parses() {
         let c = parse(&[
             "eval",
@@ -405,18 +681,41 @@ mod tests {
     #[test]
     fn help_lines_fit_79_columns() {
         use clap::CommandFactory;
-        let mut cmd = Cli::command();
-        let sub = cmd.find_subcommand_mut("eval").unwrap();
-        for arg in sub.get_arguments() {
-            if let Some(h) = arg.get_help() {
-                let s = h.to_string();
+        fn check(cmd: &clap::Command, path: &str) {
+            for arg in cmd.get_arguments() {
+                if let Some(h) = arg.get_help() {
+                    let s = h.to_string();
+                    assert!(
+                        s.chars().count() <= 79,
+                        "{path}: help of --{} is {} columns",
+                        arg.get_id(),
+                        s.chars().count()
+                    );
+                }
+                if let Some(h) = arg.get_long_help() {
+                    for line in h.to_string().lines() {
+                        assert!(
+                            line.chars().count() <= 79,
+                            "{path}: long help of --{} has a line of {} columns",
+                            arg.get_id(),
+                            line.chars().count()
+                        );
+                    }
+                }
+            }
+            if let Some(a) = cmd.get_about() {
+                let s = a.to_string();
                 assert!(
                     s.chars().count() <= 79,
-                    "help of --{} is {} columns",
-                    arg.get_id(),
+                    "{path}: about is {} columns",
                     s.chars().count()
                 );
             }
+            for sub in cmd.get_subcommands() {
+                check(sub, &format!("{path} {}", sub.get_name()));
+            }
         }
+        let cmd = Cli::command();
+        check(&cmd, "quenchwise");
     }
 }

@@ -91,17 +91,6 @@ pub fn string(s: &str) -> String {
     out
 }
 
-fn key(k: &str) -> String {
-    if k.chars()
-        .all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '-')
-        && !k.is_empty()
-    {
-        k.to_string()
-    } else {
-        string(k)
-    }
-}
-
 /// A linear group such as "SiO2+TiO2" or "2*Fe2O3+FeO" (what
 /// `composition::expr::parse_linear` reads).
 fn group(w: &[f64; N_OXIDES]) -> String {

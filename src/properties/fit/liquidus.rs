@@ -14,7 +14,7 @@
 
 use super::{FitError, FitRecord, Provenance};
 use crate::composition::{Oxide, N_OXIDES};
-use crate::numeric::least_squares::{fit_linear, Noise, Solution};
+use crate::numeric::least_squares::{fit_linear, LeastSquaresError, Noise, Solution};
 use crate::properties::liquidus::LiquidusSurface;
 use crate::properties::mixture::{Domain, FractionBasis, MixtureModel, Term};
 use crate::properties::model_set::ModelSet;
@@ -116,8 +116,22 @@ fn fit_phase(
             let x = DMatrix::from_fn(pts.len(), terms.len(), |i, j| phi(terms[j], &pts[i].x));
             let y: Vec<f64> = pts.iter().map(|q| q.liquidus.0).collect();
             let names: Vec<String> = terms.iter().map(|t| format!("{}: {t}", p.name)).collect();
-            let s = fit_linear(&x, &y, &names, Noise::Estimated)?;
-            Ok((terms, s))
+            match fit_linear(&x, &y, &names, Noise::Estimated) {
+                Ok(s) => Ok((terms, s)),
+                Err(LeastSquaresError::TooFewPoints { points, needed, .. }) => Err(FitError::Hinted {
+                    message: format!(
+                        "{} has {points} rows, too few for its surface's {} coefficients (one per oxide its rows contain: {}): at least {needed} rows are needed",
+                        p.name,
+                        terms.len(),
+                        terms.iter().map(|t| t.to_string()).collect::<Vec<_>>().join(", ")
+                    ),
+                    hint: format!(
+                        "add rows of {0}, or fit only a shift of the base surface with --shift \"{0}\"",
+                        p.name
+                    ),
+                }),
+                Err(e) => Err(e.into()),
+            }
         }
         SurfaceFit::Shift => {
             let x = DMatrix::from_element(pts.len(), 1, 1.0);
@@ -255,7 +269,17 @@ pub fn fit_liquidus(
             .filter(|&i| points[i].phase == k)
             .collect();
         let pts: Vec<&LiquidusPoint> = idx.iter().map(|&i| &points[i]).collect();
-        let (terms, solution) = fit_phase(base, k, form, &pts)?;
+        let (terms, mut solution) = fit_phase(base, k, form, &pts)?;
+        if form == SurfaceFit::Shift {
+            // R² of the liquidus itself, not of its offset from the base surface.
+            let mean = pts.iter().map(|q| q.liquidus.0).sum::<f64>() / pts.len() as f64;
+            let sst: f64 = pts.iter().map(|q| (q.liquidus.0 - mean).powi(2)).sum();
+            solution.statistics.r_squared = if sst > 0.0 {
+                1.0 - solution.statistics.ssr / sst
+            } else {
+                f64::NAN
+            };
+        }
         let new_surface = surface(base, k, form, &terms, &solution.coefficients);
         let phase = &base.phases[k];
         let mut loo_sq = 0.0;

@@ -179,6 +179,8 @@ pub enum FitError {
     },
     #[error("{0}")]
     Spec(String),
+    #[error("{message}")]
+    Hinted { message: String, hint: String },
 }
 
 impl Diagnostic for FitError {
@@ -187,6 +189,7 @@ impl Diagnostic for FitError {
             FitError::LeastSquares(e) => e.hint(),
             FitError::Rows { hint, .. } => Some(hint.clone()),
             FitError::Spec(_) => None,
+            FitError::Hinted { hint, .. } => Some(hint.clone()),
         }
     }
 }
