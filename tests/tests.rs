@@ -8,6 +8,7 @@ mod cli_batch;
 mod cli_errors;
 mod cli_eval;
 mod demo_models;
+mod fit;
 mod grd2008;
 mod kinetics_reference;
 mod layers;

@@ -4,9 +4,10 @@
 //! isothermal times to the detectable fraction, or nucleation rates (growth
 //! rates do not depend on α and are reported as checks only).
 //!
-//! One parameter is found by a scan over its range and Brent's method (a
-//! root for one measurement, a minimum for several); more are started by
-//! scans one coordinate at a time and finished by Levenberg–Marquardt.
+//! One parameter and one measurement: a scan over the parameter's range and
+//! Brent's method find the root. Otherwise scans one coordinate at a time
+//! (each refined by Brent's method) find the basin and Levenberg–Marquardt
+//! finishes all parameters together.
 //! Standard errors come from the Jacobian at the solution (central
 //! differences of the kinetic model), with σ estimated from the residuals or
 //! given as the measurements' scatter. A measurement no α in range can reach
@@ -535,9 +536,11 @@ pub fn fit_kinetics(
         .collect();
 
     let y = setup.y();
-    if theta.len() == 1 {
+    if theta.len() == 1 && y.len() == 1 {
         theta = one_dimensional(&setup, &y)?;
     } else {
+        // Scans one coordinate at a time find the basin; Levenberg–Marquardt
+        // then finishes all parameters together.
         for _sweep in 0..2 {
             for k in 0..theta.len() {
                 theta = coordinate(&setup, &theta, k)?;
@@ -545,8 +548,8 @@ pub fn fit_kinetics(
         }
         let settings = LmSettings {
             max_iterations: 60,
-            orthogonality: 1e-6,
-            relative_step: 1e-7,
+            orthogonality: 1e-8,
+            relative_step: 1e-10,
         };
         theta =
             fit_nonlinear(&setup, &y, &theta, &names, Noise::Known(1.0), settings)?.coefficients;
@@ -698,26 +701,24 @@ pub(crate) fn short(v: f64) -> String {
     }
 }
 
-/// One parameter: a root of the single residual, or the minimum of the sum
-/// of squares, bracketed on the scan and refined by Brent's method.
+/// One parameter and one measurement: the root of the residual, bracketed on
+/// the scan and refined by Brent's method (as the one-point calibration
+/// always did).
 fn one_dimensional(setup: &Setup, y: &[f64]) -> Result<Vec<f64>, KineticFitError> {
     let scan = setup.scan(0);
-    if y.len() == 1 {
-        let r = |v: f64| setup.predict(&[v]).map(|f| f[0] - y[0]).unwrap_or(f64::NAN);
-        let values: Vec<f64> = scan.iter().map(|&v| r(v)).collect();
-        let bracket = (0..SCAN - 1).find(|&k| {
-            values[k].is_finite() && values[k + 1].is_finite() && values[k] * values[k + 1] <= 0.0
-        });
-        let (lo, hi) = setup.range_of(0);
-        let b = bracket.ok_or(KineticFitError::Row {
-            row: setup.points[0].row,
-            source: KineticsError::CalibrationBracket { lo, hi },
-        })?;
-        let v = brent_root(r, scan[b], scan[b + 1], 1e-10 * scan[b].abs().max(1e-10))
-            .map_err(KineticFitError::Numerical)?;
-        return Ok(vec![v]);
-    }
-    coordinate(setup, &[scan[SCAN / 2]], 0)
+    let r = |v: f64| setup.predict(&[v]).map(|f| f[0] - y[0]).unwrap_or(f64::NAN);
+    let values: Vec<f64> = scan.iter().map(|&v| r(v)).collect();
+    let bracket = (0..SCAN - 1).find(|&k| {
+        values[k].is_finite() && values[k + 1].is_finite() && values[k] * values[k + 1] <= 0.0
+    });
+    let (lo, hi) = setup.range_of(0);
+    let b = bracket.ok_or(KineticFitError::Row {
+        row: setup.points[0].row,
+        source: KineticsError::CalibrationBracket { lo, hi },
+    })?;
+    let v = brent_root(r, scan[b], scan[b + 1], 1e-10 * scan[b].abs().max(1e-10))
+        .map_err(KineticFitError::Numerical)?;
+    Ok(vec![v])
 }
 
 /// Minimise the sum of squares along coordinate k: the best scan point,

@@ -10,6 +10,9 @@
 //! coefficient. MYEGA starts from that VFT fit: each glass's T_g and m, and
 //! a mean log10 η∞, regressed on composition.
 //!
+//! Data of one glass give that glass's curve: the three parameters are then
+//! constants.
+//!
 //! Prediction error: each glass in turn is left out, the model refitted on
 //! the rest and the left-out glass predicted (leave one glass out): the error
 //! a new glass of the same system can expect. See docs/science.md, "Fitting".
@@ -143,12 +146,27 @@ impl Layout {
             .into_iter()
             .filter(|o| points.iter().any(|p| p.x[o.index()] > 0.0))
             .collect();
-        let linear: Vec<Term> = present.iter().map(|o| Term::Linear(*o)).collect();
+        // One glass: its curve's three constants are all the data can give.
+        let one_glass = points.iter().all(|p| {
+            p.x.iter()
+                .zip(&points[0].x)
+                .all(|(a, b)| (a - b).abs() < 1e-12)
+        });
+        if one_glass && !spec.pairs.is_empty() {
+            return Err(FitError::Spec(
+                "the data hold one glass: pair terms need several compositions".into(),
+            ));
+        }
+        let linear: Vec<Term> = if one_glass {
+            vec![Term::Constant]
+        } else {
+            present.iter().map(|o| Term::Linear(*o)).collect()
+        };
         let params = spec.form.params();
         let mut terms: [Vec<Term>; 3] = [
             if spec.first_fixed.is_some() {
                 Vec::new()
-            } else if spec.first_linear {
+            } else if spec.first_linear && !one_glass {
                 linear.clone()
             } else {
                 vec![Term::Constant]
