@@ -7,6 +7,7 @@ mod util;
 mod cli_batch;
 mod cli_errors;
 mod cli_eval;
+mod cli_fit;
 mod demo_models;
 mod fit;
 mod grd2008;

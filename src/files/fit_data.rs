@@ -283,7 +283,15 @@ impl Reader {
         Ok(out)
     }
 
-    fn finish(self, hint: &str) -> Result<(), FitDataError> {
+    fn finish(mut self, hint: &str) -> Result<(), FitDataError> {
+        // In row order (cells are checked column by column).
+        let row_of = |p: &String| -> usize {
+            p.strip_prefix("row ")
+                .and_then(|r| r.split(|c: char| !c.is_ascii_digit()).next())
+                .and_then(|n| n.parse().ok())
+                .unwrap_or(0)
+        };
+        self.problems.sort_by_key(row_of);
         if self.problems.is_empty() {
             Ok(())
         } else {

@@ -65,18 +65,33 @@ impl Measurement {
 
     /// What is measured, with its SI unit.
     pub fn describe(&self) -> String {
+        format!("{}, {}", self.name(), self.unit())
+    }
+
+    /// What is measured, in words.
+    pub fn name(&self) -> String {
         match *self {
-            Measurement::CriticalRate(_) => "critical rate, K/s".into(),
-            Measurement::NoseTime(_) => "nose time, s".into(),
+            Measurement::CriticalRate(_) => "critical rate".into(),
+            Measurement::NoseTime(_) => "nose time".into(),
             Measurement::TimeAt { temperature, .. } => {
-                format!("time to X_c at {:.1} K, s", temperature.0)
+                format!("time to X_c at {:.1} K", temperature.0)
             }
             Measurement::Nucleation { temperature, .. } => {
-                format!("nucleation rate at {:.1} K, per m³ s", temperature.0)
+                format!("nucleation rate at {:.1} K", temperature.0)
             }
             Measurement::Growth { temperature, .. } => {
-                format!("growth rate at {:.1} K, m/s", temperature.0)
+                format!("growth rate at {:.1} K", temperature.0)
             }
+        }
+    }
+
+    /// The SI unit of the value.
+    pub fn unit(&self) -> &'static str {
+        match self {
+            Measurement::CriticalRate(_) => "K/s",
+            Measurement::NoseTime(_) | Measurement::TimeAt { .. } => "s",
+            Measurement::Nucleation { .. } => "per m³ s",
+            Measurement::Growth { .. } => "m/s",
         }
     }
 
@@ -421,8 +436,9 @@ pub fn fit_kinetics(
             return Err(KineticFitError::Row {
                 row: p.row,
                 source: KineticsError::Numerical(format!(
-                    "the measured {} must be a positive number, got {v}",
-                    p.measurement.describe()
+                    "the measured {} must be a positive number, got {v} {}",
+                    p.measurement.name(),
+                    p.measurement.unit()
                 )),
             });
         }
@@ -672,17 +688,28 @@ fn check_reachable(setup: &Setup) -> Result<(), KineticFitError> {
         let y = point.measurement.value().log10();
         // A hair of slack: a value the model reaches exactly at an end is reachable.
         if y < lo - 1e-9 || y > hi + 1e-9 {
+            let unit = point.measurement.unit();
+            let nuclei = if setup.nuclei {
+                format!(
+                    ", nuclei per m³ in [1e{}, 1e{}]",
+                    LOG10_NUCLEI_RANGE.0, LOG10_NUCLEI_RANGE.1
+                )
+            } else {
+                String::new()
+            };
             rows.push((
                 point.row,
                 format!(
-                "the measured {} = {} cannot be reached: with α in [{}, {}] the model gives {} to {}",
-                point.measurement.describe(),
-                short(point.measurement.value()),
-                ALPHA_RANGE.0,
-                ALPHA_RANGE.1,
-                short(10f64.powf(lo)),
-                short(10f64.powf(hi)),
-            )));
+                    "the measured {} of {} {unit} cannot be reached: with α of {} in [{}, {}]{nuclei} (other phases as in the model set) the model gives {} to {} {unit}",
+                    point.measurement.name(),
+                    short(point.measurement.value()),
+                    setup.alphas.join(", "),
+                    ALPHA_RANGE.0,
+                    ALPHA_RANGE.1,
+                    short(10f64.powf(lo)),
+                    short(10f64.powf(hi)),
+                ),
+            ));
         }
     }
     if rows.is_empty() {
