@@ -68,7 +68,7 @@ fn mixture_text(m: &MixtureModel, unit: &str) -> String {
     };
     let mut parts = Vec::new();
     if m.constant != 0.0 {
-        parts.push(format!("{}", g5(m.constant)));
+        parts.push(g5(m.constant));
     }
     for o in Oxide::ALL {
         let v = m.linear[o.index()];

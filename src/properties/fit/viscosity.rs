@@ -794,14 +794,21 @@ mod tests {
     #[test]
     fn analytic_jacobians_match_central_differences() {
         // Both forms, at a point inside their domains, against central differences.
-        let x = glass(&[(Oxide::SiO2, 72.0), (Oxide::Na2O, 16.0), (Oxide::CaO, 12.0)]);
-        let pts = vec![ViscosityPoint {
-            row: 1,
-            glass: 0,
-            x,
-            temperature: Kelvin(1100.0),
+        // Two glasses, so B and C are linear (one glass gives constants).
+        let pts: Vec<ViscosityPoint> = [
+            glass(&[(Oxide::SiO2, 72.0), (Oxide::Na2O, 16.0), (Oxide::CaO, 12.0)]),
+            glass(&[(Oxide::SiO2, 70.0), (Oxide::Na2O, 15.0), (Oxide::CaO, 15.0)]),
+        ]
+        .iter()
+        .enumerate()
+        .map(|(g, x)| ViscosityPoint {
+            row: g + 1,
+            glass: g,
+            x: *x,
+            temperature: Kelvin(1100.0 - 50.0 * g as f64),
             log10_viscosity: Log10PaS(4.0),
-        }];
+        })
+        .collect();
         for (form, theta) in [
             (
                 CurveForm::Vft,
@@ -827,13 +834,15 @@ mod tests {
                 let (mut up, mut down) = (theta.clone(), theta.clone());
                 up[k] += h;
                 down[k] -= h;
-                let fd =
-                    (prob.predict(&up).unwrap()[0] - prob.predict(&down).unwrap()[0]) / (2.0 * h);
-                assert!(
-                    (j[(0, k)] - fd).abs() <= 1e-6 * fd.abs().max(1e-6),
-                    "{form:?} coefficient {k}: {} vs {fd}",
-                    j[(0, k)]
-                );
+                let (fu, fl) = (prob.predict(&up).unwrap(), prob.predict(&down).unwrap());
+                for i in 0..pts.len() {
+                    let fd = (fu[i] - fl[i]) / (2.0 * h);
+                    assert!(
+                        (j[(i, k)] - fd).abs() <= 1e-6 * fd.abs().max(1e-6),
+                        "{form:?} point {i} coefficient {k}: {} vs {fd}",
+                        j[(i, k)]
+                    );
+                }
             }
         }
     }
