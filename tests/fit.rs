@@ -18,7 +18,7 @@ use quenchwise::kinetics::fit::{
 use quenchwise::kinetics::{KineticOptions, Kinetics, Melt};
 use quenchwise::numeric::least_squares::interval_factor;
 use quenchwise::properties::fit::{
-    fit_liquidus, fit_viscosity, CurveForm, FitError, LiquidusPoint, Provenance, ViscosityPoint,
+    fit_liquidus, fit_viscosity, FitError, LiquidusPoint, Provenance, ViscosityPoint,
     ViscosityTerms,
 };
 use quenchwise::properties::{
@@ -353,7 +353,9 @@ fn liquidus_fit_agrees_with_numpy() {
     // Source: tests/reference/fit_numpy.py (numpy.linalg.lstsq, NumPy 2.4.6),
     // run 2026-12-02 on demo-datasets/fit-liquidus.csv; printed to 10
     // significant figures. Oxide order SiO2, Al2O3, Na2O, K2O, MgO, CaO.
-    let cases: [(&str, [f64; 6], [f64; 6], f64, f64, f64); 2] = [
+    // (phase, coefficients, standard errors, RMSE, leave-one-out RMSE, R²)
+    type Case = (&'static str, [f64; 6], [f64; 6], f64, f64, f64);
+    let cases: [Case; 2] = [
         (
             "devitrite",
             [

@@ -1,7 +1,7 @@
 //! `quenchwise fit viscosity|liquidus|kinetics`: read a measurement table,
-//! fit the models (in the library), print the fit summary, and write the
-//! fitted model set with its fit records, plus residuals (CSV) and a
-//! residual plot (SVG) when asked.
+//! fit the models (in the library), write the fitted model set with its fit
+//! records, plus residuals (CSV) and a residual plot (SVG) when asked, then
+//! print the fit summary.
 
 use super::eval::overrides;
 use super::models::{base_options, load_models};
@@ -301,7 +301,7 @@ fn viscosity(a: FitViscosityArgs) -> Result<Outcome, Error> {
             )
         }
     };
-    print(&viscosity_fit_text(&fit, &data.points, &data.glasses))?;
+    let summary = viscosity_fit_text(&fit, &data.points, &data.glasses);
     let sigma = fit.solution.statistics.sigma;
     write_outputs(
         c,
@@ -343,6 +343,7 @@ fn viscosity(a: FitViscosityArgs) -> Result<Outcome, Error> {
             )
         },
     )?;
+    print(&summary)?;
     Ok(Outcome::Finished)
 }
 
@@ -369,10 +370,11 @@ fn phase_index(set: &ModelSet, name: &str, option: &str) -> Result<usize, Error>
 fn liquidus(a: FitLiquidusArgs) -> Result<Outcome, Error> {
     let c = &a.common;
     let ctx = || format!("fitting {}", c.data.display());
-    let (mut set, notes, name) = base(&a.models, c.name.as_deref())?;
+    let (mut set, mut notes, name) = base(&a.models, c.name.as_deref())?;
     let base_set = set.clone();
     if let Some(v) = &a.viscosity_model {
         set = load_models(Some(&a.models), Some(v))?;
+        notes.viscosity = None;
     }
     let data = read_liquidus_data(&c.data, columns(c), &set)?;
     note_ignored(&c.data, &data.ignored);
@@ -417,7 +419,7 @@ fn liquidus(a: FitLiquidusArgs) -> Result<Outcome, Error> {
         &notes,
         &header(&name, "liquidus", Some(&base_set), &prov.date),
     );
-    print(&liquidus_fit_text(&fit, &data.points, &set))?;
+    let summary = liquidus_fit_text(&fit, &data.points, &set);
     let sigma = {
         let n: usize = fit.phases.iter().map(|f| f.solution.statistics.n).sum();
         let ss: f64 = fit.phases.iter().map(|f| f.solution.statistics.ssr).sum();
@@ -463,6 +465,7 @@ fn liquidus(a: FitLiquidusArgs) -> Result<Outcome, Error> {
             &format!("liquidus fit to {}: residuals", c.data.display()),
         )
     })?;
+    print(&summary)?;
     Ok(Outcome::Finished)
 }
 
@@ -615,7 +618,7 @@ fn kinetics(a: FitKineticsArgs) -> Result<Outcome, Error> {
         &notes,
         &header(&name, "kinetics", Some(&set), &prov.date),
     );
-    print(&kinetic_fit_text(&fit, &points, &options))?;
+    let summary = kinetic_fit_text(&fit, &points, &options);
     if a.fit_nuclei {
         eprintln!(
             "quenchwise: the fitted α hold with {} pre-existing nuclei per m³: eval uses it by default with this set; give heterogeneous_nuclei_per_m3 = {} in a screen config's [kinetics]",
@@ -642,6 +645,7 @@ fn kinetics(a: FitKineticsArgs) -> Result<Outcome, Error> {
             &format!("kinetics fit to {}: residuals", c.data.display()),
         )
     })?;
+    print(&summary)?;
     Ok(Outcome::Finished)
 }
 

@@ -334,6 +334,21 @@ pub fn rates_svg(k: &Kinetics, title: &str) -> String {
     r.map(|_| svg).unwrap_or_else(|m| message_svg(title, &m))
 }
 
+/// Tick label on a linear axis: no trailing zeros, no "-0".
+fn axis_label(v: f64) -> String {
+    let s = if v.abs() >= 100.0 {
+        format!("{v:.0}")
+    } else {
+        let s = format!("{v:.3}");
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    };
+    if s == "-0" {
+        "0".into()
+    } else {
+        s
+    }
+}
+
 /// Residuals of a fit to draw: in-sample points, or held-out predictions.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ResidualSeries {
@@ -390,6 +405,8 @@ pub fn residuals_svg(
             .map_err(e)?;
         chart
             .configure_mesh()
+            .x_label_formatter(&|v| axis_label(*v))
+            .y_label_formatter(&|v| axis_label(*v))
             .x_desc(x_desc)
             .y_desc(y_desc)
             .axis_desc_style(("sans-serif", 15).into_font().color(&INK))
