@@ -314,3 +314,98 @@ fn a_model_file_with_a_bad_fit_record_is_located() {
         .stderr_has("models-bad-fit.toml:30: covariance is not positive semi-definite")
         .stderr_has("models-bad-fit.toml:57: 'Na2O*CaO' is not a coefficient of the devitrite liquidus surface");
 }
+
+#[test]
+fn a_parquet_table_fits_like_its_csv() {
+    use polars::prelude::*;
+    let d = temp_dir("fit-parquet");
+    let csv = root().join("demo-datasets/fit-liquidus.csv");
+    let mut df = CsvReadOptions::default()
+        .with_has_header(true)
+        .try_into_reader_with_file_path(Some(csv.clone()))
+        .unwrap()
+        .finish()
+        .unwrap();
+    let pq = d.join("liquidus.parquet");
+    ParquetWriter::new(std::fs::File::create(&pq).unwrap())
+        .finish(&mut df)
+        .unwrap();
+    let args = |data: &str, out: &str| {
+        vec![
+            "fit".to_string(),
+            "liquidus".into(),
+            data.into(),
+            "--models".into(),
+            "demo-soda-lime".into(),
+            "--name".into(),
+            "p".into(),
+            "--shift".into(),
+            "cristobalite".into(),
+            "--out".into(),
+            out.into(),
+        ]
+    };
+    let a: Vec<String> = args(pq.to_str().unwrap(), "p.toml");
+    let b: Vec<String> = args(csv.to_str().unwrap(), "c.toml");
+    let a: Vec<&str> = a.iter().map(String::as_str).collect();
+    let b: Vec<&str> = b.iter().map(String::as_str).collect();
+    let from_pq = run_in(&d, &a).code(0).stdout.clone();
+    let from_csv = run_in(&d, &b).code(0).stdout.clone();
+    assert_eq!(from_pq, from_csv);
+}
+
+#[test]
+fn a_set_fitted_with_nuclei_evaluates_with_them_by_default() {
+    // α only hold with the nucleation they were fitted with: eval takes the
+    // fit's density unless told otherwise, and warns when told otherwise.
+    let d = temp_dir("fit-nuclei-default");
+    run_in(
+        &d,
+        &[
+            "fit",
+            "kinetics",
+            &demo("fit-critical-rates.csv"),
+            "--models",
+            "demo-soda-lime",
+            "--name",
+            "n",
+            "--nuclei-per-m3",
+            "1000",
+            "--log10-sd",
+            "0.15",
+            "--out",
+            "n.toml",
+        ],
+    )
+    .code(0)
+    .stdout_has("1000 pre-existing nuclei/m³");
+    let mol = "SiO2=71 Na2O=13 K2O=2 CaO=11 MgO=1 Al2O3=2";
+    let j = run_in(&d, &["eval", "--models", "n.toml", "--mol", mol, "--json"])
+        .code(0)
+        .json();
+    assert_eq!(j["heterogeneous_nuclei_per_m3"], 1000.0);
+    let warned = |j: &serde_json::Value| {
+        j["warnings"].as_array().unwrap().iter().any(|w| {
+            w.as_str()
+                .unwrap()
+                .contains("were fitted with 1e3 pre-existing nuclei")
+        })
+    };
+    assert!(!warned(&j));
+    let j = run_in(
+        &d,
+        &[
+            "eval",
+            "--models",
+            "n.toml",
+            "--mol",
+            mol,
+            "--nuclei-per-m3",
+            "0",
+            "--json",
+        ],
+    )
+    .code(0)
+    .json();
+    assert!(warned(&j), "{j}");
+}

@@ -217,6 +217,9 @@ pub fn fit_liquidus(
     shift: &[usize],
     provenance: &Provenance,
 ) -> Result<LiquidusFit, FitError> {
+    if points.is_empty() {
+        return Err(FitError::Spec("the data hold no liquidus to fit".into()));
+    }
     let mut problems = Vec::new();
     for q in points {
         let p = &base.phases[q.phase];
