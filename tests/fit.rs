@@ -842,3 +842,63 @@ fn a_rate_no_alpha_reaches_is_refused_with_the_range() {
     );
     assert!(text.contains("the model gives"), "{text}");
 }
+
+#[test]
+fn myega_recovers_its_coefficients_from_exact_points() {
+    // Points on known MYEGA curves (Mauro et al. 2009): L = −2.9, T_g and m
+    // linear in mole fractions (invented values), five glasses; the fit starts
+    // from a VFT fit and must land on the truth.
+    let glasses = [
+        [74.0, 13.0, 13.0],
+        [70.0, 18.0, 12.0],
+        [72.0, 12.0, 16.0],
+        [76.0, 16.0, 8.0],
+        [68.0, 15.0, 17.0],
+    ];
+    let tg = [1000.0, -600.0, 1400.0];
+    let m = [25.0, 60.0, 100.0];
+    let l = -2.9;
+    let mut pts = Vec::new();
+    for (g, v) in glasses.iter().enumerate() {
+        let x = mol(&[(Oxide::SiO2, v[0]), (Oxide::Na2O, v[1]), (Oxide::CaO, v[2])]);
+        let xs = [
+            x[Oxide::SiO2.index()],
+            x[Oxide::Na2O.index()],
+            x[Oxide::CaO.index()],
+        ];
+        let tgx: f64 = tg.iter().zip(&xs).map(|(a, b)| a * b).sum();
+        let mx: f64 = m.iter().zip(&xs).map(|(a, b)| a * b).sum();
+        let curve = ViscosityCurve::myega(l, tgx, mx).unwrap();
+        for level in [1.0, 2.0, 3.0, 4.5, 6.6, 9.0, 11.0, 12.5] {
+            let t = curve.temperature_at(Log10PaS(level)).unwrap();
+            pts.push(ViscosityPoint {
+                row: pts.len() + 1,
+                glass: g,
+                x,
+                temperature: t,
+                log10_viscosity: Log10PaS(level),
+            });
+        }
+    }
+    let spec = ViscosityTerms {
+        form: quenchwise::properties::fit::CurveForm::Myega,
+        ..ViscosityTerms::vft()
+    };
+    let fit = fit_viscosity(&pts, &spec, "t", "t", &Provenance::default(), false).unwrap();
+    let truth = |name: &str| -> f64 {
+        match name {
+            "log_eta_inf.constant" => l,
+            "tg_k.SiO2" => tg[0],
+            "tg_k.Na2O" => tg[1],
+            "tg_k.CaO" => tg[2],
+            "fragility.SiO2" => m[0],
+            "fragility.Na2O" => m[1],
+            "fragility.CaO" => m[2],
+            other => panic!("{other}"),
+        }
+    };
+    for (c, v) in fit.coefficients.iter().zip(&fit.solution.coefficients) {
+        let t = truth(&c.to_string());
+        assert!(rel(*v, t) < EXACT_DATA_RTOL, "{c}: {v} vs {t}");
+    }
+}
