@@ -119,6 +119,10 @@ impl Coverage {
         for (k, name) in names.iter().enumerate() {
             let c95 = self.inside95[k] as f64 / self.draws as f64;
             let c1 = self.inside1[k] as f64 / self.draws as f64;
+            eprintln!(
+                "coverage {name}: {c95:.4} at 95 %, {c1:.4} at ±1 SE ({} draws)",
+                self.draws
+            );
             assert!(
                 (lo95..=hi95).contains(&c95),
                 "{name}: 95 % intervals cover the truth in {c95:.4} of {} draws, expected {lo95:.4}–{hi95:.4}",

@@ -20,7 +20,7 @@
 use super::{FitError, FitRecord, Provenance};
 use crate::composition::{Oxide, N_OXIDES};
 use crate::numeric::least_squares::{
-    fit_linear, fit_nonlinear, LeastSquaresError, LmSettings, Model, Noise, Solution,
+    fit_linear, fit_nonlinear, LmSettings, Model, Noise, Solution,
 };
 use crate::properties::mixture::{Domain, FractionBasis, MixtureModel, Term};
 use crate::properties::viscosity::{
@@ -771,15 +771,6 @@ pub fn fit_viscosity(
         cv_rmse_k,
         warnings,
     })
-}
-
-/// The rank-deficiency error of a fit, if that is what it is (for callers
-/// that want to say which oxides to vary).
-pub fn rank_deficient(e: &FitError) -> Option<&[String]> {
-    match e {
-        FitError::LeastSquares(LeastSquaresError::RankDeficient { involved, .. }) => Some(involved),
-        _ => None,
-    }
 }
 
 #[cfg(test)]
