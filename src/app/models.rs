@@ -62,9 +62,14 @@ fn domain_text(d: &Domain) -> String {
 }
 
 fn mixture_text(m: &MixtureModel, unit: &str) -> String {
-    let basis = match m.basis {
-        FractionBasis::MoleFraction => "per mole fraction",
-        FractionBasis::MolPercent => "per mol%",
+    let per = match m.basis {
+        FractionBasis::MoleFraction => "mole fraction",
+        FractionBasis::MolPercent => "mol%",
+    };
+    let basis = if m.linear.iter().any(|v| *v != 0.0) || !m.pairs.is_empty() {
+        format!("oxide terms per {per}")
+    } else {
+        "one constant".to_string()
     };
     let mut parts = Vec::new();
     if m.constant != 0.0 {
@@ -88,7 +93,7 @@ fn mixture_text(m: &MixtureModel, unit: &str) -> String {
     if !m.products.is_empty() {
         parts.push(format!("{} product terms", m.products.len()));
     }
-    format!("{} ({unit}, {basis})", parts.join(", "))
+    format!("{} ({unit}; {basis})", parts.join(", "))
 }
 
 fn fit_text(out: &mut String, indent: &str, f: &FitRecord) {
