@@ -544,6 +544,30 @@ mod tests {
             &Calibration::None,
         )
         .unwrap();
+        // By hand from the demo file's coefficients: the wollastonite surface is
+        // 1296 − 4·72 − 10·14 + 40·10 − 6·4 = 1244 K, the highest of the five.
+        assert!((e.liquidus_k - 1244.0).abs() < 1e-9, "{}", e.liquidus_k);
+        assert_eq!(e.primary_phase.as_deref(), Some("wollastonite"));
+        // VFT by hand (mole fractions): B = 0.72·6464 − 0.14·3840 − 0.10·2402
+        // + 0.04·8847 = 4230.16 K, C = 0.72·539 − 0.14·257 + 0.10·1497 + 0.04·890
+        // = 537.40 K, A = −2.45; η = 10 Pa·s at C + B/(1 − A) = 1763.533 K.
+        let tm = e.melting_temperature_k.unwrap();
+        assert!((tm - 1763.5333).abs() < 1e-3, "{tm}");
+        // The phases add as fourth powers (no nuclei), and the limiting phase
+        // has the largest own rate.
+        let sum: f64 = e
+            .critical_rate_by_phase_k_per_s
+            .values()
+            .map(|r| r.powi(4))
+            .sum();
+        assert!((e.critical_rate_k_per_s / sum.powf(0.25) - 1.0).abs() < 1e-12);
+        let fastest = e
+            .critical_rate_by_phase_k_per_s
+            .iter()
+            .max_by(|a, b| a.1.total_cmp(b.1))
+            .unwrap()
+            .0;
+        assert_eq!(&e.limiting_phase, fastest);
         assert!(e.nose_rate_k_per_s > e.critical_rate_k_per_s);
         assert!(!e.kinetics_calibrated);
     }

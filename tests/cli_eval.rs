@@ -1,5 +1,6 @@
 //! `quenchwise eval` run as a user would, in a fresh folder.
 
+use crate::tolerances::CRITICAL_RATE_RTOL;
 use crate::util::{rel, root, run_in, temp_dir};
 
 const JSON_KEYS: [&str; 6] = [
@@ -54,15 +55,59 @@ fn composition_json_has_the_contract_keys() {
         .unwrap()
         .iter()
         .any(|w| w.as_str().unwrap().contains("normalised")));
-    let tg = j["glass_transition_k"].as_f64().unwrap();
-    let tl = j["liquidus_k"].as_f64().unwrap();
-    assert!(rel(j["reduced_glass_transition"].as_f64().unwrap(), tg / tl) < 1e-12);
+    // The units of the trade beside SI: K/min = 60 × K/s (exact), °C = K − 273.15
+    // (exact, SI Brochure 9th ed., 2019).
+    let f = |k: &str| j[k].as_f64().unwrap();
+    for (per_s, per_min) in [
+        ("critical_rate_k_per_s", "critical_rate_k_per_min"),
+        ("nose_rate_k_per_s", "nose_rate_k_per_min"),
+    ] {
+        assert!(rel(f(per_min), 60.0 * f(per_s)) < 1e-14, "{per_min}");
+    }
+    for (k, c) in [
+        ("liquidus_k", "liquidus_c"),
+        ("glass_transition_k", "glass_transition_c"),
+        ("nose_temperature_k", "nose_temperature_c"),
+    ] {
+        assert!((f(c) - (f(k) - 273.15)).abs() < 1e-9, "{c}");
+    }
+    // wt% → mol%, computed by hand from the IUPAC 2021 molar masses (Prohaska et al.
+    // 2022, Table 1): n_i = w_i/M_i (SiO2 60.0830, Na2O 61.9785, CaO 56.0770, Al2O3
+    // 101.9601, K2O 94.1956, MgO 40.3040 g/mol), normalised; printed to 5 decimals.
+    let mol = &j["composition_mol_pct"];
+    for (o, want) in [
+        ("SiO2", 74.66596),
+        ("Na2O", 12.71583),
+        ("CaO", 11.35134),
+        ("Al2O3", 0.77296),
+        ("K2O", 0.19308),
+        ("MgO", 0.30083),
+    ] {
+        let got = mol[o].as_f64().unwrap();
+        assert!((got - want).abs() < 6e-6, "{o}: {got} vs {want}");
+    }
+}
+
+#[test]
+fn glassy_thickness_is_twice_the_half_thickness_in_mm() {
+    // The slab is cooled through both faces, so it is 2h thick; the output is in mm.
+    let d = temp_dir("eval-slab");
+    let card = root().join("demo-datasets/melt-card.toml");
+    let j = run_in(&d, &["eval", "--melt", card.to_str().unwrap(), "--json"])
+        .code(0)
+        .json();
+    let h = quenchwise::kinetics::Kinetics::new(&crate::util::demo_card(), &Default::default())
+        .unwrap()
+        .max_glassy_half_thickness_m(quenchwise::units::Kelvin(298.15), 5e-7)
+        .unwrap();
+    let mm = j["max_glassy_thickness_mm"].as_f64().unwrap();
+    assert!(rel(mm, 2.0 * h * 1000.0) < 1e-12, "{mm} vs {h} m");
 }
 
 #[test]
 fn melt_card_json_matches_the_independent_reference() {
     // Source: tests/reference/cnt_scipy.py (SciPy, independent of our code), card case:
-    // R_c = 4.65863138e-4 K/s; the "done" bar for the card is 0.5 %.
+    // R_c = 4.65863138e-4 K/s; to the 0.1 % the README promises.
     let d = temp_dir("eval-card");
     let card = root().join("demo-datasets/melt-card.toml");
     let r = run_in(&d, &["eval", "--melt", card.to_str().unwrap(), "--json"]);
@@ -70,7 +115,7 @@ fn melt_card_json_matches_the_independent_reference() {
     for k in JSON_KEYS {
         assert!(j[k].is_f64(), "missing {k}");
     }
-    assert!(rel(j["critical_rate_k_per_s"].as_f64().unwrap(), 4.65863138e-4) < 5e-3);
+    assert!(rel(j["critical_rate_k_per_s"].as_f64().unwrap(), 4.65863138e-4) < CRITICAL_RATE_RTOL);
     assert_eq!(j["kinetics_calibrated"], false);
 }
 

@@ -1,7 +1,7 @@
 //! The invented demo model set against two published commercial glasses, and
 //! against what the trade knows about soda-lime glass formation.
 
-use crate::util::rel;
+use crate::tolerances::{DEMO_FIXPOINT_RESIDUAL_K, DEMO_LIQUIDUS_RESIDUAL_K};
 use quenchwise::assess::{evaluate_composition, Calibration};
 use quenchwise::composition::{Basis, Composition};
 use quenchwise::files::model_set::{parse_model_set, DEMO_MODELS};
@@ -49,9 +49,10 @@ fn published_glasses() -> Vec<(&'static str, &'static str, f64, f64, f64, f64)> 
 }
 
 #[test]
-fn viscosity_fixpoints_match_the_published_container_and_float_glasses() {
-    // Measured here: the demo set is within 4.5 K at every fixpoint below; the
-    // check allows 8 K, about the scatter of a VFT fit over 550–1450 °C.
+fn viscosity_fixpoints_fit_residual_on_the_published_container_and_float_glasses() {
+    // A fit residual, not a validation: the invented set was tuned to these 8
+    // fixpoints. Measured: at most 4.35 K (float working point); the README says
+    // 4.5 K, and this check holds it to that.
     let m = demo();
     for (name, wt, a, b, t0, _) in published_glasses() {
         let c = Composition::parse(wt, Basis::WtPercent, 2.0).unwrap();
@@ -69,7 +70,7 @@ fn viscosity_fixpoints_match_the_published_container_and_float_glasses() {
         ] {
             let want = published(a, b, t0, level);
             assert!(
-                (got - want).abs() < 8.0,
+                (got - want).abs() < DEMO_FIXPOINT_RESIDUAL_K,
                 "{name} {label}: {got:.1} K vs published {want:.1} K"
             );
         }
@@ -77,29 +78,36 @@ fn viscosity_fixpoints_match_the_published_container_and_float_glasses() {
 }
 
 #[test]
-fn liquidus_matches_the_published_glasses_within_25_k() {
+fn liquidus_fit_residual_on_the_published_glasses() {
     // Source: Seward & Vascott (2005), liquidus 1040 °C (container) and 1000 °C (float).
-    // Measured here: 2 K and 5 K off.
+    // A fit residual (the surfaces were tuned to these two): measured 2.1 K and
+    // 4.1 K; the README says 5 K.
     let m = demo();
     for (name, wt, _, _, _, tl) in published_glasses() {
         let c = Composition::parse(wt, Basis::WtPercent, 2.0).unwrap();
         let p = m.properties(&c).unwrap();
         let got = p.liquidus.to_celsius().0;
-        assert!((got - tl).abs() < 25.0, "{name}: {got:.1} °C vs {tl} °C");
+        assert!(
+            (got - tl).abs() < DEMO_LIQUIDUS_RESIDUAL_K,
+            "{name}: {got:.1} °C vs {tl} °C"
+        );
     }
 }
 
 #[test]
 fn ordinary_soda_lime_vitrifies_when_poured_and_air_cooled() {
-    // Common practice: soda-lime melts left to cool in air (~1–10 K/s, from memory)
-    // come out glassy. The demo must give R_c well below 1 K/s for them.
+    // Soda-lime melts left to cool in air (about 1–10 K/s, from memory) come out
+    // glassy (common practice). The invented set was tuned so that these two
+    // glasses need at least a decade less than that: R_c below 0.1 K/s (measured
+    // 0.055 and 0.047 K/s, homogeneous nucleation only). This is the demo's own
+    // target, not a measurement.
     let m = demo();
     for (name, wt, ..) in published_glasses() {
         let c = Composition::parse(wt, Basis::WtPercent, 2.0).unwrap();
         let e = evaluate_composition(&m, &c, &KineticOptions::default(), None, &Calibration::None)
             .unwrap();
         assert!(
-            e.critical_rate_k_per_s < 1.0,
+            e.critical_rate_k_per_s < 0.1,
             "{name}: R_c = {}",
             e.critical_rate_k_per_s
         );
@@ -109,9 +117,10 @@ fn ordinary_soda_lime_vitrifies_when_poured_and_air_cooled() {
 
 #[test]
 fn critical_rate_rises_by_decades_where_the_liquidus_climbs() {
-    // Common practice: towards lime-rich melts the wollastonite liquidus climbs
-    // steeply and glass formation gets hard. From 10 to 17 mol% CaO (at 12 Na2O)
-    // the demo must raise R_c by at least two decades, monotonically.
+    // The direction is common practice: towards lime-rich melts the wollastonite
+    // liquidus climbs steeply and glass formation gets hard. The size is the
+    // invented set's own target: from 10 to 17 mol% CaO (at 12 Na2O) R_c rises
+    // monotonically by more than four decades (measured 4.45).
     let m = demo();
     let mut last = 0.0;
     let mut first = None;
@@ -125,19 +134,31 @@ fn critical_rate_rises_by_decades_where_the_liquidus_climbs() {
         first.get_or_insert(last);
     }
     let decades = (last / first.unwrap()).log10();
-    assert!(decades > 2.0, "only {decades:.2} decades");
+    assert!(decades > 4.0, "only {decades:.2} decades");
 }
 
 #[test]
 fn every_phase_surface_and_alpha_is_marked_invented_in_the_file() {
     assert!(demo().about.invented);
-    for line in DEMO_MODELS
+    let phases = demo().phases.len();
+    let alphas: Vec<&str> = DEMO_MODELS
         .lines()
         .filter(|l| l.trim_start().starts_with("turnbull_alpha"))
-    {
+        .collect();
+    assert_eq!(alphas.len(), phases);
+    for line in alphas {
         assert!(line.contains("INVENTED"), "{line}");
     }
-    assert!(rel(1.0, 1.0) == 0.0);
+    // Every [phase.liquidus] block opens with a comment that says INVENTED.
+    let blocks: Vec<&str> = DEMO_MODELS.split("[phase.liquidus]").skip(1).collect();
+    assert_eq!(blocks.len(), phases);
+    for b in blocks {
+        let first = b.lines().find(|l| !l.trim().is_empty()).unwrap_or_default();
+        assert!(
+            first.starts_with('#') && first.contains("INVENTED"),
+            "{first}"
+        );
+    }
 }
 
 /// The corners of a domain box intersected with Σ x = 100 mol%: every point

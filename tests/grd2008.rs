@@ -10,7 +10,7 @@ use quenchwise::units::{Kelvin, Log10PaS};
 /// GRD table (Giordano et al. 2008, EPSL 271, 123–134, coefficients via two public
 /// transcriptions). They test our implementation of the published equations, not
 /// reality. Printed: B, C to 2 decimals; T_g and m to 1; log η to 3.
-const CASES: [(&str, f64, f64, f64, f64, f64); 5] = [
+const CASES: [(&str, f64, f64, f64, f64, f64); 6] = [
     ("SiO2=100", 15956.00, 275.00, 1239.1, 21.3, 8.767),
     ("CaO=25 MgO=25 SiO2=50", 5858.25, 600.50, 954.5, 44.6, 2.163),
     (
@@ -36,6 +36,18 @@ const CASES: [(&str, f64, f64, f64, f64, f64); 5] = [
         700.4,
         21.3,
         2.284,
+    ),
+    // Every term but the volatiles: TiO2 with SiO2 in b1 and with Al2O3 in c2,
+    // FeO and P2O5 in b3, K2O only through the cross terms b12, b13, c5, c11
+    // (P2O5 subtracted in c11). Computed by hand (a separate Python evaluation
+    // of the published formulas), 2026-12-02.
+    (
+        "SiO2=55 TiO2=2 Al2O3=15 FeO=8 MgO=6 CaO=8 Na2O=3 K2O=2 P2O5=1",
+        6084.26,
+        609.12,
+        976.8,
+        44.0,
+        2.492,
     ),
 ];
 

@@ -2,7 +2,9 @@
 //! oracle, and the identities of docs/science.md, "Continuous cooling".
 
 use crate::oracle::dense_reference_critical_rate;
-use crate::tolerances::{CRITICAL_RATE_RTOL, ORACLE_RTOL};
+use crate::tolerances::{
+    CRITICAL_RATE_RTOL, NOSE_RATIO_CARD, NOSE_RATIO_SCREW_HOFFMAN, ORACLE_RTOL, PATH_RTOL,
+};
 use crate::util::rel;
 use quenchwise::kinetics::{
     extended_fraction_constant_rate, CrystalPhase, DrivingForce, KineticOptions, Kinetics, Melt,
@@ -148,24 +150,48 @@ fn constant_rates_reduce_to_the_isothermal_jmak_law() {
     }
 }
 
-#[test]
-fn transformed_fraction_scales_as_rate_to_the_minus_four() {
-    // Source: docs/science.md, "Continuous cooling", X(R) = 4π J / (3 R⁴) for homogeneous nucleation.
-    let k = Kinetics::new(&card(), &KineticOptions::default()).unwrap();
-    let x1 = k.extended_fraction_at_rate(KelvinPerSecond(1e-4)).unwrap();
-    let x2 = k.extended_fraction_at_rate(KelvinPerSecond(1e-3)).unwrap();
-    assert!(rel(x1 / x2, 1e4) < 1e-12, "{}", x1 / x2);
-    // With pre-existing nuclei the exponent lies between −4 and −3.
-    let (m, o) = with_nuclei();
-    let k = Kinetics::new(&m, &o).unwrap();
-    let slope = (k.extended_fraction_at_rate(KelvinPerSecond(10.0)).unwrap()
-        / k.extended_fraction_at_rate(KelvinPerSecond(100.0)).unwrap())
-    .log10();
-    assert!((3.0 - 1e-9..=4.0 + 1e-9).contains(&slope), "{slope}");
+/// The crystallised (extended) fraction after cooling linearly from T_L to
+/// T_e at `rate`, by the time-domain path integral: a code path independent
+/// of the temperature-domain quadrature behind the critical rate.
+fn linear_path_fraction(k: &Kinetics, rate: f64) -> f64 {
+    let (tl, te) = (k.liquidus().0, k.freeze_temperature().0);
+    let path = [(0.0, Kelvin(tl)), ((tl - te) / rate, Kelvin(te))];
+    k.path_fraction(&path).unwrap().extended_fraction
 }
 
 #[test]
-fn critical_rate_gives_exactly_the_detectable_fraction() {
+fn transformed_fraction_scales_as_rate_to_the_minus_four() {
+    // Source: docs/science.md, "Continuous cooling", X(R) = 4π J / (3 R⁴) for
+    // homogeneous nucleation: cooling ten times faster leaves 10⁴ times less
+    // crystal. Checked on the time-domain path integral, whose 1 K panels
+    // resolve it to about 1e-3 (see a_linear_cooling_path_equals_constant_rate_cooling).
+    let k = Kinetics::new(&card(), &KineticOptions::default()).unwrap();
+    let ratio = linear_path_fraction(&k, 1e-4) / linear_path_fraction(&k, 1e-3);
+    assert!(rel(ratio, 1e4) < PATH_RTOL, "{ratio}");
+    // With pre-existing nuclei, X = (4π/3)[J/R⁴ + N_h G³/R³]: the exponent lies
+    // between 3 (nuclei only, fast cooling) and 4 (nucleation on cooling, slow
+    // cooling), and grows as cooling slows; the path integral agrees with the
+    // quadrature.
+    // One nucleus per m³ makes the two terms equal near 1e-5 K/s for this melt.
+    let o = KineticOptions {
+        heterogeneous_nuclei_per_m3: 1.0,
+        ..KineticOptions::default()
+    };
+    let k = Kinetics::new(&card(), &o).unwrap();
+    let slope = |r: f64| (linear_path_fraction(&k, r) / linear_path_fraction(&k, 10.0 * r)).log10();
+    let (fast, slow) = (slope(1e-1), slope(1e-9));
+    assert!(fast > 3.0 - 1e-3 && slow < 4.0 + 1e-3, "{fast} {slow}");
+    assert!(slow > fast + 0.1, "slow cooling {slow} vs fast {fast}");
+    let x = linear_path_fraction(&k, 1e-5);
+    let q = k.extended_fraction_at_rate(KelvinPerSecond(1e-5)).unwrap();
+    assert!(rel(x, q) < PATH_RTOL, "{x} vs {q}");
+}
+
+#[test]
+fn the_critical_rate_is_the_root_of_the_fraction_equation() {
+    // A check of the root solver (the same integrals give both sides), and of
+    // the root against the time-domain path integral at R_c, which does not
+    // share them: the path crystallises exactly X_c, to the path's resolution.
     for (m, o) in [
         (card(), KineticOptions::default()),
         screw_hoffman(),
@@ -175,6 +201,8 @@ fn critical_rate_gives_exactly_the_detectable_fraction() {
         let rc = k.critical_rate().unwrap();
         let x = k.extended_fraction_at_rate(rc).unwrap();
         assert!(rel(x, o.detectable_fraction) < 1e-10, "{x}");
+        let p = linear_path_fraction(&k, rc.0);
+        assert!(rel(p, o.detectable_fraction) < PATH_RTOL, "{p}");
     }
 }
 
@@ -296,12 +324,23 @@ fn lower_end_of_the_window_does_not_matter_once_low_enough() {
 
 #[test]
 fn nose_method_overestimates_the_critical_rate() {
-    // Source: common practice (Weinberg, Uhlmann & Zanotto 1989, J. Am. Ceram. Soc. 72, 2054, from memory): for typical glass formers the
-    // nose method overestimates R_c several-fold to tenfold. We accept 2× to 40×.
-    for (m, o) in [(card(), KineticOptions::default()), screw_hoffman()] {
+    // Source: common practice (Weinberg, Uhlmann & Zanotto 1989, J. Am. Ceram.
+    // Soc. 72, 2054, from memory): for typical glass formers the nose method
+    // overestimates R_c several-fold to tenfold. For these two melts it
+    // overestimates by 12.4× and 11.6×, a little above that band; the values are
+    // pinned (to 0.5 %, a fraction of the 0.1 % accuracy target of both rates
+    // compounded with the nose's flatness) so a change in either rate shows.
+    for ((m, o), want) in [
+        ((card(), KineticOptions::default()), NOSE_RATIO_CARD),
+        (screw_hoffman(), NOSE_RATIO_SCREW_HOFFMAN),
+    ] {
         let s = Kinetics::new(&m, &o).unwrap().analyse().unwrap();
         let ratio = s.nose_rate.0 / s.critical_rate.0;
-        assert!((2.0..40.0).contains(&ratio), "ratio {ratio}");
+        assert!(
+            ratio > 10.0,
+            "ratio {ratio}: the nose method should overestimate"
+        );
+        assert!(rel(ratio, want) < 5e-3, "ratio {ratio} vs {want}");
     }
 }
 
@@ -391,17 +430,31 @@ fn calibrated_alpha_reproduces_its_target() {
 
 #[test]
 fn heterogeneous_nuclei_raise_the_critical_rate() {
+    // More pre-existing nuclei, strictly more crystal: R_c rises at every step.
     let (m, _) = with_nuclei();
+    let with = |nh: f64| KineticOptions {
+        heterogeneous_nuclei_per_m3: nh,
+        ..KineticOptions::default()
+    };
     let mut last = 0.0;
     for nh in [0.0, 1e3, 1e6, 1e9, 1e12] {
-        let o = KineticOptions {
-            heterogeneous_nuclei_per_m3: nh,
-            ..KineticOptions::default()
-        };
-        let rc = Kinetics::new(&m, &o).unwrap().critical_rate().unwrap().0;
-        assert!(rc >= last, "{nh}: {rc} < {last}");
+        let rc = Kinetics::new(&m, &with(nh))
+            .unwrap()
+            .critical_rate()
+            .unwrap()
+            .0;
+        assert!(rc > last, "{nh}: {rc} <= {last}");
         last = rc;
     }
+    // Source: docs/science.md, "Continuous cooling": when pre-existing nuclei
+    // dominate, (4π/3) N_h (G/R)³ = X_c, so R_c → G (4π N_h / (3 X_c))^(1/3), with
+    // G = ∫ U dT over the window; G here from the dense trapezoid oracle.
+    let nh = 1e18;
+    let k = Kinetics::new(&m, &with(nh)).unwrap();
+    let g = crate::oracle::dense_growth_integral(&k, 400_000);
+    let limit = g * (4.0 * PI * nh / (3.0 * 1e-6)).cbrt();
+    let rc = k.critical_rate().unwrap().0;
+    assert!(rel(rc, limit) < CRITICAL_RATE_RTOL, "{rc} vs {limit}");
 }
 
 #[test]

@@ -33,3 +33,17 @@ pub fn dense_reference_critical_rate(k: &Kinetics, points: usize) -> f64 {
         .mul_add(0.25, 0.0)
         .exp()
 }
+
+/// ∫ U dT over [T_e, T_L] by the trapezoid rule on `points` intervals, with
+/// the fastest-growing phase's U (one phase in the checks that use it).
+pub fn dense_growth_integral(k: &Kinetics, points: usize) -> f64 {
+    let (a, b) = (k.freeze_temperature().0, k.liquidus().0);
+    let h = (b - a) / points as f64;
+    (0..=points)
+        .map(|n| {
+            let u = k.rates(Kelvin((a + h * n as f64).min(b))).growth_m_per_s();
+            let w = if n == 0 || n == points { 0.5 } else { 1.0 };
+            w * h * u
+        })
+        .sum()
+}

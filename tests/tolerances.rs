@@ -19,6 +19,31 @@ pub const ORACLE_RTOL: f64 = 2.5e-4;
 /// Values quoted to 5–6 significant figures (regression values).
 pub const PRINTED_5SF_RTOL: f64 = 1e-4;
 
+/// The time-domain path integral on 1 K panels against the temperature-domain
+/// quadrature: the path's own resolution (measured 2e-4 to 6e-4 on the demo card).
+pub const PATH_RTOL: f64 = 1e-3;
+
+/// The nose-method rate over R_c of the demo card and of the screw/Hoffman melt
+/// of `tests/kinetics_reference.rs`, as computed (pinned, see the test).
+pub const NOSE_RATIO_CARD: f64 = 12.4;
+/// See [`NOSE_RATIO_CARD`].
+pub const NOSE_RATIO_SCREW_HOFFMAN: f64 = 11.6;
+
+/// The invented demo set's fit residual at the fixpoints of the two published
+/// soda-lime glasses it was tuned to (measured at most 4.35 K; README: 4.5 K).
+pub const DEMO_FIXPOINT_RESIDUAL_K: f64 = 4.5;
+/// The same for their liquidus (measured 2.1 K and 4.1 K; README: 5 K).
+pub const DEMO_LIQUIDUS_RESIDUAL_K: f64 = 5.0;
+
+/// Batch masses and costs against a hand computation: the programme may move
+/// every oxide by its tolerance, 1e-5 kg per kg of glass, which shifts a mass
+/// by a few 1e-5 kg; 5e-5 kg (or 5e-5 of the currency) holds that.
+pub const LP_KG_TOL: f64 = 5e-5;
+/// The oxide balance of a batch re-melted on paper, wt%: each of up to seven
+/// oxides may fall short by 0.001 wt%, and renormalising the delivered mass
+/// to 100 % moves every share by up to 7 × 0.001 × its fraction: at most 0.008.
+pub const LP_DELIVERED_WT_PCT_TOL: f64 = 0.008;
+
 /// Coverage of stated intervals over many seeded draws may stray from its
 /// nominal value by this many binomial standard deviations, √(p(1 − p)/n):
 /// a correct interval fails by chance with probability ~6e-5, while standard

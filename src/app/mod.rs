@@ -37,6 +37,7 @@ pub fn run(cli: Cli) -> Result<Outcome, Error> {
         Command::Screen(a) => screen::screen(a),
         Command::Check(a) => screen::check(a),
         Command::Report(a) => screen::report(a),
+        Command::Merge(a) => screen::merge(a),
     }
 }
 

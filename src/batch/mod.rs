@@ -360,6 +360,7 @@ impl GlassCost for CostModel {
 mod reference_tests {
     use super::*;
     use crate::composition::Basis;
+    use crate::tolerances::{LP_DELIVERED_WT_PCT_TOL, LP_KG_TOL};
 
     fn single(name: &str, formula: &str, price: f64) -> RawMaterial {
         RawMaterial::from_formula(name, formula, 100.0, price, None).unwrap()
@@ -429,29 +430,29 @@ mod reference_tests {
         let glass = Composition::parse("SiO2=74 Na2O=16 CaO=10", Basis::WtPercent, 0.0).unwrap();
         let b = least_cost_batch(&raws, &glass, 1.0, &BatchSettings::default()).unwrap();
         let kg = |n: &str| b.lines.iter().find(|l| l.name == n).unwrap().mass_kg;
-        assert!((kg("sand") - 0.740).abs() < 5e-4, "{}", kg("sand"));
+        assert!((kg("sand") - 0.740).abs() < LP_KG_TOL, "{}", kg("sand"));
         assert!(
-            (kg("soda ash") - 0.27361).abs() < 5e-4,
+            (kg("soda ash") - 0.27361).abs() < LP_KG_TOL,
             "{}",
             kg("soda ash")
         );
         assert!(
-            (kg("limestone") - 0.17848).abs() < 5e-4,
+            (kg("limestone") - 0.17848).abs() < LP_KG_TOL,
             "{}",
             kg("limestone")
         );
         assert!(
-            (b.cost_per_kg_glass - 0.19773).abs() < 0.005,
+            (b.cost_per_kg_glass - 0.19773).abs() < LP_KG_TOL,
             "{}",
             b.cost_per_kg_glass
         );
         // CO2 released: (0.27361 − 0.16) + (0.17848 − 0.10) kg.
         assert!(
-            (b.gas_kg - (0.11361 + 0.07848)).abs() < 5e-4,
+            (b.gas_kg - (0.11361 + 0.07848)).abs() < LP_KG_TOL,
             "{}",
             b.gas_kg
         );
-        assert!((b.batch_to_glass_ratio - 1.19209).abs() < 5e-4);
+        assert!((b.batch_to_glass_ratio - 1.19209).abs() < LP_KG_TOL);
     }
 
     #[test]
@@ -592,7 +593,7 @@ mod reference_tests {
             for (name, got) in &batch.delivered_wt_pct {
                 let o: Oxide = name.parse().unwrap();
                 assert!(
-                    (got - want[o.index()]).abs() < 0.01,
+                    (got - want[o.index()]).abs() < LP_DELIVERED_WT_PCT_TOL,
                     "{text}: {name} {got} vs {}",
                     want[o.index()]
                 );

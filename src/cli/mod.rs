@@ -56,13 +56,27 @@ pub enum Command {
     ///
     /// Reads a screen config (see configs/demo-screen.toml), evaluates a
     /// space-filling set of candidates in parallel, refines the best, and
-    /// writes a ranked shortlist with batch sheets to --out. Ctrl-C stops after
-    /// the current chunk; --resume continues where it stopped.
+    /// writes a ranked shortlist with batch sheets to --out. Ctrl-C (or a
+    /// SIGTERM from a batch system) stops at the next safe point, the work
+    /// saved; --resume continues where it stopped.
     ///
-    /// Example:
+    /// Examples:
     ///   quenchwise screen configs/demo-screen.toml --out results/
+    ///   quenchwise screen configs/demo-screen.toml --out results/ --resume
+    ///   quenchwise screen configs/demo-screen.toml --out shard-1 --shard 1/4
     #[command(verbatim_doc_comment)]
     Screen(ScreenArgs),
+    /// Combine the shards of a split screen into one run's outputs
+    ///
+    /// Each shard is a `screen --shard K/N` run (say one Slurm array task);
+    /// merge checks that the shards come from the same config, files and seed
+    /// and cover every chunk once, then refines and shortlists as one
+    /// process would: the shortlist is the one an unsplit run writes.
+    ///
+    /// Example:
+    ///   quenchwise merge --out results/ shard-0 shard-1 shard-2 shard-3
+    #[command(verbatim_doc_comment)]
+    Merge(MergeArgs),
     /// Validate a screen config without running it.
     Check(CheckArgs),
     /// Write RESULTS_DIR/report.html: one self-contained page with plots.
@@ -322,21 +336,60 @@ pub struct ScreenArgs {
     /// Output folder for the shortlist, tables, batch sheets and checkpoints.
     #[arg(long, value_name = "DIR")]
     pub out: PathBuf,
-    /// Continue an interrupted run in --out (same config required).
-    #[arg(long, conflicts_with = "force")]
-    pub resume: bool,
-    /// Overwrite an existing, non-empty --out folder.
-    #[arg(long)]
-    pub force: bool,
+    #[command(flatten)]
+    pub folder: FolderArgs,
+    /// Evaluate only shard K of N (0-based) of the first pass.
+    ///
+    /// For a cluster job array; combine the shard folders with `quenchwise
+    /// merge`. Example: --shard 3/8
+    #[arg(long, value_name = "K/N")]
+    pub shard: Option<String>,
     /// Worker threads [default: the config's, else all cores].
     #[arg(long, value_name = "N")]
     pub threads: Option<usize>,
-    /// Do not write report.html at the end (write it later with `report`).
-    #[arg(long)]
-    pub no_report: bool,
     /// Stop after N new chunks as if interrupted (for testing resume).
     #[arg(long, value_name = "N", hide = true)]
     pub stop_after_chunks: Option<usize>,
+}
+
+/// How a run treats its --out folder.
+#[derive(Debug, Args)]
+pub struct FolderArgs {
+    /// Continue the interrupted run in --out (same config and input files).
+    ///
+    /// It must mean the same: the config (comments aside) and every file it
+    /// reads are checked.
+    #[arg(long, conflicts_with = "force")]
+    pub resume: bool,
+    /// Start again in a folder an earlier run wrote.
+    ///
+    /// Removes only the files quenchwise listed there (.quenchwise-files),
+    /// never anything else, and refuses a folder quenchwise did not make.
+    #[arg(long)]
+    pub force: bool,
+    /// Do not write report.html at the end (write it later with `report`).
+    #[arg(long)]
+    pub no_report: bool,
+    /// Keep the checkpoints (.work/chunk-*.json) of a finished run.
+    ///
+    /// They are removed by default.
+    #[arg(long)]
+    pub keep_checkpoints: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct MergeArgs {
+    /// The --out folders of the shard runs, in any order.
+    #[arg(value_name = "SHARD_DIR", required = true)]
+    pub shards: Vec<PathBuf>,
+    /// Output folder for the merged shortlist, tables, batch sheets.
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    #[command(flatten)]
+    pub folder: FolderArgs,
+    /// Worker threads [default: the config's, else all cores].
+    #[arg(long, value_name = "N")]
+    pub threads: Option<usize>,
 }
 
 #[derive(Debug, Args)]

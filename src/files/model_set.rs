@@ -657,8 +657,22 @@ mod tests {
     #[test]
     fn built_in_files_parse() {
         let m = parse_model_set(&Source::new("demo", DEMO_MODELS)).unwrap();
-        assert!(!m.phases.is_empty());
-        parse_viscosity_model(&Source::new("grd", GRD2008_VISCOSITY)).unwrap();
+        let names: Vec<&str> = m.phases.iter().map(|p| p.name.as_str()).collect();
+        assert_eq!(
+            names,
+            [
+                "devitrite",
+                "wollastonite",
+                "cristobalite",
+                "diopside",
+                "sodium disilicate"
+            ]
+        );
+        // Values as written in the file.
+        assert_eq!(m.phases[2].enthalpy_of_fusion_j_per_mol, 8900.0);
+        assert_eq!(m.phases[2].melting_point.0, 1999.0);
+        let v = parse_viscosity_model(&Source::new("grd", GRD2008_VISCOSITY)).unwrap();
+        assert!(v.name.contains("Giordano"), "{}", v.name);
     }
 
     #[test]

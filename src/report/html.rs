@@ -1,5 +1,5 @@
 //! The report of a screen as one self-contained HTML page (inline SVG,
-//! inline CSS, no scripts, no network) that says which recipes to melt first
+//! inline CSS, no scripts, no network; well-formed XML, so it can be checked) that says which recipes to melt first
 //! and why. It renders values it is given; reading a results folder is the
 //! job of `files::results`.
 
@@ -75,12 +75,12 @@ pub struct ScreenReport<'a> {
 }
 
 fn property_table(e: &Evaluation) -> String {
-    let mut t = String::from("<table><tr><th class=l>property</th><th>°C</th><th>K</th></tr>");
+    let mut t = String::from("<table><tr><th class=\"l\">property</th><th>°C</th><th>K</th></tr>");
     let row = |t: &mut String, name: &str, k: Option<f64>| {
         if let Some(k) = k {
             let _ = write!(
                 t,
-                "<tr><td class=l>{name}</td><td>{:.1}</td><td>{:.1}</td></tr>",
+                "<tr><td class=\"l\">{name}</td><td>{:.1}</td><td>{:.1}</td></tr>",
                 kelvin_to_celsius(k),
                 k
             );
@@ -107,15 +107,15 @@ fn property_table(e: &Evaluation) -> String {
         Some(e.glass_transition_k),
     );
     row(&mut t, "TTT nose", Some(e.nose_temperature_k));
-    t.push_str("</table><table><tr><th class=l>kinetics</th><th>value</th></tr>");
+    t.push_str("</table><table><tr><th class=\"l\">kinetics</th><th>value</th></tr>");
     let _ = write!(
         t,
-        "<tr><td class=l>critical cooling rate R_c</td><td>{} K/s ({} K/min)</td></tr>\
-         <tr><td class=l>nose-method rate</td><td>{} K/s</td></tr>\
-         <tr><td class=l>nose time</td><td>{} s</td></tr>\
-         <tr><td class=l>T_g/T_L</td><td>{}</td></tr>\
-         <tr><td class=l>thickest glassy slab (both faces on a 25 °C plate)</td><td>{} mm</td></tr>\
-         <tr><td class=l>kinetic factor α</td><td>{:.4} ({})</td></tr></table>",
+        "<tr><td class=\"l\">critical cooling rate R_c</td><td>{} K/s ({} K/min)</td></tr>\
+         <tr><td class=\"l\">nose-method rate</td><td>{} K/s</td></tr>\
+         <tr><td class=\"l\">nose time</td><td>{} s</td></tr>\
+         <tr><td class=\"l\">T_g/T_L</td><td>{}</td></tr>\
+         <tr><td class=\"l\">thickest glassy slab (both faces on a 25 °C plate)</td><td>{} mm</td></tr>\
+         <tr><td class=\"l\">kinetic factor α</td><td>{:.4} ({})</td></tr></table>",
         sig(e.critical_rate_k_per_s),
         sig(e.critical_rate_k_per_min),
         sig(e.nose_rate_k_per_s),
@@ -134,9 +134,9 @@ fn property_table(e: &Evaluation) -> String {
         }
     );
     if !e.warnings.is_empty() {
-        t.push_str("<p class=note>");
+        t.push_str("<p class=\"note\">");
         for w in &e.warnings {
-            let _ = write!(t, "⚠ {}<br>", esc(w));
+            let _ = write!(t, "⚠ {}<br/>", esc(w));
         }
         t.push_str("</p>");
     }
@@ -153,7 +153,7 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
         .collect();
     let _ = write!(
         h,
-        "<h3 id=rank-{0}>Rank {0}: {1} (mol%)</h3>",
+        "<h3 id=\"rank-{0}\">Rank {0}: {1} (mol%)</h3>",
         l.rank,
         esc(&describe(e, &parts))
     );
@@ -216,7 +216,7 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
         Err(err) => {
             let _ = write!(
                 h,
-                "<p class=caution>no curves: {}</p>",
+                "<p class=\"caution\">no curves: {}</p>",
                 esc(&err.to_string())
             );
         }
@@ -245,7 +245,7 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
     let mut h = String::new();
     let _ = write!(
         h,
-        "<!DOCTYPE html><html lang=en><head><meta charset=utf-8><title>quenchwise screen report</title><style>{STYLE}</style></head><body>"
+        "<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\"/><title>quenchwise screen report</title><style>{STYLE}</style></head><body>"
     );
     let _ = write!(
         h,
@@ -253,7 +253,7 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
     );
     let _ = write!(
         h,
-        "<p class=caution><b>Safety.</b> {}</p>",
+        "<p class=\"caution\"><b>Safety.</b> {}</p>",
         esc(CAUTION.trim_start_matches("caution: "))
     );
     // Job summary.
@@ -261,7 +261,7 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
     let row = |h: &mut String, k: &str, v: String| {
         let _ = write!(
             h,
-            "<tr><td class=l>{k}</td><td class=l>{}</td></tr>",
+            "<tr><td class=\"l\">{k}</td><td class=\"l\">{}</td></tr>",
             esc(&v)
         );
     };
@@ -361,20 +361,20 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
     row(&mut h, "seed", r.seed.to_string());
     h.push_str("</table>");
     if plan.models.about.invented {
-        h.push_str("<p class=caution>The model set has <b>invented</b> coefficients: this report demonstrates the tool and must not drive real melts.</p>");
+        h.push_str("<p class=\"caution\">The model set has <b>invented</b> coefficients: this report demonstrates the tool and must not drive real melts.</p>");
     }
     // Shortlist table.
     let _ = write!(h, "<h2>Shortlist</h2>");
     if r.recipes.is_empty() {
-        h.push_str("<p class=caution>No recipe met every limit. See the constraint summary below for the limit that binds.</p>");
+        h.push_str("<p class=\"caution\">No recipe met every limit. See the constraint summary below for the limit that binds.</p>");
     } else {
         h.push_str("<table><tr><th>rank</th>");
         for (o, _) in &r.recipes[0].mol_pct {
-            let _ = write!(h, "<th>{o}<br>mol%</th>");
+            let _ = write!(h, "<th>{o}<br/>mol%</th>");
         }
-        h.push_str("<th>R_c<br>K/s</th><th>margin<br>decades</th><th>melting<br>°C</th><th>liquidus<br>°C</th><th class=l>primary phase</th><th>T_g<br>°C</th><th>cost<br>per kg</th></tr>");
+        h.push_str("<th>R_c<br/>K/s</th><th>margin<br/>decades</th><th>melting<br/>°C</th><th>liquidus<br/>°C</th><th class=\"l\">primary phase</th><th>T_g<br/>°C</th><th>cost<br/>per kg</th><th class=\"l\">binding</th></tr>");
         for l in &r.recipes {
-            let _ = write!(h, "<tr><td><a href=#rank-{0}>{0}</a></td>", l.rank);
+            let _ = write!(h, "<tr><td><a href=\"#rank-{0}\">{0}</a></td>", l.rank);
             for (_, v) in &l.mol_pct {
                 let _ = write!(h, "<td>{v:.2}</td>");
             }
@@ -383,7 +383,7 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
             let w = &l.row;
             let _ = write!(
                 h,
-                "<td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class=l>{}</td><td>{}</td><td>{}</td></tr>",
+                "<td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"l\">{}</td><td>{}</td><td>{}</td><td class=\"l\">{}</td></tr>",
                 w.critical_rate_k_per_s.map(sig).unwrap_or_default(),
                 f(w.margin_decades, 2),
                 c(w.melting_temperature_k),
@@ -391,6 +391,7 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
                 esc(w.primary_phase.as_deref().unwrap_or_default()),
                 c(w.glass_transition_k),
                 f(w.cost_per_kg, 3),
+                esc(&w.binding),
             );
         }
         h.push_str("</table>");
@@ -427,7 +428,7 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
             Err(err) => {
                 let _ = write!(
                     h,
-                    "<h3>Rank {}</h3><p class=caution>could not be re-evaluated: {}</p>",
+                    "<h3>Rank {}</h3><p class=\"caution\">could not be re-evaluated: {}</p>",
                     l.rank,
                     esc(err)
                 );
@@ -440,6 +441,6 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
         "<h2>Constraint summary</h2><pre>{}</pre>",
         esc(r.summary.trim())
     );
-    let _ = write!(h, "<p class=note>Written by quenchwise {}. The numbers are model estimates to shortlist experiments; confirm glassiness by XRD or DSC.</p></body></html>", env!("CARGO_PKG_VERSION"));
+    let _ = write!(h, "<p class=\"note\">Written by quenchwise {}. The numbers are model estimates to shortlist experiments; confirm glassiness by XRD or DSC.</p></body></html>", env!("CARGO_PKG_VERSION"));
     h
 }

@@ -408,6 +408,15 @@ mod tests {
         assert_eq!(sig(0.01534), "0.015");
         assert_eq!(sig(1.234e-7), "1.23e-7");
         assert_eq!(sig(1234.0), "1234");
+    }
+
+    #[test]
+    fn durations_choose_a_readable_unit() {
         assert_eq!(duration(90.0), "90.0 s (90.0 s)");
+        assert_eq!(duration(600.0), "600 s (10.0 min)");
+        assert_eq!(duration(3.0 * 3600.0), "10800 s (3.00 h)");
+        assert_eq!(duration(3.0 * 86400.0), "2.59e5 s (3.00 days)");
+        assert_eq!(duration(3.0 * 365.25 * 86400.0), "9.47e7 s (3.00 years)");
+        assert_eq!(duration(f64::INFINITY), "never");
     }
 }
