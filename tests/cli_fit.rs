@@ -199,7 +199,13 @@ fn the_demo_fits_and_predicts_its_held_out_glass_within_the_stated_error() {
     )
     .code(0)
     .stdout_has("shortlisted");
-    assert!(d.join("res/shortlist.csv").exists());
+    let shortlist = std::fs::read_to_string(d.join("res/shortlist.csv")).unwrap();
+    // The oxides the lab's data lack ([0, 0] in the fitted domains) are no
+    // limit a recipe without them sits on.
+    assert!(
+        !shortlist.contains("B2O3 max of the viscosity model"),
+        "{shortlist}"
+    );
 }
 
 #[test]
