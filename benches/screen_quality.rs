@@ -331,6 +331,7 @@ fn noise() {
     let model = ScreenModel {
         problem: &p.problem,
         simplex: &simplex,
+        away_from: &[],
     };
     let y0 = [2.64, 0.28, 17.85, 0.13, 4.07, 6.42];
     for i in [0usize, 2, 4] {
@@ -386,6 +387,7 @@ fn methods(kind: ObjectiveKind) {
     let model = ScreenModel {
         problem,
         simplex: &simplex,
+        away_from: &[],
     };
     let mut rows = Vec::new();
     for k in 0..screen::chunk_count(&p.search) {

@@ -246,6 +246,37 @@ fn a_truncated_or_empty_chunk_is_computed_again() {
     assert_same_outputs(&d.join("whole"), &out);
 }
 
+#[test]
+fn leftover_partial_files_of_a_kill_do_not_get_in_the_way() {
+    let d = temp_dir("leftover-partial");
+    let p = plan_in(&d, SMALL);
+    run(&p, &ScreenOptions::new(d.join("whole"))).unwrap();
+    let out = d.join("out");
+    let mut o = ScreenOptions::new(&out);
+    o.stop_after_chunks = Some(3);
+    run(&p, &o).unwrap();
+    // What a SIGKILL in the middle of writes leaves: half a temp chunk, a
+    // truncated candidates table, a temp shortlist.
+    std::fs::write(out.join(".work/chunk-000003.partial"), b"[{\"index\":").unwrap();
+    std::fs::write(out.join("candidates.parquet.partial"), b"PAR1").unwrap();
+    std::fs::write(out.join("shortlist.partial"), b"rank,SiO").unwrap();
+    // (listed, as the run lists a file before writing it)
+    let mut listed = std::fs::read_to_string(out.join(MANIFEST)).unwrap();
+    listed.push_str("shortlist.json\n");
+    std::fs::write(out.join(MANIFEST), listed).unwrap();
+    let mut o = ScreenOptions::new(&out);
+    o.resume = true;
+    assert!(matches!(run(&p, &o).unwrap(), Outcome::Finished { .. }));
+    assert_same_outputs(&d.join("whole"), &out);
+    for f in [
+        ".work/chunk-000003.partial",
+        "candidates.parquet.partial",
+        "shortlist.partial",
+    ] {
+        assert!(!out.join(f).exists(), "{f} left behind");
+    }
+}
+
 // ---- R5: a stop is honoured at every safe point, and resumes ----
 
 /// Asks to stop at its `at`-th question, and counts the questions.

@@ -2,10 +2,10 @@
 //! curve, a picture), or a whole table of either evaluated in parallel.
 
 use super::input;
-use super::models::load_models;
+use super::models::{base_options, load_models};
 use super::progress::Progress;
 use super::{threads, Outcome};
-use crate::cli::EvalArgs;
+use crate::cli::{EvalArgs, KineticArgs};
 use polars::prelude::{DataFrame, DataType};
 use quenchwise::assess::{
     evaluate_composition, evaluate_melt, Calibration, Evaluation, SlabQuench,
@@ -25,7 +25,7 @@ use std::io::Write;
 use std::path::Path;
 
 /// The kinetic options given on the command line.
-fn overrides(a: &EvalArgs) -> KineticOverrides {
+pub fn overrides(a: &KineticArgs) -> KineticOverrides {
     KineticOverrides {
         detectable_fraction: a.detectable_fraction,
         driving_force: a.driving_force.as_deref().map(|v| {
@@ -105,7 +105,7 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
         }
         let out = table_out()?;
         let table = read_melt_table(p)?;
-        let base = overrides(&a).apply(KineticOptions::default());
+        let base = overrides(&a.kinetics).apply(KineticOptions::default());
         return evaluate_table(table, out, |values| {
             let (melt, opts) = values.build(&base).map_err(|e| e.to_string())?;
             evaluate_melt(&melt, &opts, slab, &Calibration::None).map_err(|e| e.to_string())
@@ -119,7 +119,7 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
         } else {
             Basis::MolPercent
         };
-        let opts = overrides(&a).apply(KineticOptions::default());
+        let opts = overrides(&a.kinetics).apply(base_options(&models));
         let (table, other) = read_composition_table(p)?;
         if !other.is_empty() {
             eprintln!(
@@ -145,14 +145,14 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
             &Source::new(p.display().to_string(), &text),
             &KineticOptions::default(),
         )?;
-        let opts = overrides(&a).apply(card_opts);
+        let opts = overrides(&a.kinetics).apply(card_opts);
         evaluate_melt(&melt, &opts, slab, &cal)
             .with_context(|| format!("evaluating {}", p.display()))?
     } else {
         let wt = a.wt_text.as_deref().filter(|t| !t.is_empty());
         let comp = input::composition(a.mol.as_deref(), wt, a.recipe.as_deref(), a.sum_tolerance)?;
         let models = load_models(a.models.as_deref(), a.viscosity_model.as_deref())?;
-        let opts = overrides(&a).apply(KineticOptions::default());
+        let opts = overrides(&a.kinetics).apply(base_options(&models));
         evaluate_composition(&models, &comp, &opts, slab, &cal)?
     };
     let kinetics = evaluation.kinetics()?;
@@ -173,10 +173,20 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
             cal,
             Calibration::ToCriticalRate(_) | Calibration::ToNoseTime(_)
         ) {
-            text.push_str(&format!(
-                "\nto keep this calibration, set turnbull_alpha = {:.5} (and calibrated_against = \"...\") in your model set or melt card\n",
-                evaluation.turnbull_alpha
-            ));
+            // The calibration names its phase in parentheses (assess::calibrate).
+            let phase = evaluation.melt.phases.iter().find(|p| {
+                evaluation
+                    .calibrated_against
+                    .as_deref()
+                    .is_some_and(|c| c.ends_with(&format!("({})", p.name)))
+            });
+            if let Some(p) = phase {
+                text.push_str(&format!(
+                    "\nthis calibration is not saved: α of {} = {:.5}. To keep it, put the measurement in a table and run `quenchwise fit kinetics` (it writes a model set with α and its standard error), or set turnbull_alpha in your melt card\n",
+                    p.name,
+                    p.turnbull_alpha()
+                ));
+            }
         }
         write_stdout(&text)?;
     }

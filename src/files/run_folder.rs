@@ -806,6 +806,14 @@ fn finish(
             total,
         });
     }
+    // Temp files of listed outputs left by a kill during an earlier attempt.
+    for rel in read_manifest(folder.root())? {
+        if !rel.ends_with('/') {
+            for tmp in temp_names(&folder.root().join(&rel)) {
+                let _ = std::fs::remove_file(tmp);
+            }
+        }
+    }
     let finished = folder.own(".work/finished")?;
     std::fs::write(&finished, b"").map_err(|e| Error::io("writing", &finished, e))?;
     if !o.keep_checkpoints {
@@ -825,8 +833,9 @@ fn finish(
     })
 }
 
-/// Remove the chunks and refined seeds of a finished run (the header and the
-/// `finished` mark stay, so that `--resume` knows there is nothing to do).
+/// Remove the chunks and refined seeds of a finished run, and temp files a
+/// kill left behind (the header and the `finished` mark stay, so that
+/// `--resume` knows there is nothing to do).
 fn remove_checkpoints(folder: &RunFolder) -> Result<(), Error> {
     let work = folder.root().join(".work");
     let Ok(entries) = std::fs::read_dir(&work) else {

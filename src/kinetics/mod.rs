@@ -30,10 +30,12 @@
 //! Files: [`melt`] (the melt and the options), [`rates`] (I and U),
 //! [`ttt`] (isothermal curve and nose), [`cooling`] (continuous cooling,
 //! critical rate, paths, slab), [`calibration`] (α from a measurement),
-//! [`quadrature`] (the adaptive panels).
+//! [`fit`] (α of several phases and the nuclei density from many
+//! measurements), [`quadrature`] (the adaptive panels).
 
 pub mod calibration;
 pub mod cooling;
+pub mod fit;
 pub mod melt;
 pub mod quadrature;
 pub mod rates;
@@ -76,6 +78,8 @@ pub enum KineticsError {
     BadPath { index: usize },
     #[error("no kinetic factor in [{lo}, {hi}] reproduces the measured value")]
     CalibrationBracket { lo: f64, hi: f64 },
+    #[error("{0}")]
+    Unreachable(String),
     #[error("numerical failure: {0}")]
     Numerical(String),
     #[error("a melt needs at least one crystal phase")]

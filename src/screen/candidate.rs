@@ -247,9 +247,12 @@ pub(crate) fn domain_distance(
         for o in crate::composition::Oxide::ALL {
             let i = o.index();
             for (v, side) in [(d.min[i] - x[i], "min"), (x[i] - d.max[i], "max")] {
-                // Faces at 0 or 100 mol% are no model limit worth naming.
-                let trivial =
-                    (side == "min" && d.min[i] <= 0.0) || (side == "max" && d.max[i] >= 100.0);
+                // Faces at 0 or 100 mol% are no model limit worth naming, nor
+                // is a model's "none of this oxide" ([0, 0], as a fitted
+                // model gives the oxides its data lack) for a recipe without it.
+                let trivial = (side == "min" && d.min[i] <= 0.0)
+                    || (side == "max" && d.max[i] >= 100.0)
+                    || (side == "max" && d.max[i] <= 0.0 && x[i] <= 0.0);
                 if trivial {
                     continue;
                 }

@@ -38,6 +38,9 @@ const DOMAIN_UNIT_MOL_PCT: f64 = 10.0;
 pub struct ScreenModel<'a> {
     pub problem: &'a ScreenProblem,
     pub simplex: &'a Simplex,
+    /// Recipes to stay at least the shortlist's distance away from (the
+    /// shortlist picked so far): one constraint each, 1 − |x − p|²/d² ≤ 0.
+    pub away_from: &'a [[f64; N_OXIDES]],
 }
 
 impl ScreenModel<'_> {
@@ -77,6 +80,12 @@ impl ConstrainedModel for ScreenModel<'_> {
                 admissible = false;
             }
         }
+        let d2 = problem.min_distance_mol_pct * problem.min_distance_mol_pct;
+        if d2 > 0.0 {
+            for p in self.away_from {
+                g.push(1.0 - super::simplex::dist2(&x, p) / d2);
+            }
+        }
         let feasible = g.iter().all(|v| *v <= 0.0);
         if uses_margin(problem) {
             // Vouching is a constraint here: the objective leaves out the
@@ -97,8 +106,9 @@ pub fn settings(search: &Search) -> sqp::Settings {
     }
 }
 
-/// Refine one seed; returns the best point found, evaluated, and the number
-/// of evaluations the refinement used.
+/// Refine one seed, staying at least the shortlist's distance from every
+/// recipe in `away_from`; returns the best point found, evaluated, and the
+/// number of evaluations the refinement used.
 ///
 /// # Errors
 /// The seed lies outside the composition limits.
@@ -108,6 +118,7 @@ pub fn refine(
     simplex: &Simplex,
     seed_no: usize,
     seed: &[f64; N_OXIDES],
+    away_from: &[[f64; N_OXIDES]],
 ) -> Result<(Candidate, usize), RefineError> {
     let polytope = Polytope::new(problem, simplex);
     let y0 = simplex.free_of(seed);
@@ -115,7 +126,11 @@ pub fn refine(
     if worst > 1e-6 {
         return Err(RefineError::SeedOutside(worst));
     }
-    let model = ScreenModel { problem, simplex };
+    let model = ScreenModel {
+        problem,
+        simplex,
+        away_from,
+    };
     let out = sqp::minimise(&model, &polytope, &y0, &settings(search));
     // Rounding leaves a coordinate on its bound off by ~1e-15: put it on it.
     let y: Vec<f64> = out

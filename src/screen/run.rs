@@ -12,9 +12,10 @@
 use super::candidate::{evaluate_candidate_with, Candidate, Pass, Row};
 use super::first_pass::{chunk_count, space_filling_chunk};
 use super::limits::LimitSummary;
+use super::polytope::ACTIVE_TOL_MOL_PCT;
 use super::problem::{ScreenProblem, Search};
 use super::refine::refine;
-use super::select::Pools;
+use super::select::{objective_key, rank, Pools};
 use super::simplex::Simplex;
 use crate::assess::SlabQuench;
 use crate::error::Error;
@@ -174,7 +175,7 @@ fn forward_notices(store: &mut dyn ScreenStore, observer: &mut dyn ScreenObserve
 /// Run (or resume) a screen.
 ///
 /// # Errors
-/// The store or the observer fails, or argmin refuses a refinement.
+/// The store or the observer fails, or a refinement fails.
 pub fn run(
     problem: &ScreenProblem,
     search: &Search,
@@ -214,10 +215,12 @@ pub fn run(
         }
     }
     observer.first_pass_done();
-    // Refinement from the best distinct seeds (by penalised objective), as
-    // many at a time as there are worker threads, so that a stop request
-    // waits for one round at most.
-    let seeds = pools.seeds(problem, search);
+    // Refinement of the best distinct seeds by penalised objective, dealt
+    // out by primary phase, as many at a time as there are threads (a stop
+    // request waits for one round at most).
+    let seeds = pools.seeds(problem, search.refine_from);
+    let picks_to_refine = problem.shortlist_size.saturating_sub(1);
+    let total = seeds.len() + picks_to_refine;
     let mut refined: Vec<Option<Row>> = Vec::with_capacity(seeds.len());
     for i in 0..seeds.len() {
         let kept = store.load_refined(i);
@@ -231,7 +234,7 @@ pub fn run(
             return Ok(ScreenEnd::Interrupted {
                 stage: Stage::Refinement,
                 done: refined.iter().filter(|r| r.is_some()).count(),
-                total: seeds.len(),
+                total,
             });
         }
         let results: Vec<Result<(usize, Row), Error>> = {
@@ -239,7 +242,7 @@ pub fn run(
             batch
                 .par_iter()
                 .map(|&i| {
-                    let (c, n) = refine(problem, search, &simplex, i, &seeds[i])
+                    let (c, n) = refine(problem, search, &simplex, i, &seeds[i], &[])
                         .map_err(|e| Error::internal(format!("refining seed {i}: {e}")))?;
                     let mut row = Row::new(&c, problem);
                     row.evaluations = n;
@@ -260,13 +263,63 @@ pub fn run(
     for r in refined {
         pools.add(r);
     }
+    // The shortlist, one recipe at a time (docs/science.md, "The screen"):
+    // the best feasible recipe; then, for each further place, a refinement
+    // from the best seed at least the shortlist distance from every recipe
+    // picked so far, with that distance as a constraint, so that each place
+    // holds the best recipe that differs enough from those above it rather
+    // than a neighbour of one optimum.
+    let d = problem.min_distance_mol_pct;
+    let mut picks: Vec<Row> = Vec::new();
+    if let Some(first) = pools.best_feasible_away(&[], d) {
+        picks.push(first.clone());
+    }
+    for k in 0..picks_to_refine {
+        if picks.is_empty() {
+            break;
+        }
+        let away: Vec<[f64; crate::composition::N_OXIDES]> =
+            picks.iter().map(|r| r.composition()).collect();
+        if let Some(seed) = pools.best_seed_away(&away, d) {
+            let i = seeds.len() + k;
+            let kept = store.load_refined(i);
+            forward_notices(store, observer);
+            let row = match kept? {
+                Some(row) => row,
+                None => {
+                    if observer.stop_requested() {
+                        return Ok(ScreenEnd::Interrupted {
+                            stage: Stage::Refinement,
+                            done: seeds.len() + k,
+                            total,
+                        });
+                    }
+                    let (c, n) = refine(problem, search, &simplex, i, &seed, &away)
+                        .map_err(|e| Error::internal(format!("refining place {}: {e}", k + 2)))?;
+                    let mut row = Row::new(&c, problem);
+                    row.evaluations = n;
+                    store.save_refined(i, &row)?;
+                    row
+                }
+            };
+            observer.rows(std::slice::from_ref(&row))?;
+            pools.add(row);
+        }
+        match pools.best_feasible_away(&away, d) {
+            Some(next) => picks.push(next.clone()),
+            None => break,
+        }
+    }
+    picks.sort_by(|a, b| rank(a, b, objective_key));
     // Re-evaluate the shortlisted recipes from their compositions (this also
     // restores the warnings the pools dropped to save memory), with the slab
-    // estimate the batch sheets and the report show.
-    let shortlist = pools
-        .shortlist(problem)
-        .into_iter()
-        .map(|r| {
+    // estimate the batch sheets and the report show; a recipe held at the
+    // shortlist distance from another says so among its binding limits.
+    let compositions: Vec<_> = picks.iter().map(|r| r.composition()).collect();
+    let shortlist = picks
+        .iter()
+        .enumerate()
+        .map(|(k, r)| {
             let pass = if r.refined {
                 Pass::Refinement
             } else {
@@ -281,6 +334,17 @@ pub fn run(
             );
             let mut row = Row::new(&candidate, problem);
             row.evaluations = r.evaluations;
+            let x = r.composition();
+            for (j, other) in compositions.iter().enumerate().take(k) {
+                let dist = super::simplex::dist2(&x, other).sqrt();
+                if r.refined && dist <= d + ACTIVE_TOL_MOL_PCT {
+                    if !row.binding.is_empty() {
+                        row.binding.push_str(", ");
+                    }
+                    row.binding
+                        .push_str(&format!("{d} mol% from rank {}", j + 1));
+                }
+            }
             Shortlisted { row, candidate }
         })
         .collect();
