@@ -11,12 +11,17 @@
 //!   again, the missing one is, and the merge again equals the unsplit run.
 //!
 //! Every daemon it started is stopped (by the pids in their pid files) when
-//! the test ends, also when it fails. Without root or the Debian packages
+//! the test ends, also when it fails; a munged already running on the machine
+//! is left alone (the test's own munged has its own socket and key). The
+//! test works in one fixed folder (`$TMPDIR/quenchwise-slurm-test`) under a
+//! file lock, so two test runs on one machine (other worktrees) take turns,
+//! and daemons left by a run that was killed are found there and stopped. Without root or the Debian packages
 //! (`slurm-wlm`, `munge`) it says why and skips, unless
 //! `QUENCHWISE_REQUIRE_SLURM` is set (`.ci/run` sets it): then it fails.
 
-use crate::util::{root, run_in, temp_dir};
+use crate::util::{root, run_in};
 use polars::prelude::{CsvWriter, SerWriter};
+use std::io::Write;
 use std::os::unix::fs::{MetadataExt, PermissionsExt};
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
@@ -41,6 +46,83 @@ struct Cluster {
     conf: PathBuf,
     /// (name, pid file) of every daemon started, in order.
     daemons: Vec<(&'static str, PathBuf)>,
+    /// The machine-wide lock of this test, released (by dropping it) after
+    /// the daemons have stopped.
+    _lock: std::fs::File,
+}
+
+/// The folder of the test's cluster: fixed, so that what a killed run left
+/// behind is found by the next one.
+fn cluster_dir() -> PathBuf {
+    std::env::temp_dir().join("quenchwise-slurm-test")
+}
+
+/// The daemons a run keeps in `dir`: (name, pid file), in start order.
+fn daemon_files(dir: &Path) -> [(&'static str, PathBuf); 3] {
+    [
+        ("munged", dir.join("munge/munged.pid")),
+        ("slurmctld", dir.join("slurmctld.pid")),
+        ("slurmd", dir.join("slurmd.pid")),
+    ]
+}
+
+/// Wait for (and hold) the machine-wide lock of this test.
+fn take_lock() -> Result<std::fs::File, String> {
+    let path = std::env::temp_dir().join("quenchwise-slurm-test.lock");
+    let file = std::fs::OpenOptions::new()
+        .create(true)
+        .truncate(false)
+        .write(true)
+        .open(&path)
+        .map_err(|e| format!("{}: {e}", path.display()))?;
+    file.lock()
+        .map_err(|e| format!("locking {}: {e}", path.display()))?;
+    Ok(file)
+}
+
+/// Cancel every job of the cluster of `conf` and wait (up to 20 s) until
+/// none is left.
+fn cancel_jobs(conf: &Path) {
+    let client = |program: &str| {
+        let mut c = Command::new(program);
+        c.env("SLURM_CONF", conf);
+        c
+    };
+    let _ = client("scancel").args(["--user=root"]).output();
+    let start = Instant::now();
+    while start.elapsed() < Duration::from_secs(20) {
+        match client("squeue").args(["-h", "-o", "%i"]).output() {
+            Ok(o) if o.status.success() && o.stdout.is_empty() => break,
+            Ok(o) if o.status.success() => {}
+            _ => break,
+        }
+        std::thread::sleep(Duration::from_millis(300));
+    }
+}
+
+/// Stop the jobs and daemons an earlier run of this test left in `dir` (it
+/// was killed before it could): only a process of the right name whose
+/// command line names `dir`, so nothing else on the machine is touched.
+fn stop_leftovers(dir: &Path) {
+    let ours = |name: &str, pid: u32| {
+        let comm = std::fs::read_to_string(format!("/proc/{pid}/comm")).unwrap_or_default();
+        let cmdline = std::fs::read(format!("/proc/{pid}/cmdline")).unwrap_or_default();
+        alive(pid)
+            && comm.trim() == name
+            && String::from_utf8_lossy(&cmdline).contains(&*dir.to_string_lossy())
+    };
+    if read_pid(&dir.join("slurmctld.pid")).is_some_and(|pid| ours("slurmctld", pid)) {
+        cancel_jobs(&dir.join("slurm.conf"));
+    }
+    for (name, pid_file) in daemon_files(dir).into_iter().rev() {
+        let Some(pid) = read_pid(&pid_file) else {
+            continue;
+        };
+        if ours(name, pid) {
+            eprintln!("slurm test: stopping {name} (pid {pid}) left by an earlier run");
+            stop(name, &pid_file);
+        }
+    }
 }
 
 fn output_text(o: &Output) -> String {
@@ -148,11 +230,18 @@ impl Cluster {
                 ));
             }
         }
-        let dir = temp_dir("slurm");
+        let lock = take_lock()?;
+        let dir = cluster_dir();
+        stop_leftovers(&dir);
+        if dir.exists() {
+            std::fs::remove_dir_all(&dir).map_err(|e| format!("{}: {e}", dir.display()))?;
+        }
+        let [munged_pid, ctld_pid, d_pid] = daemon_files(&dir);
         let mut cluster = Cluster {
             conf: dir.join("slurm.conf"),
             dir: dir.clone(),
             daemons: Vec::new(),
+            _lock: lock,
         };
         // munged wants every folder on the way to its socket searchable by
         // all, and its key readable by its own user only.
@@ -173,12 +262,12 @@ impl Cluster {
         std::fs::set_permissions(&key, std::fs::Permissions::from_mode(0o600))
             .map_err(|e| e.to_string())?;
         let socket = munge.join("munge.sock");
-        cluster.daemons.push(("munged", munge.join("munged.pid")));
+        cluster.daemons.push(munged_pid.clone());
         let out = Command::new(MUNGED)
             .arg(format!("--socket={}", socket.display()))
             .arg(format!("--key-file={}", key.display()))
             .arg(format!("--log-file={}", munge.join("munged.log").display()))
-            .arg(format!("--pid-file={}", munge.join("munged.pid").display()))
+            .arg(format!("--pid-file={}", munged_pid.1.display()))
             .arg(format!(
                 "--seed-file={}",
                 munge.join("munged.seed").display()
@@ -241,11 +330,8 @@ PartitionName=debug Nodes=ALL Default=YES MaxTime=INFINITE State=UP
             socket = socket.display()
         );
         std::fs::write(&cluster.conf, conf).map_err(|e| e.to_string())?;
-        for (name, program, pid) in [
-            ("slurmctld", SLURMCTLD, "slurmctld.pid"),
-            ("slurmd", SLURMD, "slurmd.pid"),
-        ] {
-            cluster.daemons.push((name, dir.join(pid)));
+        for ((name, pid_file), program) in [(ctld_pid, SLURMCTLD), (d_pid, SLURMD)] {
+            cluster.daemons.push((name, pid_file));
             let out = Command::new(program)
                 .arg("-f")
                 .arg(&cluster.conf)
@@ -356,17 +442,7 @@ impl Drop for Cluster {
     fn drop(&mut self) {
         // Jobs first: their processes do not end with slurmd.
         if self.daemons.iter().any(|(n, _)| *n == "slurmctld") {
-            let _ = self.client("scancel").args(["--user=root"]).output();
-            let start = Instant::now();
-            while start.elapsed() < Duration::from_secs(20) {
-                let out = self.client("squeue").args(["-h", "-o", "%i"]).output();
-                match out {
-                    Ok(o) if o.status.success() && o.stdout.is_empty() => break,
-                    Ok(o) if o.status.success() => {}
-                    _ => break,
-                }
-                std::thread::sleep(Duration::from_millis(300));
-            }
+            cancel_jobs(&self.conf);
         }
         for (name, pid_file) in self.daemons.iter().rev() {
             stop(name, pid_file);
@@ -437,6 +513,24 @@ impl Submit<'_> {
             "job {job}: expected {state}, got {tasks:?}\n{}",
             self.logs()
         );
+    }
+
+    /// `sbatch slurm/merge.sh PROGRAM`, as merge.sh's comments show: the
+    /// job id.
+    fn merge_by_hand(&self) -> String {
+        let out = self
+            .cluster
+            .client("sbatch")
+            .args([
+                "--parsable",
+                "slurm/merge.sh",
+                env!("CARGO_BIN_EXE_quenchwise"),
+            ])
+            .current_dir(&self.work)
+            .output()
+            .unwrap();
+        assert!(out.status.success(), "{}", output_text(&out));
+        String::from_utf8_lossy(&out.stdout).trim().to_string()
     }
 
     fn chunk(&self, shard: usize, k: usize) -> PathBuf {
@@ -520,7 +614,12 @@ fn slurm_array_and_merge_reproduce_the_unsplit_screen() {
                 std::env::var(REQUIRE).is_err(),
                 "{REQUIRE} is set but Slurm cannot start here: {why}"
             );
-            println!("SKIPPED slurm_array_and_merge_reproduce_the_unsplit_screen: {why}");
+            // Straight to stderr, past the test harness's capture: the
+            // skip shows in a plain `cargo test`.
+            let _ = writeln!(
+                std::io::stderr(),
+                "SKIPPED slurm_array_and_merge_reproduce_the_unsplit_screen: {why}"
+            );
             return;
         }
     };
@@ -579,6 +678,17 @@ fn slurm_array_and_merge_reproduce_the_unsplit_screen() {
         s.logs()
     );
     assert!(!work.join("results").exists());
+    //    A merge submitted by hand now (no dependency) names the missing
+    //    shard: task 3 kept nothing.
+    let lone = s.merge_by_hand();
+    s.expect(&lone, "FAILED");
+    let log = s.log(&format!("merge-{lone}.log"));
+    assert!(
+        log.contains("shards/shard-3 holds no shard yet")
+            && log.contains("shard 3/4 missing: 3 of 4 given"),
+        "{log}"
+    );
+    assert!(!work.join("results").exists());
 
     // 2. The user clears the folder and reruns task 3 alone; the new merge
     //    combines shards from two array jobs into the unsplit result.
@@ -594,18 +704,7 @@ fn slurm_array_and_merge_reproduce_the_unsplit_screen() {
     //    by hand, as merge.sh's comments show).
     std::fs::rename(work.join("results"), work.join("results-first")).unwrap();
     std::fs::remove_file(s.chunk(2, 9)).unwrap();
-    let out = cluster
-        .client("sbatch")
-        .args([
-            "--parsable",
-            "slurm/merge.sh",
-            env!("CARGO_BIN_EXE_quenchwise"),
-        ])
-        .current_dir(&work)
-        .output()
-        .unwrap();
-    assert!(out.status.success(), "{}", output_text(&out));
-    let lone = String::from_utf8_lossy(&out.stdout).trim().to_string();
+    let lone = s.merge_by_hand();
     s.expect(&lone, "FAILED");
     let log = s.log(&format!("merge-{lone}.log"));
     assert!(

@@ -25,10 +25,20 @@ set -euo pipefail
 
 QUENCHWISE=${1:-quenchwise}
 
+# Every shard folder a task began; a folder without a checkpoint header (its
+# task failed before it kept anything) is left out, so that the merge names
+# that shard as missing.
 shopt -s nullglob
-SHARD_DIRS=(shards/shard-*)
+SHARD_DIRS=()
+for d in shards/shard-*; do
+  if [ -f "$d/.work/header.json" ]; then
+    SHARD_DIRS+=("$d")
+  else
+    echo "merge.sh: $d holds no shard yet (its task failed or has not run)"
+  fi
+done
 if [ ${#SHARD_DIRS[@]} -eq 0 ]; then
-  echo "merge.sh: no shards/shard-* folders in $(pwd): submit from the folder the array ran in" >&2
+  echo "merge.sh: no shard in shards/shard-* of $(pwd): submit from the folder the array ran in, after the array" >&2
   exit 2
 fi
 

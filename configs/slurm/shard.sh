@@ -4,14 +4,15 @@
 # submit.sh (beside this file) submits it for you. By hand, from the folder
 # where shards/ and logs/ should go (4 shards here):
 #     mkdir -p logs
-#     sbatch --array=0-3 configs/slurm/shard.sh configs/demo-screen.toml 4 [PROGRAM]
-# and to rerun task 2 only (it continues from what it kept):
-#     sbatch --array=2 configs/slurm/shard.sh configs/demo-screen.toml 4 [PROGRAM]
-# Arguments: the config, the number of shards, the quenchwise program
-# (default: quenchwise on the PATH).
-#
-# Task K writes shards/shard-K/ (its share of the first pass, in .work/);
-# merge.sh combines them. Nothing here needs editing, except the resources.
+#     sbatch --array=0-3 configs/slurm/shard.sh configs/demo-screen.toml [PROGRAM]
+# Task K of the N tasks runs
+#     quenchwise screen CONFIG --out shards/shard-K --shard K/N
+# with K = $SLURM_ARRAY_TASK_ID and N = $SLURM_ARRAY_TASK_COUNT.
+# To rerun task 2 alone (it continues from the chunks it kept), say how many
+# shards the run has, since an array of one task has a count of 1:
+#     sbatch --array=2 --export=ALL,QUENCHWISE_SHARDS=4 configs/slurm/shard.sh configs/demo-screen.toml [PROGRAM]
+# Arguments: the config, the quenchwise program (default: quenchwise on the
+# PATH). merge.sh combines the shard folders.
 #
 # Resources: site-dependent defaults, change them for your cluster.
 #   --time           a shard takes about first_pass_points / shards / 10000
@@ -31,19 +32,18 @@
 #SBATCH --mem=1G
 set -euo pipefail
 
-if [ $# -lt 2 ] || [ -z "${SLURM_ARRAY_TASK_ID:-}" ]; then
-  echo "shard.sh: submit it as a job array: sbatch --array=0-3 $0 CONFIG 4 [PROGRAM]" >&2
+if [ $# -lt 1 ] || [ -z "${SLURM_ARRAY_TASK_ID:-}" ]; then
+  echo "shard.sh: submit it as a job array: sbatch --array=0-3 $0 CONFIG [PROGRAM]" >&2
   exit 2
 fi
 CONFIG=$1
-SHARDS=$2
-QUENCHWISE=${3:-quenchwise}
+QUENCHWISE=${2:-quenchwise}
 K=$SLURM_ARRAY_TASK_ID
+# N: the array's task count, unless a rerun of some tasks names the count.
+N=${QUENCHWISE_SHARDS:-$SLURM_ARRAY_TASK_COUNT}
 
-# The shard count comes from the arguments, not from $SLURM_ARRAY_TASK_COUNT:
-# an array resubmitted to rerun one task has a count of 1.
-if ! [[ "$SHARDS" =~ ^[1-9][0-9]*$ ]] || [ "$K" -ge "$SHARDS" ]; then
-  echo "shard.sh: task $K but $SHARDS shards: tasks are numbered 0..$((SHARDS - 1))" >&2
+if ! [[ "$N" =~ ^[1-9][0-9]*$ ]] || [ "$K" -ge "$N" ]; then
+  echo "shard.sh: task $K of $N shards: tasks are numbered 0..$((N - 1)) (an array --array=0-$((N - 1)); a rerun sets QUENCHWISE_SHARDS)" >&2
   exit 2
 fi
 
@@ -60,7 +60,7 @@ else
   HOW=
 fi
 
-echo "shard $K/$SHARDS of $CONFIG on $(hostname), $(date)${HOW:+, $HOW}"
+echo "shard $K/$N of $CONFIG on $(hostname), $(date)${HOW:+, $HOW}"
 # exec: the time-limit signal reaches quenchwise, which stops cleanly.
-exec "$QUENCHWISE" screen "$CONFIG" --out "$OUT" --shard "$K/$SHARDS" \
+exec "$QUENCHWISE" screen "$CONFIG" --out "$OUT" --shard "$K/$N" \
   --threads "${SLURM_CPUS_PER_TASK:-1}" $HOW

@@ -49,6 +49,9 @@ if [[ "$QUENCHWISE" != */* ]]; then
 fi
 QUENCHWISE=$(cd "$(dirname "$QUENCHWISE")" && pwd)/$(basename "$QUENCHWISE")
 
+# Set only for a rerun (below), never taken from your shell.
+unset QUENCHWISE_SHARDS
+
 # shard.sh and merge.sh sit beside this script.
 HERE=$(cd "$(dirname "${BASH_SOURCE[0]}")" && pwd)
 
@@ -60,6 +63,7 @@ fi
 case "${1:-}" in
   "")
     TASKS="0-$((SHARDS - 1))"
+    EXPORT=()   # each task takes K/N from $SLURM_ARRAY_TASK_ID/$SLURM_ARRAY_TASK_COUNT
     ;;
   rerun)
     shift
@@ -74,6 +78,8 @@ case "${1:-}" in
       fi
     done
     TASKS=$(IFS=,; echo "$*")
+    # An array of only these tasks has a smaller task count: name the run's.
+    EXPORT=(--export="ALL,QUENCHWISE_SHARDS=$SHARDS")
     ;;
   *)
     echo "usage: bash $0            submit the screen (array + merge)" >&2
@@ -86,7 +92,7 @@ esac
 "$QUENCHWISE" check "$CONFIG"
 
 mkdir -p logs   # Slurm does not create the folder of a log file
-ARRAY=$(sbatch --parsable --array="$TASKS" "$HERE/shard.sh" "$CONFIG" "$SHARDS" "$QUENCHWISE")
+ARRAY=$(sbatch --parsable --array="$TASKS" "${EXPORT[@]}" "$HERE/shard.sh" "$CONFIG" "$QUENCHWISE")
 ARRAY=${ARRAY%%;*}   # some sites print "jobid;cluster"
 # afterok: start only if every task succeeded; a failed task cancels the merge.
 MERGE=$(sbatch --parsable --dependency="afterok:$ARRAY" --kill-on-invalid-dep=yes \
