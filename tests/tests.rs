@@ -13,6 +13,7 @@ mod fault_injection;
 mod fit;
 mod grd2008;
 mod kinetics_reference;
+mod lab_ready;
 mod layers;
 mod main_job;
 mod model_files;

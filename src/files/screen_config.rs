@@ -484,6 +484,38 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
     if let Some(v) = viscosity {
         models = models.with_viscosity(v?);
     }
+    // An oxide the models were not made for cannot be screened unless the user
+    // allows extrapolation: its effect would be silently zero.
+    if !raw.search.allow_extrapolation {
+        for (k, v) in &raw.oxides {
+            let Ok(o) = k.get_ref().parse::<Oxide>() else {
+                continue;
+            };
+            if v.get_ref()[1] <= 0.0 {
+                continue;
+            }
+            let mut missing = Vec::new();
+            if models.viscosity.domain.max[o.index()] <= 0.0 {
+                missing.push(format!("the viscosity model '{}'", models.viscosity.name));
+            }
+            if models.phases.iter().all(|p| p.domain.max[o.index()] <= 0.0) {
+                missing.push("every liquidus surface".to_string());
+            }
+            if !missing.is_empty() {
+                problems.push(src.problem(
+                    k.span(),
+                    format!(
+                        "{o} may reach {} mol% here, but {} was not made for {o} (its validity domain leaves {o} out), so its effect would count as zero; narrow {o} to [0, 0], use a model set that covers it, or set allow_extrapolation = true under [search]",
+                        v.get_ref()[1],
+                        missing.join(" and ")
+                    ),
+                ));
+            }
+        }
+        if !problems.is_empty() {
+            return Err(src_error(&src, problems, hint).into());
+        }
+    }
     let config_hash = fnv1a(format!("{}\n{}", env!("CARGO_PKG_VERSION"), text).as_bytes());
     let batch_model = cost.as_ref().map(|c| c.0.clone());
     let cost = cost.map(|(model, max_per_kg, label)| CostLimit {
