@@ -1,9 +1,10 @@
 //! The screen on a real Slurm cluster, run with the scripts a user gets
 //! (`configs/slurm/`): the test starts a single-node cluster of its own
 //! (munged, slurmctld and slurmd, as root, with a generated slurm.conf, its
-//! own munge key and socket and free ports, all in a temp folder), submits
+//! own munge key and socket and free ports, in a fixed temp folder), submits
 //! the demo screen as a 4-task job array plus the dependent merge, and checks:
-//! - a failed array task keeps the merge from running (Slurm cancels it);
+//! - a failed array task keeps the merge from running (Slurm cancels it),
+//!   and a merge submitted anyway names the missing shard;
 //! - rerunning that task alone, then merging, gives the unsplit run's
 //!   `shortlist.csv` byte for byte and the same `candidates.parquet` rows;
 //! - a merge with a shard missing a chunk fails, naming the shard;
@@ -15,9 +16,10 @@
 //! is left alone (the test's own munged has its own socket and key). The
 //! test works in one fixed folder (`$TMPDIR/quenchwise-slurm-test`) under a
 //! file lock, so two test runs on one machine (other worktrees) take turns,
-//! and daemons left by a run that was killed are found there and stopped. Without root or the Debian packages
-//! (`slurm-wlm`, `munge`) it says why and skips, unless
-//! `QUENCHWISE_REQUIRE_SLURM` is set (`.ci/run` sets it): then it fails.
+//! and the jobs and daemons a killed run left there are stopped. Without
+//! root or the Debian packages (`slurm-wlm`, `munge`) it says why (on stderr,
+//! past the harness's capture) and skips, unless `QUENCHWISE_REQUIRE_SLURM`
+//! is set (`.ci/run` sets it): then it fails.
 
 use crate::util::{root, run_in};
 use polars::prelude::{CsvWriter, SerWriter};
