@@ -20,3 +20,4 @@ mod plots;
 mod report_browser;
 mod run_folder;
 mod screen;
+mod uncertainty;
