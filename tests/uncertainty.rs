@@ -392,3 +392,96 @@ fn a_composition_whose_coefficients_have_zero_variance_has_zero_spread() {
     assert!(p.log10_critical_rate_sd > 0.01, "{p:?}");
     assert!(p.variance_shares[0].share > 0.9, "{:?}", p.variance_shares);
 }
+
+#[test]
+fn a_fitted_model_set_draws_every_fit_and_its_band_holds_the_held_out_glass() {
+    // The demo fits (invented data, demo-datasets/README.md), then the
+    // held-out glass lab-13: its invented measured R_c, 1.31 K/min
+    // (demo-datasets/fit-holdout.csv), lies inside the 5–95 % band the
+    // fitted covariances give.
+    let d = temp_dir("uncertainty-fitted");
+    let data = root().join("demo-datasets");
+    let f = |name: &str| data.join(name).to_str().unwrap().to_string();
+    for args in [
+        vec![
+            "fit",
+            "viscosity",
+            &f("fit-viscosity.csv"),
+            "--models",
+            "demo-soda-lime",
+            "--name",
+            "lab-test",
+        ],
+        vec![
+            "fit",
+            "liquidus",
+            &f("fit-liquidus.csv"),
+            "--models",
+            "m.toml",
+            "--shift",
+            "cristobalite",
+        ],
+        vec![
+            "fit",
+            "kinetics",
+            &f("fit-critical-rates.csv"),
+            "--models",
+            "m.toml",
+            "--log10-sd",
+            "0.15",
+        ],
+    ] {
+        let mut a: Vec<&str> = args.iter().map(|s| s.as_ref()).collect();
+        a.extend(["--out", "m.toml"]);
+        run_in(&d, &a).code(0);
+    }
+    let r = run_in(
+        &d,
+        &[
+            "eval",
+            "--mol",
+            "SiO2=71 Na2O=14.5 K2O=1 CaO=9 MgO=3 Al2O3=1.5",
+            "--models",
+            "m.toml",
+            "--uncertainty",
+            "1000",
+            "--quench-rate",
+            "1.31",
+            "--rate-unit",
+            "K/min",
+            "--json",
+        ],
+    );
+    r.code(0);
+    let v: serde_json::Value = serde_json::from_str(&r.stdout).unwrap();
+    let u = &v["uncertainty"];
+    let names: Vec<&str> = u["variance_shares"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|s| s["input"].as_str().unwrap())
+        .collect();
+    assert!(
+        names
+            .iter()
+            .any(|n| n.starts_with("viscosity coefficients")),
+        "{names:?}"
+    );
+    assert!(
+        names
+            .iter()
+            .any(|n| n.starts_with("liquidus surface of devitrite")),
+        "{names:?}"
+    );
+    assert!(
+        names.iter().any(|n| n.starts_with("kinetic factors")),
+        "{names:?}"
+    );
+    let measured = 1.31 / 60.0;
+    let (lo, hi) = (
+        u["critical_rate_p05_k_per_s"].as_f64().unwrap(),
+        u["critical_rate_p95_k_per_s"].as_f64().unwrap(),
+    );
+    assert!(lo < measured && measured < hi, "{lo} {measured} {hi}");
+    assert_eq!(u["failed_draws"].as_u64(), Some(0));
+}
