@@ -485,3 +485,67 @@ fn a_fitted_model_set_draws_every_fit_and_its_band_holds_the_held_out_glass() {
     assert!(lo < measured && measured < hi, "{lo} {measured} {hi}");
     assert_eq!(u["failed_draws"].as_u64(), Some(0));
 }
+
+#[test]
+fn a_nuclei_range_in_a_screen_config_is_refused_with_its_line() {
+    let d = temp_dir("uncertainty-screen-range");
+    let text = format!(
+        "{}\n[kinetics]\nheterogeneous_nuclei_per_m3 = [1e6, 1e12]\n",
+        crate::screen::SMALL
+    );
+    std::fs::write(d.join("screen.toml"), &text).unwrap();
+    let line = text
+        .lines()
+        .position(|l| l.starts_with("heterogeneous_nuclei_per_m3"))
+        .unwrap()
+        + 1;
+    run_in(&d, &["check", "screen.toml"])
+        .code(2)
+        .stderr_has(&format!("screen.toml:{line}: "))
+        .stderr_has("read by `eval --uncertainty` only");
+}
+
+#[test]
+fn a_spread_of_sigma_is_drawn_for_a_crystal_given_by_sigma() {
+    use quenchwise::uncertainty::melt::Target;
+    use quenchwise::uncertainty::Distribution;
+    let m = melt(MU);
+    let sigma = m.phases[0].interface_energy_j_per_m2();
+    let by_sigma = m.with_interface(0, Interface::EnergyJPerM2(sigma));
+    let spreads = MeltSpreads {
+        turnbull_alpha_sd: vec![None],
+        interface_energy_sd_j_per_m2: vec![Some(0.005)],
+        nuclei_range_per_m3: None,
+    };
+    let inputs = melt_inputs(&by_sigma, &spreads).unwrap();
+    assert_eq!(inputs[0].target, Target::InterfaceEnergy(0));
+    assert_eq!(
+        inputs[0].input.distribution,
+        Distribution::Normal {
+            mean: sigma,
+            sd: 0.005
+        }
+    );
+    // σ = α ΔH_m/(N_A^⅓ V_m^⅔) is linear in α (docs/science.md, "Crystal–liquid
+    // interfacial energy"), so a σ spread of s_σ is an α spread of
+    // s_σ α/σ: the two give the same draws (same seed), to round-off.
+    let opts = KineticOptions::default();
+    let by_s = propagate(
+        &inputs_of(&inputs),
+        Settings { draws: 50, seed: 4 },
+        Some(1e-3),
+        |v| melt_critical_rate(&by_sigma, &opts, &inputs, v),
+    )
+    .unwrap();
+    let by_a = run(&alpha_spread(0.005 * MU / sigma), 0.0, 50, 4, 1e-3);
+    for (x, y) in by_s.log10_rates.iter().zip(&by_a.log10_rates) {
+        assert!((x - y).abs() < 1e-6, "{x} {y}");
+    }
+    // Both spreads at once, or a spread of the value the crystal lacks, are refused.
+    let both = MeltSpreads {
+        turnbull_alpha_sd: vec![Some(0.01)],
+        ..spreads.clone()
+    };
+    assert!(melt_inputs(&by_sigma, &both).is_err());
+    assert!(melt_inputs(&m, &spreads).is_err());
+}
