@@ -249,6 +249,16 @@ fn melt_card_spreads_are_read_and_bad_ones_named_by_line() {
         ),
         (
             "heterogeneous_nuclei_per_m3 = 0.0",
+            "heterogeneous_nuclei_per_m3 = [1e6, 1e9, 1e12]",
+            "0 < lo ≤ hi",
+        ),
+        (
+            "heterogeneous_nuclei_per_m3 = 0.0",
+            "heterogeneous_nuclei_per_m3 = [-1e6, 1e12]",
+            "0 < lo ≤ hi",
+        ),
+        (
+            "heterogeneous_nuclei_per_m3 = 0.0",
             "heterogeneous_nuclei_per_m3 = \"many\"",
             "a number of nuclei per m3, or a range [lo, hi]",
         ),
@@ -326,6 +336,9 @@ fn eval_prints_and_writes_the_band_and_the_probability() {
     run_in(&d, &["eval", "--melt", card, "--uncertainty", "5"])
         .code(2)
         .stderr_has("at least 20");
+    run_in(&d, &["eval", "--melt", card, "--uncertainty", "2000000"])
+        .code(2)
+        .stderr_has("at most 1000000");
     run_in(&d, &["eval", "--melt", card, "--quench-rate", "1"]).code(2);
 }
 

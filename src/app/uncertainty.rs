@@ -16,7 +16,7 @@ use quenchwise::report::uncertainty::propagation_text;
 use quenchwise::uncertainty::melt::{
     composition_critical_rate, inputs_of, melt_critical_rate, melt_inputs, model_set_inputs,
 };
-use quenchwise::uncertainty::{propagate, Settings, DEFAULT_SEED, MIN_DRAWS};
+use quenchwise::uncertainty::{propagate, Settings, DEFAULT_SEED, MAX_DRAWS, MIN_DRAWS};
 use quenchwise::units::{Celsius, RateUnit};
 use std::io::Write;
 
@@ -32,9 +32,9 @@ pub fn eval_uncertainty(a: &EvalArgs, draws: usize) -> Result<Outcome, Error> {
             "--ttt and --plot draw the point estimate: run them without --uncertainty",
         ));
     }
-    if draws < MIN_DRAWS {
+    if !(MIN_DRAWS..=MAX_DRAWS).contains(&draws) {
         return Err(Error::bad_input(format!(
-            "--uncertainty {draws}: give at least {MIN_DRAWS} draws (4000 give a probability to about ±0.008)"
+            "--uncertainty {draws}: give at least {MIN_DRAWS} and at most {MAX_DRAWS} draws (4000 give a probability to about ±0.008)"
         )));
     }
     let unit: RateUnit = a.rate_unit.into();

@@ -49,6 +49,8 @@ pub enum Command {
     ///   quenchwise eval --mol "SiO2=72 Na2O=14 CaO=10 Al2O3=4"
     ///   quenchwise eval --wt "SiO2=74 Na2O=13 CaO=10.5 Al2O3=1.3 K2O=0.3 MgO=0.2" --json
     ///   quenchwise eval --melt demo-datasets/melt-card.toml --ttt ttt.csv
+    ///   quenchwise eval --melt demo-datasets/melt-card.toml --uncertainty 4000 \
+    ///       --quench-rate 0.01
     ///   quenchwise eval --compositions demo-datasets/candidates.csv --out results.csv
     #[command(verbatim_doc_comment)]
     Eval(EvalArgs),

@@ -75,8 +75,11 @@ impl NucleiValue {
     fn point(&self) -> f64 {
         match self {
             NucleiValue::One(v) => *v,
-            NucleiValue::Range(r) if r.len() == 2 => (r[0] * r[1]).sqrt(),
-            NucleiValue::Range(_) => f64::NAN,
+            NucleiValue::Range(r) if r.len() == 2 && r[0] > 0.0 && r[1] > 0.0 => {
+                (r[0] * r[1]).sqrt()
+            }
+            // Not a range: refused with its own message where ranges are read.
+            NucleiValue::Range(_) => 0.0,
         }
     }
 }
@@ -347,7 +350,7 @@ pub fn parse_melt_card(
     src: &Source,
     base: &KineticOptions,
 ) -> Result<(Melt, KineticOptions), DataError> {
-    parse_melt_card_spreads(src, base).map(|(m, o, _)| (m, o))
+    parse_card(src, base, false).map(|(m, o, _)| (m, o))
 }
 
 /// Parse a melt card with the spreads `eval --uncertainty` reads:
@@ -361,6 +364,18 @@ pub fn parse_melt_card(
 pub fn parse_melt_card_spreads(
     src: &Source,
     base: &KineticOptions,
+) -> Result<(Melt, KineticOptions, MeltSpreads), DataError> {
+    parse_card(src, base, true)
+}
+
+/// A card and its spreads. Every spread is checked, but whether a spread
+/// belongs to the interface value a crystal gives only when `spreads` is set:
+/// a card evaluated at its point estimate does not read them (so a card that
+/// swaps α for σ still evaluates).
+fn parse_card(
+    src: &Source,
+    base: &KineticOptions,
+    spreads: bool,
 ) -> Result<(Melt, KineticOptions, MeltSpreads), DataError> {
     let hint = "a melt card has [viscosity] a, b_k, c_k; [crystal] (or one [[crystal]] per phase, each with a name) liquidus_k, enthalpy_of_fusion_j_per_mol, molar_volume_m3_per_mol, turnbull_alpha (or interface_energy_j_per_m2), growth; optional [kinetics]";
     // [crystal] for one phase, [[crystal]] for several: look at the shape first,
@@ -419,7 +434,7 @@ pub fn parse_melt_card_spreads(
             e.hint().or(Some(hint.to_string())),
         )
     })?;
-    let spreads = card_spreads(src, &crystals, &kinetics)?;
+    let spreads = card_spreads(src, &crystals, &kinetics, spreads)?;
     Ok((melt, opts, spreads))
 }
 
@@ -428,6 +443,7 @@ fn card_spreads(
     src: &Source,
     crystals: &[CardCrystal],
     kinetics: &KineticsTable,
+    strict: bool,
 ) -> Result<MeltSpreads, DataError> {
     let mut problems = Vec::new();
     let mut spreads = MeltSpreads::default();
@@ -440,7 +456,7 @@ fn card_spreads(
                     v.span(),
                     format!("{key} must be a standard deviation: a finite number ≥ 0, got {x}"),
                 ));
-            } else if !needs {
+            } else if strict && !needs {
                 problems.push(src.problem(
                     v.span(),
                     format!("{key} is the spread of {needed}, which this crystal does not give"),

@@ -84,6 +84,9 @@ pub struct Settings {
 pub const DEFAULT_SEED: u64 = 20_261_202;
 /// Fewest draws a summary is made from.
 pub const MIN_DRAWS: usize = 20;
+/// Most draws one propagation holds in memory (every draw's values are kept
+/// until the summary).
+pub const MAX_DRAWS: usize = 1_000_000;
 
 /// Why a propagation was refused or failed.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -92,6 +95,8 @@ pub enum UncertaintyError {
     BadDistribution { input: String, what: String },
     #[error("{0} draws are too few: give at least {MIN_DRAWS}")]
     TooFewDraws(usize),
+    #[error("{0} draws are too many: give at most {MAX_DRAWS}")]
+    TooManyDraws(usize),
     #[error("every one of the {draws} draws failed; the first: {first}")]
     AllFailed { draws: usize, first: String },
 }
@@ -285,6 +290,9 @@ where
 {
     if settings.draws < MIN_DRAWS {
         return Err(UncertaintyError::TooFewDraws(settings.draws));
+    }
+    if settings.draws > MAX_DRAWS {
+        return Err(UncertaintyError::TooManyDraws(settings.draws));
     }
     let prepared = inputs.iter().map(prepare).collect::<Result<Vec<_>, _>>()?;
     let dims: usize = inputs.iter().map(|i| i.distribution.dims()).sum();
