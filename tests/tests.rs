@@ -22,3 +22,4 @@ mod report_browser;
 mod run_folder;
 mod screen;
 mod slurm;
+mod uncertainty;

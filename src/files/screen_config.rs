@@ -463,6 +463,12 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         });
     let kin_table = raw.kinetics.unwrap_or_default();
     let kin = kin_table.overrides().apply(KineticOptions::default());
+    if let Some((_, span)) = kin_table.nuclei_range() {
+        push(
+            span,
+            "[kinetics]: a range of heterogeneous_nuclei_per_m3 is read by `eval --uncertainty` only; give one number here".into(),
+        );
+    }
     if let Err(e) = kin.validate() {
         let span = match &e {
             crate::kinetics::KineticsError::Value(v) => kin_table.span_of(v.name()),
