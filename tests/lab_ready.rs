@@ -56,3 +56,26 @@ fn a_screen_over_an_uncovered_oxide_is_refused_unless_extrapolation_is_allowed()
     std::fs::write(&cfg, allowed).unwrap();
     run_in(&d, &["check", cfg.to_str().unwrap()]).code(0);
 }
+
+/// `models --domains` shows each model's range per oxide and names the oxides
+/// no model covers.
+#[test]
+fn models_domains_shows_ranges_and_uncovered_oxides() {
+    // Source: configs/models/demo-soda-lime.toml ([viscosity.domain] SiO2 =
+    // [60, 80]; no model lists BaO).
+    let d = temp_dir("domains");
+    let r = run_in(&d, &["models", "--domains"]);
+    r.code(0).stdout_has("devitrite liquidus");
+    let si = r
+        .stdout
+        .lines()
+        .find(|l| l.starts_with("SiO2"))
+        .expect("a SiO2 line");
+    assert!(si.contains("60.0–80.0"), "{si}");
+    let none = r
+        .stdout
+        .lines()
+        .find(|l| l.starts_with("not covered by any model"))
+        .expect("a line of uncovered oxides");
+    assert!(none.contains("BaO") && !none.contains("SiO2"), "{none}");
+}

@@ -467,6 +467,13 @@ pub struct ModelArgs {
     /// The same as FILE.
     #[arg(long, value_name = "FILE")]
     pub models: Option<PathBuf>,
+    /// Show only the validity domains (mol% per oxide and model).
+    ///
+    /// One line per oxide, one column per model (viscosity, each liquidus
+    /// surface), "—" where a model does not cover the oxide: any amount of
+    /// it is then flagged as an extrapolation.
+    #[arg(long)]
+    pub domains: bool,
 }
 
 /// The kinetic options `eval` and `fit kinetics` share.
