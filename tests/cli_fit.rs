@@ -415,3 +415,29 @@ fn a_set_fitted_with_nuclei_evaluates_with_them_by_default() {
     .json();
     assert!(warned(&j), "{j}");
 }
+
+#[test]
+fn fitting_the_nuclei_too_does_not_shrink_the_reachable_range() {
+    // Row 3 of the demo rates fits without --fit-nuclei (α alone reaches it);
+    // with the nuclei density free as well the model reaches at least as much
+    // (1 nucleus per m³ changes R_c by under 1e-5 relative), so the range check
+    // must not refuse it.
+    let d = temp_dir("fit-nuclei-range");
+    fit_demo(&d);
+    let r = run_in(
+        &d,
+        &[
+            "fit",
+            "kinetics",
+            &demo("fit-critical-rates.csv"),
+            "--models",
+            "lab.toml",
+            "--log10-sd",
+            "0.15",
+            "--fit-nuclei",
+            "--out",
+            "nuclei.toml",
+        ],
+    );
+    assert!(!r.stderr.contains("cannot be reached"), "{}", r.stderr);
+}

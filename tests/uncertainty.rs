@@ -562,3 +562,36 @@ fn a_spread_of_sigma_is_drawn_for_a_crystal_given_by_sigma() {
     assert!(melt_inputs(&by_sigma, &both).is_err());
     assert!(melt_inputs(&m, &spreads).is_err());
 }
+
+/// A spread wide enough that many draws reach α ≤ 0 (always crystalline) is
+/// refused rather than answered from the draws that happened to work: those
+/// are no random sample.
+#[test]
+fn a_spread_that_reaches_impossible_values_is_refused() {
+    // Source: with α ~ N(μ, s), P(α ≤ 0) = Φ(−μ/s) (standard probability; Φ
+    // from statrs): for s = μ it is Φ(−1) ≈ 0.16, far above the 1 % allowed.
+    let share = Normal::standard().cdf(-1.0);
+    assert!(share > 10.0 * quenchwise::uncertainty::MAX_FAILED_SHARE);
+    let m = melt(MU);
+    let opts = KineticOptions::default();
+    let inputs = melt_inputs(&m, &alpha_spread(MU)).unwrap();
+    let r = propagate(
+        &inputs_of(&inputs),
+        Settings {
+            draws: 400,
+            seed: 3,
+        },
+        Some(1.0),
+        |v| melt_critical_rate(&m, &opts, &inputs, v),
+    );
+    match r {
+        Err(quenchwise::uncertainty::UncertaintyError::TooManyFailed { failed, draws, .. }) => {
+            // Latin hypercube strata: the count is within a few of 400 Φ(−1).
+            assert!(
+                (failed as f64 - 400.0 * share).abs() < 8.0,
+                "{failed} of {draws}"
+            );
+        }
+        other => panic!("expected a refusal, got {other:?}"),
+    }
+}

@@ -660,14 +660,21 @@ pub fn fit_kinetics(
 /// faster), walking in from an end where the kinetics fail there.
 fn check_reachable(setup: &Setup) -> Result<(), KineticFitError> {
     let p = setup.alphas.len() + usize::from(setup.nuclei);
-    let corner = |fast: bool, step: usize| -> Vec<f64> {
+    // `nuclei_step`: whether the nuclei density walks in with α. It stays at
+    // its end unless the kinetics fail for every α there: moving it along
+    // would understate the range the model reaches.
+    let corner = |fast: bool, step: usize, nuclei_step: bool| -> Vec<f64> {
         (0..p)
             .map(|i| {
                 let scan = setup.scan(i);
                 let alpha = i < setup.alphas.len();
                 // Fast: small α, many nuclei.
                 let from_low = fast == alpha;
-                let k = step.min(SCAN - 1);
+                let k = if alpha || nuclei_step {
+                    step.min(SCAN - 1)
+                } else {
+                    0
+                };
                 if from_low {
                     scan[k]
                 } else {
@@ -679,7 +686,14 @@ fn check_reachable(setup: &Setup) -> Result<(), KineticFitError> {
     let mut rows = Vec::new();
     for point in &setup.points {
         let value_at = |fast: bool| -> Option<f64> {
-            (0..SCAN / 2).find_map(|step| setup.one(point, &corner(fast, step)).ok().map(|v| v.0))
+            [false, true].into_iter().find_map(|nuclei_step| {
+                (0..SCAN / 2).find_map(|step| {
+                    setup
+                        .one(point, &corner(fast, step, nuclei_step))
+                        .ok()
+                        .map(|v| v.0)
+                })
+            })
         };
         let (Some(a), Some(b)) = (value_at(true), value_at(false)) else {
             continue;

@@ -36,17 +36,35 @@ pub fn propagation_text(p: &Propagation, unit: RateUnit) -> String {
         p.probability_glassy,
         p.probability_glassy_se,
     ) {
+        // With every draw on one side the binomial error is 0; the rule of
+        // three gives the 95 % bound instead (Hanley & Lippman-Hand 1983,
+        // JAMA 249, 1743).
+        let n = p.draws as f64;
+        let told = if pg >= 1.0 {
+            format!(
+                "≥ {:.3} (95 %: no draw crystallised; rule of three)",
+                1.0 - 3.0 / n
+            )
+        } else if pg <= 0.0 {
+            format!(
+                "≤ {:.3} (95 %: no draw stayed glassy; rule of three)",
+                3.0 / n
+            )
+        } else {
+            format!("{pg:.3} (± {se:.3}, binomial standard error)")
+        };
         let _ = writeln!(
             o,
-            "  P(glassy at {} {u}) = P(R_c ≤ {} {u}) = {pg:.3} (± {se:.3}, binomial standard error)",
+            "  P(glassy at {} {u}) = P(R_c ≤ {} {u}) {}{told}",
             r(q),
-            r(q)
+            r(q),
+            if pg > 0.0 && pg < 1.0 { "= " } else { "" }
         );
     }
     if p.failed_draws > 0 {
         let _ = writeln!(
             o,
-            "  {} of {} draws failed and are left out of these numbers; the first: {}",
+            "  {} of {} draws failed: left out of the band, counted as not glassy in P; the first: {}",
             p.failed_draws,
             p.draws,
             p.first_failure.as_deref().unwrap_or("")
@@ -72,10 +90,12 @@ pub fn propagation_text(p: &Propagation, unit: RateUnit) -> String {
                 (1.0 - total).max(0.0)
             );
         }
-        let _ = writeln!(
-            o,
-            "  a better measurement of the input with the largest share narrows the band most"
-        );
+        if p.log10_critical_rate_sd > 0.0 {
+            let _ = writeln!(
+                o,
+                "  a better measurement of the input with the largest share narrows the band most"
+            );
+        }
     }
     o
 }

@@ -99,13 +99,28 @@ pub enum UncertaintyError {
     TooManyDraws(usize),
     #[error("every one of the {draws} draws failed; the first: {first}")]
     AllFailed { draws: usize, first: String },
+    #[error("{failed} of the {draws} draws failed (more than {} %), so the draws left are no random sample; the first: {first}", MAX_FAILED_SHARE * 100.0)]
+    TooManyFailed {
+        failed: usize,
+        draws: usize,
+        first: String,
+    },
 }
+
+/// The largest share of draws that may fail before a propagation is refused:
+/// failed draws are left out of the band and counted as not glassy in the
+/// probability, which is honest only while they are few (docs/science.md,
+/// "Uncertainty").
+pub const MAX_FAILED_SHARE: f64 = 0.01;
 
 impl Diagnostic for UncertaintyError {
     fn hint(&self) -> Option<String> {
         match self {
             UncertaintyError::AllFailed { .. } => Some(
                 "the point estimate may sit at the edge of what the models accept; check the spreads".into(),
+            ),
+            UncertaintyError::TooManyFailed { .. } => Some(
+                "a spread reaches values the models cannot evaluate (e.g. a Turnbull alpha at or below 0): narrow it".into(),
             ),
             _ => None,
         }
@@ -334,6 +349,14 @@ where
             first: first_failure.unwrap_or_default(),
         });
     }
+    let failed = n - ok.len();
+    if failed as f64 > MAX_FAILED_SHARE * n as f64 {
+        return Err(UncertaintyError::TooManyFailed {
+            failed,
+            draws: n,
+            first: first_failure.unwrap_or_default(),
+        });
+    }
     let y: Vec<f64> = ok
         .iter()
         .map(|&i| results[i].clone().unwrap_or(f64::NAN))
@@ -350,9 +373,12 @@ where
     let (p05, p50, p95) = (q(&mut data, 0.05), q(&mut data, 0.50), q(&mut data, 0.95));
     let (probability, se) = match quench_rate_k_per_s {
         Some(r) => {
+            // Over every draw: a failed draw counts as not glassy (the
+            // cautious side; at most MAX_FAILED_SHARE of them).
             let lr = r.log10();
-            let p = y.iter().filter(|&&v| v <= lr).count() as f64 / m;
-            (Some(p), Some((p * (1.0 - p) / m).sqrt()))
+            let all = n as f64;
+            let p = y.iter().filter(|&&v| v <= lr).count() as f64 / all;
+            (Some(p), Some((p * (1.0 - p) / all).sqrt()))
         }
         None => (None, None),
     };
@@ -557,6 +583,41 @@ mod tests {
         )
         .unwrap_err();
         assert!(e.to_string().contains("0 < lo"), "{e}");
+        let refuse_below = |cut: f64| {
+            move |v: &[Vec<f64>]| {
+                if v[0][0] < cut {
+                    Err("refused".to_string())
+                } else {
+                    Ok(0.5)
+                }
+            }
+        };
+        // Exactly half the strata of a Latin hypercube lie below the median:
+        // far more failures than allowed.
+        let e = propagate(
+            &[normal("alpha", 0.0, 1.0)],
+            Settings {
+                draws: 100,
+                seed: 1,
+            },
+            Some(1.0),
+            refuse_below(0.0),
+        )
+        .unwrap_err();
+        assert!(
+            matches!(
+                e,
+                UncertaintyError::TooManyFailed {
+                    failed: 50,
+                    draws: 100,
+                    ..
+                }
+            ),
+            "{e}"
+        );
+        // Only the first of the 100 strata reaches below −2.33 (Φ(−2.33) ≈
+        // 0.0099): with this seed its draw does, so one draw fails (1 %, the
+        // most allowed) and counts as not glassy.
         let p = propagate(
             &[normal("alpha", 0.0, 1.0)],
             Settings {
@@ -564,18 +625,11 @@ mod tests {
                 seed: 1,
             },
             Some(1.0),
-            |v| {
-                if v[0][0] < 0.0 {
-                    Err("refused".into())
-                } else {
-                    Ok(10.0)
-                }
-            },
+            refuse_below(-2.33),
         )
         .unwrap();
-        // Exactly half the strata of a Latin hypercube lie below the median.
-        assert_eq!(p.failed_draws, 50);
-        assert_eq!(p.probability_glassy, Some(0.0));
+        assert_eq!(p.failed_draws, 1);
+        assert_eq!(p.probability_glassy, Some(0.99));
         assert!(matches!(
             propagate(&[], Settings { draws: 5, seed: 1 }, None, |_| Ok(1.0)),
             Err(UncertaintyError::TooFewDraws(5))
