@@ -441,3 +441,27 @@ fn fitting_the_nuclei_too_does_not_shrink_the_reachable_range() {
     );
     assert!(!r.stderr.contains("cannot be reached"), "{}", r.stderr);
 }
+
+#[test]
+fn a_table_without_data_rows_says_so() {
+    let d = temp_dir("fit-empty");
+    std::fs::write(
+        d.join("empty.csv"),
+        "SiO2,Na2O,CaO,temperature_k,log10_viscosity_pa_s\n",
+    )
+    .unwrap();
+    run_in(
+        &d,
+        &[
+            "fit",
+            "viscosity",
+            "empty.csv",
+            "--name",
+            "x",
+            "--out",
+            "x.toml",
+        ],
+    )
+    .code(2)
+    .stderr_has("empty.csv: no data rows");
+}

@@ -181,8 +181,8 @@ pub struct FitCommon {
     /// Write every point's residual to this CSV file.
     ///
     /// One row per measurement: measured, fitted, residual (fitted minus
-    /// measured, in the unit of the fit), and the held-out prediction.
-    /// Example: --residuals residuals.csv
+    /// measured, in the unit of the fit), and for viscosity and liquidus the
+    /// held-out (leave-one-out) prediction. Example: --residuals residuals.csv
     #[arg(long, value_name = "FILE.csv", help_heading = "Output")]
     pub residuals: Option<PathBuf>,
 
@@ -201,7 +201,7 @@ pub struct FitCommon {
     #[arg(long, help_heading = "Data")]
     pub wt: bool,
 
-    /// How far (percentage points) a row may sum from 100 [default: 2].
+    /// How far (percentage points) a row may sum from 100.
     ///
     /// Rows within it are normalised to 100; others are errors naming the
     /// row. Example: --sum-tolerance 0.5
@@ -231,7 +231,7 @@ pub struct FitViscosityArgs {
     #[arg(long, value_name = "FILE", help_heading = "Model")]
     pub models: Option<PathBuf>,
 
-    /// Viscosity form: vft or myega [default: vft].
+    /// Viscosity form: vft or myega.
     ///
     /// vft: log10(η/Pa·s) = A + B/(T − C), B and C in K. myega: Mauro et al.
     /// (2009) with log10 η∞, T_g (K) and fragility m. Example: --form myega
@@ -655,7 +655,7 @@ pub struct EvalArgs {
     #[arg(long, value_name = "M2_PER_S", default_value_t = DEFAULT_MELT_DIFFUSIVITY_M2_PER_S, help_heading = "Quench")]
     pub melt_diffusivity: f64,
 
-    /// Worker threads for tables [default: all cores].
+    /// Worker threads for tables and --uncertainty draws [default: all cores].
     #[arg(long, value_name = "N", help_heading = "Output")]
     pub threads: Option<usize>,
 

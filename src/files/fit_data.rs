@@ -70,6 +70,13 @@ struct Reader {
 impl Reader {
     fn open(path: &Path) -> Result<Reader, FitDataError> {
         let df = read_frame(path)?;
+        if df.height() == 0 {
+            return Err(FitDataError::Cells {
+                path: path.display().to_string(),
+                problems: vec!["no data rows (only a header, or an empty file)".into()],
+                hint: "a measurement table has a header line and one row per measurement".into(),
+            });
+        }
         let csv = path
             .extension()
             .and_then(|e| e.to_str())
