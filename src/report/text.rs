@@ -362,8 +362,18 @@ pub fn binding_text(s: &LimitSummary, with_hint: bool) -> String {
         t.push_str(&format!("\n  {:<52} {any:>7} / {only:>7}", l.label()));
     }
     if with_hint {
+        // Where no limit rejects much alone, the limits bind jointly: name
+        // the pairs broken together most often.
+        let mut pairs = s.pairs.clone();
+        pairs.sort_by_key(|e| std::cmp::Reverse(e.2));
+        if !pairs.is_empty() {
+            t.push_str("\nlimits broken together most often (candidates breaking both):");
+            for (a, b, n) in pairs.iter().take(3) {
+                t.push_str(&format!("\n  {} + {}: {n}", a.label(), b.label()));
+            }
+        }
         t.push_str(
-            "\nhint: relax the limit that rejects most candidates alone, or widen the oxide ranges",
+            "\nhint: relax the limit that rejects most candidates alone; if none rejects many alone, the pairs above bind together: relax one of a pair, or widen the oxide ranges",
         );
     }
     t

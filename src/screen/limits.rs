@@ -42,7 +42,9 @@ impl Limit {
     /// A short label.
     pub fn label(self) -> &'static str {
         match self {
-            Limit::CompositionLimits => "composition limits",
+            Limit::CompositionLimits => {
+                "composition limits (balance oxide or a linear constraint out of range)"
+            }
             Limit::ModelDomain => "model validity domain",
             Limit::Evaluation => "kinetics could not be evaluated",
             Limit::CoolingRate => "critical rate above equipment rate / safety factor",
@@ -114,6 +116,9 @@ pub struct LimitSummary {
     /// (limit, candidates breaking it, candidates breaking only it), in
     /// [`Limit::ALL`] order.
     pub by_limit: Vec<(Limit, usize, usize)>,
+    /// (limit a, limit b, candidates breaking both), a before b in
+    /// [`Limit::ALL`] order: the limits that bind jointly.
+    pub pairs: Vec<(Limit, Limit, usize)>,
 }
 
 impl LimitSummary {
@@ -125,6 +130,19 @@ impl LimitSummary {
             self.feasible += 1;
         }
         let only = usize::from(broken.len() == 1);
+        let list: Vec<Limit> = broken.iter().collect();
+        for (i, &a) in list.iter().enumerate() {
+            for &b in &list[i + 1..] {
+                let (a, b) = if a < b { (a, b) } else { (b, a) };
+                match self.pairs.iter_mut().find(|e| (e.0, e.1) == (a, b)) {
+                    Some(e) => e.2 += 1,
+                    None => {
+                        self.pairs.push((a, b, 1));
+                        self.pairs.sort_by_key(|e| (e.0, e.1));
+                    }
+                }
+            }
+        }
         for l in broken.iter() {
             match self.by_limit.iter_mut().find(|e| e.0 == l) {
                 Some(e) => {
@@ -161,5 +179,6 @@ mod tests {
             t.by_limit,
             vec![(Limit::CoolingRate, 1, 0), (Limit::Cost, 2, 1)]
         );
+        assert_eq!(t.pairs, vec![(Limit::CoolingRate, Limit::Cost, 1)]);
     }
 }
