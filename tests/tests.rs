@@ -9,6 +9,7 @@ mod cli_errors;
 mod cli_eval;
 mod demo_models;
 mod grd2008;
+mod issue14;
 mod kinetics_reference;
 mod layers;
 mod main_job;
