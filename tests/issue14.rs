@@ -7,6 +7,8 @@
 use crate::util::{root, run_in, temp_dir};
 use std::path::Path;
 
+const GLASS: &str = "SiO2=72 Na2O=14 CaO=10 Al2O3=4";
+
 fn write(dir: &Path, name: &str, text: &str) -> String {
     std::fs::write(dir.join(name), text).unwrap();
     name.to_string()
@@ -15,6 +17,28 @@ fn write(dir: &Path, name: &str, text: &str) -> String {
 fn assert_no_non_finite(text: &str) {
     for bad in ["inf ", "inf\n", "NaN", "null", "never"] {
         assert!(!text.contains(bad), "found {bad:?} in:\n{text}");
+    }
+}
+
+fn line_of(text: &str, needle: &str) -> usize {
+    text.lines().position(|l| l.contains(needle)).unwrap() + 1
+}
+
+#[test]
+fn s6_a_nan_coefficient_in_a_model_set_is_refused_on_load() {
+    let d = temp_dir("s6");
+    let text = std::fs::read_to_string(root().join("configs/models/demo-soda-lime.toml"))
+        .unwrap()
+        .replacen("constant = -2.45", "constant = nan", 1);
+    let m = write(&d, "m.toml", &text);
+    let line = line_of(&text, "constant = nan");
+    for args in [
+        vec!["models", "--models", &m],
+        vec!["eval", "--mol", GLASS, "--models", &m],
+    ] {
+        run_in(&d, &args).code(2).stderr_has(&format!(
+            "m.toml:{line}: the constant must be a finite number, got NaN"
+        ));
     }
 }
 
