@@ -97,7 +97,10 @@ pub struct ScreenArgs {
     /// Overwrite an existing, non-empty --out folder.
     #[arg(long)]
     pub force: bool,
-    /// Worker threads [default: the config's, else all cores].
+    /// Worker threads [default: the config's, else all cores; at most 4 × cores].
+    ///
+    /// More threads than 4 per core only add switching: a larger value is
+    /// capped at 4 × the cores of the machine, with a message.
     #[arg(long, value_name = "N")]
     pub threads: Option<usize>,
     /// Do not write report.html at the end (write it later with `report`).
@@ -138,6 +141,9 @@ pub struct BatchArgs {
     #[arg(long, value_name = "KG", default_value_t = 1.0, help_heading = "Glass")]
     pub glass_kg: f64,
     /// How far (percentage points) amounts may sum from 100 [default: 2].
+    ///
+    /// From 0 to 10. Amounts that sum within it of 100 are normalised (and a
+    /// note says so); further off is an error. Example: --sum-tolerance 0.5
     #[arg(long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Glass")]
     pub sum_tolerance: f64,
     /// Raw-materials table (CSV or Parquet) [default: the built-in demo shelf].
@@ -156,8 +162,9 @@ pub struct BatchArgs {
     pub retention: Option<String>,
     /// Allowed deviation of each delivered oxide, wt% of glass [default: 0.001].
     ///
-    /// 0.001 wt% is 10 mg per kg of glass. A multi-oxide mineral that would
-    /// force an oxide beyond this is reported, naming the oxide.
+    /// Above 0 and at most 10. 0.001 wt% is 10 mg per kg of glass. A
+    /// multi-oxide mineral that would force an oxide beyond this is
+    /// reported, naming the oxide.
     #[arg(
         long,
         value_name = "WT_PCT",
@@ -228,7 +235,9 @@ pub struct EvalArgs {
     /// A table (CSV or Parquet) of compositions, one per row; needs --out.
     ///
     /// One column per oxide (SiO2, Na2O, ...) in mol% (wt% with --wt); other
-    /// columns (names, ids) are passed through to the output.
+    /// columns (names, ids) are passed through to the output. An empty oxide
+    /// cell counts as 0; a cell that is not a number ("O.5", "NaN") is an
+    /// error naming its row, line and column.
     #[arg(long, value_name = "FILE", requires = "out", help_heading = "Input")]
     pub compositions: Option<PathBuf>,
 
@@ -261,13 +270,17 @@ pub struct EvalArgs {
     pub viscosity_model: Option<PathBuf>,
 
     /// How far (percentage points) amounts may sum from 100 [default: 2].
+    ///
+    /// From 0 to 10. Amounts that sum within it of 100 are normalised (and a
+    /// note says so); further off is an error. Example: --sum-tolerance 0.5
     #[arg(long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Models")]
     pub sum_tolerance: f64,
 
     /// Detectable crystallised volume fraction X_c [default: 1e-6].
     ///
     /// The fraction at which a melt counts as crystallised (Uhlmann 1972).
-    /// Overrides a melt card's value.
+    /// Overrides a melt card's value. Range (0, 1); values outside 1e-9 to
+    /// 0.05 get a plausibility note.
     #[arg(long, value_name = "FRACTION", help_heading = "Kinetics")]
     pub detectable_fraction: Option<f64>,
 
@@ -278,7 +291,8 @@ pub struct EvalArgs {
     /// Pre-existing nuclei of each crystal phase per m³ [default: 0].
     ///
     /// Impurities, undissolved batch grains and crucible debris that are
-    /// already nuclei when cooling starts. 1e9 per m³ is one per mm³.
+    /// already nuclei when cooling starts. 1e9 per m³ is one per mm³. Zero or
+    /// positive; above 1e15 per m³ gets a plausibility note.
     #[arg(long, value_name = "PER_M3", help_heading = "Kinetics")]
     pub nuclei_per_m3: Option<f64>,
 
@@ -289,10 +303,13 @@ pub struct EvalArgs {
     /// cos θ)²/4, turned into a rate per volume with the wall area 2/d of a
     /// sample d thick (--sample-thickness-mm). 180 (the default) means no
     /// wall nucleation; homogeneous nucleation in the volume is always on.
+    /// Range (0, 180].
     #[arg(long, value_name = "DEGREES", help_heading = "Kinetics")]
     pub contact_angle_deg: Option<f64>,
 
     /// Thickness of the sample whose walls nucleate, mm [default: 10].
+    ///
+    /// Positive. Example: --sample-thickness-mm 4
     #[arg(long, value_name = "MM", help_heading = "Kinetics")]
     pub sample_thickness_mm: Option<f64>,
 
@@ -308,12 +325,13 @@ pub struct EvalArgs {
     /// Decoupling temperature as a multiple of T_g [default: 1.2].
     ///
     /// Where the fractional law takes over; a TTT nose below it is flagged.
+    /// At least 1.
     #[arg(long, value_name = "RATIO", help_heading = "Kinetics")]
     pub decoupling_ratio: Option<f64>,
 
     /// Fit α so the model reproduces this measured critical cooling rate.
     ///
-    /// The rate is in --rate-unit (K/s by default). Use the α it prints in
+    /// Positive; in --rate-unit (K/s by default). Use the α it prints in
     /// your model set or melt card (as turnbull_alpha, with
     /// calibrated_against naming the measurement).
     #[arg(
@@ -338,6 +356,9 @@ pub struct EvalArgs {
     pub calibrate_nose_time_s: Option<f64>,
 
     /// Quench-plate temperature for the glassy-thickness estimate, °C [default: 25].
+    ///
+    /// Above absolute zero (−273.15 °C); a plate too hot to freeze the melt
+    /// gets a note instead of a thickness. Example: --quench-surface-c -196
     #[arg(
         long,
         value_name = "DEG_C",
@@ -347,10 +368,15 @@ pub struct EvalArgs {
     pub quench_surface_c: f64,
 
     /// Thermal diffusivity of the melt, m²/s [default: 5e-7].
+    ///
+    /// Positive. Values outside 1e-7 to 5e-6 m²/s get a plausibility note.
     #[arg(long, value_name = "M2_PER_S", default_value_t = DEFAULT_MELT_DIFFUSIVITY_M2_PER_S, help_heading = "Quench")]
     pub melt_diffusivity: f64,
 
-    /// Worker threads for tables [default: all cores].
+    /// Worker threads for tables [default: all cores; at most 4 × cores].
+    ///
+    /// A larger value is capped at 4 × the cores of the machine, with a
+    /// message: more threads only add switching.
     #[arg(long, value_name = "N", help_heading = "Output")]
     pub threads: Option<usize>,
 }
