@@ -556,6 +556,18 @@ pub fn evaluate_composition(
     if !e.kinetics_calibrated {
         e.warnings.push(UNCALIBRATED.to_string());
     }
+    if let Some(k) = &models.kinetics_fit {
+        let (fitted, now) = (
+            k.heterogeneous_nuclei_per_m3,
+            opts.heterogeneous_nuclei_per_m3,
+        );
+        if (fitted - now).abs() > 1e-6 * fitted.abs().max(now.abs()) {
+            e.warnings.push(format!(
+                "the α of model set '{}' were fitted with {fitted:e} pre-existing nuclei per m³, this evaluation counts {now:e}: R_c is not the calibrated one",
+                models.about.name
+            ));
+        }
+    }
     e.warnings.extend(kin_warnings);
     vouch(&mut e);
     ensure_finite(&e)?;

@@ -4,7 +4,7 @@
 //! above it in this list (a test in `tests/layers.rs` keeps it so):
 //!
 //! - [`units`], [`error`], [`numeric`]: SI newtypes and constants, the one
-//!   error type, scalar solvers;
+//!   error type, scalar solvers and least squares;
 //! - [`composition`]: oxides, IUPAC 2021 masses, mol% ↔ wt%;
 //! - [`properties`]: mixture models, viscosity, liquidus surfaces, model sets;
 //! - [`kinetics`]: nucleation, growth, TTT, critical cooling rate;
@@ -23,7 +23,7 @@ pub mod composition;
 pub mod error;
 pub mod files;
 pub mod kinetics;
-pub(crate) mod numeric;
+pub mod numeric;
 pub mod properties;
 pub mod report;
 pub mod screen;

@@ -1,6 +1,6 @@
 //! `quenchwise batch` run as a user would.
 
-use crate::tolerances::{LP_DELIVERED_WT_PCT_TOL, LP_KG_TOL};
+use crate::tolerances::{LP_COST_RTOL, LP_DELIVERED_WT_PCT_TOL, LP_KG_TOL, LP_SAME_VERTEX_RTOL};
 use crate::util::{fixture, rel, run_in, temp_dir};
 
 #[test]
@@ -160,10 +160,13 @@ fn least_cost_agrees_with_an_independent_linear_programme() {
             .json();
         let got = j["cost_per_kg_glass"].as_f64().unwrap();
         if exact {
-            assert!(rel(got, want) < 1e-8, "{glass}: {got} vs {want}");
+            assert!(
+                rel(got, want) < LP_SAME_VERTEX_RTOL,
+                "{glass}: {got} vs {want}"
+            );
         } else {
             assert!(
-                got >= want - 1e-10 && rel(got, want) < 1e-5,
+                got >= want - 1e-10 && rel(got, want) < LP_COST_RTOL,
                 "{glass}: {got} vs {want}"
             );
         }

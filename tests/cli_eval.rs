@@ -1,6 +1,6 @@
 //! `quenchwise eval` run as a user would, in a fresh folder.
 
-use crate::tolerances::CRITICAL_RATE_RTOL;
+use crate::tolerances::{CRITICAL_RATE_RTOL, PRINTED_5DP_ATOL};
 use crate::util::{rel, root, run_in, temp_dir};
 
 const JSON_KEYS: [&str; 6] = [
@@ -84,7 +84,10 @@ fn composition_json_has_the_contract_keys() {
         ("MgO", 0.30083),
     ] {
         let got = mol[o].as_f64().unwrap();
-        assert!((got - want).abs() < 6e-6, "{o}: {got} vs {want}");
+        assert!(
+            (got - want).abs() < PRINTED_5DP_ATOL,
+            "{o}: {got} vs {want}"
+        );
     }
 }
 
@@ -172,7 +175,7 @@ fn calibration_reproduces_the_measured_rate() {
     );
     let j = r.code(0).json();
     assert_eq!(j["kinetics_calibrated"], true);
-    assert!(rel(j["critical_rate_k_per_s"].as_f64().unwrap(), 0.5) < 1e-3);
+    assert!(rel(j["critical_rate_k_per_s"].as_f64().unwrap(), 0.5) < CRITICAL_RATE_RTOL);
 }
 
 #[test]

@@ -3,7 +3,8 @@
 
 use crate::oracle::dense_reference_critical_rate;
 use crate::tolerances::{
-    CRITICAL_RATE_RTOL, NOSE_RATIO_CARD, NOSE_RATIO_SCREW_HOFFMAN, ORACLE_RTOL, PATH_RTOL,
+    CRITICAL_RATE_RTOL, NOSE_RATIO_CARD, NOSE_RATIO_RTOL, NOSE_RATIO_SCREW_HOFFMAN,
+    NOSE_TEMPERATURE_ATOL_K, NOSE_TIME_RTOL, ORACLE_RTOL, PATH_RTOL,
 };
 use crate::util::rel;
 use quenchwise::kinetics::{
@@ -94,12 +95,12 @@ fn agrees_with_an_independent_scipy_implementation() {
         );
         // The nose minimum is flat: its temperature is known to ~0.01 K, its time to ~1e-6.
         assert!(
-            (s.nose_temperature.0 - tn).abs() < 0.05,
+            (s.nose_temperature.0 - tn).abs() < NOSE_TEMPERATURE_ATOL_K,
             "{name}: T_n {} vs {tn}",
             s.nose_temperature.0
         );
         assert!(
-            rel(s.nose_time_s, tt) < 1e-5,
+            rel(s.nose_time_s, tt) < NOSE_TIME_RTOL,
             "{name}: t_n {} vs {tt}",
             s.nose_time_s
         );
@@ -340,7 +341,10 @@ fn nose_method_overestimates_the_critical_rate() {
             ratio > 10.0,
             "ratio {ratio}: the nose method should overestimate"
         );
-        assert!(rel(ratio, want) < 5e-3, "ratio {ratio} vs {want}");
+        assert!(
+            rel(ratio, want) < NOSE_RATIO_RTOL,
+            "ratio {ratio} vs {want}"
+        );
     }
 }
 
@@ -400,7 +404,7 @@ fn thickest_glassy_slab_reaches_exactly_the_detectable_fraction() {
         .collect();
     let x = k.path_fraction(&path).unwrap().extended_fraction;
     // Piecewise-linear path through 4001 points: 1e-3 is the path's own resolution.
-    assert!(rel(x, 1e-6) < 1e-3, "{x}");
+    assert!(rel(x, 1e-6) < PATH_RTOL, "{x}");
 }
 
 #[test]
@@ -563,12 +567,12 @@ fn several_phases_agree_with_the_independent_reference() {
             );
         }
         assert!(
-            (s.nose_temperature.0 - tn).abs() < 0.05,
+            (s.nose_temperature.0 - tn).abs() < NOSE_TEMPERATURE_ATOL_K,
             "{name}: T_n {} vs {tn}",
             s.nose_temperature.0
         );
         assert!(
-            rel(s.nose_time_s, tt) < 1e-5,
+            rel(s.nose_time_s, tt) < NOSE_TIME_RTOL,
             "{name}: t_n {} vs {tt}",
             s.nose_time_s
         );

@@ -2,6 +2,7 @@
 //! liquidus written in °C, a primary phase that switches, extrapolation flags,
 //! a melt card giving σ instead of α.
 
+use crate::tolerances::PRINTED_5SF_RTOL;
 use crate::util::rel;
 use quenchwise::assess::{evaluate_composition, evaluate_melt, Calibration};
 use quenchwise::composition::{Basis, Composition};
@@ -170,7 +171,7 @@ fn a_card_giving_sigma_equals_the_card_giving_the_same_alpha() {
         rel(
             by_sigma.critical_rate_k_per_s,
             by_alpha.critical_rate_k_per_s
-        ) < 1e-4,
+        ) < PRINTED_5SF_RTOL,
         "{} vs {}",
         by_sigma.critical_rate_k_per_s,
         by_alpha.critical_rate_k_per_s

@@ -16,8 +16,28 @@ pub const CRITICAL_RATE_RTOL: f64 = 1e-3;
 /// a quarter of the accuracy target, so the target is met with room to spare.
 pub const ORACLE_RTOL: f64 = 2.5e-4;
 
-/// Values quoted to 5–6 significant figures (regression values).
+/// Values quoted to 5–6 significant figures (regression values, a σ written
+/// to 7 digits whose effect on R_c goes through exp(−σ³…)).
 pub const PRINTED_5SF_RTOL: f64 = 1e-4;
+
+/// Hand-computed values printed to 5 decimals: half a unit in the last place
+/// (5e-6) plus float noise.
+pub const PRINTED_5DP_ATOL: f64 = 6e-6;
+
+/// The nose of a TTT curve is a flat minimum: both programs locate its
+/// temperature to about 0.01 K; 0.05 K allows for the SciPy reference's grid.
+pub const NOSE_TEMPERATURE_ATOL_K: f64 = 0.05;
+/// The time at the nose, where the curve is flat, to 1e-5 relative.
+pub const NOSE_TIME_RTOL: f64 = 1e-5;
+/// The pinned nose ratios are written to 3 significant figures (±0.05 of 12):
+/// 5e-3 relative.
+pub const NOSE_RATIO_RTOL: f64 = 5e-3;
+
+/// A least-cost batch against the independent HiGHS solution when both land on
+/// the same vertex (a unique optimum): agreement to the printed digits.
+pub const LP_SAME_VERTEX_RTOL: f64 = 1e-8;
+/// ... and when ours may sit up to the programme's oxide tolerance away: 1e-5.
+pub const LP_COST_RTOL: f64 = 1e-5;
 
 /// The time-domain path integral on 1 K panels against the temperature-domain
 /// quadrature: the path's own resolution (measured 2e-4 to 6e-4 on the demo card).
@@ -43,3 +63,30 @@ pub const LP_KG_TOL: f64 = 5e-5;
 /// oxides may fall short by 0.001 wt%, and renormalising the delivered mass
 /// to 100 % moves every share by up to 7 × 0.001 × its fraction: at most 0.008.
 pub const LP_DELIVERED_WT_PCT_TOL: f64 = 0.008;
+
+/// Coverage of stated intervals over many seeded draws may stray from its
+/// nominal value by this many binomial standard deviations, √(p(1 − p)/n):
+/// a correct interval fails by chance with probability ~6e-5, while standard
+/// errors 20 % off move the ±1 SE coverage by more than 6 of them at n = 1000.
+pub const COVERAGE_BINOMIAL_SDS: f64 = 4.0;
+
+/// A fit to data generated without noise recovers its coefficients to this
+/// (the solvers stop at a relative step of ~1e-10; the kinetic integrals are
+/// accurate to ~1e-4, but noise-free data still put the root within 1e-6).
+pub const EXACT_DATA_RTOL: f64 = 1e-6;
+
+/// Values printed to 10 significant figures (oracle output): half a unit in
+/// the 10th figure is 5e-10 relative.
+pub const PRINTED_10SF_RTOL: f64 = 1e-9;
+
+/// Linear least squares against NumPy: both solve the same problem exactly,
+/// so they agree to the printed precision, on the scale of max(|a|, se(a)).
+pub const LINEAR_ORACLE_RTOL: f64 = 1e-9;
+
+/// Non-linear fits by two solvers (ours, MINPACK) stop at slightly different
+/// points: coefficients must agree to this fraction of their standard error.
+pub const NONLINEAR_ORACLE_SE_FRACTION: f64 = 1e-3;
+
+/// Standard errors of two non-linear solvers, taken at their own (slightly
+/// different) optima, agree to this.
+pub const SE_ORACLE_RTOL: f64 = 1e-4;

@@ -2,10 +2,10 @@
 //! curve, a picture), or a whole table of either evaluated in parallel.
 
 use super::input;
-use super::models::load_models;
+use super::models::{base_options, load_models};
 use super::progress::Progress;
 use super::{in_range, threads, Outcome};
-use crate::cli::EvalArgs;
+use crate::cli::{EvalArgs, KineticArgs};
 use polars::prelude::{DataFrame, DataType};
 use quenchwise::assess::{
     evaluate_composition, evaluate_melt, Calibration, Evaluation, SlabQuench,
@@ -51,6 +51,34 @@ fn check_options(a: &EvalArgs) -> Result<(), Error> {
         true,
         "m²/s",
     )?;
+    check_kinetic_args(&a.kinetics)?;
+    let opt = |name: &str, v: Option<f64>, range: (f64, f64), open_low: bool, unit: &str| {
+        v.map(|v| in_range(name, v, range, open_low, unit))
+            .transpose()
+    };
+    opt(
+        "--calibrate-rate",
+        a.calibrate_rate,
+        (0.0, f64::INFINITY),
+        true,
+        "",
+    )?;
+    opt(
+        "--calibrate-nose-time-s",
+        a.calibrate_nose_time_s,
+        (0.0, f64::INFINITY),
+        true,
+        "s",
+    )?;
+    Ok(())
+}
+
+/// The kinetic options `eval` and `fit kinetics` share, each checked
+/// against its range, naming the option (S3).
+///
+/// # Errors
+/// The first option outside its range.
+pub fn check_kinetic_args(a: &KineticArgs) -> Result<(), Error> {
     let opt = |name: &str, v: Option<f64>, range: (f64, f64), open_low: bool, unit: &str| {
         v.map(|v| in_range(name, v, range, open_low, unit))
             .transpose()
@@ -102,25 +130,11 @@ fn check_options(a: &EvalArgs) -> Result<(), Error> {
         false,
         "",
     )?;
-    opt(
-        "--calibrate-rate",
-        a.calibrate_rate,
-        (0.0, f64::INFINITY),
-        true,
-        "",
-    )?;
-    opt(
-        "--calibrate-nose-time-s",
-        a.calibrate_nose_time_s,
-        (0.0, f64::INFINITY),
-        true,
-        "s",
-    )?;
     Ok(())
 }
 
 /// The kinetic options given on the command line.
-fn overrides(a: &EvalArgs) -> KineticOverrides {
+pub fn overrides(a: &KineticArgs) -> KineticOverrides {
     KineticOverrides {
         detectable_fraction: a.detectable_fraction,
         driving_force: a.driving_force.as_deref().map(|v| {
@@ -196,7 +210,7 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
         let out = table_out()?;
         let table = read_melt_table(p)?;
         check_writable(&table.frame, out)?;
-        let base = overrides(&a).apply(KineticOptions::default());
+        let base = overrides(&a.kinetics).apply(KineticOptions::default());
         return evaluate_table(table, out, |values| {
             let (melt, opts) = values.build(&base).map_err(|e| e.to_string())?;
             evaluate_melt(&melt, &opts, slab, &Calibration::None).map_err(|e| e.to_string())
@@ -210,7 +224,7 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
         } else {
             Basis::MolPercent
         };
-        let opts = overrides(&a).apply(KineticOptions::default());
+        let opts = overrides(&a.kinetics).apply(base_options(&models));
         let (table, other) = read_composition_table(p)?;
         check_writable(&table.frame, out)?;
         if !other.is_empty() {
@@ -237,14 +251,14 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
             &Source::new(p.display().to_string(), &text),
             &KineticOptions::default(),
         )?;
-        let opts = overrides(&a).apply(card.options);
+        let opts = overrides(&a.kinetics).apply(card.options);
         // An error found while evaluating names the card's line (L1).
         evaluate_melt(&card.melt, &opts, slab, &cal).map_err(|e| card.locate(e, &opts))?
     } else {
         let wt = a.wt_text.as_deref().filter(|t| !t.is_empty());
         let comp = input::composition(a.mol.as_deref(), wt, a.recipe.as_deref(), a.sum_tolerance)?;
         let models = load_models(a.models.as_deref(), a.viscosity_model.as_deref())?;
-        let opts = overrides(&a).apply(KineticOptions::default());
+        let opts = overrides(&a.kinetics).apply(base_options(&models));
         evaluate_composition(&models, &comp, &opts, slab, &cal).with_context(|| {
             format!(
                 "evaluating {} with the model set {}",
@@ -273,10 +287,20 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
             cal,
             Calibration::ToCriticalRate(_) | Calibration::ToNoseTime(_)
         ) {
-            text.push_str(&format!(
-                "\nto keep this calibration, set turnbull_alpha = {:.5} (and calibrated_against = \"...\") in your model set or melt card\n",
-                evaluation.turnbull_alpha
-            ));
+            // The calibration names its phase in parentheses (assess::calibrate).
+            let phase = evaluation.melt.phases.iter().find(|p| {
+                evaluation
+                    .calibrated_against
+                    .as_deref()
+                    .is_some_and(|c| c.ends_with(&format!("({})", p.name)))
+            });
+            if let Some(p) = phase {
+                text.push_str(&format!(
+                    "\nthis calibration is not saved: α of {} = {:.5}. To keep it, put the measurement in a table and run `quenchwise fit kinetics` (it writes a model set with α and its standard error), or set turnbull_alpha in your melt card\n",
+                    p.name,
+                    p.turnbull_alpha()
+                ));
+            }
         }
         write_stdout(&text)?;
     }

@@ -4,6 +4,7 @@
 
 mod batch;
 mod eval;
+mod fit;
 mod input;
 mod models;
 mod progress;
@@ -32,10 +33,12 @@ pub fn run(cli: Cli) -> Result<Outcome, Error> {
     match cli.command {
         Command::Eval(a) => eval::eval(a),
         Command::Models(a) => models::models(a),
+        Command::Fit(a) => fit::fit(a),
         Command::Batch(a) => batch::batch(a),
         Command::Screen(a) => screen::screen(a),
         Command::Check(a) => screen::check(a),
         Command::Report(a) => screen::report(a),
+        Command::Merge(a) => screen::merge(a),
     }
 }
 

@@ -4,12 +4,12 @@
 
 use super::progress::Progress;
 use super::{threads, Outcome};
-use crate::cli::{CheckArgs, ReportArgs, ScreenArgs};
-use quenchwise::error::{Error, ResultExt};
+use crate::cli::{CheckArgs, FolderArgs, MergeArgs, ReportArgs, ScreenArgs};
+use quenchwise::error::Error;
 use quenchwise::files::results::write_report;
-use quenchwise::files::run_folder::{self, ScreenOptions};
+use quenchwise::files::run_folder::{self, Opening, RunFolder, ScreenOptions, Shard};
 use quenchwise::files::screen_config;
-use quenchwise::screen::{chunk_count, ScreenObserver, Simplex};
+use quenchwise::screen::{chunk_count, ScreenObserver, Simplex, Stage};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::{Arc, OnceLock};
 
@@ -44,6 +44,9 @@ impl ScreenObserver for Watch {
             p.finish();
         }
     }
+    fn notice(&mut self, text: &str) {
+        eprintln!("note: {text}");
+    }
 }
 
 pub fn check(a: CheckArgs) -> Result<Outcome, Error> {
@@ -64,49 +67,90 @@ pub fn check(a: CheckArgs) -> Result<Outcome, Error> {
     Ok(Outcome::Finished)
 }
 
+fn options(out: &std::path::Path, f: &FolderArgs) -> ScreenOptions {
+    let stop = stop_flag();
+    stop.store(false, Ordering::SeqCst);
+    ScreenOptions {
+        resume: f.resume,
+        force: f.force,
+        report: !f.no_report,
+        keep_checkpoints: f.keep_checkpoints,
+        stop: Some(stop),
+        ..ScreenOptions::new(out)
+    }
+}
+
 pub fn screen(a: ScreenArgs) -> Result<Outcome, Error> {
     let mut plan = screen_config::load(&a.config)?;
     if let Some(t) = threads(a.threads)? {
         plan.threads = Some(t);
     }
-    let stop = stop_flag();
-    stop.store(false, Ordering::SeqCst);
-    let opts = ScreenOptions {
-        out: a.out.clone(),
-        resume: a.resume,
-        force: a.force,
-        stop_after_chunks: a.stop_after_chunks,
-        stop: Some(stop),
-    };
+    let mut opts = options(&a.out, &a.folder);
+    opts.stop_after_chunks = a.stop_after_chunks;
+    opts.shard = a.shard.as_deref().map(Shard::parse).transpose()?;
     let mut watch = Watch { progress: None };
-    match run_folder::run_observed(&plan, &opts, &mut watch)? {
+    let end = run_folder::run_observed(&plan, &opts, &mut watch)?;
+    let again = format!(
+        "quenchwise screen {} --out {}{} --resume",
+        a.config.display(),
+        a.out.display(),
+        a.shard
+            .as_deref()
+            .map(|s| format!(" --shard {s}"))
+            .unwrap_or_default()
+    );
+    tell(end, &a.out, &again)
+}
+
+pub fn merge(a: MergeArgs) -> Result<Outcome, Error> {
+    let mut opts = options(&a.out, &a.folder);
+    opts.stop_after_chunks = None;
+    let mut watch = Watch { progress: None };
+    let threads = threads(a.threads)?;
+    let end = run_folder::merge(&a.shards, threads, &opts, &mut watch)?;
+    let again = format!(
+        "quenchwise merge --out {} {} --resume",
+        a.out.display(),
+        a.shards
+            .iter()
+            .map(|p| p.display().to_string())
+            .collect::<Vec<_>>()
+            .join(" ")
+    );
+    tell(end, &a.out, &again)
+}
+
+/// Say how a run ended.
+fn tell(end: run_folder::Outcome, out: &std::path::Path, again: &str) -> Result<Outcome, Error> {
+    match end {
         run_folder::Outcome::Finished {
             shortlisted,
             evaluated,
             feasible,
             ..
         } => {
-            let text = std::fs::read_to_string(a.out.join("summary.txt")).unwrap_or_default();
+            let text = std::fs::read_to_string(out.join("summary.txt")).unwrap_or_default();
             print!("{text}");
-            if !a.no_report {
-                let p = write_report(&a.out).context("writing the report")?;
-                println!("report: {}", p.display());
+            if out.join("report.html").exists() {
+                println!("report: {}", out.join("report.html").display());
             }
             println!(
-                "\nshortlist: {} ({shortlisted} recipes of {feasible} feasible, {evaluated} evaluated); batch sheets in {}",
-                a.out.join("shortlist.csv").display(),
-                a.out.join("batch-sheets").display()
+                "\nshortlist: {} ({shortlisted} recipe{} of {feasible} feasible, {evaluated} evaluated); batch sheets in {}",
+                out.join("shortlist.csv").display(),
+                if shortlisted == 1 { "" } else { "s" },
+                out.join("batch-sheets").display()
             );
             Ok(Outcome::Finished)
         }
-        run_folder::Outcome::Interrupted {
-            chunks_done,
-            chunks,
-        } => {
+        run_folder::Outcome::Interrupted { stage, done, total } => {
+            let during = match stage {
+                Stage::FirstPass => "the first pass",
+                Stage::Refinement => "refinement",
+                Stage::Outputs => "writing the outputs",
+            };
             eprintln!(
-                "quenchwise screen: stopped after {chunks_done}/{chunks} chunks; the work so far is saved.\nhint: quenchwise screen {} --out {} --resume",
-                a.config.display(),
-                a.out.display()
+                "quenchwise: stopped during {during} ({done}/{total} {} kept); the work so far is saved.\nhint: {again}",
+                stage.unit()
             );
             Ok(Outcome::Interrupted)
         }
@@ -114,11 +158,33 @@ pub fn screen(a: ScreenArgs) -> Result<Outcome, Error> {
             eprintln!("quenchwise: no recipe meets every limit\n{limits}");
             Ok(Outcome::NothingFeasible)
         }
+        run_folder::Outcome::AlreadyFinished => {
+            let text = std::fs::read_to_string(out.join("summary.txt")).unwrap_or_default();
+            print!("{text}");
+            println!(
+                "\n{} holds a finished run; nothing to resume (shortlist: {})",
+                out.display(),
+                out.join("shortlist.csv").display()
+            );
+            Ok(Outcome::Finished)
+        }
+        run_folder::Outcome::ShardDone { shard, chunks } => {
+            println!(
+                "shard {}/{}: chunks {}..{} of the first pass kept in {}\nwhen every shard is done: quenchwise merge --out DIR SHARD_DIR...",
+                shard.index,
+                shard.count,
+                chunks.start,
+                chunks.end,
+                out.display()
+            );
+            Ok(Outcome::Finished)
+        }
     }
 }
 
 pub fn report(a: ReportArgs) -> Result<Outcome, Error> {
-    let p = write_report(&a.dir)?;
+    let folder = RunFolder::open(&a.dir, Opening::Existing)?;
+    let p = write_report(&folder)?;
     println!("wrote {}", p.display());
     Ok(Outcome::Finished)
 }

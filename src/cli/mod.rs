@@ -56,13 +56,27 @@ pub enum Command {
     ///
     /// Reads a screen config (see configs/demo-screen.toml), evaluates a
     /// space-filling set of candidates in parallel, refines the best, and
-    /// writes a ranked shortlist with batch sheets to --out. Ctrl-C stops after
-    /// the current chunk; --resume continues where it stopped.
+    /// writes a ranked shortlist with batch sheets to --out. Ctrl-C (or a
+    /// SIGTERM from a batch system) stops at the next safe point, the work
+    /// saved; --resume continues where it stopped.
     ///
-    /// Example:
+    /// Examples:
     ///   quenchwise screen configs/demo-screen.toml --out results/
+    ///   quenchwise screen configs/demo-screen.toml --out results/ --resume
+    ///   quenchwise screen configs/demo-screen.toml --out shard-1 --shard 1/4
     #[command(verbatim_doc_comment)]
     Screen(ScreenArgs),
+    /// Combine the shards of a split screen into one run's outputs
+    ///
+    /// Each shard is a `screen --shard K/N` run (say one Slurm array task);
+    /// merge checks that the shards come from the same config, files and seed
+    /// and cover every chunk once, then refines and shortlists as one
+    /// process would: the shortlist is the one an unsplit run writes.
+    ///
+    /// Example:
+    ///   quenchwise merge --out results/ shard-0 shard-1 shard-2 shard-3
+    #[command(verbatim_doc_comment)]
+    Merge(MergeArgs),
     /// Validate a screen config without running it.
     Check(CheckArgs),
     /// Write RESULTS_DIR/report.html: one self-contained page with plots.
@@ -81,6 +95,237 @@ pub enum Command {
     Batch(BatchArgs),
     /// Show the model set: provenance, viscosity model, crystal phases, domains.
     Models(ModelArgs),
+    /// Fit the models to your own measurements and write a model set
+    ///
+    /// Three steps, each reading a table (CSV or Parquet) and writing a model
+    /// set that eval, screen and the next step load:
+    ///   quenchwise fit viscosity viscosity.csv --models demo-soda-lime \
+    ///       --name my-glasses --out my-glasses.toml
+    ///   quenchwise fit liquidus liquidus.csv --models my-glasses.toml \
+    ///       --out my-glasses.toml
+    ///   quenchwise fit kinetics critical-rates.csv --models my-glasses.toml \
+    ///       --out my-glasses.toml
+    /// See demo-datasets/README.md for the columns and an invented example.
+    #[command(verbatim_doc_comment)]
+    Fit(FitArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct FitArgs {
+    #[command(subcommand)]
+    pub what: FitCommand,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum FitCommand {
+    /// VFT (or MYEGA) viscosity model from viscosity points
+    ///
+    /// DATA columns: one per oxide (mol%, or wt% with --wt), temperature_k
+    /// or temperature_c, log10_viscosity_pa_s or log10_viscosity_dpa_s
+    /// (poise), optional glass (a label; rows of one glass share it).
+    ///
+    /// Example:
+    ///   quenchwise fit viscosity demo-datasets/fit-viscosity.csv \
+    ///       --out lab-viscosity.toml --residuals visc-residuals.csv
+    #[command(verbatim_doc_comment)]
+    Viscosity(FitViscosityArgs),
+    /// Liquidus surface of each phase from measured liquidus temperatures
+    ///
+    /// DATA columns: one per oxide, liquidus_k or liquidus_c, and
+    /// primary_phase (a phase of the base set, --models).
+    ///
+    /// Example:
+    ///   quenchwise fit liquidus demo-datasets/fit-liquidus.csv \
+    ///       --models demo-soda-lime --name lab --out lab.toml
+    #[command(verbatim_doc_comment)]
+    Liquidus(FitLiquidusArgs),
+    /// Turnbull α of each phase (and nuclei density) from measured kinetics
+    ///
+    /// DATA columns: one per oxide and any of critical_rate_k_per_s (or
+    /// critical_rate_k_per_min), nose_time_s (with nose_temperature_k: the
+    /// time to the detectable fraction held there), nucleation_rate_per_m3_s
+    /// or growth_rate_m_per_s (with temperature_k), optional phase.
+    ///
+    /// Example:
+    ///   quenchwise fit kinetics demo-datasets/fit-critical-rates.csv \
+    ///       --models lab.toml --log10-sd 0.15 --out lab.toml
+    #[command(verbatim_doc_comment)]
+    Kinetics(FitKineticsArgs),
+}
+
+/// What every fit reads and writes.
+#[derive(Debug, Args)]
+pub struct FitCommon {
+    /// The measurements: a CSV or Parquet table.
+    #[arg(value_name = "DATA")]
+    pub data: PathBuf,
+
+    /// Write the fitted model set (TOML) here; an existing file is replaced.
+    ///
+    /// The file holds the coefficients with their covariance, the fit
+    /// statistics, the validity domains and the data's SHA-256. eval
+    /// --models, screen ([models] set) and the next fit step load it.
+    /// Example: --out lab.toml
+    #[arg(long, value_name = "FILE.toml", help_heading = "Output")]
+    pub out: PathBuf,
+
+    /// Name of the fitted set [default: the base set's name].
+    ///
+    /// Required when the base set is the built-in demo-soda-lime, so a
+    /// fitted set never passes for the demo. Example: --name lab-glasses
+    #[arg(long, value_name = "NAME", help_heading = "Output")]
+    pub name: Option<String>,
+
+    /// Write every point's residual to this CSV file.
+    ///
+    /// One row per measurement: measured, fitted, residual (fitted minus
+    /// measured, in the unit of the fit), and the held-out prediction.
+    /// Example: --residuals residuals.csv
+    #[arg(long, value_name = "FILE.csv", help_heading = "Output")]
+    pub residuals: Option<PathBuf>,
+
+    /// Draw the residuals (SVG): fitted and held out, with ±2σ lines.
+    ///
+    /// Residuals in the unit of the fit (log10 Pa·s, K or decades) against
+    /// temperature or the measured value; not drawn by default. Example:
+    /// --plot residuals.svg
+    #[arg(long, value_name = "FILE.svg", help_heading = "Output")]
+    pub plot: Option<PathBuf>,
+
+    /// Read the oxide columns as wt% [default: mol%].
+    ///
+    /// Each row is converted to mole fractions with IUPAC 2021 molar masses
+    /// before fitting. Example: --wt
+    #[arg(long, help_heading = "Data")]
+    pub wt: bool,
+
+    /// How far (percentage points) a row may sum from 100 [default: 2].
+    ///
+    /// Rows within it are normalised to 100; others are errors naming the
+    /// row. Example: --sum-tolerance 0.5
+    #[arg(long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Data")]
+    pub sum_tolerance: f64,
+}
+
+/// A viscosity form to fit.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum FormArg {
+    /// log10 η = A + B/(T − C)
+    Vft,
+    /// Mauro et al. (2009)
+    Myega,
+}
+
+#[derive(Debug, Args)]
+pub struct FitViscosityArgs {
+    #[command(flatten)]
+    pub common: FitCommon,
+
+    /// Base model set: the fitted viscosity replaces its own [default: none].
+    ///
+    /// Without it, --out is a viscosity file ([about] and [viscosity]) for
+    /// eval --viscosity-model or a screen's [models] viscosity. With it,
+    /// --out is a whole model set. A TOML file or "demo-soda-lime".
+    #[arg(long, value_name = "FILE", help_heading = "Model")]
+    pub models: Option<PathBuf>,
+
+    /// Viscosity form: vft or myega [default: vft].
+    ///
+    /// vft: log10(η/Pa·s) = A + B/(T − C), B and C in K. myega: Mauro et al.
+    /// (2009) with log10 η∞, T_g (K) and fragility m. Example: --form myega
+    #[arg(long, value_enum, default_value = "vft", help_heading = "Model")]
+    pub form: FormArg,
+
+    /// Make A (VFT) or log10 η∞ (MYEGA) linear in composition.
+    ///
+    /// By default it is one constant for every glass (B and C, or T_g and
+    /// m, are always linear in the mole fractions of the oxides the data
+    /// contain).
+    #[arg(long, help_heading = "Model")]
+    pub a_linear: bool,
+
+    /// Add a pair term x_i·x_j to a parameter, e.g. b_k:Na2O*CaO.
+    ///
+    /// PARAMETER:OXIDE*OXIDE, the parameter one of a, b_k, c_k (VFT) or
+    /// log_eta_inf, tg_k, fragility (MYEGA); repeat for more. Unit: that of
+    /// the parameter per unit mole fraction squared. Default: none.
+    #[arg(long = "pair", value_name = "PARAM:A*B", help_heading = "Model")]
+    pub pairs: Vec<String>,
+
+    /// Skip the leave-one-glass-out error (one refit per glass).
+    ///
+    /// By default each glass is left out in turn and predicted from a refit
+    /// on the others; that error (log10 Pa·s and K) is what a new glass can
+    /// expect. Example: --no-cv
+    #[arg(long, help_heading = "Model")]
+    pub no_cv: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct FitLiquidusArgs {
+    #[command(flatten)]
+    pub common: FitCommon,
+
+    /// Base model set whose phases the data name (TOML file or built-in).
+    ///
+    /// Its phases, crystal data and unfitted surfaces are kept. Example:
+    /// --models demo-soda-lime
+    #[arg(long, value_name = "FILE", help_heading = "Model")]
+    pub models: PathBuf,
+
+    /// Fit only a constant shift of this phase's base surface (repeatable).
+    ///
+    /// For a phase with few rows: one coefficient instead of one per oxide.
+    /// Example: --shift cristobalite
+    #[arg(long = "shift", value_name = "PHASE", help_heading = "Model")]
+    pub shift: Vec<String>,
+
+    /// Replace the base set's viscosity model: "grd2008" or a TOML file.
+    ///
+    /// Written into the fitted set with the new surfaces; default: keep the
+    /// base set's. Example: --viscosity-model lab-viscosity.toml
+    #[arg(long, value_name = "NAME|FILE", help_heading = "Model")]
+    pub viscosity_model: Option<PathBuf>,
+}
+
+#[derive(Debug, Args)]
+pub struct FitKineticsArgs {
+    #[command(flatten)]
+    pub common: FitCommon,
+
+    /// Base model set (TOML file or built-in); its α are the starting point.
+    ///
+    /// Its viscosity and liquidus give each row's melt, so fit those first.
+    /// Example: --models lab.toml
+    #[arg(long, value_name = "FILE", help_heading = "Model")]
+    pub models: PathBuf,
+
+    /// Fit α of this phase (repeatable) [default: the phases the data fix].
+    ///
+    /// By default: the phases named in the phase column, else the phase
+    /// limiting each measured R_c or nose, else the primary phase of each
+    /// measured rate. Example: --phase devitrite --phase wollastonite
+    #[arg(long = "phase", value_name = "PHASE", help_heading = "Model")]
+    pub phases: Vec<String>,
+
+    /// Also fit one density of pre-existing nuclei, per m³, for every phase.
+    ///
+    /// Searched over 1 to 1e20 per m³ (log scale); off by default, when the
+    /// density is --nuclei-per-m3. eval then uses the fitted density with
+    /// this set. Example: --fit-nuclei
+    #[arg(long, help_heading = "Model")]
+    pub fit_nuclei: bool,
+
+    /// Scatter of one measurement, in decades (log10) [default: from fit].
+    ///
+    /// Used for the standard errors instead of the residuals' scatter;
+    /// needed when there are no more measurements than parameters.
+    /// Example: --log10-sd 0.15 (a measured R_c good to about ±40 %).
+    #[arg(long, value_name = "DECADES", help_heading = "Model")]
+    pub log10_sd: Option<f64>,
+
+    #[command(flatten)]
+    pub kinetics: KineticArgs,
 }
 
 #[derive(Debug, Args)]
@@ -91,24 +336,63 @@ pub struct ScreenArgs {
     /// Output folder for the shortlist, tables, batch sheets and checkpoints.
     #[arg(long, value_name = "DIR")]
     pub out: PathBuf,
-    /// Continue an interrupted run in --out (same config required).
-    #[arg(long, conflicts_with = "force")]
-    pub resume: bool,
-    /// Overwrite an existing, non-empty --out folder.
-    #[arg(long)]
-    pub force: bool,
+    #[command(flatten)]
+    pub folder: FolderArgs,
+    /// Evaluate only shard K of N (0-based) of the first pass.
+    ///
+    /// For a cluster job array; combine the shard folders with `quenchwise
+    /// merge`. Example: --shard 3/8
+    #[arg(long, value_name = "K/N")]
+    pub shard: Option<String>,
     /// Worker threads [default: the config's, else all cores; at most 4 × cores].
     ///
     /// More threads than 4 per core only add switching: a larger value is
     /// capped at 4 × the cores of the machine, with a message.
     #[arg(long, value_name = "N")]
     pub threads: Option<usize>,
-    /// Do not write report.html at the end (write it later with `report`).
-    #[arg(long)]
-    pub no_report: bool,
     /// Stop after N new chunks as if interrupted (for testing resume).
     #[arg(long, value_name = "N", hide = true)]
     pub stop_after_chunks: Option<usize>,
+}
+
+/// How a run treats its --out folder.
+#[derive(Debug, Args)]
+pub struct FolderArgs {
+    /// Continue the interrupted run in --out (same config and input files).
+    ///
+    /// It must mean the same: the config (comments aside) and every file it
+    /// reads are checked.
+    #[arg(long, conflicts_with = "force")]
+    pub resume: bool,
+    /// Start again in a folder an earlier run wrote.
+    ///
+    /// Removes only the files quenchwise listed there (.quenchwise-files),
+    /// never anything else, and refuses a folder quenchwise did not make.
+    #[arg(long)]
+    pub force: bool,
+    /// Do not write report.html at the end (write it later with `report`).
+    #[arg(long)]
+    pub no_report: bool,
+    /// Keep the checkpoints (.work/chunk-*.json) of a finished run.
+    ///
+    /// They are removed by default.
+    #[arg(long)]
+    pub keep_checkpoints: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct MergeArgs {
+    /// The --out folders of the shard runs, in any order.
+    #[arg(value_name = "SHARD_DIR", required = true)]
+    pub shards: Vec<PathBuf>,
+    /// Output folder for the merged shortlist, tables, batch sheets.
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    #[command(flatten)]
+    pub folder: FolderArgs,
+    /// Worker threads [default: the config's, else all cores].
+    #[arg(long, value_name = "N")]
+    pub threads: Option<usize>,
 }
 
 #[derive(Debug, Args)]
@@ -182,9 +466,71 @@ pub struct BatchArgs {
 
 #[derive(Debug, Args)]
 pub struct ModelArgs {
-    /// Model set: a TOML file, or the built-in "demo-soda-lime".
+    /// Model set: a TOML file, or the built-in "demo-soda-lime" (default).
+    #[arg(value_name = "FILE", conflicts_with = "models")]
+    pub file: Option<PathBuf>,
+    /// The same as FILE.
     #[arg(long, value_name = "FILE")]
     pub models: Option<PathBuf>,
+}
+
+/// The kinetic options `eval` and `fit kinetics` share.
+#[derive(Debug, Args)]
+pub struct KineticArgs {
+    /// Detectable crystallised volume fraction X_c [default: 1e-6].
+    ///
+    /// The fraction at which a melt counts as crystallised (Uhlmann 1972).
+    /// Overrides a melt card's value. Range (0, 1); values outside 1e-9 to
+    /// 0.05 get a plausibility note.
+    #[arg(long, value_name = "FRACTION", help_heading = "Kinetics")]
+    pub detectable_fraction: Option<f64>,
+
+    /// Driving-force form: turnbull (default) or hoffman.
+    #[arg(long, value_name = "FORM", value_parser = ["turnbull", "hoffman"], help_heading = "Kinetics")]
+    pub driving_force: Option<String>,
+
+    /// Pre-existing nuclei of each crystal phase per m³ [default: 0].
+    ///
+    /// Impurities, undissolved batch grains and crucible debris that are
+    /// already nuclei when cooling starts. 1e9 per m³ is one per mm³. With
+    /// a model set whose α were fitted (quenchwise fit kinetics), the
+    /// default is the density the fit used. Zero or positive; above 1e15 per
+    /// m³ gets a plausibility note.
+    #[arg(long, value_name = "PER_M3", help_heading = "Kinetics")]
+    pub nuclei_per_m3: Option<f64>,
+
+    /// Contact angle of crystals nucleating on the sample's walls, degrees.
+    ///
+    /// Adds nucleation on the crucible or mould walls, per unit area: about
+    /// one site per λ² of wall, the barrier lowered by f(θ) = (2 + cos θ)(1 −
+    /// cos θ)²/4, turned into a rate per volume with the wall area 2/d of a
+    /// sample d thick (--sample-thickness-mm). 180 (the default) means no
+    /// wall nucleation; homogeneous nucleation in the volume is always on.
+    /// Range (0, 180].
+    #[arg(long, value_name = "DEGREES", help_heading = "Kinetics")]
+    pub contact_angle_deg: Option<f64>,
+
+    /// Thickness of the sample whose walls nucleate, mm [default: 10].
+    ///
+    /// Positive. Example: --sample-thickness-mm 4
+    #[arg(long, value_name = "MM", help_heading = "Kinetics")]
+    pub sample_thickness_mm: Option<f64>,
+
+    /// Below the decoupling temperature, let D ∝ (T/η)^XI (0 < XI ≤ 1).
+    ///
+    /// Near T_g diffusion decouples from viscosity and Stokes–Einstein
+    /// underestimates the rates. This fractional Stokes–Einstein law applies
+    /// below --decoupling-ratio × T_g and joins Stokes–Einstein there.
+    /// Without it, Stokes–Einstein holds at every temperature.
+    #[arg(long, value_name = "XI", help_heading = "Kinetics")]
+    pub fractional_exponent: Option<f64>,
+
+    /// Decoupling temperature as a multiple of T_g [default: 1.2].
+    ///
+    /// Where the fractional law takes over; a TTT nose below it is flagged.
+    /// At least 1.
+    #[arg(long, value_name = "RATIO", help_heading = "Kinetics")]
+    pub decoupling_ratio: Option<f64>,
 }
 
 #[derive(Debug, Args)]
@@ -276,58 +622,8 @@ pub struct EvalArgs {
     #[arg(long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Models")]
     pub sum_tolerance: f64,
 
-    /// Detectable crystallised volume fraction X_c [default: 1e-6].
-    ///
-    /// The fraction at which a melt counts as crystallised (Uhlmann 1972).
-    /// Overrides a melt card's value. Range (0, 1); values outside 1e-9 to
-    /// 0.05 get a plausibility note.
-    #[arg(long, value_name = "FRACTION", help_heading = "Kinetics")]
-    pub detectable_fraction: Option<f64>,
-
-    /// Driving-force form: turnbull (default) or hoffman.
-    #[arg(long, value_name = "FORM", value_parser = ["turnbull", "hoffman"], help_heading = "Kinetics")]
-    pub driving_force: Option<String>,
-
-    /// Pre-existing nuclei of each crystal phase per m³ [default: 0].
-    ///
-    /// Impurities, undissolved batch grains and crucible debris that are
-    /// already nuclei when cooling starts. 1e9 per m³ is one per mm³. Zero or
-    /// positive; above 1e15 per m³ gets a plausibility note.
-    #[arg(long, value_name = "PER_M3", help_heading = "Kinetics")]
-    pub nuclei_per_m3: Option<f64>,
-
-    /// Contact angle of crystals nucleating on the sample's walls, degrees.
-    ///
-    /// Adds nucleation on the crucible or mould walls, per unit area: about
-    /// one site per λ² of wall, the barrier lowered by f(θ) = (2 + cos θ)(1 −
-    /// cos θ)²/4, turned into a rate per volume with the wall area 2/d of a
-    /// sample d thick (--sample-thickness-mm). 180 (the default) means no
-    /// wall nucleation; homogeneous nucleation in the volume is always on.
-    /// Range (0, 180].
-    #[arg(long, value_name = "DEGREES", help_heading = "Kinetics")]
-    pub contact_angle_deg: Option<f64>,
-
-    /// Thickness of the sample whose walls nucleate, mm [default: 10].
-    ///
-    /// Positive. Example: --sample-thickness-mm 4
-    #[arg(long, value_name = "MM", help_heading = "Kinetics")]
-    pub sample_thickness_mm: Option<f64>,
-
-    /// Below the decoupling temperature, let D ∝ (T/η)^XI (0 < XI ≤ 1).
-    ///
-    /// Near T_g diffusion decouples from viscosity and Stokes–Einstein
-    /// underestimates the rates. This fractional Stokes–Einstein law applies
-    /// below --decoupling-ratio × T_g and joins Stokes–Einstein there.
-    /// Without it, Stokes–Einstein holds at every temperature.
-    #[arg(long, value_name = "XI", help_heading = "Kinetics")]
-    pub fractional_exponent: Option<f64>,
-
-    /// Decoupling temperature as a multiple of T_g [default: 1.2].
-    ///
-    /// Where the fractional law takes over; a TTT nose below it is flagged.
-    /// At least 1.
-    #[arg(long, value_name = "RATIO", help_heading = "Kinetics")]
-    pub decoupling_ratio: Option<f64>,
+    #[command(flatten)]
+    pub kinetics: KineticArgs,
 
     /// Fit α so the model reproduces this measured critical cooling rate.
     ///
@@ -410,6 +706,60 @@ mod tests {
     }
 
     #[test]
+    fn fit_commands_parse() {
+        let c = parse(&[
+            "fit",
+            "viscosity",
+            "v.csv",
+            "--out",
+            "v.toml",
+            "--form",
+            "myega",
+            "--pair",
+            "tg_k:Na2O*CaO",
+            "--pair",
+            "fragility:SiO2*Na2O",
+        ])
+        .unwrap();
+        let Command::Fit(FitArgs {
+            what: FitCommand::Viscosity(a),
+        }) = c.command
+        else {
+            panic!()
+        };
+        assert_eq!(a.form, FormArg::Myega);
+        assert_eq!(a.pairs.len(), 2);
+        assert!(
+            parse(&["fit", "liquidus", "l.csv", "--out", "x.toml"]).is_err(),
+            "--models is required"
+        );
+        let c = parse(&[
+            "fit",
+            "kinetics",
+            "k.csv",
+            "--models",
+            "m.toml",
+            "--out",
+            "x.toml",
+            "--phase",
+            "devitrite",
+            "--fit-nuclei",
+            "--nuclei-per-m3",
+            "1e9",
+        ])
+        .unwrap();
+        let Command::Fit(FitArgs {
+            what: FitCommand::Kinetics(a),
+        }) = c.command
+        else {
+            panic!()
+        };
+        assert_eq!(a.phases, vec!["devitrite"]);
+        assert_eq!(a.kinetics.nuclei_per_m3, Some(1e9));
+        assert!(parse(&["models", "a.toml", "--models", "b.toml"]).is_err());
+    }
+
+    #[test]
     fn rate_unit_parses() {
         let c = parse(&[
             "eval",
@@ -431,18 +781,31 @@ mod tests {
     #[test]
     fn help_lines_fit_79_columns() {
         use clap::CommandFactory;
-        let mut cmd = Cli::command();
-        let sub = cmd.find_subcommand_mut("eval").unwrap();
-        for arg in sub.get_arguments() {
-            if let Some(h) = arg.get_help() {
-                let s = h.to_string();
+        fn check(cmd: &clap::Command, path: &str) {
+            for arg in cmd.get_arguments() {
+                if let Some(h) = arg.get_help() {
+                    let s = h.to_string();
+                    assert!(
+                        s.chars().count() <= 79,
+                        "{path}: help of --{} is {} columns",
+                        arg.get_id(),
+                        s.chars().count()
+                    );
+                }
+            }
+            if let Some(a) = cmd.get_about() {
+                let s = a.to_string();
                 assert!(
                     s.chars().count() <= 79,
-                    "help of --{} is {} columns",
-                    arg.get_id(),
+                    "{path}: about is {} columns",
                     s.chars().count()
                 );
             }
+            for sub in cmd.get_subcommands() {
+                check(sub, &format!("{path} {}", sub.get_name()));
+            }
         }
+        let cmd = Cli::command();
+        check(&cmd, "quenchwise");
     }
 }

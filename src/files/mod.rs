@@ -3,8 +3,10 @@
 //! checkpoints. Each reader turns a file into the core's validated types and
 //! names the file, the line and what was expected when it cannot.
 
+pub mod fit_data;
 pub mod melt_card;
 pub mod model_set;
+pub mod model_writer;
 pub mod raw_materials;
 pub mod recipe;
 pub mod results;

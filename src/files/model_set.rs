@@ -5,9 +5,10 @@
 
 use super::source::{read_text, Collector, DataError, Source};
 use crate::composition::N_OXIDES;
+use crate::properties::fit::{alpha_coefficient, NUCLEI_COEFFICIENT};
 use crate::properties::{
-    About, FractionBasis, GrowthMode, LiquidusSurface, MixtureModel, ModelSet, Phase, ProductTerm,
-    ViscosityForm, ViscosityModel,
+    About, FitRecord, FractionBasis, GrowthMode, KineticsFitRecord, LiquidusSurface, MixtureModel,
+    ModelSet, Phase, ProductTerm, Term, ViscosityCoefficient, ViscosityForm, ViscosityModel,
 };
 use crate::units::{Celsius, Kelvin};
 use serde::Deserialize;
@@ -30,6 +31,9 @@ struct ModelFile {
     viscosity: ViscosityFile,
     #[serde(default)]
     phase: Vec<PhaseFile>,
+    /// The joint fit of the phases' α, written by `quenchwise fit kinetics`.
+    #[serde(default)]
+    kinetics_fit: Option<FitFile>,
 }
 
 #[derive(Deserialize)]
@@ -42,6 +46,9 @@ struct AboutFile {
     units: String,
     #[serde(default)]
     invented: bool,
+    /// What was fitted to which data, one line per fit.
+    #[serde(default)]
+    fitted: Vec<String>,
 }
 
 #[derive(Deserialize, Clone, Copy, PartialEq, Eq)]
@@ -68,6 +75,43 @@ struct ViscosityFile {
     log_eta_inf: Option<MixtureFile>,
     tg_k: Option<MixtureFile>,
     fragility: Option<MixtureFile>,
+    /// How the coefficients were fitted, written by `quenchwise fit viscosity`.
+    #[serde(default)]
+    fit: Option<FitFile>,
+}
+
+/// A fit record: provenance, statistics, and the covariance of the fitted
+/// coefficients (see `properties::FitRecord`). `options` and
+/// `heterogeneous_nuclei_per_m3` belong to `[kinetics_fit]` only.
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FitFile {
+    data: String,
+    data_sha256: String,
+    date: String,
+    method: String,
+    points: usize,
+    #[serde(default)]
+    glasses: Option<usize>,
+    unit: String,
+    rmse: f64,
+    residual_sd: f64,
+    #[serde(default)]
+    dof: Option<usize>,
+    #[serde(default)]
+    r_squared: Option<f64>,
+    #[serde(default)]
+    cv_method: Option<String>,
+    #[serde(default)]
+    cv_rmse: Option<f64>,
+    #[serde(default)]
+    cv_rmse_k: Option<f64>,
+    coefficients: Spanned<Vec<Spanned<String>>>,
+    covariance: Spanned<Vec<Vec<f64>>>,
+    #[serde(default)]
+    options: Option<Spanned<String>>,
+    #[serde(default)]
+    heterogeneous_nuclei_per_m3: Option<Spanned<f64>>,
 }
 
 #[derive(Deserialize, Clone, Copy, PartialEq, Eq)]
@@ -116,6 +160,9 @@ struct PhaseFile {
     melting_point_k: Spanned<f64>,
     growth: GrowthMode,
     turnbull_alpha: Spanned<f64>,
+    /// Standard error of α, written by `quenchwise fit kinetics`.
+    #[serde(default)]
+    turnbull_alpha_sd: Option<Spanned<f64>>,
     #[serde(default)]
     calibrated_against: Option<String>,
     #[serde(default)]
@@ -129,6 +176,9 @@ struct PhaseFile {
     /// ... or by freezing-point depression from the fusion data.
     #[serde(default)]
     freezing_point_depression: Option<FreezingFile>,
+    /// How the liquidus surface was fitted, written by `quenchwise fit liquidus`.
+    #[serde(default)]
+    liquidus_fit: Option<FitFile>,
     #[serde(default)]
     domain: BTreeMap<Spanned<String>, Spanned<[f64; 2]>>,
 }
@@ -240,6 +290,35 @@ pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
             x
         });
         let domain = c.domain(&p.domain);
+        let alpha_sd = p.turnbull_alpha_sd.as_ref().map(|v| {
+            let x = *v.get_ref();
+            if !(x.is_finite() && x >= 0.0) {
+                c.push(
+                    v.span(),
+                    format!("turnbull_alpha_sd must be zero or positive, got {x}"),
+                );
+            }
+            x
+        });
+        let liquidus_fit = p.liquidus_fit.as_ref().map(|f| {
+            let record = fit_record(&mut c, f, false);
+            for (name, span) in record.coefficients.iter().zip(&f.coefficients.get_ref()[..]) {
+                let known = match (&liquidus, name.parse::<Term>()) {
+                    (LiquidusSurface::Mixture(m), Ok(t)) => m.coefficient(t).is_some(),
+                    _ => false,
+                };
+                if !known {
+                    c.push(
+                        span.span(),
+                        format!(
+                            "'{name}' is not a coefficient of the {} liquidus surface (write constant, an oxide, or OXIDE*OXIDE of its [phase.liquidus])",
+                            p.name.get_ref()
+                        ),
+                    );
+                }
+            }
+            record
+        });
         phases.push(Phase {
             name: p.name.get_ref().clone(),
             formula: p.formula.clone(),
@@ -248,12 +327,40 @@ pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
             melting_point: Kelvin(tm),
             growth: p.growth,
             turnbull_alpha: alpha,
+            turnbull_alpha_sd: alpha_sd,
             calibrated_against: p.calibrated_against.clone(),
             heat_capacity_change_j_per_mol_k: dcp,
             liquidus,
             domain,
+            liquidus_fit,
         });
     }
+    let kinetics_fit = file.kinetics_fit.as_ref().map(|f| {
+        let record = fit_record(&mut c, f, true);
+        for (name, span) in record.coefficients.iter().zip(&f.coefficients.get_ref()[..]) {
+            let known = name == NUCLEI_COEFFICIENT
+                || phases.iter().any(|p| &alpha_coefficient(&p.name) == name);
+            if !known {
+                c.push(
+                    span.span(),
+                    format!("'{name}' is not a kinetic factor of this set (write PHASE.turnbull_alpha with a phase's name, or {NUCLEI_COEFFICIENT})"),
+                );
+            }
+        }
+        KineticsFitRecord {
+            record,
+            options: f
+                .options
+                .as_ref()
+                .map(|o| o.get_ref().clone())
+                .unwrap_or_default(),
+            heterogeneous_nuclei_per_m3: f
+                .heterogeneous_nuclei_per_m3
+                .as_ref()
+                .map(|v| *v.get_ref())
+                .unwrap_or(0.0),
+        }
+    });
     c.finish(hint)?;
     // A missing viscosity part was recorded as a problem above.
     let viscosity = viscosity.ok_or_else(|| {
@@ -273,9 +380,11 @@ pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
             date: file.about.date,
             units: file.about.units,
             invented: file.about.invented,
+            fitted: file.about.fitted,
         },
         viscosity,
         phases,
+        kinetics_fit,
     })
 }
 
@@ -359,12 +468,98 @@ fn viscosity_model(c: &mut Collector, v: &ViscosityFile) -> Option<ViscosityMode
             );
         }
     }
+    let fit = v.fit.as_ref().map(|f| fit_record(c, f, false));
+    if let (Some(form), Some(rec), Some(f)) = (&form, &fit, &v.fit) {
+        for (name, span) in rec.coefficients.iter().zip(&f.coefficients.get_ref()[..]) {
+            let known = name
+                .parse::<ViscosityCoefficient>()
+                .ok()
+                .and_then(|k| form.mixture(k.param)?.coefficient(k.term))
+                .is_some();
+            if !known {
+                c.push(
+                    span.span(),
+                    format!("'{name}' is not a coefficient of this viscosity model (write PARAMETER.TERM, e.g. b_k.SiO2, a.constant, c_k.Na2O*CaO)"),
+                );
+            }
+        }
+    }
     form.map(|form| ViscosityModel {
         name: v.name.clone(),
         source: v.source.clone(),
         form,
         domain,
+        fit,
     })
+}
+
+/// A fit record read and checked: non-negative counts and statistics, a
+/// covariance that matches the coefficients and can be sampled.
+fn fit_record(c: &mut Collector, f: &FitFile, kinetics: bool) -> FitRecord {
+    let record = FitRecord {
+        data: f.data.clone(),
+        data_sha256: f.data_sha256.clone(),
+        date: f.date.clone(),
+        method: f.method.clone(),
+        points: f.points,
+        glasses: f.glasses,
+        unit: f.unit.clone(),
+        rmse: f.rmse,
+        residual_sd: f.residual_sd,
+        dof: f.dof,
+        r_squared: f.r_squared,
+        cv_method: f.cv_method.clone(),
+        cv_rmse: f.cv_rmse,
+        cv_rmse_k: f.cv_rmse_k,
+        coefficients: f
+            .coefficients
+            .get_ref()
+            .iter()
+            .map(|s| s.get_ref().clone())
+            .collect(),
+        covariance: f.covariance.get_ref().clone(),
+    };
+    let span = f.covariance.span();
+    for (k, v) in [
+        ("rmse", Some(f.rmse)),
+        ("residual_sd", Some(f.residual_sd)),
+        ("cv_rmse", f.cv_rmse),
+        ("cv_rmse_k", f.cv_rmse_k),
+    ] {
+        if let Some(v) = v {
+            if !(v.is_finite() && v >= 0.0) {
+                c.push(
+                    span.clone(),
+                    format!("{k} must be zero or positive, got {v}"),
+                );
+            }
+        }
+    }
+    if let Err(e) = record.check_covariance() {
+        c.push(span.clone(), e);
+    }
+    match (kinetics, &f.options, &f.heterogeneous_nuclei_per_m3) {
+        (true, None, _) => c.push(
+            f.coefficients.span(),
+            "[kinetics_fit] needs options (the kinetic options the fitted α hold for)",
+        ),
+        (false, Some(o), _) => c.push(o.span(), "options belongs to [kinetics_fit] only"),
+        (false, None, Some(n)) => c.push(
+            n.span(),
+            "heterogeneous_nuclei_per_m3 belongs to [kinetics_fit] only",
+        ),
+        _ => {}
+    }
+    if let Some(n) = &f.heterogeneous_nuclei_per_m3 {
+        let v = *n.get_ref();
+        if !(v.is_finite() && v >= 0.0) {
+            c.push(
+                n.span(),
+                format!("heterogeneous_nuclei_per_m3 must be zero or positive, got {v} per m3"),
+            );
+        }
+    }
+    record
 }
 
 /// The model set named `name` (built in) or read from a file path.
@@ -372,16 +567,31 @@ fn viscosity_model(c: &mut Collector, v: &ViscosityFile) -> Option<ViscosityMode
 /// # Errors
 /// An unknown name, an unreadable or invalid file.
 pub fn load_model_set(spec: Option<&Path>) -> Result<ModelSet, DataError> {
+    load_model_set_text(spec).map(|(set, _)| set)
+}
+
+/// As [`load_model_set`], with the text it was read from (for writing a
+/// fitted copy that keeps the base's notes).
+///
+/// # Errors
+/// As [`load_model_set`].
+pub fn load_model_set_text(spec: Option<&Path>) -> Result<(ModelSet, String), DataError> {
     match spec {
-        None => parse_model_set(&Source::new("<built-in demo-soda-lime>", DEMO_MODELS)),
-        Some(p) if p.as_os_str() == DEFAULT_MODEL_SET => {
-            parse_model_set(&Source::new("<built-in demo-soda-lime>", DEMO_MODELS))
-        }
-        Some(p) => {
+        Some(p) if p.as_os_str() != DEFAULT_MODEL_SET => {
             let text = read_text(p)?;
-            parse_model_set(&Source::new(p.display().to_string(), &text))
+            let set = parse_model_set(&Source::new(p.display().to_string(), &text))?;
+            Ok((set, text))
+        }
+        _ => {
+            let set = parse_model_set(&Source::new("<built-in demo-soda-lime>", DEMO_MODELS))?;
+            Ok((set, DEMO_MODELS.to_string()))
         }
     }
+}
+
+/// Whether a model-set argument names the built-in set.
+pub fn is_built_in(spec: Option<&Path>) -> bool {
+    spec.is_none_or(|p| p.as_os_str() == DEFAULT_MODEL_SET)
 }
 
 /// A viscosity model by built-in name (`grd2008`, `demo-soda-lime`) or file path.

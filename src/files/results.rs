@@ -2,6 +2,7 @@
 //! candidates tables (columns from `report::records`, defined once), the
 //! batch sheets, and what `quenchwise report` needs to draw a finished run.
 
+use super::run_folder::RunFolder;
 use super::screen_config::{self, RunPlan};
 use super::table::read_frame;
 use crate::batch::least_cost_batch;
@@ -15,16 +16,6 @@ use crate::screen::{evaluate_candidate_with, Pass, Row, ScreenProblem, Shortlist
 use crate::units::kelvin_to_celsius;
 use polars::prelude::*;
 use std::path::{Path, PathBuf};
-
-/// Write a file atomically: a temp file beside it, then a rename.
-///
-/// # Errors
-/// The write or the rename fails.
-pub(crate) fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), Error> {
-    let tmp = path.with_extension("partial");
-    std::fs::write(&tmp, bytes).map_err(|e| Error::io("writing", &tmp, e))?;
-    std::fs::rename(&tmp, path).map_err(|e| Error::io("renaming", &tmp, e))
-}
 
 /// The screen's table of rows: `rank` and the result columns for the
 /// shortlist; index, pass, feasibility, broken limits, objective, the result
@@ -164,11 +155,10 @@ fn batch_sheet(plan: &RunPlan, comp: &Composition) -> Result<Option<(String, Str
 /// A write fails, or a batch cannot be made.
 pub(crate) fn write_batch_sheets(
     plan: &RunPlan,
-    out: &Path,
+    folder: &RunFolder,
     shortlist: &[Shortlisted],
 ) -> Result<(), Error> {
-    let sheets = out.join("batch-sheets");
-    std::fs::create_dir_all(&sheets).map_err(|e| Error::io("creating", &sheets, e))?;
+    folder.sub_folder("batch-sheets")?;
     for (i, s) in shortlist.iter().enumerate() {
         let Some(e) = &s.candidate.evaluation else {
             continue;
@@ -178,13 +168,13 @@ pub(crate) fn write_batch_sheets(
         if let Some((sheet, csv)) = batch_sheet(plan, &comp)? {
             text.push('\n');
             text.push_str(&sheet);
-            write_atomic(
-                &sheets.join(format!("rank-{:02}.csv", i + 1)),
+            folder.write(
+                &format!("batch-sheets/rank-{:02}.csv", i + 1),
                 csv.as_bytes(),
             )?;
         }
-        write_atomic(
-            &sheets.join(format!("rank-{:02}.txt", i + 1)),
+        folder.write(
+            &format!("batch-sheets/rank-{:02}.txt", i + 1),
             text.as_bytes(),
         )?;
     }
@@ -344,7 +334,8 @@ pub(crate) fn read_finished_run(dir: &Path) -> Result<(RunPlan, Vec<ReportRecipe
 ///
 /// # Errors
 /// Missing or unreadable result files, or a config that no longer loads.
-pub fn write_report(dir: &Path) -> Result<PathBuf, Error> {
+pub fn write_report(folder: &RunFolder) -> Result<PathBuf, Error> {
+    let dir = folder.root();
     let (plan, recipes, summary) = read_finished_run(dir)?;
     let (by_cost, by_melting) = trade_points(dir, &recipes)?;
     let html = crate::report::html::screen_report_html(&ScreenReport {
@@ -355,7 +346,5 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, Error> {
         by_melting,
         summary,
     });
-    let path = dir.join("report.html");
-    write_atomic(&path, html.as_bytes())?;
-    Ok(path)
+    folder.write("report.html", html.as_bytes())
 }

@@ -1,16 +1,18 @@
-//! Calibration of the kinetic factor: the Turnbull α (or σ) of one phase that
-//! makes the model reproduce one measured critical cooling rate or nose time.
-//! The phase is the one the caller names, or else the limiting phase (the
-//! largest share of the crystallised volume at R_c) with the factors as given.
-//! The mismatch is monotone in α, so a bracket on a geometric grid and Brent's
-//! method find it. See docs/science.md, "Calibration".
+//! Calibration of the kinetic factor on one measurement: the Turnbull α (or
+//! σ) of one phase that makes the model reproduce one measured critical
+//! cooling rate or nose time. The phase is the one the caller names, or else
+//! the limiting phase (the largest share of the crystallised volume at R_c)
+//! with the factors as given. This is the one-point case of [`super::fit`]:
+//! the mismatch is monotone in α, so a bracket on a geometric grid and
+//! Brent's method find it. See docs/science.md, "Calibration".
 
+use super::fit::{
+    fit_kinetics, with_alpha, KineticFitError, KineticFitSpec, KineticPoint, Measurement,
+};
 use super::melt::{KineticOptions, Melt};
 use super::rates::Kinetics;
 use super::KineticsError;
 use crate::error::positive;
-use crate::numeric::brent_root;
-use crate::properties::Interface;
 use crate::units::KelvinPerSecond;
 
 /// A melt whose phase `phase` was calibrated.
@@ -34,13 +36,7 @@ impl Kinetics {
         phase: Option<usize>,
     ) -> Result<Calibrated, KineticsError> {
         positive("measured critical cooling rate", measured.0, "K/s")?;
-        let target = measured.0.ln();
-        Self::calibrate(
-            melt,
-            opts,
-            phase,
-            |k| Ok(k.critical_rate()?.0.ln() - target),
-        )
+        Self::calibrate(melt, opts, phase, Measurement::CriticalRate(measured))
     }
 
     /// Turnbull α (or σ) of one phase that makes the model reproduce a measured nose time.
@@ -54,21 +50,15 @@ impl Kinetics {
         phase: Option<usize>,
     ) -> Result<Calibrated, KineticsError> {
         positive("measured nose time", nose_time_s, "s")?;
-        let target = nose_time_s.ln();
-        Self::calibrate(melt, opts, phase, |k| {
-            Ok(k.analyse()?.nose_time_s.ln() - target)
-        })
+        Self::calibrate(melt, opts, phase, Measurement::NoseTime(nose_time_s))
     }
 
-    fn calibrate<F>(
+    fn calibrate(
         melt: &Melt,
         opts: &KineticOptions,
         phase: Option<usize>,
-        mismatch: F,
-    ) -> Result<Calibrated, KineticsError>
-    where
-        F: Fn(&Kinetics) -> Result<f64, KineticsError>,
-    {
+        measurement: Measurement,
+    ) -> Result<Calibrated, KineticsError> {
         let k = match phase {
             Some(k) if k < melt.phases.len() => k,
             Some(k) => return Err(KineticsError::NoSuchPhase(k)),
@@ -77,39 +67,33 @@ impl Kinetics {
                 s.limiting_phase().index
             }
         };
-        let original = melt.phases[k].clone();
-        let with_alpha = |alpha: f64| -> Melt {
-            let mut p = original.clone();
-            p.interface = Interface::TurnbullAlpha(alpha);
-            let interface = match original.interface {
-                Interface::TurnbullAlpha(_) => Interface::TurnbullAlpha(alpha),
-                Interface::EnergyJPerM2(_) => {
-                    Interface::EnergyJPerM2(p.interface_energy_j_per_m2())
-                }
-            };
-            melt.with_interface(k, interface)
+        let name = melt.phases[k].name.clone();
+        let point = KineticPoint {
+            row: 1,
+            melt: melt.clone(),
+            measurement,
+            phase: None,
         };
-        let eval = |alpha: f64| -> f64 {
-            Kinetics::new(&with_alpha(alpha), opts)
-                .and_then(|k| mismatch(&k))
-                .unwrap_or(f64::NAN)
+        let spec = KineticFitSpec {
+            phases: vec![name.clone()],
+            fit_nuclei: false,
+            log10_sd: None,
         };
-        let (lo, hi) = (0.01_f64, 10.0_f64);
-        // The mismatch is monotone in α (a larger barrier slows crystallisation:
-        // R_c falls, the nose time rises). Walk a geometric grid to find a sign
-        // change; NaN (a failed point) is skipped.
-        let grid: Vec<f64> = (0..=40)
-            .map(|k| lo * (hi / lo).powf(k as f64 / 40.0))
-            .collect();
-        let values: Vec<f64> = grid.iter().map(|&a| eval(a)).collect();
-        let bracket = (0..grid.len() - 1).find(|&k| {
-            values[k].is_finite() && values[k + 1].is_finite() && values[k] * values[k + 1] <= 0.0
-        });
-        let b = bracket.ok_or(KineticsError::CalibrationBracket { lo, hi })?;
-        let alpha =
-            brent_root(eval, grid[b], grid[b + 1], 1e-10).map_err(KineticsError::Numerical)?;
+        let fit = fit_kinetics(&[point], opts, &spec).map_err(|e| match e {
+            KineticFitError::Row { source, .. } => source,
+            KineticFitError::Unreachable { rows } => KineticsError::Unreachable(
+                rows.into_iter()
+                    .map(|(_, m)| m)
+                    .collect::<Vec<_>>()
+                    .join("; "),
+            ),
+            other => KineticsError::Numerical(other.to_string()),
+        })?;
+        let alpha = fit.values.first().copied().ok_or_else(|| {
+            KineticsError::Numerical(format!("the measurement does not depend on α of {name}"))
+        })?;
         Ok(Calibrated {
-            melt: with_alpha(alpha),
+            melt: with_alpha(melt, &name, alpha),
             phase: k,
         })
     }

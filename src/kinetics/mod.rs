@@ -30,11 +30,13 @@
 //! Files: [`melt`] (the melt and the options), [`rates`] (I and U),
 //! [`ttt`] (isothermal curve and nose), [`cooling`] (continuous cooling,
 //! critical rate, paths, slab), [`calibration`] (α from a measurement),
-//! [`quadrature`] (the adaptive panels), [`plausible`] (the ranges inputs
-//! are warned about).
+//! [`fit`] (α of several phases and the nuclei density from many
+//! measurements), [`quadrature`] (the adaptive panels), [`plausible`] (the
+//! ranges inputs are warned about).
 
 pub mod calibration;
 pub mod cooling;
+pub mod fit;
 pub mod melt;
 pub mod plausible;
 pub mod quadrature;
@@ -93,6 +95,8 @@ pub enum KineticsError {
     BadPath { index: usize },
     #[error("no kinetic factor in [{lo}, {hi}] reproduces the measured value")]
     CalibrationBracket { lo: f64, hi: f64 },
+    #[error("{0}")]
+    Unreachable(String),
     #[error("numerical failure: {0}")]
     Numerical(String),
     #[error("the {quantity} comes out as {value:e} {unit}, not a finite positive number: the melt lies outside what the kinetics can represent")]

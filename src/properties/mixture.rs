@@ -17,7 +17,8 @@ pub enum FractionBasis {
 }
 
 impl FractionBasis {
-    fn scale(self) -> f64 {
+    /// The factor from mole fractions to this basis: 1 or 100.
+    pub fn scale(self) -> f64 {
         match self {
             FractionBasis::MoleFraction => 1.0,
             FractionBasis::MolPercent => 100.0,
@@ -79,6 +80,86 @@ impl MixtureModel {
     }
 }
 
+/// One coefficient of a mixture model, as fits and their covariance name it:
+/// `constant`, an oxide (`SiO2`, a linear term) or a pair (`Na2O*CaO`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Term {
+    Constant,
+    Linear(Oxide),
+    Pair(Oxide, Oxide),
+}
+
+impl std::fmt::Display for Term {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            Term::Constant => f.write_str("constant"),
+            Term::Linear(o) => write!(f, "{o}"),
+            Term::Pair(a, b) => write!(f, "{a}*{b}"),
+        }
+    }
+}
+
+impl std::str::FromStr for Term {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Self, String> {
+        let s = s.trim();
+        if s == "constant" {
+            return Ok(Term::Constant);
+        }
+        let oxide = |t: &str| {
+            t.trim()
+                .parse::<Oxide>()
+                .map_err(|_| format!("unknown oxide '{}' in the term '{s}'", t.trim()))
+        };
+        match s.split_once('*') {
+            Some((a, b)) => Ok(Term::Pair(oxide(a)?, oxide(b)?)),
+            None => Ok(Term::Linear(oxide(s)?)),
+        }
+    }
+}
+
+impl MixtureModel {
+    /// The value a term multiplies at mole fractions `x`, in the model's basis
+    /// (1, s·x_i, or s·x_i · s·x_j).
+    pub fn term_value(&self, t: Term, x: &[f64; N_OXIDES]) -> f64 {
+        let s = self.basis.scale();
+        match t {
+            Term::Constant => 1.0,
+            Term::Linear(o) => s * x[o.index()],
+            Term::Pair(a, b) => s * x[a.index()] * s * x[b.index()],
+        }
+    }
+
+    /// The coefficient of a term (a linear term the model lacks is zero; a
+    /// pair it lacks is None).
+    pub fn coefficient(&self, t: Term) -> Option<f64> {
+        match t {
+            Term::Constant => Some(self.constant),
+            Term::Linear(o) => Some(self.linear[o.index()]),
+            Term::Pair(a, b) => self
+                .pairs
+                .iter()
+                .find(|(i, j, _)| (*i, *j) == (a.index(), b.index()))
+                .map(|p| p.2),
+        }
+    }
+
+    /// Set the coefficient of a term, adding a pair term if the model lacks it.
+    pub fn set_coefficient(&mut self, t: Term, value: f64) {
+        match t {
+            Term::Constant => self.constant = value,
+            Term::Linear(o) => self.linear[o.index()] = value,
+            Term::Pair(a, b) => {
+                let key = (a.index(), b.index());
+                match self.pairs.iter_mut().find(|(i, j, _)| (*i, *j) == key) {
+                    Some(p) => p.2 = value,
+                    None => self.pairs.push((key.0, key.1, value)),
+                }
+            }
+        }
+    }
+}
+
 /// Range of each oxide (mol%) over the data a model was fitted to.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Domain {
@@ -96,6 +177,27 @@ impl Default for Domain {
 }
 
 impl Domain {
+    /// The range of each oxide over a set of compositions (mole fractions):
+    /// an oxide none of them contains gets [0, 0].
+    pub fn of_data<'a>(xs: impl IntoIterator<Item = &'a [f64; N_OXIDES]>) -> Domain {
+        let mut d = Domain {
+            min: [f64::INFINITY; N_OXIDES],
+            max: [0.0; N_OXIDES],
+        };
+        for x in xs {
+            for (i, xi) in x.iter().enumerate() {
+                d.min[i] = d.min[i].min(100.0 * xi);
+                d.max[i] = d.max[i].max(100.0 * xi);
+            }
+        }
+        for i in 0..N_OXIDES {
+            if !d.min[i].is_finite() {
+                d.min[i] = 0.0;
+            }
+        }
+        d
+    }
+
     /// The oxides outside the domain, as readable phrases.
     pub fn violations(&self, c: &Composition) -> Vec<String> {
         let pct = c.mol_percent();
@@ -116,6 +218,40 @@ impl Domain {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn terms_read_write_and_address_coefficients() {
+        for text in ["constant", "SiO2", "Na2O*CaO"] {
+            assert_eq!(text.parse::<Term>().unwrap().to_string(), text);
+        }
+        assert!("SiO3".parse::<Term>().is_err());
+        let mut m = MixtureModel::constant(2.0);
+        let pair = Term::Pair(Oxide::Na2O, Oxide::CaO);
+        assert_eq!(m.coefficient(pair), None);
+        m.set_coefficient(pair, 3.0);
+        m.set_coefficient(Term::Linear(Oxide::SiO2), 5.0);
+        assert_eq!(m.coefficient(pair), Some(3.0));
+        let c = Composition::from_mol_percent(&[
+            (Oxide::SiO2, 70.0),
+            (Oxide::Na2O, 20.0),
+            (Oxide::CaO, 10.0),
+        ])
+        .unwrap();
+        let x = c.fractions();
+        // 2 + 5·0.7 + 3·0.2·0.1 = 5.56, by hand; and the sum of terms × values.
+        let by_terms: f64 = [Term::Constant, Term::Linear(Oxide::SiO2), pair]
+            .iter()
+            .map(|t| m.coefficient(*t).unwrap() * m.term_value(*t, x))
+            .sum();
+        assert!((m.eval(x) - 5.56).abs() < 1e-12);
+        assert!((by_terms - 5.56).abs() < 1e-12);
+        let d = Domain::of_data([x]);
+        assert_eq!(
+            (d.min[Oxide::K2O.index()], d.max[Oxide::K2O.index()]),
+            (0.0, 0.0)
+        );
+        assert!((d.max[Oxide::SiO2.index()] - 70.0).abs() < 1e-9);
+    }
 
     #[test]
     fn mixture_model_terms() {

@@ -3,16 +3,18 @@
 //! No I/O: model files are read by `files`, this layer only evaluates.
 
 pub mod crystal;
+pub mod fit;
 pub mod liquidus;
 pub mod mixture;
 pub mod model_set;
 pub mod viscosity;
 
 pub use crystal::{GrowthMode, Interface};
+pub use fit::{FitRecord, KineticsFitRecord, Provenance};
 pub use liquidus::{LiquidusSurface, PhaseLiquidus};
-pub use mixture::{Domain, FractionBasis, MixtureModel, ProductTerm};
+pub use mixture::{Domain, FractionBasis, MixtureModel, ProductTerm, Term};
 pub use model_set::{About, ModelError, ModelSet, Phase, Properties};
 pub use viscosity::{
-    fixpoints, ViscosityCurve, ViscosityError, ViscosityForm, ViscosityModel,
-    GLASS_TRANSITION_LOG_VISCOSITY,
+    fixpoints, ViscosityCoefficient, ViscosityCurve, ViscosityError, ViscosityForm, ViscosityModel,
+    ViscosityParam, GLASS_TRANSITION_LOG_VISCOSITY,
 };

@@ -10,6 +10,7 @@
 //!   Phys. 10 (1969) 473–488, doi:10.1080/00107516908204405 (T_g/T_L).
 
 use super::crystal::GrowthMode;
+use super::fit::{FitRecord, KineticsFitRecord};
 use super::liquidus::{LiquidusSurface, PhaseLiquidus};
 use super::mixture::Domain;
 use super::viscosity::{fixpoints, ViscosityCurve, ViscosityError, ViscosityModel};
@@ -27,6 +28,8 @@ pub struct Phase {
     pub melting_point: Kelvin,
     pub growth: GrowthMode,
     pub turnbull_alpha: f64,
+    /// Standard error of α where a fit gave one.
+    pub turnbull_alpha_sd: Option<f64>,
     /// What α was calibrated against, if it was.
     pub calibrated_against: Option<String>,
     /// ΔC_p = C_p(liquid) − C_p(crystal) near T_m, J/(mol K), where known.
@@ -35,6 +38,8 @@ pub struct Phase {
     pub liquidus: LiquidusSurface,
     /// Where the liquidus surface is meant to hold (mol%).
     pub domain: Domain,
+    /// How the liquidus surface was fitted, with its covariance, if it was.
+    pub liquidus_fit: Option<FitRecord>,
 }
 
 impl Phase {
@@ -59,6 +64,8 @@ pub struct About {
     pub units: String,
     /// True when the coefficients are invented (demo data).
     pub invented: bool,
+    /// What was fitted to which data, one line per fit, oldest first.
+    pub fitted: Vec<String>,
 }
 
 /// Viscosity + liquidus surfaces + crystal data: everything composition → melt.
@@ -67,6 +74,8 @@ pub struct ModelSet {
     pub about: About,
     pub viscosity: ViscosityModel,
     pub phases: Vec<Phase>,
+    /// The joint fit of the phases' α (their covariance), if there was one.
+    pub kinetics_fit: Option<KineticsFitRecord>,
 }
 
 /// Why a composition has no properties.

@@ -11,7 +11,8 @@
 //!   liquids: A model", Earth Planet. Sci. Lett. 271 (2008) 123–134,
 //!   doi:10.1016/j.epsl.2008.03.038 (a published composition model).
 
-use super::mixture::{Domain, MixtureModel};
+use super::fit::FitRecord;
+use super::mixture::{Domain, MixtureModel, Term};
 use super::model_set::ModelError;
 use crate::composition::Composition;
 use crate::error::{finite, positive, Diagnostic, ValueError};
@@ -204,6 +205,122 @@ pub enum ViscosityForm {
     },
 }
 
+/// One of the three composition-dependent parameters of a viscosity form,
+/// named as in model files: `a`, `b_k`, `c_k` (VFT) or `log_eta_inf`,
+/// `tg_k`, `fragility` (MYEGA).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ViscosityParam {
+    A,
+    BK,
+    CK,
+    LogEtaInf,
+    TgK,
+    Fragility,
+}
+
+impl ViscosityParam {
+    /// The key in a model file.
+    pub fn key(self) -> &'static str {
+        match self {
+            ViscosityParam::A => "a",
+            ViscosityParam::BK => "b_k",
+            ViscosityParam::CK => "c_k",
+            ViscosityParam::LogEtaInf => "log_eta_inf",
+            ViscosityParam::TgK => "tg_k",
+            ViscosityParam::Fragility => "fragility",
+        }
+    }
+
+    /// The parameter with this key.
+    pub fn from_key(key: &str) -> Option<Self> {
+        [
+            ViscosityParam::A,
+            ViscosityParam::BK,
+            ViscosityParam::CK,
+            ViscosityParam::LogEtaInf,
+            ViscosityParam::TgK,
+            ViscosityParam::Fragility,
+        ]
+        .into_iter()
+        .find(|p| p.key() == key)
+    }
+}
+
+impl ViscosityForm {
+    /// The three parameters of this form, in order.
+    pub fn params(&self) -> [ViscosityParam; 3] {
+        match self {
+            ViscosityForm::Vft { .. } => {
+                [ViscosityParam::A, ViscosityParam::BK, ViscosityParam::CK]
+            }
+            ViscosityForm::Myega { .. } => [
+                ViscosityParam::LogEtaInf,
+                ViscosityParam::TgK,
+                ViscosityParam::Fragility,
+            ],
+        }
+    }
+
+    /// The mixture model of a parameter, if this form has it.
+    pub fn mixture(&self, p: ViscosityParam) -> Option<&MixtureModel> {
+        match (self, p) {
+            (ViscosityForm::Vft { a, .. }, ViscosityParam::A) => Some(a),
+            (ViscosityForm::Vft { b_k, .. }, ViscosityParam::BK) => Some(b_k),
+            (ViscosityForm::Vft { c_k, .. }, ViscosityParam::CK) => Some(c_k),
+            (ViscosityForm::Myega { log_eta_inf, .. }, ViscosityParam::LogEtaInf) => {
+                Some(log_eta_inf)
+            }
+            (ViscosityForm::Myega { tg_k, .. }, ViscosityParam::TgK) => Some(tg_k),
+            (ViscosityForm::Myega { fragility, .. }, ViscosityParam::Fragility) => Some(fragility),
+            _ => None,
+        }
+    }
+
+    /// The mixture model of a parameter, to change it.
+    pub fn mixture_mut(&mut self, p: ViscosityParam) -> Option<&mut MixtureModel> {
+        match (self, p) {
+            (ViscosityForm::Vft { a, .. }, ViscosityParam::A) => Some(a),
+            (ViscosityForm::Vft { b_k, .. }, ViscosityParam::BK) => Some(b_k),
+            (ViscosityForm::Vft { c_k, .. }, ViscosityParam::CK) => Some(c_k),
+            (ViscosityForm::Myega { log_eta_inf, .. }, ViscosityParam::LogEtaInf) => {
+                Some(log_eta_inf)
+            }
+            (ViscosityForm::Myega { tg_k, .. }, ViscosityParam::TgK) => Some(tg_k),
+            (ViscosityForm::Myega { fragility, .. }, ViscosityParam::Fragility) => Some(fragility),
+            _ => None,
+        }
+    }
+}
+
+/// A coefficient of a viscosity model, written `b_k.SiO2`, `a.constant` or
+/// `c_k.Na2O*CaO` in a fit's list of coefficients.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct ViscosityCoefficient {
+    pub param: ViscosityParam,
+    pub term: Term,
+}
+
+impl std::fmt::Display for ViscosityCoefficient {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}.{}", self.param.key(), self.term)
+    }
+}
+
+impl std::str::FromStr for ViscosityCoefficient {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Self, String> {
+        let (p, t) = s
+            .split_once('.')
+            .ok_or_else(|| format!("'{s}' must be PARAMETER.TERM, e.g. b_k.SiO2 or a.constant"))?;
+        let param = ViscosityParam::from_key(p.trim())
+            .ok_or_else(|| format!("unknown viscosity parameter '{p}' in '{s}'"))?;
+        Ok(ViscosityCoefficient {
+            param,
+            term: t.parse()?,
+        })
+    }
+}
+
 /// A viscosity model with its provenance and validity domain.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ViscosityModel {
@@ -211,9 +328,37 @@ pub struct ViscosityModel {
     pub source: String,
     pub form: ViscosityForm,
     pub domain: Domain,
+    /// How the coefficients were fitted, with their covariance, if they were.
+    pub fit: Option<FitRecord>,
 }
 
 impl ViscosityModel {
+    /// The value of a coefficient (None: the form has no such parameter, or
+    /// the model no such pair term).
+    pub fn coefficient(&self, c: ViscosityCoefficient) -> Option<f64> {
+        self.form.mixture(c.param)?.coefficient(c.term)
+    }
+
+    /// The same model with the coefficients `names` set to `values` (as a
+    /// draw from the fit's covariance would set them).
+    ///
+    /// # Errors
+    /// A name that does not address a coefficient of this model.
+    pub fn with_coefficients(
+        &self,
+        names: &[ViscosityCoefficient],
+        values: &[f64],
+    ) -> Result<ViscosityModel, String> {
+        let mut m = self.clone();
+        for (c, v) in names.iter().zip(values) {
+            let mix = m.form.mixture_mut(c.param).ok_or_else(|| {
+                format!("this viscosity form has no parameter '{}'", c.param.key())
+            })?;
+            mix.set_coefficient(c.term, *v);
+        }
+        Ok(m)
+    }
+
     /// The viscosity curve of a composition, and flags if it is extrapolated.
     ///
     /// # Errors

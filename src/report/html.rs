@@ -372,7 +372,7 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
         for (o, _) in &r.recipes[0].mol_pct {
             let _ = write!(h, "<th>{o}<br/>mol%</th>");
         }
-        h.push_str("<th>R_c<br/>K/s</th><th>margin<br/>decades</th><th>melting<br/>°C</th><th>liquidus<br/>°C</th><th class=\"l\">primary phase</th><th>T_g<br/>°C</th><th>cost<br/>per kg</th></tr>");
+        h.push_str("<th>R_c<br/>K/s</th><th>margin<br/>decades</th><th>melting<br/>°C</th><th>liquidus<br/>°C</th><th class=\"l\">primary phase</th><th>T_g<br/>°C</th><th>cost<br/>per kg</th><th class=\"l\">binding</th></tr>");
         for l in &r.recipes {
             let _ = write!(h, "<tr><td><a href=\"#rank-{0}\">{0}</a></td>", l.rank);
             for (_, v) in &l.mol_pct {
@@ -383,7 +383,7 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
             let w = &l.row;
             let _ = write!(
                 h,
-                "<td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"l\">{}</td><td>{}</td><td>{}</td></tr>",
+                "<td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"l\">{}</td><td>{}</td><td>{}</td><td class=\"l\">{}</td></tr>",
                 w.critical_rate_k_per_s.map(sig).unwrap_or_default(),
                 f(w.margin_decades, 2),
                 c(w.melting_temperature_k),
@@ -391,6 +391,7 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
                 esc(w.primary_phase.as_deref().unwrap_or_default()),
                 c(w.glass_transition_k),
                 f(w.cost_per_kg, 3),
+                esc(&w.binding),
             );
         }
         h.push_str("</table>");

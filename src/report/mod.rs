@@ -2,6 +2,7 @@
 //! columns of the screen's tables (defined once), SVG pictures, and the HTML
 //! report of a screen. It renders values it is given and reads no files.
 
+pub mod fit;
 pub mod html;
 pub mod plot;
 pub mod records;

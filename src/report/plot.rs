@@ -1,6 +1,6 @@
 //! Pictures as SVG text: TTT diagrams with cooling lines, transformed fraction
-//! against cooling rate, the screen's trade-offs, composition bars, and I(T),
-//! U(T). Every axis carries its unit; temperatures are in °C with K named in the
+//! against cooling rate, the screen's trade-offs, composition bars, I(T),
+//! U(T), and the residuals of a fit. Every axis carries its unit; temperatures are in °C with K named in the
 //! caption. When there is nothing sensible to draw, the picture says why.
 //!
 //! Our own style: a warm off-white ground, slate text, teal for the crystal
@@ -329,6 +329,147 @@ pub fn rates_svg(k: &Kinetics, title: &str) -> String {
                 ))
                 .map_err(e)?;
         }
+        root.present().map_err(e)
+    })();
+    r.map(|_| svg).unwrap_or_else(|m| message_svg(title, &m))
+}
+
+/// Tick label on a linear axis: no trailing zeros, no "-0".
+fn axis_label(v: f64) -> String {
+    let s = if v.abs() >= 100.0 {
+        format!("{v:.0}")
+    } else {
+        let s = format!("{v:.3}");
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    };
+    if s == "-0" {
+        "0".into()
+    } else {
+        s
+    }
+}
+
+/// Residuals of a fit to draw: in-sample points, or held-out predictions.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ResidualSeries {
+    pub label: String,
+    /// (x, fitted − measured).
+    pub points: Vec<(f64, f64)>,
+    /// Drawn as rings (predictions for points the fit did not see).
+    pub held_out: bool,
+}
+
+/// Residuals (fitted − measured) against a quantity: the fit's own points as
+/// teal dots, held-out predictions as amber rings, zero as a line and ±2σ
+/// (σ the fit's residual standard deviation) as a band of two lines.
+pub fn residuals_svg(
+    series: &[ResidualSeries],
+    x_desc: &str,
+    y_desc: &str,
+    sigma: Option<f64>,
+    title: &str,
+) -> String {
+    let all: Vec<(f64, f64)> = series
+        .iter()
+        .flat_map(|s| s.points.iter().copied())
+        .filter(|p| p.0.is_finite() && p.1.is_finite())
+        .collect();
+    if all.is_empty() {
+        return message_svg(title, "no residuals to draw");
+    }
+    let (mut x0, mut x1) = all.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |a, p| {
+        (a.0.min(p.0), a.1.max(p.0))
+    });
+    if x1 <= x0 {
+        x0 -= 1.0;
+        x1 += 1.0;
+    }
+    let pad = 0.05 * (x1 - x0);
+    let band = sigma.map(|s| 2.0 * s).unwrap_or(0.0);
+    let ymax = all
+        .iter()
+        .map(|p| p.1.abs())
+        .fold(band, f64::max)
+        .max(1e-12)
+        * 1.15;
+    let mut svg = String::new();
+    let r: Res = (|| {
+        let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
+        root.fill(&GROUND).map_err(e)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(title, ("sans-serif", 17).into_font().color(&INK))
+            .margin(14)
+            .x_label_area_size(46)
+            .y_label_area_size(70)
+            .build_cartesian_2d(x0 - pad..x1 + pad, -ymax..ymax)
+            .map_err(e)?;
+        chart
+            .configure_mesh()
+            .x_label_formatter(&|v| axis_label(*v))
+            .y_label_formatter(&|v| axis_label(*v))
+            .x_desc(x_desc)
+            .y_desc(y_desc)
+            .axis_desc_style(("sans-serif", 15).into_font().color(&INK))
+            .label_style(("sans-serif", 13).into_font().color(&INK))
+            .light_line_style(GROUND.mix(0.0))
+            .bold_line_style(STONE.mix(0.25))
+            .draw()
+            .map_err(e)?;
+        chart
+            .draw_series(LineSeries::new(
+                vec![(x0 - pad, 0.0), (x1 + pad, 0.0)],
+                INK.stroke_width(1),
+            ))
+            .map_err(e)?;
+        if band > 0.0 {
+            for y in [band, -band] {
+                chart
+                    .draw_series(LineSeries::new(
+                        vec![(x0 - pad, y), (x1 + pad, y)],
+                        STONE.stroke_width(1),
+                    ))
+                    .map_err(e)?;
+            }
+            chart
+                .draw_series(std::iter::once(Text::new(
+                    "±2σ of the fit".to_string(),
+                    (x0, band * 1.04),
+                    ("sans-serif", 12).into_font().color(&INK),
+                )))
+                .map_err(e)?;
+        }
+        for s in series {
+            let pts: Vec<(f64, f64)> = s
+                .points
+                .iter()
+                .copied()
+                .filter(|p| p.0.is_finite() && p.1.is_finite())
+                .collect();
+            if s.held_out {
+                chart
+                    .draw_series(
+                        pts.iter()
+                            .map(|p| Circle::new(*p, 5, AMBER.stroke_width(2))),
+                    )
+                    .map_err(e)?
+                    .label(s.label.clone())
+                    .legend(|(x, y)| Circle::new((x + 10, y), 5, AMBER.stroke_width(2)));
+            } else {
+                chart
+                    .draw_series(pts.iter().map(|p| Circle::new(*p, 4, TEAL.filled())))
+                    .map_err(e)?
+                    .label(s.label.clone())
+                    .legend(|(x, y)| Circle::new((x + 10, y), 4, TEAL.filled()));
+            }
+        }
+        chart
+            .configure_series_labels()
+            .background_style(GROUND.mix(0.9))
+            .border_style(STONE)
+            .label_font(("sans-serif", 13).into_font().color(&INK))
+            .position(SeriesLabelPosition::LowerRight)
+            .draw()
+            .map_err(e)?;
         root.present().map_err(e)
     })();
     r.map(|_| svg).unwrap_or_else(|m| message_svg(title, &m))

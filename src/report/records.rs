@@ -25,7 +25,7 @@ pub struct Field {
 
 /// The result columns every screen table carries after the composition,
 /// in this order.
-pub const RESULT_FIELDS: [Field; 11] = [
+pub const RESULT_FIELDS: [Field; 12] = [
     Field {
         name: "critical_rate_k_per_s",
         get: |r| Cell::Num(r.critical_rate_k_per_s),
@@ -65,6 +65,10 @@ pub const RESULT_FIELDS: [Field; 11] = [
     Field {
         name: "cost_per_kg",
         get: |r| Cell::Num(r.cost_per_kg),
+    },
+    Field {
+        name: "binding",
+        get: |r| Cell::Text(Some(&r.binding)),
     },
     Field {
         name: "warnings",

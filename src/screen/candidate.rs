@@ -3,10 +3,12 @@
 //! [`Row`] it is stored as (checkpoints, tables).
 
 use super::limits::{Limit, LimitSet};
+use super::polytope::ACTIVE_TOL_MOL_PCT;
 use super::problem::{ObjectiveKind, ScreenProblem};
 use super::simplex::composition_violation;
 use crate::assess::{
     add_glassy_thickness, evaluate_composition, Calibration, Evaluation, SlabQuench,
+    VOUCH_CRITICAL_RATE_K_PER_S, VOUCH_NOSE_TIME_S, VOUCH_THICKNESS_MM,
 };
 use crate::composition::{Composition, N_OXIDES};
 use crate::error::Error;
@@ -33,6 +35,9 @@ pub struct Candidate {
     /// Objective value, lower is better (only meaningful when feasible).
     pub objective: f64,
     pub error: Option<String>,
+    /// The limits a feasible candidate sits on ("SiO2 min", "Na2O + K2O
+    /// cap", "liquidus"); empty for infeasible candidates.
+    pub binding: Vec<String>,
 }
 
 impl Candidate {
@@ -70,6 +75,278 @@ pub fn evaluate_candidate(
     evaluate_candidate_with(problem, index, pass, x, None)
 }
 
+/// One nonlinear limit at a composition: its value scaled so that 0 is just at
+/// the limit and one unit is a decade of R_c, 100 K, or the whole cost
+/// ceiling (≤ 0: met), and the name a scientist reads when it binds.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Gauge {
+    pub limit: Limit,
+    pub label: &'static str,
+    pub value: f64,
+}
+
+/// A composition through the chain, before any limit is judged.
+pub(crate) struct Measured {
+    pub evaluation: Evaluation,
+    /// Cost per kg of glass when the problem prices glasses (Err: no batch).
+    pub cost: Option<Result<f64, String>>,
+}
+
+/// Why a composition could not be measured.
+pub(crate) enum Unmeasured {
+    /// Not a composition (e.g. a negative amount).
+    Composition(String),
+    /// The chain failed.
+    Evaluation(String),
+}
+
+/// Run the chain on a composition, whatever the composition limits say.
+pub(crate) fn measure(
+    problem: &ScreenProblem,
+    x: &[f64; N_OXIDES],
+    slab: Option<SlabQuench>,
+) -> Result<Measured, Unmeasured> {
+    let comp = Composition::from_mol_percent_array(x, 1e-6)
+        .map_err(|e| Unmeasured::Composition(e.to_string()))?;
+    let evaluation = evaluate_composition(
+        &problem.models,
+        &comp,
+        &problem.kinetic_options,
+        slab,
+        &Calibration::None,
+    )
+    .map_err(|err| Unmeasured::Evaluation(Error::from(err).message().to_string()))?;
+    let cost = problem.cost.as_ref().map(|limit| {
+        limit
+            .model
+            .cost_per_kg_glass(&comp)
+            .map_err(|err| err.message().to_string())
+    });
+    Ok(Measured { evaluation, cost })
+}
+
+/// The nonlinear limits of a problem at an evaluation, always the same ones
+/// in the same order for a problem (the cost gauge is `None`-valued, i.e.
+/// missing, when the batch cannot be made).
+pub(crate) fn gauges(problem: &ScreenProblem, e: &Evaluation, cost: Option<f64>) -> Vec<Gauge> {
+    let mut g = Vec::with_capacity(8);
+    let allowed = problem.allowed_rate().0;
+    g.push(Gauge {
+        limit: Limit::CoolingRate,
+        label: "critical rate",
+        value: (e.critical_rate_k_per_s / allowed).log10(),
+    });
+    let tm = e.melting_temperature_k.unwrap_or(f64::INFINITY);
+    g.push(Gauge {
+        limit: Limit::MeltingTemperature,
+        label: "melting temperature",
+        value: (tm - problem.melting_max.0) / 100.0,
+    });
+    g.push(Gauge {
+        limit: Limit::Liquidus,
+        label: "liquidus",
+        value: (e.liquidus_k - problem.liquidus_max.0) / 100.0,
+    });
+    if let Some((lo, hi)) = problem.glass_transition_bounds {
+        let t = e.glass_transition_k;
+        g.push(Gauge {
+            limit: Limit::GlassTransition,
+            label: "T_g min",
+            value: (lo.0 - t) / 100.0,
+        });
+        g.push(Gauge {
+            limit: Limit::GlassTransition,
+            label: "T_g max",
+            value: (t - hi.0) / 100.0,
+        });
+    }
+    if let Some((lo, hi)) = problem.working_range_bounds_k {
+        let w = e.working_point_k.unwrap_or(0.0) - e.softening_point_k.unwrap_or(0.0);
+        g.push(Gauge {
+            limit: Limit::WorkingRange,
+            label: "working range min",
+            value: (lo - w) / 100.0,
+        });
+        g.push(Gauge {
+            limit: Limit::WorkingRange,
+            label: "working range max",
+            value: (w - hi) / 100.0,
+        });
+    }
+    if let Some(limit) = &problem.cost {
+        let max = limit.max_per_kg;
+        g.push(Gauge {
+            limit: Limit::Cost,
+            label: "cost ceiling",
+            value: cost.map(|c| (c - max) / max).unwrap_or(f64::INFINITY),
+        });
+    }
+    g
+}
+
+/// Whether the objective ranks recipes by their margin (and so ranks those
+/// the model cannot vouch for last).
+pub(crate) fn uses_margin(problem: &ScreenProblem) -> bool {
+    match problem.objective {
+        ObjectiveKind::Margin => true,
+        ObjectiveKind::Blend => problem.weights.margin != 0.0,
+        _ => false,
+    }
+}
+
+/// What the model can vouch for (see `assess::VOUCH_NOSE_TIME_S`) as gauges
+/// in decades (≤ 0: vouched): nose time, glassy slab (when computed) and the
+/// lowest critical rate. With a margin objective the best recipes often sit
+/// on one of these, so the refinement treats them as constraints.
+pub(crate) fn vouch_gauges(e: &Evaluation) -> Vec<Gauge> {
+    let slab = e.max_glassy_thickness_mm.unwrap_or(0.0);
+    vec![
+        Gauge {
+            limit: Limit::Evaluation,
+            label: "vouched nose time (1 day)",
+            value: (e.nose_time_s / VOUCH_NOSE_TIME_S).log10(),
+        },
+        Gauge {
+            limit: Limit::Evaluation,
+            label: "vouched glassy slab (100 mm)",
+            value: if slab > 0.0 {
+                (slab / VOUCH_THICKNESS_MM).log10()
+            } else {
+                -10.0
+            },
+        },
+        Gauge {
+            limit: Limit::Evaluation,
+            label: "vouched critical rate (1e-3 K/s)",
+            value: (VOUCH_CRITICAL_RATE_K_PER_S / e.critical_rate_k_per_s).log10(),
+        },
+    ]
+}
+
+/// The validity boxes of the viscosity model and of the primary phase's
+/// liquidus surface at a composition: the signed distance to their nearest
+/// face in mol% (< 0 inside, > 0 outside) and the faces within `tol` mol%
+/// ("Na2O max of the wollastonite liquidus").
+pub(crate) fn domain_distance(
+    problem: &ScreenProblem,
+    x: &[f64; N_OXIDES],
+    primary_phase: Option<&str>,
+    tol: f64,
+) -> (f64, Vec<String>) {
+    let mut boxes = vec![(
+        &problem.models.viscosity.domain,
+        "viscosity model".to_string(),
+    )];
+    if let Some(p) = primary_phase.and_then(|n| problem.models.phases.iter().find(|p| p.name == n))
+    {
+        boxes.push((&p.domain, format!("{} liquidus", p.name)));
+    }
+    let mut worst = f64::NEG_INFINITY;
+    let mut faces = Vec::new();
+    for (d, what) in boxes {
+        for o in crate::composition::Oxide::ALL {
+            let i = o.index();
+            for (v, side) in [(d.min[i] - x[i], "min"), (x[i] - d.max[i], "max")] {
+                // Faces at 0 or 100 mol% are no model limit worth naming, nor
+                // is a model's "none of this oxide" ([0, 0], as a fitted
+                // model gives the oxides its data lack) for a recipe without it.
+                let trivial = (side == "min" && d.min[i] <= 0.0)
+                    || (side == "max" && d.max[i] >= 100.0)
+                    || (side == "max" && d.max[i] <= 0.0 && x[i] <= 0.0);
+                if trivial {
+                    continue;
+                }
+                worst = worst.max(v);
+                if v >= -tol {
+                    faces.push(format!("{o} {side} of the {what}"));
+                }
+            }
+        }
+    }
+    (worst, faces)
+}
+
+/// Tolerance below which a nonlinear gauge counts as binding (scaled units:
+/// 10⁻³ decade of R_c, 0.1 K, 0.1 % of the cost ceiling).
+pub const BINDING_GAUGE_TOL: f64 = 1e-3;
+
+/// The limits a composition sits on: oxide limits and linear constraints
+/// within [`ACTIVE_TOL_MOL_PCT`], model validity faces within the same, and
+/// nonlinear gauges within [`BINDING_GAUGE_TOL`] of their limit.
+pub(crate) fn binding_labels(
+    problem: &ScreenProblem,
+    x: &[f64; N_OXIDES],
+    gauges: &[Gauge],
+    domain_faces: &[String],
+) -> Vec<String> {
+    let tol = ACTIVE_TOL_MOL_PCT;
+    let mut out = Vec::new();
+    for &(o, lo, hi) in &problem.oxides {
+        let v = x[o.index()];
+        if lo < hi {
+            if v - lo <= tol {
+                out.push(format!("{o} min"));
+            }
+            if hi - v <= tol {
+                out.push(format!("{o} max"));
+            }
+        }
+    }
+    for c in &problem.constraints {
+        let s: f64 = c.weights.iter().zip(x).map(|(w, x)| w * x).sum();
+        if c.min.is_some_and(|m| s - m <= tol) {
+            out.push(format!("{} min", c.text));
+        }
+        if c.max.is_some_and(|m| m - s <= tol) {
+            out.push(format!("{} cap", c.text));
+        }
+    }
+    for g in gauges {
+        if g.value >= -BINDING_GAUGE_TOL && g.value <= BINDING_GAUGE_TOL {
+            out.push(g.label.to_string());
+        }
+    }
+    if !problem.allow_extrapolation {
+        out.extend(domain_faces.iter().cloned());
+    }
+    out
+}
+
+/// The objective of an evaluation (lower is better). With a margin objective
+/// and `judge_vouching`, the glassy slab is added first so whether the model
+/// can vouch for the recipe decides its rank.
+pub(crate) fn objective(
+    problem: &ScreenProblem,
+    e: &mut Evaluation,
+    cost: Option<f64>,
+    judge_vouching: bool,
+) -> f64 {
+    if uses_margin(problem) && judge_vouching && e.max_glassy_thickness_mm.is_none() {
+        if let Err(err) = add_glassy_thickness(e, SlabQuench::default()) {
+            e.warnings
+                .push(format!("glassy thickness not computed: {err}"));
+        }
+    }
+    let cap = problem.margin_cap_decades;
+    let margin = (problem.equipment.rate.0 / e.critical_rate_k_per_s)
+        .log10()
+        .min(cap);
+    // Recipes the model cannot vouch for rank after every recipe it can.
+    let unvouched = if e.vouched { 0.0 } else { cap + 1.0 };
+    let tm = e.melting_temperature_k.unwrap_or(f64::INFINITY);
+    let w = problem.weights;
+    match problem.objective {
+        ObjectiveKind::Margin => -margin + unvouched,
+        ObjectiveKind::Cost => cost.unwrap_or(f64::INFINITY),
+        ObjectiveKind::MeltingTemperature => tm,
+        ObjectiveKind::Blend => {
+            -w.margin * (margin - unvouched)
+                + w.cost * cost.unwrap_or(0.0)
+                + w.melting_temperature * tm / 100.0
+        }
+    }
+}
+
 /// As [`evaluate_candidate`], with the glassy-slab estimate for a plate
 /// quench (what the shortlist's sheets and the report show).
 pub fn evaluate_candidate_with(
@@ -88,116 +365,66 @@ pub fn evaluate_candidate_with(
         violations: Vec::new(),
         objective: f64::INFINITY,
         error: None,
+        binding: Vec::new(),
     };
     let off = composition_violation(problem, &x);
     if off > 1e-9 {
         c.violations.push((Limit::CompositionLimits, off));
         return c;
     }
-    let comp = match Composition::from_mol_percent_array(&x, 1e-6) {
-        Ok(c) => c,
-        Err(e) => {
+    let Measured {
+        evaluation: mut e,
+        cost,
+        ..
+    } = match measure(problem, &x, slab) {
+        Ok(m) => m,
+        Err(Unmeasured::Composition(err)) => {
             c.violations.push((Limit::CompositionLimits, 1.0));
-            c.error = Some(e.to_string());
+            c.error = Some(err);
             return c;
         }
-    };
-    let e = match evaluate_composition(
-        &problem.models,
-        &comp,
-        &problem.kinetic_options,
-        slab,
-        &Calibration::None,
-    ) {
-        Ok(e) => e,
-        Err(err) => {
+        Err(Unmeasured::Evaluation(err)) => {
             c.violations.push((Limit::Evaluation, 1.0));
-            c.error = Some(Error::from(err).message().to_string());
+            c.error = Some(err);
             return c;
         }
     };
     if !problem.allow_extrapolation && (e.viscosity_extrapolated || e.liquidus_extrapolated) {
         c.violations.push((Limit::ModelDomain, 0.5));
     }
-    let allowed = problem.allowed_rate().0;
-    if e.critical_rate_k_per_s > allowed {
-        c.violations.push((
-            Limit::CoolingRate,
-            (e.critical_rate_k_per_s / allowed).log10(),
-        ));
-    }
-    let tm = e.melting_temperature_k.unwrap_or(f64::INFINITY);
-    if tm > problem.melting_max.0 {
-        c.violations.push((
-            Limit::MeltingTemperature,
-            (tm - problem.melting_max.0) / 100.0,
-        ));
-    }
-    if e.liquidus_k > problem.liquidus_max.0 {
-        c.violations.push((
-            Limit::Liquidus,
-            (e.liquidus_k - problem.liquidus_max.0) / 100.0,
-        ));
-    }
-    if let Some((lo, hi)) = problem.glass_transition_bounds {
-        let t = e.glass_transition_k;
-        if t < lo.0 || t > hi.0 {
-            c.violations
-                .push((Limit::GlassTransition, ((lo.0 - t).max(t - hi.0)) / 100.0));
+    let cost_value = match cost {
+        Some(Ok(v)) => {
+            c.cost_per_kg = Some(v);
+            Some(v)
         }
-    }
-    if let Some((lo, hi)) = problem.working_range_bounds_k {
-        let w = e.working_point_k.unwrap_or(0.0) - e.softening_point_k.unwrap_or(0.0);
-        if w < lo || w > hi {
-            c.violations
-                .push((Limit::WorkingRange, ((lo - w).max(w - hi)) / 100.0));
+        Some(Err(err)) => {
+            c.error = Some(err);
+            None
         }
-    }
-    if let Some(limit) = &problem.cost {
-        let max = limit.max_per_kg;
-        match limit.model.cost_per_kg_glass(&comp) {
-            Ok(cost) => {
-                c.cost_per_kg = Some(cost);
-                if cost > max {
-                    c.violations.push((Limit::Cost, (cost - max) / max));
-                }
-            }
-            Err(err) => {
-                c.violations.push((Limit::Cost, 1.0));
-                c.error = Some(err.message().to_string());
-            }
-        }
-    }
-    let mut e = e;
-    let uses_margin = match problem.objective {
-        ObjectiveKind::Margin => true,
-        ObjectiveKind::Blend => problem.weights.margin != 0.0,
-        _ => false,
+        None => None,
     };
-    if uses_margin && c.violations.is_empty() && e.max_glassy_thickness_mm.is_none() {
-        // Whether the model can vouch for a feasible recipe decides its rank.
-        if let Err(err) = add_glassy_thickness(&mut e, SlabQuench::default()) {
-            e.warnings
-                .push(format!("glassy thickness not computed: {err}"));
+    let gs = gauges(problem, &e, cost_value);
+    for g in &gs {
+        if g.value > 0.0 {
+            // Each limit once (a range gives two gauges, one at most broken).
+            let amount = if g.limit == Limit::Cost && cost_value.is_none() {
+                1.0
+            } else {
+                g.value
+            };
+            c.violations.push((g.limit, amount));
         }
     }
-    let cap = problem.margin_cap_decades;
-    let margin = (problem.equipment.rate.0 / e.critical_rate_k_per_s)
-        .log10()
-        .min(cap);
-    // Recipes the model cannot vouch for rank after every recipe it can.
-    let unvouched = if e.vouched { 0.0 } else { cap + 1.0 };
-    let w = problem.weights;
-    c.objective = match problem.objective {
-        ObjectiveKind::Margin => -margin + unvouched,
-        ObjectiveKind::Cost => c.cost_per_kg.unwrap_or(f64::INFINITY),
-        ObjectiveKind::MeltingTemperature => tm,
-        ObjectiveKind::Blend => {
-            -w.margin * (margin - unvouched)
-                + w.cost * c.cost_per_kg.unwrap_or(0.0)
-                + w.melting_temperature * tm / 100.0
+    c.objective = objective(problem, &mut e, cost_value, c.violations.is_empty());
+    if c.violations.is_empty() {
+        let (_, faces) =
+            domain_distance(problem, &x, e.primary_phase.as_deref(), ACTIVE_TOL_MOL_PCT);
+        let mut gs = gs;
+        if uses_margin(problem) && e.vouched {
+            gs.extend(vouch_gauges(&e));
         }
-    };
+        c.binding = binding_labels(problem, &x, &gs, &faces);
+    }
     c.evaluation = Some(e);
     c
 }
@@ -233,6 +460,9 @@ pub struct Row {
     pub error: Option<String>,
     /// Evaluations this row stands for (1, or a refinement's count).
     pub evaluations: usize,
+    /// The limits a feasible recipe sits on, joined with ", ".
+    #[serde(default)]
+    pub binding: String,
 }
 
 fn finite(x: f64) -> Option<f64> {
@@ -266,6 +496,7 @@ impl Row {
             warnings: e.map(|e| e.warnings.join("; ")).unwrap_or_default(),
             error: c.error.clone(),
             evaluations: 1,
+            binding: c.binding.join(", "),
         }
     }
 

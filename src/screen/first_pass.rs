@@ -1,6 +1,9 @@
 //! The space-filling first pass: a Sobol sequence (Joe & Kuo direction
-//! numbers) randomised by the seed, mapped into the oxide limits, evaluated in
-//! chunks addressable by index (for checkpoints and cluster shards).
+//! numbers) randomised by the seed, mapped into the feasible composition
+//! polytope (oxide limits, balance oxide, linear constraints) by the
+//! triangular map of [`super::polytope`], so no candidate is spent on
+//! composition limits; evaluated in chunks addressable by index (for
+//! checkpoints and cluster shards): point n depends on n and the seed alone.
 //!
 //! References
 //! - I. M. Sobol', USSR Comput. Math. Math. Phys. 7 (1967) 86–112,
@@ -10,6 +13,7 @@
 //!   doi:10.1137/0713071 (random shift of a lattice rule).
 
 use super::candidate::{evaluate_candidate, Candidate, Pass};
+use super::polytope::Polytope;
 use super::problem::{ScreenProblem, Search};
 use super::simplex::Simplex;
 use sobol::params::JoeKuoD6;
@@ -50,10 +54,14 @@ pub fn space_filling_chunk(
         .chunk_size
         .min(search.first_pass_points.saturating_sub(start));
     let pts = sobol_points(simplex.dims(), search.seed, start, count);
+    let polytope = Polytope::new(problem, simplex);
     pts.par_iter()
         .enumerate()
         .map(|(j, u)| {
-            let x = simplex.compose(&simplex.from_unit(u));
+            // An empty polytope (constraints no composition meets) keeps the
+            // box map: every point is then rejected on composition limits.
+            let y = polytope.map_unit(u).unwrap_or_else(|| simplex.from_unit(u));
+            let x = simplex.compose(&y);
             evaluate_candidate(problem, (start + j) as u64, Pass::SpaceFilling, x)
         })
         .collect()

@@ -128,6 +128,7 @@ pub struct Search {
     pub chunk_size: usize,
     /// Best distinct seeds refined locally.
     pub refine_from: usize,
-    /// Nelder–Mead iterations per refinement.
+    /// SQP iterations per refinement (each costs one evaluation per free
+    /// oxide for the gradients, plus the line search).
     pub refine_iterations: u64,
 }

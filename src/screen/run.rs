@@ -12,9 +12,10 @@
 use super::candidate::{evaluate_candidate_with, Candidate, Pass, Row};
 use super::first_pass::{chunk_count, space_filling_chunk};
 use super::limits::LimitSummary;
+use super::polytope::ACTIVE_TOL_MOL_PCT;
 use super::problem::{ScreenProblem, Search};
 use super::refine::refine;
-use super::select::Pools;
+use super::select::{objective_key, rank, Pools};
 use super::simplex::Simplex;
 use crate::assess::SlabQuench;
 use crate::error::Error;
@@ -43,6 +44,11 @@ pub trait ScreenStore: Send {
     /// # Errors
     /// The row cannot be kept.
     fn save_refined(&mut self, i: usize, row: &Row) -> Result<(), Error>;
+    /// What the store had to repair since last asked (say, a damaged chunk it
+    /// dropped so that the run computes it again), for the user to read.
+    fn take_notices(&mut self) -> Vec<String> {
+        Vec::new()
+    }
 }
 
 /// Who watches a run. Every method has a default that does nothing.
@@ -62,6 +68,8 @@ pub trait ScreenObserver: Send {
     fn stop_requested(&mut self) -> bool {
         false
     }
+    /// Something the user should read (a repaired checkpoint, say).
+    fn notice(&mut self, _text: &str) {}
 }
 
 /// An observer that watches nothing.
@@ -76,6 +84,28 @@ pub struct Shortlisted {
     pub candidate: Candidate,
 }
 
+/// The stages of a run, in order.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Stage {
+    /// The space-filling pass, chunk by chunk.
+    FirstPass,
+    /// Refinement of the best distinct seeds.
+    Refinement,
+    /// Writing the tables, batch sheets and report (outside this module).
+    Outputs,
+}
+
+impl Stage {
+    /// What is counted in this stage, for messages ("12/64 chunks").
+    pub fn unit(self) -> &'static str {
+        match self {
+            Stage::FirstPass => "chunks",
+            Stage::Refinement => "refined seeds",
+            Stage::Outputs => "output files",
+        }
+    }
+}
+
 /// How a run ended.
 #[derive(Debug, Clone)]
 pub enum ScreenEnd {
@@ -83,14 +113,69 @@ pub enum ScreenEnd {
         shortlist: Vec<Shortlisted>,
         summary: LimitSummary,
     },
-    /// Stopped on request; everything kept so far resumes.
-    Interrupted { chunks_done: usize, chunks: usize },
+    /// Stopped on request during `stage` with `done` of `total` of its units
+    /// kept; everything kept so far resumes.
+    Interrupted {
+        stage: Stage,
+        done: usize,
+        total: usize,
+    },
+    /// Only a range of first-pass chunks was asked for ([`run_chunks`]), and
+    /// all of them are kept.
+    ChunksKept { chunks: std::ops::Range<usize> },
+}
+
+/// Evaluate and keep first-pass chunks `range` (a shard of a split run), and
+/// nothing else. Chunks already kept are skipped.
+///
+/// # Errors
+/// The store fails.
+pub fn run_chunks(
+    problem: &ScreenProblem,
+    search: &Search,
+    range: std::ops::Range<usize>,
+    store: &mut dyn ScreenStore,
+    observer: &mut dyn ScreenObserver,
+) -> Result<ScreenEnd, Error> {
+    let simplex = Simplex::new(problem);
+    let total = range.len();
+    let mut done = range.clone().filter(|&k| store.has_chunk(k)).count();
+    for k in range.clone() {
+        if store.has_chunk(k) {
+            continue;
+        }
+        if observer.stop_requested() {
+            return Ok(ScreenEnd::Interrupted {
+                stage: Stage::FirstPass,
+                done,
+                total,
+            });
+        }
+        let rows = chunk_rows(problem, search, &simplex, k);
+        store.save_chunk(k, &rows)?;
+        done += 1;
+        observer.chunk_done(done, total);
+    }
+    Ok(ScreenEnd::ChunksKept { chunks: range })
+}
+
+fn chunk_rows(problem: &ScreenProblem, search: &Search, simplex: &Simplex, k: usize) -> Vec<Row> {
+    space_filling_chunk(problem, search, simplex, k)
+        .iter()
+        .map(|c| Row::new(c, problem))
+        .collect()
+}
+
+fn forward_notices(store: &mut dyn ScreenStore, observer: &mut dyn ScreenObserver) {
+    for n in store.take_notices() {
+        observer.notice(&n);
+    }
 }
 
 /// Run (or resume) a screen.
 ///
 /// # Errors
-/// The store or the observer fails, or argmin refuses a refinement.
+/// The store or the observer fails, or a refinement fails.
 pub fn run(
     problem: &ScreenProblem,
     search: &Search,
@@ -102,21 +187,24 @@ pub fn run(
     let mut done = (0..chunks).filter(|&k| store.has_chunk(k)).count();
     let mut pools = Pools::new(problem, search);
     for k in 0..chunks {
-        let rows = match store.load_chunk(k)? {
+        // Stop between any two chunks, kept or not: reading back a long run's
+        // chunks takes time too.
+        if observer.stop_requested() {
+            return Ok(ScreenEnd::Interrupted {
+                stage: Stage::FirstPass,
+                done,
+                total: chunks,
+            });
+        }
+        let kept = store.load_chunk(k);
+        forward_notices(store, observer);
+        let rows = match kept? {
             Some(rows) => rows,
             None => {
-                if observer.stop_requested() {
-                    return Ok(ScreenEnd::Interrupted {
-                        chunks_done: done,
-                        chunks,
-                    });
-                }
-                let rows: Vec<Row> = space_filling_chunk(problem, search, &simplex, k)
-                    .iter()
-                    .map(|c| Row::new(c, problem))
-                    .collect();
+                let rows = chunk_rows(problem, search, &simplex, k);
                 store.save_chunk(k, &rows)?;
-                done += 1;
+                // A damaged chunk was counted as kept and is computed again.
+                done = (done + 1).min(chunks);
                 observer.chunk_done(done, chunks);
                 rows
             }
@@ -127,35 +215,46 @@ pub fn run(
         }
     }
     observer.first_pass_done();
-    // Refinement from the best distinct seeds (by penalised objective).
-    let seeds = pools.seeds(problem, search);
+    // Refinement of the best distinct seeds by penalised objective, dealt
+    // out by primary phase, as many at a time as there are threads (a stop
+    // request waits for one round at most).
+    let seeds = pools.seeds(problem, search.refine_from);
+    let picks_to_refine = problem.shortlist_size.saturating_sub(1);
+    let total = seeds.len() + picks_to_refine;
     let mut refined: Vec<Option<Row>> = Vec::with_capacity(seeds.len());
     for i in 0..seeds.len() {
-        refined.push(store.load_refined(i)?);
+        let kept = store.load_refined(i);
+        forward_notices(store, observer);
+        refined.push(kept?);
     }
     let todo: Vec<usize> = (0..seeds.len()).filter(|&i| refined[i].is_none()).collect();
-    if !todo.is_empty() && observer.stop_requested() {
-        return Ok(ScreenEnd::Interrupted {
-            chunks_done: chunks,
-            chunks,
-        });
-    }
-    let results: Vec<Result<(usize, Row), Error>> = {
-        use rayon::prelude::*;
-        todo.par_iter()
-            .map(|&i| {
-                let (c, n) = refine(problem, search, &simplex, i, &seeds[i])
-                    .map_err(|e| Error::internal(format!("refining seed {i}: {e}")))?;
-                let mut row = Row::new(&c, problem);
-                row.evaluations = n;
-                Ok((i, row))
-            })
-            .collect()
-    };
-    for r in results {
-        let (i, row) = r?;
-        store.save_refined(i, &row)?;
-        refined[i] = Some(row);
+    let round = rayon::current_num_threads().max(1);
+    for batch in todo.chunks(round) {
+        if observer.stop_requested() {
+            return Ok(ScreenEnd::Interrupted {
+                stage: Stage::Refinement,
+                done: refined.iter().filter(|r| r.is_some()).count(),
+                total,
+            });
+        }
+        let results: Vec<Result<(usize, Row), Error>> = {
+            use rayon::prelude::*;
+            batch
+                .par_iter()
+                .map(|&i| {
+                    let (c, n) = refine(problem, search, &simplex, i, &seeds[i], &[])
+                        .map_err(|e| Error::internal(format!("refining seed {i}: {e}")))?;
+                    let mut row = Row::new(&c, problem);
+                    row.evaluations = n;
+                    Ok((i, row))
+                })
+                .collect()
+        };
+        for r in results {
+            let (i, row) = r?;
+            store.save_refined(i, &row)?;
+            refined[i] = Some(row);
+        }
     }
     let refined: Vec<Row> = refined.into_iter().flatten().collect();
     if !refined.is_empty() {
@@ -164,13 +263,63 @@ pub fn run(
     for r in refined {
         pools.add(r);
     }
+    // The shortlist, one recipe at a time (docs/science.md, "The screen"):
+    // the best feasible recipe; then, for each further place, a refinement
+    // from the best seed at least the shortlist distance from every recipe
+    // picked so far, with that distance as a constraint, so that each place
+    // holds the best recipe that differs enough from those above it rather
+    // than a neighbour of one optimum.
+    let d = problem.min_distance_mol_pct;
+    let mut picks: Vec<Row> = Vec::new();
+    if let Some(first) = pools.best_feasible_away(&[], d) {
+        picks.push(first.clone());
+    }
+    for k in 0..picks_to_refine {
+        if picks.is_empty() {
+            break;
+        }
+        let away: Vec<[f64; crate::composition::N_OXIDES]> =
+            picks.iter().map(|r| r.composition()).collect();
+        if let Some(seed) = pools.best_seed_away(&away, d) {
+            let i = seeds.len() + k;
+            let kept = store.load_refined(i);
+            forward_notices(store, observer);
+            let row = match kept? {
+                Some(row) => row,
+                None => {
+                    if observer.stop_requested() {
+                        return Ok(ScreenEnd::Interrupted {
+                            stage: Stage::Refinement,
+                            done: seeds.len() + k,
+                            total,
+                        });
+                    }
+                    let (c, n) = refine(problem, search, &simplex, i, &seed, &away)
+                        .map_err(|e| Error::internal(format!("refining place {}: {e}", k + 2)))?;
+                    let mut row = Row::new(&c, problem);
+                    row.evaluations = n;
+                    store.save_refined(i, &row)?;
+                    row
+                }
+            };
+            observer.rows(std::slice::from_ref(&row))?;
+            pools.add(row);
+        }
+        match pools.best_feasible_away(&away, d) {
+            Some(next) => picks.push(next.clone()),
+            None => break,
+        }
+    }
+    picks.sort_by(|a, b| rank(a, b, objective_key));
     // Re-evaluate the shortlisted recipes from their compositions (this also
     // restores the warnings the pools dropped to save memory), with the slab
-    // estimate the batch sheets and the report show.
-    let shortlist = pools
-        .shortlist(problem)
-        .into_iter()
-        .map(|r| {
+    // estimate the batch sheets and the report show; a recipe held at the
+    // shortlist distance from another says so among its binding limits.
+    let compositions: Vec<_> = picks.iter().map(|r| r.composition()).collect();
+    let shortlist = picks
+        .iter()
+        .enumerate()
+        .map(|(k, r)| {
             let pass = if r.refined {
                 Pass::Refinement
             } else {
@@ -185,6 +334,17 @@ pub fn run(
             );
             let mut row = Row::new(&candidate, problem);
             row.evaluations = r.evaluations;
+            let x = r.composition();
+            for (j, other) in compositions.iter().enumerate().take(k) {
+                let dist = super::simplex::dist2(&x, other).sqrt();
+                if r.refined && dist <= d + ACTIVE_TOL_MOL_PCT {
+                    if !row.binding.is_empty() {
+                        row.binding.push_str(", ");
+                    }
+                    row.binding
+                        .push_str(&format!("{d} mol% from rank {}", j + 1));
+                }
+            }
             Shortlisted { row, candidate }
         })
         .collect();

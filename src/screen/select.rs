@@ -59,6 +59,24 @@ pub(crate) fn distinct_rows(
     out
 }
 
+/// The best usable row by `key` at least `d` mol% from every composition in
+/// `away`.
+fn best_away<'a>(
+    rows: &'a [Row],
+    away: &[[f64; crate::composition::N_OXIDES]],
+    d: f64,
+    usable: impl Fn(&Row) -> bool,
+    key: impl Fn(&Row) -> f64,
+) -> Option<&'a Row> {
+    rows.iter()
+        .filter(|r| usable(r))
+        .filter(|r| {
+            let x = r.composition();
+            away.iter().all(|p| dist2(p, &x) >= d * d)
+        })
+        .min_by(|a, b| rank(a, b, &key))
+}
+
 /// What selection needs from a stream of candidates, in bounded memory: the
 /// best rows by objective (feasible) and by penalised objective (seeds for
 /// refinement), and the tally of broken limits.
@@ -95,16 +113,19 @@ impl Pools {
         push_bounded(&mut self.by_penalty, r, self.keep, penalised_key);
     }
 
-    /// The compositions to refine: the best distinct rows by penalised
-    /// objective that lie inside the composition limits.
+    /// The compositions refinement may start from, in the order it takes
+    /// them: up to `count` best distinct rows by penalised objective inside
+    /// the composition limits, dealt out by primary phase (the best of each
+    /// phase first, then the second best of each, ...), so that the first
+    /// seeds already reach into different parts of the liquidus surface.
     pub(crate) fn seeds(
         &self,
         problem: &ScreenProblem,
-        search: &Search,
+        count: usize,
     ) -> Vec<[f64; crate::composition::N_OXIDES]> {
-        distinct_rows(
+        let best = distinct_rows(
             &self.by_penalty,
-            search.refine_from,
+            count,
             problem.min_distance_mol_pct,
             |r| {
                 r.penalised.is_some()
@@ -112,21 +133,57 @@ impl Pools {
                     && !r.broken.contains(Limit::CompositionLimits)
             },
             penalised_key,
-        )
-        .iter()
-        .map(|r| r.composition())
-        .collect()
+        );
+        // Phases in the order of their best row; rows keep their rank within.
+        let mut phases: Vec<(Option<&str>, Vec<&Row>)> = Vec::new();
+        for r in best {
+            let p = r.primary_phase.as_deref();
+            match phases.iter_mut().find(|(q, _)| *q == p) {
+                Some((_, v)) => v.push(r),
+                None => phases.push((p, vec![r])),
+            }
+        }
+        let deepest = phases.iter().map(|(_, v)| v.len()).max().unwrap_or(0);
+        let mut out = Vec::new();
+        for k in 0..deepest {
+            for (_, v) in &phases {
+                if let Some(r) = v.get(k) {
+                    out.push(r.composition());
+                }
+            }
+        }
+        out
     }
 
-    /// The shortlist: the best distinct feasible rows by objective.
-    pub(crate) fn shortlist(&self, problem: &ScreenProblem) -> Vec<&Row> {
-        distinct_rows(
-            &self.by_objective,
-            problem.shortlist_size,
-            problem.min_distance_mol_pct,
-            |r| r.feasible,
-            objective_key,
+    /// The best feasible row at least `d` mol% from every composition in
+    /// `away`.
+    pub(crate) fn best_feasible_away(
+        &self,
+        away: &[[f64; crate::composition::N_OXIDES]],
+        d: f64,
+    ) -> Option<&Row> {
+        best_away(&self.by_objective, away, d, |r| r.feasible, objective_key)
+    }
+
+    /// The best seed by penalised objective (inside the composition limits)
+    /// at least `d` mol% from every composition in `away`.
+    pub(crate) fn best_seed_away(
+        &self,
+        away: &[[f64; crate::composition::N_OXIDES]],
+        d: f64,
+    ) -> Option<[f64; crate::composition::N_OXIDES]> {
+        best_away(
+            &self.by_penalty,
+            away,
+            d,
+            |r| {
+                r.penalised.is_some()
+                    && r.error.is_none()
+                    && !r.broken.contains(Limit::CompositionLimits)
+            },
+            penalised_key,
         )
+        .map(|r| r.composition())
     }
 
     /// The tally of broken limits so far.

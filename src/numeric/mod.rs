@@ -1,10 +1,14 @@
 //! Scalar root finding and minimisation (Brent's methods, through argmin),
 //! shared by the property models (isokoms of a MYEGA curve) and the kinetics
-//! (the TTT nose, calibration of the kinetic factor).
+//! (the TTT nose), and least squares ([`least_squares`]: linear by SVD,
+//! non-linear by Levenberg–Marquardt, with the covariance of the fitted
+//! coefficients) for fitting the models to measurements.
 //!
 //! References
 //! - R. P. Brent, Algorithms for Minimization without Derivatives,
 //!   Prentice-Hall (1973), chapters 4 and 5.
+
+pub mod least_squares;
 
 use argmin::core::{CostFunction, Error as ArgminError, Executor, State};
 use argmin::solver::brent::{BrentOpt, BrentRoot};

@@ -1,0 +1,469 @@
+//! The output folder as an unlucky user meets it: `--force` never removes what
+//! quenchwise did not write, one process per folder, `--resume` checks what
+//! the run means, damaged checkpoints are computed again, a stop is honoured
+//! at every safe point and a kill at any moment loses nothing; a screen split
+//! into shards merges into the unsplit result.
+
+use crate::screen::SMALL;
+use crate::util::{root, run_in, temp_dir};
+use quenchwise::files::run_folder::{
+    merge, run, run_observed, Opening, Outcome, RunFolder, ScreenOptions, Shard, MANIFEST,
+};
+use quenchwise::files::screen_config::{self as config, RunPlan};
+use quenchwise::screen::{Row, ScreenObserver, Stage};
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+
+fn plan_in(dir: &Path, text: &str) -> RunPlan {
+    let p = dir.join("screen.toml");
+    std::fs::write(&p, text).unwrap();
+    config::load(&p).unwrap()
+}
+
+/// Every output file of a run folder (not the lock, the list of files or the
+/// checkpoints), by path relative to it.
+fn outputs(dir: &Path) -> BTreeMap<String, Vec<u8>> {
+    fn walk(base: &Path, dir: &Path, out: &mut BTreeMap<String, Vec<u8>>) {
+        for e in std::fs::read_dir(dir).unwrap().flatten() {
+            let p = e.path();
+            let rel = p.strip_prefix(base).unwrap().to_string_lossy().to_string();
+            if rel.starts_with(".work") || rel.starts_with(".quenchwise") {
+                continue;
+            }
+            if p.is_dir() {
+                walk(base, &p, out);
+            } else {
+                out.insert(rel, std::fs::read(&p).unwrap());
+            }
+        }
+    }
+    let mut out = BTreeMap::new();
+    walk(dir, dir, &mut out);
+    out
+}
+
+fn assert_same_outputs(a: &Path, b: &Path) {
+    let (x, y) = (outputs(a), outputs(b));
+    assert_eq!(
+        x.keys().collect::<Vec<_>>(),
+        y.keys().collect::<Vec<_>>(),
+        "{} vs {}",
+        a.display(),
+        b.display()
+    );
+    for (k, v) in &x {
+        assert!(
+            v == &y[k],
+            "{k} differs between {} and {}",
+            a.display(),
+            b.display()
+        );
+    }
+}
+
+// ---- R1: --force removes only what quenchwise wrote ----
+
+#[test]
+fn force_refuses_a_folder_quenchwise_did_not_make() {
+    let d = temp_dir("force-foreign");
+    std::fs::write(d.join("screen.toml"), SMALL).unwrap();
+    std::fs::create_dir_all(d.join("thesis")).unwrap();
+    std::fs::write(d.join("thesis/ch1.tex"), "\\chapter{Glass}").unwrap();
+    run_in(&d, &["screen", "screen.toml", "--out", "thesis", "--force"])
+        .code(2)
+        .stderr_has("--force refused")
+        .stderr_has("did not write");
+    assert_eq!(
+        std::fs::read_to_string(d.join("thesis/ch1.tex")).unwrap(),
+        "\\chapter{Glass}"
+    );
+    // `--out .` in a working folder: refused, nothing removed or added.
+    let before: Vec<_> = std::fs::read_dir(&d)
+        .unwrap()
+        .flatten()
+        .map(|e| e.file_name())
+        .collect();
+    run_in(&d, &["screen", "screen.toml", "--out", ".", "--force"]).code(2);
+    let after: Vec<_> = std::fs::read_dir(&d)
+        .unwrap()
+        .flatten()
+        .map(|e| e.file_name())
+        .collect();
+    assert_eq!(before.len(), after.len());
+    assert!(d.join("screen.toml").exists() && d.join("thesis/ch1.tex").exists());
+}
+
+#[test]
+fn force_removes_only_the_listed_files() {
+    let d = temp_dir("force-own");
+    let p = plan_in(&d, SMALL);
+    let out = d.join("out");
+    let mut o = ScreenOptions::new(&out);
+    o.keep_checkpoints = true;
+    run(&p, &o).unwrap();
+    // The user keeps notes and a picture of their own in the results folder.
+    std::fs::write(out.join("my-notes.txt"), "melted rank 1 on Tuesday").unwrap();
+    std::fs::write(out.join("batch-sheets/photo.jpg"), [0xff, 0xd8]).unwrap();
+    let listed = std::fs::read_to_string(out.join(MANIFEST)).unwrap();
+    assert!(listed.contains("shortlist.csv") && listed.contains(".work/chunk-000000.json"));
+    assert!(!listed.contains("my-notes"));
+    let mut o = ScreenOptions::new(&out);
+    o.force = true;
+    o.stop_after_chunks = Some(1);
+    assert!(matches!(run(&p, &o).unwrap(), Outcome::Interrupted { .. }));
+    assert!(
+        !out.join("shortlist.csv").exists(),
+        "the old outputs are gone"
+    );
+    assert!(
+        !out.join(".work/chunk-000005.json").exists(),
+        "the old checkpoints are gone"
+    );
+    assert_eq!(
+        std::fs::read_to_string(out.join("my-notes.txt")).unwrap(),
+        "melted rank 1 on Tuesday"
+    );
+    assert!(out.join("batch-sheets/photo.jpg").exists());
+}
+
+#[test]
+fn a_list_naming_paths_outside_the_folder_removes_nothing() {
+    let d = temp_dir("force-tampered");
+    let p = plan_in(&d, SMALL);
+    let out = d.join("out");
+    run(&p, &ScreenOptions::new(&out)).unwrap();
+    std::fs::write(d.join("precious.txt"), "keep").unwrap();
+    let mut listed = std::fs::read_to_string(out.join(MANIFEST)).unwrap();
+    listed.push_str("../precious.txt\n");
+    std::fs::write(out.join(MANIFEST), listed).unwrap();
+    let mut o = ScreenOptions::new(&out);
+    o.force = true;
+    let e = run(&p, &o).unwrap_err();
+    assert!(
+        e.to_string().contains("not a path inside the folder"),
+        "{e}"
+    );
+    assert!(d.join("precious.txt").exists() && out.join("shortlist.csv").exists());
+}
+
+// ---- R2: one process per folder ----
+
+#[test]
+fn a_folder_in_use_is_refused_and_left_alone() {
+    let d = temp_dir("lock");
+    let p = plan_in(&d, SMALL);
+    let out = d.join("out");
+    let mut o = ScreenOptions::new(&out);
+    o.stop_after_chunks = Some(2);
+    run(&p, &o).unwrap();
+    let kept = std::fs::read_dir(out.join(".work")).unwrap().count();
+    // Another process holds the folder (an OS lock on another open file
+    // description behaves as another process would).
+    let held = RunFolder::open(&out, Opening::Resume).unwrap();
+    for how in [
+        &["screen", "screen.toml", "--out", "out", "--force"][..],
+        &["screen", "screen.toml", "--out", "out", "--resume"][..],
+        &["report", "out"][..],
+    ] {
+        run_in(&d, how)
+            .code(2)
+            .stderr_has("is in use by another quenchwise process (pid ")
+            .stderr_has("nothing was changed");
+    }
+    let still = std::fs::read_dir(out.join(".work")).unwrap().count();
+    assert_eq!(kept, still, "the checkpoints are untouched");
+    drop(held);
+    let mut o = ScreenOptions::new(&out);
+    o.resume = true;
+    assert!(matches!(run(&p, &o).unwrap(), Outcome::Finished { .. }));
+}
+
+// ---- R3: --resume checks what the run means ----
+
+#[test]
+fn resume_checks_the_files_the_config_reads_but_not_its_comments() {
+    let d = temp_dir("resume-meaning");
+    std::fs::copy(
+        root().join("demo-datasets/raw-materials.csv"),
+        d.join("shelf.csv"),
+    )
+    .unwrap();
+    let text = SMALL.replace(
+        "max_per_kg_glass = 0.24",
+        "max_per_kg_glass = 0.24\nraw_materials = \"shelf.csv\"",
+    );
+    let p = plan_in(&d, &text);
+    let out = d.join("out");
+    let mut o = ScreenOptions::new(&out);
+    o.stop_after_chunks = Some(2);
+    run(&p, &o).unwrap();
+    // A comment and a blank line: the same run.
+    let commented = plan_in(&d, &format!("# tried again after lunch\n\n{text}"));
+    // A changed price on the shelf: another run.
+    let shelf = std::fs::read_to_string(d.join("shelf.csv")).unwrap();
+    let mut lines: Vec<String> = shelf.lines().map(String::from).collect();
+    let header: Vec<&str> = lines[0].split(',').collect();
+    let price = header.iter().position(|c| *c == "price_per_kg").unwrap();
+    let mut cells: Vec<String> = lines[1].split(',').map(String::from).collect();
+    let old: f64 = cells[price].parse().unwrap();
+    cells[price] = format!("{}", old * 2.0);
+    lines[1] = cells.join(",");
+    std::fs::write(d.join("shelf.csv"), lines.join("\n") + "\n").unwrap();
+    let repriced = config::load(&d.join("screen.toml")).unwrap();
+    let mut o = ScreenOptions::new(&out);
+    o.resume = true;
+    let e = run(&repriced, &o).unwrap_err();
+    assert!(e.to_string().contains("a file it reads"), "{e}");
+    std::fs::write(d.join("shelf.csv"), shelf).unwrap();
+    assert!(matches!(
+        run(&commented, &o).unwrap(),
+        Outcome::Finished { .. }
+    ));
+}
+
+// ---- R4: damaged checkpoints are computed again ----
+
+#[test]
+fn a_truncated_or_empty_chunk_is_computed_again() {
+    let d = temp_dir("damaged-chunk");
+    let p = plan_in(&d, SMALL);
+    run(&p, &ScreenOptions::new(d.join("whole"))).unwrap();
+    let out = d.join("out");
+    let mut o = ScreenOptions::new(&out);
+    o.stop_after_chunks = Some(4);
+    run(&p, &o).unwrap();
+    let c1 = out.join(".work/chunk-000001.json");
+    let text = std::fs::read(&c1).unwrap();
+    std::fs::write(&c1, &text[..text.len() / 2]).unwrap();
+    std::fs::write(out.join(".work/chunk-000002.json"), b"").unwrap();
+    let mut o = ScreenOptions::new(&out);
+    o.resume = true;
+    let Outcome::Finished { notices, .. } = run(&p, &o).unwrap() else {
+        panic!("the resumed run did not finish");
+    };
+    assert_eq!(notices.len(), 2, "{notices:?}");
+    assert!(notices[0].contains("chunk-000001.json was damaged") && notices[0].contains("again"));
+    assert_same_outputs(&d.join("whole"), &out);
+}
+
+#[test]
+fn leftover_partial_files_of_a_kill_do_not_get_in_the_way() {
+    let d = temp_dir("leftover-partial");
+    let p = plan_in(&d, SMALL);
+    run(&p, &ScreenOptions::new(d.join("whole"))).unwrap();
+    let out = d.join("out");
+    let mut o = ScreenOptions::new(&out);
+    o.stop_after_chunks = Some(3);
+    run(&p, &o).unwrap();
+    // What a SIGKILL in the middle of writes leaves: half a temp chunk, a
+    // truncated candidates table, a temp shortlist.
+    std::fs::write(out.join(".work/chunk-000003.partial"), b"[{\"index\":").unwrap();
+    std::fs::write(out.join("candidates.parquet.partial"), b"PAR1").unwrap();
+    std::fs::write(out.join("shortlist.partial"), b"rank,SiO").unwrap();
+    // (listed, as the run lists a file before writing it)
+    let mut listed = std::fs::read_to_string(out.join(MANIFEST)).unwrap();
+    listed.push_str("shortlist.json\n");
+    std::fs::write(out.join(MANIFEST), listed).unwrap();
+    let mut o = ScreenOptions::new(&out);
+    o.resume = true;
+    assert!(matches!(run(&p, &o).unwrap(), Outcome::Finished { .. }));
+    assert_same_outputs(&d.join("whole"), &out);
+    for f in [
+        ".work/chunk-000003.partial",
+        "candidates.parquet.partial",
+        "shortlist.partial",
+    ] {
+        assert!(!out.join(f).exists(), "{f} left behind");
+    }
+}
+
+// ---- R5: a stop is honoured at every safe point, and resumes ----
+
+/// Asks to stop at its `at`-th question, and counts the questions.
+struct StopAt {
+    at: usize,
+    asked: usize,
+}
+
+impl ScreenObserver for StopAt {
+    fn stop_requested(&mut self) -> bool {
+        self.asked += 1;
+        self.asked == self.at
+    }
+}
+
+#[test]
+fn a_stop_at_any_safe_point_resumes_to_the_same_outputs() {
+    let d = temp_dir("stop-everywhere");
+    let p = plan_in(&d, SMALL);
+    let whole = d.join("whole");
+    let mut o = ScreenOptions::new(&whole);
+    o.report = true;
+    let mut count = StopAt { at: 0, asked: 0 };
+    run_observed(&p, &o, &mut count).unwrap();
+    let points = count.asked;
+    // 8 chunks, refinement rounds, 4 groups of output files with the report.
+    assert!(points >= 8 + 1 + 4, "{points} safe points");
+    let mut stages = Vec::new();
+    for at in 1..=points {
+        let out = d.join(format!("stop-{at}"));
+        let mut o = ScreenOptions::new(&out);
+        o.report = true;
+        match run_observed(&p, &o, &mut StopAt { at, asked: 0 }).unwrap() {
+            Outcome::Interrupted { stage, .. } => stages.push(stage),
+            other => panic!("stop request {at} was ignored: {other:?}"),
+        }
+        assert!(!out.join("report.html").exists() || stages.last() != Some(&Stage::Outputs));
+        let mut o = ScreenOptions::new(&out);
+        o.report = true;
+        o.resume = true;
+        assert!(matches!(run(&p, &o).unwrap(), Outcome::Finished { .. }));
+        assert_same_outputs(&whole, &out);
+    }
+    for s in [Stage::FirstPass, Stage::Refinement, Stage::Outputs] {
+        assert!(
+            stages.contains(&s),
+            "never stopped during {s:?}: {stages:?}"
+        );
+    }
+}
+
+// ---- Disk: a finished run keeps no checkpoints unless asked ----
+
+#[test]
+fn a_finished_run_removes_its_checkpoints_and_resume_has_nothing_to_do() {
+    let d = temp_dir("checkpoints-removed");
+    let p = plan_in(&d, SMALL);
+    let out = d.join("out");
+    run(&p, &ScreenOptions::new(&out)).unwrap();
+    let left: Vec<String> = std::fs::read_dir(out.join(".work"))
+        .unwrap()
+        .flatten()
+        .map(|e| e.file_name().to_string_lossy().to_string())
+        .collect();
+    assert!(
+        left.iter()
+            .all(|n| !n.starts_with("chunk-") && !n.starts_with("refine-")),
+        "{left:?}"
+    );
+    let mut o = ScreenOptions::new(&out);
+    o.resume = true;
+    assert_eq!(run(&p, &o).unwrap(), Outcome::AlreadyFinished);
+    let kept = d.join("kept");
+    let mut o = ScreenOptions::new(&kept);
+    o.keep_checkpoints = true;
+    run(&p, &o).unwrap();
+    assert!(kept.join(".work/chunk-000007.json").exists());
+}
+
+// ---- Shards and merge ----
+
+fn shard_runs(p: &RunPlan, d: &Path, count: usize) -> Vec<PathBuf> {
+    (0..count)
+        .map(|index| {
+            let dir = d.join(format!("shard-{index}"));
+            let mut o = ScreenOptions::new(&dir);
+            o.shard = Some(Shard { index, count });
+            assert!(matches!(run(p, &o).unwrap(), Outcome::ShardDone { .. }));
+            dir
+        })
+        .collect()
+}
+
+#[test]
+fn shards_merge_into_the_unsplit_result() {
+    let d = temp_dir("shards");
+    let p = plan_in(&d, SMALL);
+    let whole = d.join("whole");
+    run(&p, &ScreenOptions::new(&whole)).unwrap();
+    // 8 chunks in 3 shards: 2, 3 and 3 chunks.
+    assert_eq!(Shard { index: 0, count: 3 }.chunks(8), 0..2);
+    assert_eq!(Shard { index: 2, count: 3 }.chunks(8), 5..8);
+    let mut shards = shard_runs(&p, &d, 3);
+    shards.reverse(); // any order
+    let merged = d.join("merged");
+    let end = merge(
+        &shards,
+        None,
+        &ScreenOptions::new(&merged),
+        &mut quenchwise::screen::Unobserved,
+    )
+    .unwrap();
+    assert!(matches!(end, Outcome::Finished { .. }), "{end:?}");
+    assert_same_outputs(&whole, &merged);
+}
+
+#[test]
+fn merge_names_missing_doubled_unfinished_and_foreign_shards() {
+    let d = temp_dir("shards-bad");
+    let p = plan_in(&d, SMALL);
+    let shards = shard_runs(&p, &d, 3);
+    let try_merge = |dirs: &[PathBuf], name: &str| {
+        merge(
+            dirs,
+            None,
+            &ScreenOptions::new(d.join(name)),
+            &mut quenchwise::screen::Unobserved,
+        )
+        .unwrap_err()
+        .to_string()
+    };
+    let e = try_merge(&shards[..2], "m1");
+    assert!(e.contains("shard 2/3 missing: 2 of 3 given"), "{e}");
+    let e = try_merge(
+        &[shards[0].clone(), shards[1].clone(), shards[1].clone()],
+        "m2",
+    );
+    assert!(e.contains("shard-1 given twice"), "{e}");
+    std::fs::remove_file(shards[1].join(".work/chunk-000003.json")).unwrap();
+    let e = try_merge(&shards, "m3");
+    assert!(
+        e.contains("shard 1/3") && e.contains("kept 2 of its 3 chunks"),
+        "{e}"
+    );
+    // Rerunning that task resumes it; then the merge goes through.
+    let mut o = ScreenOptions::new(&shards[1]);
+    o.shard = Some(Shard { index: 1, count: 3 });
+    o.resume = true;
+    assert!(matches!(run(&p, &o).unwrap(), Outcome::ShardDone { .. }));
+    // A shard of another screen (another seed).
+    let other = plan_in(&d, &SMALL.replace("seed = 7", "seed = 8"));
+    let mut o = ScreenOptions::new(d.join("foreign"));
+    o.shard = Some(Shard { index: 2, count: 3 });
+    run(&other, &o).unwrap();
+    let e = try_merge(
+        &[shards[0].clone(), shards[1].clone(), d.join("foreign")],
+        "m4",
+    );
+    assert!(e.contains("come from different screens"), "{e}");
+    merge(
+        &shards,
+        None,
+        &ScreenOptions::new(d.join("m5")),
+        &mut quenchwise::screen::Unobserved,
+    )
+    .unwrap();
+}
+
+#[test]
+fn a_shard_is_read_as_k_of_n() {
+    assert_eq!(Shard::parse("3/4").unwrap(), Shard { index: 3, count: 4 });
+    for bad in ["4/4", "1", "-1/4", "a/b", "0/0", "1/4/2"] {
+        let e = Shard::parse(bad).unwrap_err().to_string();
+        assert!(e.contains("expected K/N"), "{bad}: {e}");
+    }
+}
+
+// Rows are what checkpoints hold; a chunk read back equals the chunk written.
+#[test]
+fn a_checkpoint_row_reads_back_bit_for_bit() {
+    let d = temp_dir("row-roundtrip");
+    let p = plan_in(&d, SMALL);
+    let out = d.join("out");
+    let mut o = ScreenOptions::new(&out);
+    o.stop_after_chunks = Some(1);
+    run(&p, &o).unwrap();
+    let text = std::fs::read_to_string(out.join(".work/chunk-000000.json")).unwrap();
+    let rows: Vec<Row> = serde_json::from_str(&text).unwrap();
+    assert_eq!(serde_json::to_string(&rows).unwrap(), text);
+}
