@@ -722,6 +722,15 @@ fn l1_errors_found_while_evaluating_a_card_name_its_line() {
             "card.toml:{}: numerical failure",
             line_of(&text, "turnbull_alpha = 10")
         ));
+    // A curve that never reaches T_g: the line of the value to blame.
+    let text = demo_card(&[("a = -2.8", "a = 300")]);
+    let c = write(&d, "card.toml", &text);
+    run_in(&d, &["eval", "--melt", &c])
+        .code(2)
+        .stderr_has(&format!(
+            "card.toml:{}: the viscosity never reaches 10^12 Pa·s on this curve",
+            line_of(&text, "a = 300")
+        ));
     // The existing fixture names its line now too.
     let f = fixture("card-nose-below-tg.toml");
     let r = run_in(&d, &["eval", "--melt", f.to_str().unwrap()]);

@@ -53,7 +53,7 @@ pub enum CompositionError {
     },
     #[error("the composition is empty: give at least one oxide with a positive amount")]
     Empty,
-    #[error("amounts sum to {sum:.3} {basis}, more than {tolerance} away from 100")]
+    #[error("amounts sum to {} {basis}, more than {tolerance} away from 100", sum_text(*sum))]
     BadSum {
         sum: f64,
         basis: Basis,
@@ -79,6 +79,16 @@ impl Diagnostic for CompositionError {
             }
             _ => None,
         }
+    }
+}
+
+/// A sum for a message: three decimals, or an exponent when it is far from
+/// any real composition (a typing accident such as 1e300).
+fn sum_text(sum: f64) -> String {
+    if sum.abs() < 1e6 {
+        format!("{sum:.3}")
+    } else {
+        format!("{sum:.3e}")
     }
 }
 
@@ -415,6 +425,12 @@ mod tests {
             Composition::from_mol_percent(&[(Oxide::SiO2, 70.0)]),
             Err(CompositionError::BadSum { .. })
         ));
+        // A sum of 1e300 is said with an exponent, not 301 digits.
+        let e = Composition::from_mol_percent(&[(Oxide::SiO2, 1e300)]).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "amounts sum to 1.000e300 mol%, more than 2 away from 100"
+        );
         assert!(matches!(
             Composition::from_mol_percent(&[(Oxide::SiO2, 50.0), (Oxide::SiO2, 50.0)]),
             Err(CompositionError::Duplicate { .. })

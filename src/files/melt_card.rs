@@ -438,6 +438,8 @@ impl MeltCard {
                 first_suspect.or_else(|| self.interface_span(primary))
             }
             KineticsError::Value(v) => self.kinetics.span_of(v.name()),
+            // The curve itself: a suspect value of it, else its constant.
+            KineticsError::Viscosity(_) => first_suspect.or_else(|| self.span_of(None, "a")),
             _ => None,
         };
         let mut message = e.to_string();
