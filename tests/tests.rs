@@ -12,6 +12,7 @@ mod demo_models;
 mod fault_injection;
 mod fit;
 mod grd2008;
+mod hostile;
 mod issue14;
 mod kinetics_reference;
 mod layers;

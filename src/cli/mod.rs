@@ -588,6 +588,13 @@ pub struct EvalArgs {
     pub compositions: Option<PathBuf>,
 
     /// Write the table of results here (.csv or .parquet).
+    ///
+    /// The input columns, then one column per result and an `error` column.
+    /// A row without an error has a finite number in every result column,
+    /// except critical_rate_<phase>_k_per_s of a phase whose liquidus lies
+    /// below the glass transition of that row: that phase cannot crystallise
+    /// from the melt, and its cell is empty. A row with an error has empty
+    /// result cells.
     #[arg(long, value_name = "FILE", help_heading = "Output")]
     pub out: Option<PathBuf>,
 
