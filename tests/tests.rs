@@ -19,6 +19,7 @@ mod layers;
 mod main_job;
 mod model_files;
 mod plots;
+mod proptests;
 mod report_browser;
 mod run_folder;
 mod screen;
