@@ -132,12 +132,40 @@ fn pairs_text() -> impl Strategy<Value = String> {
     })
 }
 
+/// Amounts that sum to 100 (so most are accepted), one of them sometimes
+/// replaced by a nasty value.
+fn closed_text() -> impl Strategy<Value = String> {
+    (
+        proptest::collection::vec(
+            (
+                proptest::sample::select(OXIDE_NAMES[..7].to_vec()),
+                1e-6..1.0f64,
+            ),
+            1..7,
+        ),
+        proptest::option::weighted(0.2, proptest::sample::select(NASTY.to_vec())),
+    )
+        .prop_map(|(v, nasty)| {
+            let total: f64 = v.iter().map(|(_, w)| w).sum();
+            v.iter()
+                .enumerate()
+                .map(|(i, (o, w))| {
+                    let x = match nasty {
+                        Some(n) if i == 0 => n,
+                        _ => 100.0 * w / total,
+                    };
+                    format!("{o}={x} ")
+                })
+                .collect()
+        })
+}
+
 proptest! {
     #![proptest_config(cases(256))]
 
     #[test]
     fn compositions_never_panic_and_accepted_ones_are_finite(
-        text in prop_oneof![pairs_text(), ".{0,60}"],
+        text in prop_oneof![pairs_text(), closed_text(), ".{0,60}"],
         wt in any::<bool>(),
         tolerance in value(0.0, 10.0),
     ) {
