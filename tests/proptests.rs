@@ -6,7 +6,7 @@
 //! input that is accepted gives finite outputs all the way to the critical
 //! cooling rate, the TTT curve and the glassy slab.
 //!
-//! The case counts are kept small (32 to 256 per property) so CI stays fast;
+//! The case counts are kept small (48 to 256 per property) so CI stays fast;
 //! `PROPTEST_CASES` raises them for a longer hunt. The nastiest cases found
 //! are kept in tests/fixtures/hostile/ (run by tests/hostile.rs).
 
