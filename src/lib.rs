@@ -9,6 +9,8 @@
 //! - [`properties`]: mixture models, viscosity, liquidus surfaces, model sets;
 //! - [`kinetics`]: nucleation, growth, TTT, critical cooling rate;
 //! - [`assess`]: the whole chain for one candidate;
+//! - [`uncertainty`]: Monte Carlo of the inputs the models do not know
+//!   exactly into a band of R_c and the probability of a glass;
 //! - [`batch`]: raw materials and the least-cost batch;
 //! - [`screen`]: the search under the user's limits;
 //! - [`report`]: text, table columns, pictures, the HTML report;
@@ -27,6 +29,7 @@ pub mod numeric;
 pub mod properties;
 pub mod report;
 pub mod screen;
+pub mod uncertainty;
 pub mod units;
 
 /// The tests' named tolerances, one file shared with the integration tests.

@@ -7,7 +7,7 @@ use std::path::{Path, PathBuf};
 
 /// Library layers, lowest first, then the binary's: `cli` (clap only) and
 /// `app` (one handler per command).
-const LAYERS: [&str; 13] = [
+const LAYERS: [&str; 14] = [
     "units",
     "error",
     "numeric",
@@ -15,6 +15,7 @@ const LAYERS: [&str; 13] = [
     "properties",
     "kinetics",
     "assess",
+    "uncertainty",
     "batch",
     "screen",
     "report",

@@ -295,3 +295,24 @@ fn a_batch_for_a_glass_in_mol_pct_delivers_its_wt_pct() {
     }
     assert!(rel(j["glass_kg"].as_f64().unwrap(), 1.0) < 1e-15);
 }
+
+/// The demo screen asked for the largest margin returns only recipes whose
+/// numbers the model can vouch for: a nose within a day, a glassy slab of at
+/// most 100 mm, R_c of at least 1e-3 K/s (docs/science.md, "What the model can
+/// vouch for"; the bounds are common practice for lab melts, not measured
+/// limits).
+#[test]
+fn the_demo_margin_screen_shortlists_only_vouched_recipes() {
+    let d = temp_dir("demo-margin");
+    let demo = std::fs::read_to_string(root().join("configs/demo-screen.toml")).unwrap();
+    let text = demo.replace("kind = \"cost\"", "kind = \"margin\"");
+    assert_ne!(text, demo, "the demo config changed shape");
+    let rows = screen(&d, "margin", &text);
+    assert!(!rows.is_empty());
+    for r in &rows {
+        assert_eq!(r["vouched"], true, "{r}");
+        // Not the 1e-9 K/s, years-long noses of a margin screen that counts
+        // one phase and homogeneous nucleation only.
+        assert!(r["critical_rate_k_per_s"].as_f64().unwrap() >= 1e-3, "{r}");
+    }
+}

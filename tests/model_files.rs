@@ -57,6 +57,8 @@ unit = "degC"
 constant = 850.0
 linear = { CaO = 20.0 }
 [phase.domain]
+SiO2 = [60.0, 80.0]
+Na2O = [10.0, 25.0]
 CaO = [12.0, 20.0]
 
 [[phase]]
@@ -73,6 +75,8 @@ unit = "K"
 constant = 1423.15
 linear = { CaO = 0.0 }
 [phase.domain]
+SiO2 = [60.0, 80.0]
+Na2O = [10.0, 25.0]
 CaO = [5.0, 15.0]
 "#;
 

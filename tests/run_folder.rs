@@ -445,6 +445,78 @@ fn merge_names_missing_doubled_unfinished_and_foreign_shards() {
     .unwrap();
 }
 
+// The config names its raw materials by a path relative to itself, the
+// shards ran from one folder with a relative config path, their folders then
+// moved, and the merge runs from somewhere else: it reads the same files the
+// shards read, records where they are, and its report can be written again.
+#[test]
+fn a_merge_elsewhere_of_moved_shards_reads_the_files_the_shards_read() {
+    let d = temp_dir("merge-elsewhere");
+    let lab = d.join("lab");
+    std::fs::create_dir_all(lab.join("cfg")).unwrap();
+    std::fs::copy(
+        root().join("demo-datasets/raw-materials.csv"),
+        lab.join("cfg/shelf.csv"),
+    )
+    .unwrap();
+    let text = SMALL.replace(
+        "max_per_kg_glass = 0.24",
+        "max_per_kg_glass = 0.24\nraw_materials = \"shelf.csv\"",
+    );
+    assert_ne!(text, SMALL);
+    std::fs::write(lab.join("cfg/screen.toml"), text).unwrap();
+    for k in 0..2 {
+        let (out, shard) = (format!("shards/shard-{k}"), format!("{k}/2"));
+        run_in(
+            &lab,
+            &[
+                "screen",
+                "cfg/screen.toml",
+                "--out",
+                &out,
+                "--shard",
+                &shard,
+            ],
+        )
+        .code(0);
+    }
+    run_in(&lab, &["screen", "cfg/screen.toml", "--out", "whole"]).code(0);
+    let away = d.join("away");
+    std::fs::create_dir_all(&away).unwrap();
+    std::fs::rename(lab.join("shards"), away.join("moved")).unwrap();
+    run_in(
+        &away,
+        &["merge", "--out", "merged", "moved/shard-1", "moved/shard-0"],
+    )
+    .code(0)
+    .stdout_has("report: merged/report.html");
+    let merged = away.join("merged");
+    let whole = lab.join("whole");
+    for f in [
+        "shortlist.csv",
+        "summary.txt",
+        "candidates.parquet",
+        "limits.csv",
+    ] {
+        assert!(
+            std::fs::read(merged.join(f)).unwrap() == std::fs::read(whole.join(f)).unwrap(),
+            "{f} differs"
+        );
+    }
+    let dir_of = |p: &Path| {
+        let prov: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(p.join("provenance.json")).unwrap())
+                .unwrap();
+        prov["config_dir"].as_str().unwrap().to_string()
+    };
+    assert_eq!(dir_of(&merged), dir_of(&whole));
+    assert_eq!(
+        PathBuf::from(dir_of(&merged)),
+        std::fs::canonicalize(lab.join("cfg")).unwrap()
+    );
+    run_in(&d, &["report", "away/merged"]).code(0);
+}
+
 #[test]
 fn a_shard_is_read_as_k_of_n() {
     assert_eq!(Shard::parse("3/4").unwrap(), Shard { index: 3, count: 4 });

@@ -90,3 +90,8 @@ pub const NONLINEAR_ORACLE_SE_FRACTION: f64 = 1e-3;
 /// Standard errors of two non-linear solvers, taken at their own (slightly
 /// different) optima, agree to this.
 pub const SE_ORACLE_RTOL: f64 = 1e-4;
+
+/// A Monte Carlo estimate agrees with its exact value within this many of
+/// its own standard errors (a two-sided normal band that a correct
+/// estimator leaves with probability 0.27 %; common practice).
+pub const MONTE_CARLO_STANDARD_ERRORS: f64 = 3.0;

@@ -196,6 +196,9 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
     if wt_table && a.compositions.is_none() {
         return Err(Error::bad_input("--wt without a value reads --compositions tables as wt%; give a composition or a table"));
     }
+    if let Some(n) = a.uncertainty.draws {
+        return super::uncertainty::eval_uncertainty(&a, n);
+    }
     let table_out = || {
         a.out
             .as_deref()

@@ -9,6 +9,7 @@ mod input;
 mod models;
 mod progress;
 mod screen;
+mod uncertainty;
 
 use crate::cli::{Cli, Command};
 use quenchwise::error::Error;

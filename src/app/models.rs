@@ -44,21 +44,72 @@ pub fn base_options(set: &ModelSet) -> KineticOptions {
 fn domain_text(d: &Domain) -> String {
     let parts: Vec<String> = Oxide::ALL
         .iter()
-        .filter(|o| (d.min[o.index()], d.max[o.index()]) != (0.0, 100.0))
-        .map(|o| {
-            let (lo, hi) = (d.min[o.index()], d.max[o.index()]);
-            if lo == hi {
-                format!("{o} {lo}")
-            } else {
-                format!("{o} {lo:.1}–{hi:.1}")
-            }
-        })
+        .filter(|o| d.max[o.index()] > 0.0)
+        .map(|o| range_text(d, *o))
         .collect();
     if parts.is_empty() {
-        "any composition (no ranges given)".into()
+        "no oxide covered".into()
     } else {
-        format!("{} mol%", parts.join(", "))
+        format!("{} mol%; any other oxide is not covered", parts.join(", "))
     }
+}
+
+fn range_text(d: &Domain, o: Oxide) -> String {
+    let (lo, hi) = (d.min[o.index()], d.max[o.index()]);
+    if lo == hi {
+        format!("{o} {lo}")
+    } else {
+        format!("{o} {lo:.1}–{hi:.1}")
+    }
+}
+
+/// One line per oxide, one column per model (the viscosity model, then each
+/// phase's liquidus surface): the mol% range each covers, "—" where an oxide
+/// is not covered (docs/science.md, "Oxides a model does not cover").
+fn domains_table(m: &ModelSet) -> String {
+    let mut heads = vec!["viscosity".to_string()];
+    heads.extend(m.phases.iter().map(|p| format!("{} liquidus", p.name)));
+    let mut domains = vec![&m.viscosity.domain];
+    domains.extend(m.phases.iter().map(|p| &p.domain));
+    let width: Vec<usize> = heads.iter().map(|h| h.chars().count().max(11)).collect();
+    let mut out = format!(
+        "validity domains of {}, mol% (— : not covered)\n",
+        m.about.name
+    );
+    let _ = write!(out, "{:<7}", "oxide");
+    for (h, w) in heads.iter().zip(&width) {
+        let _ = write!(out, "  {h:>w$}");
+    }
+    out.push('\n');
+    for o in Oxide::ALL {
+        if domains.iter().all(|d| d.max[o.index()] <= 0.0) {
+            continue;
+        }
+        let _ = write!(out, "{:<7}", o.formula());
+        for (d, w) in domains.iter().zip(&width) {
+            let (lo, hi) = (d.min[o.index()], d.max[o.index()]);
+            let cell = if hi <= 0.0 {
+                "—".to_string()
+            } else {
+                format!("{lo:.1}–{hi:.1}")
+            };
+            let _ = write!(out, "  {cell:>w$}");
+        }
+        out.push('\n');
+    }
+    let uncovered: Vec<&str> = Oxide::ALL
+        .iter()
+        .filter(|o| domains.iter().all(|d| d.max[o.index()] <= 0.0))
+        .map(|o| o.formula())
+        .collect();
+    if !uncovered.is_empty() {
+        let _ = writeln!(
+            out,
+            "not covered by any model: {} (any amount is flagged as an extrapolation)",
+            uncovered.join(", ")
+        );
+    }
+    out
 }
 
 fn mixture_text(m: &MixtureModel, unit: &str) -> String {
@@ -150,6 +201,13 @@ fn fit_text(out: &mut String, indent: &str, f: &FitRecord) {
 pub fn models(a: ModelArgs) -> Result<Outcome, Error> {
     let path = a.file.as_deref().or(a.models.as_deref());
     let m = load_models(path, None)?;
+    if a.domains {
+        std::io::stdout()
+            .lock()
+            .write_all(domains_table(&m).as_bytes())
+            .map_err(|e| Error::internal(format!("writing to stdout: {e}")))?;
+        return Ok(Outcome::Finished);
+    }
     let mut out = String::new();
     let _ = writeln!(out, "model set     {}", m.about.name);
     let _ = writeln!(out, "description   {}", m.about.description);

@@ -49,6 +49,8 @@ pub enum Command {
     ///   quenchwise eval --mol "SiO2=72 Na2O=14 CaO=10 Al2O3=4"
     ///   quenchwise eval --wt "SiO2=74 Na2O=13 CaO=10.5 Al2O3=1.3 K2O=0.3 MgO=0.2" --json
     ///   quenchwise eval --melt demo-datasets/melt-card.toml --ttt ttt.csv
+    ///   quenchwise eval --melt demo-datasets/melt-card.toml --uncertainty 4000 \
+    ///       --quench-rate 0.01
     ///   quenchwise eval --compositions demo-datasets/candidates.csv --out results.csv
     #[command(verbatim_doc_comment)]
     Eval(EvalArgs),
@@ -472,6 +474,13 @@ pub struct ModelArgs {
     /// The same as FILE.
     #[arg(long, value_name = "FILE")]
     pub models: Option<PathBuf>,
+    /// Show only the validity domains (mol% per oxide and model).
+    ///
+    /// One line per oxide, one column per model (viscosity, each liquidus
+    /// surface), "—" where a model does not cover the oxide: any amount of
+    /// it is then flagged as an extrapolation.
+    #[arg(long)]
+    pub domains: bool,
 }
 
 /// The kinetic options `eval` and `fit kinetics` share.
@@ -645,7 +654,7 @@ pub struct EvalArgs {
     )]
     pub calibrate_rate: Option<f64>,
 
-    /// Unit of --calibrate-rate: K/s or K/min.
+    /// Unit of --calibrate-rate and --quench-rate: K/s or K/min.
     #[arg(
         long,
         value_name = "UNIT",
@@ -682,6 +691,53 @@ pub struct EvalArgs {
     /// message: more threads only add switching.
     #[arg(long, value_name = "N", help_heading = "Output")]
     pub threads: Option<usize>,
+
+    #[command(flatten)]
+    pub uncertainty: UncertaintyArgs,
+}
+
+/// `eval --uncertainty`: Monte Carlo over what the models do not know.
+#[derive(Debug, Args)]
+pub struct UncertaintyArgs {
+    /// Draw N Monte Carlo samples of the uncertain inputs: R_c band, P(glassy).
+    ///
+    /// Latin hypercube draws of every input with a stated spread: in a melt
+    /// card turnbull_alpha_sd (or interface_energy_sd_j_per_m2) per crystal
+    /// and heterogeneous_nuclei_per_m3 = [lo, hi] (log-uniform) in
+    /// [kinetics]; in a model set the covariance `quenchwise fit` wrote for
+    /// viscosity, liquidus and α. Prints the 5, 50 and 95 % critical rates,
+    /// the sd of log10 R_c, P(R_c ≤ --quench-rate) and each input's share of
+    /// the variance (--json writes them too). One melt card or composition.
+    /// Example: --uncertainty 4000 --quench-rate 1
+    #[arg(
+        long = "uncertainty",
+        value_name = "N",
+        help_heading = "Uncertainty",
+        conflicts_with_all = ["calibrate_rate", "calibrate_nose_time_s"]
+    )]
+    pub draws: Option<usize>,
+
+    /// Seed of the draws: the same seed gives the same numbers [default: 20261202].
+    #[arg(
+        long,
+        value_name = "S",
+        requires = "draws",
+        help_heading = "Uncertainty"
+    )]
+    pub seed: Option<u64>,
+
+    /// Your quench rate, in --rate-unit: P(glassy) = P(R_c ≤ this rate).
+    ///
+    /// The rate your quench reaches through the crystallisation window;
+    /// measure it (a thermocouple in a test pour). Example: --quench-rate 60
+    /// --rate-unit K/min.
+    #[arg(
+        long,
+        value_name = "RATE",
+        requires = "draws",
+        help_heading = "Uncertainty"
+    )]
+    pub quench_rate: Option<f64>,
 }
 
 #[cfg(test)]

@@ -11,6 +11,7 @@ use crate::kinetics::{
     Transport,
 };
 use crate::properties::{GrowthMode, Interface, ViscosityCurve, ViscosityError};
+use crate::uncertainty::melt::MeltSpreads;
 use crate::units::Kelvin;
 use serde::Deserialize;
 use std::ops::Range;
@@ -55,6 +56,62 @@ struct CardCrystal {
     melting_point_k: Option<Spanned<f64>>,
     #[serde(default)]
     heterogeneous_nuclei_per_m3: Option<Spanned<f64>>,
+    /// Spreads read by `eval --uncertainty` (see [`parse_melt_card_spreads`]).
+    #[serde(default)]
+    turnbull_alpha_sd: Option<Spanned<f64>>,
+    #[serde(default)]
+    interface_energy_sd_j_per_m2: Option<Spanned<f64>>,
+}
+
+/// `heterogeneous_nuclei_per_m3`: one number, or a log-uniform range
+/// `[lo, hi]` for `eval --uncertainty` (its geometric mean, the range's
+/// median, is the point estimate).
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) enum NucleiValue {
+    One(f64),
+    Range(Vec<f64>),
+}
+
+impl NucleiValue {
+    fn point(&self) -> f64 {
+        match self {
+            NucleiValue::One(v) => *v,
+            NucleiValue::Range(r) if r.len() == 2 && r[0] > 0.0 && r[1] > 0.0 => {
+                (r[0] * r[1]).sqrt()
+            }
+            // Not a range: refused with its own message where ranges are read.
+            NucleiValue::Range(_) => 0.0,
+        }
+    }
+}
+
+impl<'de> Deserialize<'de> for NucleiValue {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct V;
+        impl<'de> serde::de::Visitor<'de> for V {
+            type Value = NucleiValue;
+            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                f.write_str("a number of nuclei per m3, or a range [lo, hi]")
+            }
+            fn visit_f64<E: serde::de::Error>(self, v: f64) -> Result<NucleiValue, E> {
+                Ok(NucleiValue::One(v))
+            }
+            fn visit_i64<E: serde::de::Error>(self, v: i64) -> Result<NucleiValue, E> {
+                Ok(NucleiValue::One(v as f64))
+            }
+            fn visit_seq<A: serde::de::SeqAccess<'de>>(
+                self,
+                mut a: A,
+            ) -> Result<NucleiValue, A::Error> {
+                let mut out = Vec::new();
+                while let Some(x) = a.next_element::<f64>()? {
+                    out.push(x);
+                }
+                Ok(NucleiValue::Range(out))
+            }
+        }
+        d.deserialize_any(V)
+    }
 }
 
 /// The `[kinetics]` table of a melt card or a screen config: which
@@ -64,7 +121,7 @@ struct CardCrystal {
 pub(crate) struct KineticsTable {
     detectable_fraction: Option<Spanned<f64>>,
     driving_force: Option<DrivingForce>,
-    heterogeneous_nuclei_per_m3: Option<Spanned<f64>>,
+    heterogeneous_nuclei_per_m3: Option<Spanned<NucleiValue>>,
     contact_angle_deg: Option<Spanned<f64>>,
     sample_thickness_m: Option<Spanned<f64>>,
     transport: Option<Spanned<TransportName>>,
@@ -95,7 +152,10 @@ impl KineticsTable {
         KineticOverrides {
             detectable_fraction: v(&self.detectable_fraction),
             driving_force: self.driving_force,
-            heterogeneous_nuclei_per_m3: v(&self.heterogeneous_nuclei_per_m3),
+            heterogeneous_nuclei_per_m3: self
+                .heterogeneous_nuclei_per_m3
+                .as_ref()
+                .map(|n| n.get_ref().point()),
             contact_angle_deg: v(&self.contact_angle_deg),
             sample_thickness_m: v(&self.sample_thickness_m),
             transport,
@@ -108,12 +168,25 @@ impl KineticsTable {
         let s = |o: &Option<Spanned<f64>>| o.as_ref().map(|v| v.span());
         match name {
             "detectable_fraction" => s(&self.detectable_fraction),
-            "heterogeneous_nuclei_per_m3" => s(&self.heterogeneous_nuclei_per_m3),
+            "heterogeneous_nuclei_per_m3" => {
+                self.heterogeneous_nuclei_per_m3.as_ref().map(|v| v.span())
+            }
             "contact_angle_deg" => s(&self.contact_angle_deg),
             "sample_thickness_m" => s(&self.sample_thickness_m),
             "fractional_exponent" => s(&self.fractional_exponent),
             "decoupling_ratio" => s(&self.decoupling_ratio),
             _ => None,
+        }
+    }
+
+    /// The nuclei range `[lo, hi]` where one is given, with its place.
+    pub(crate) fn nuclei_range(&self) -> Option<(Vec<f64>, Range<usize>)> {
+        match self.heterogeneous_nuclei_per_m3.as_ref() {
+            Some(v) => match v.get_ref() {
+                NucleiValue::Range(r) => Some((r.clone(), v.span())),
+                NucleiValue::One(_) => None,
+            },
+            None => None,
         }
     }
 }
@@ -277,6 +350,8 @@ pub struct MeltCard {
     pub melt: Melt,
     /// The card's kinetic options (the base ones with the card's `[kinetics]`).
     pub options: KineticOptions,
+    /// The spreads `eval --uncertainty` reads (empty unless asked for).
+    pub spreads: MeltSpreads,
     path: String,
     text: String,
     viscosity: CardViscosity,
@@ -292,7 +367,22 @@ pub fn parse_melt_card(
     src: &Source,
     base: &KineticOptions,
 ) -> Result<(Melt, KineticOptions), DataError> {
-    read_melt_card(src, base).map(|c| (c.melt, c.options))
+    read_card(src, base, false).map(|c| (c.melt, c.options))
+}
+
+/// Parse a melt card with the spreads `eval --uncertainty` reads:
+/// `turnbull_alpha_sd` (or `interface_energy_sd_j_per_m2`) per crystal and a
+/// `heterogeneous_nuclei_per_m3 = [lo, hi]` range in `[kinetics]`.
+///
+/// # Errors
+/// As [`parse_melt_card`]; a spread that is negative or not a number, a
+/// spread of the interface value the crystal does not give, a range that is
+/// not `[lo, hi]` with 0 < lo ≤ hi — with the line.
+pub fn parse_melt_card_spreads(
+    src: &Source,
+    base: &KineticOptions,
+) -> Result<(Melt, KineticOptions, MeltSpreads), DataError> {
+    read_card(src, base, true).map(|c| (c.melt, c.options, c.spreads))
 }
 
 /// Parse a melt card, keeping where its values sit (see [`MeltCard::locate`]).
@@ -300,6 +390,14 @@ pub fn parse_melt_card(
 /// # Errors
 /// As [`parse_melt_card`].
 pub fn read_melt_card(src: &Source, base: &KineticOptions) -> Result<MeltCard, DataError> {
+    read_card(src, base, false)
+}
+
+/// A card and its spreads. Every spread is checked, but whether a spread
+/// belongs to the interface value a crystal gives only when `spreads` is set:
+/// a card evaluated at its point estimate does not read them (so a card that
+/// swaps α for σ still evaluates).
+fn read_card(src: &Source, base: &KineticOptions, spreads: bool) -> Result<MeltCard, DataError> {
     let hint = "a melt card has [viscosity] a, b_k, c_k; [crystal] (or one [[crystal]] per phase, each with a name) liquidus_k, enthalpy_of_fusion_j_per_mol, molar_volume_m3_per_mol, turnbull_alpha (or interface_energy_j_per_m2), growth; optional [kinetics]";
     // [crystal] for one phase, [[crystal]] for several: look at the shape first,
     // then read with spans.
@@ -335,15 +433,19 @@ pub fn read_melt_card(src: &Source, base: &KineticOptions) -> Result<MeltCard, D
         kinetics: kinetics.overrides(),
     };
     match values.build(base) {
-        Ok((melt, options)) => Ok(MeltCard {
-            melt,
-            options,
-            path: src.path.clone(),
-            text: src.text.to_string(),
-            viscosity,
-            crystals,
-            kinetics,
-        }),
+        Ok((melt, options)) => {
+            let spreads = card_spreads(src, &crystals, &kinetics, spreads)?;
+            Ok(MeltCard {
+                melt,
+                options,
+                spreads,
+                path: src.path.clone(),
+                text: src.text.to_string(),
+                viscosity,
+                crystals,
+                kinetics,
+            })
+        }
         Err(e) => {
             // Point at the key the error is about.
             let span = match &e {
@@ -458,6 +560,71 @@ impl MeltCard {
                 err
             }
         }
+    }
+}
+
+/// The spreads of a card, each checked where it stands.
+fn card_spreads(
+    src: &Source,
+    crystals: &[CardCrystal],
+    kinetics: &KineticsTable,
+    strict: bool,
+) -> Result<MeltSpreads, DataError> {
+    let mut problems = Vec::new();
+    let mut spreads = MeltSpreads::default();
+    let sd =
+        |v: &Option<Spanned<f64>>, key: &str, needs: bool, needed: &str, problems: &mut Vec<_>| {
+            let v = v.as_ref()?;
+            let x = *v.get_ref();
+            if !(x.is_finite() && x >= 0.0) {
+                problems.push(src.problem(
+                    v.span(),
+                    format!("{key} must be a standard deviation: a finite number ≥ 0, got {x}"),
+                ));
+            } else if strict && !needs {
+                problems.push(src.problem(
+                    v.span(),
+                    format!("{key} is the spread of {needed}, which this crystal does not give"),
+                ));
+            }
+            Some(x)
+        };
+    for c in crystals {
+        spreads.turnbull_alpha_sd.push(sd(
+            &c.turnbull_alpha_sd,
+            "turnbull_alpha_sd",
+            c.turnbull_alpha.is_some(),
+            "turnbull_alpha",
+            &mut problems,
+        ));
+        spreads.interface_energy_sd_j_per_m2.push(sd(
+            &c.interface_energy_sd_j_per_m2,
+            "interface_energy_sd_j_per_m2 (J/m2)",
+            c.interface_energy_j_per_m2.is_some(),
+            "interface_energy_j_per_m2",
+            &mut problems,
+        ));
+    }
+    if let Some((r, span)) = kinetics.nuclei_range() {
+        match r[..] {
+            [lo, hi] if lo.is_finite() && hi.is_finite() && lo > 0.0 && lo <= hi => {
+                spreads.nuclei_range_per_m3 = Some((lo, hi));
+            }
+            _ => problems.push(src.problem(
+                span,
+                format!(
+                    "heterogeneous_nuclei_per_m3 as a range must be [lo, hi] per m3 with 0 < lo ≤ hi (log-uniform), got {r:?}"
+                ),
+            )),
+        }
+    }
+    if problems.is_empty() {
+        Ok(spreads)
+    } else {
+        Err(src.error(
+            problems,
+            Some("spreads for `eval --uncertainty`: turnbull_alpha_sd (or interface_energy_sd_j_per_m2) in a [crystal], heterogeneous_nuclei_per_m3 = [1e6, 1e12] in [kinetics]".into()),
+        ))
     }
 }
 

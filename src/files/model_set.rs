@@ -289,7 +289,13 @@ pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
             }
             x
         });
-        let domain = c.domain(&p.domain);
+        let domain = c.domain(&p.domain, |o| match &liquidus {
+            LiquidusSurface::Mixture(m) => m.uses(o),
+            LiquidusSurface::FreezingPointDepression {
+                stoichiometry,
+                correction,
+            } => stoichiometry[o.index()] != 0.0 || correction.as_ref().is_some_and(|m| m.uses(o)),
+        });
         let alpha_sd = p.turnbull_alpha_sd.as_ref().map(|v| {
             let x = *v.get_ref();
             if !(x.is_finite() && x >= 0.0) {
@@ -412,7 +418,6 @@ pub fn parse_viscosity_model(src: &Source) -> Result<ViscosityModel, DataError> 
 
 fn viscosity_model(c: &mut Collector, v: &ViscosityFile) -> Option<ViscosityModel> {
     let span = v.form.span();
-    let domain = c.domain(&v.domain);
     let need = |c: &mut Collector, m: &Option<MixtureFile>, key: &str, temp: bool| match m {
         Some(m) => Some(mixture(c, m, temp, span.clone())),
         None => {
@@ -468,6 +473,15 @@ fn viscosity_model(c: &mut Collector, v: &ViscosityFile) -> Option<ViscosityMode
             );
         }
     }
+    let domain = c.domain(&v.domain, |o| match &form {
+        Some(ViscosityForm::Vft { a, b_k, c_k }) => [a, b_k, c_k].iter().any(|m| m.uses(o)),
+        Some(ViscosityForm::Myega {
+            log_eta_inf,
+            tg_k,
+            fragility,
+        }) => [log_eta_inf, tg_k, fragility].iter().any(|m| m.uses(o)),
+        None => true,
+    });
     let fit = v.fit.as_ref().map(|f| fit_record(c, f, false));
     if let (Some(form), Some(rec), Some(f)) = (&form, &fit, &v.fit) {
         for (name, span) in rec.coefficients.iter().zip(&f.coefficients.get_ref()[..]) {

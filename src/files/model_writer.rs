@@ -191,7 +191,8 @@ fn mixture(out: &mut String, table: &str, m: &MixtureModel, unit_k: bool, note: 
 fn domain(out: &mut String, table: &str, d: &Domain) {
     let listed: Vec<Oxide> = Oxide::ALL
         .into_iter()
-        .filter(|o| (d.min[o.index()], d.max[o.index()]) != (0.0, 100.0))
+        // An oxide left out reads back as [0, 0]: not covered.
+        .filter(|o| d.max[o.index()] > 0.0)
         .collect();
     if listed.is_empty() {
         return;

@@ -464,12 +464,6 @@ pub fn run_hash(plan: &RunPlan) -> u64 {
 }
 
 fn header_of(plan: &RunPlan, shard: Option<Shard>) -> Header {
-    let dir = plan.config_path.parent().unwrap_or(Path::new("."));
-    let dir = if dir.as_os_str().is_empty() {
-        Path::new(".")
-    } else {
-        dir
-    };
     Header {
         format: FORMAT,
         run_hash: run_hash(plan),
@@ -478,7 +472,7 @@ fn header_of(plan: &RunPlan, shard: Option<Shard>) -> Header {
         chunks: chunk_count(&plan.search),
         shard,
         config_path: plan.config_path.clone(),
-        config_dir: std::fs::canonicalize(dir).unwrap_or_else(|_| dir.to_path_buf()),
+        config_dir: plan.base_dir.clone(),
     }
 }
 

@@ -187,6 +187,11 @@ pub struct RunPlan {
     /// Worker threads (None: all cores).
     pub threads: Option<usize>,
     pub config_path: PathBuf,
+    /// The folder that relative paths inside the config are taken from
+    /// (absolute when it exists): the config's own folder, or the base it was
+    /// loaded with. Recorded in checkpoints and provenance, so that a merge or
+    /// a report run from another folder reads the same files.
+    pub base_dir: PathBuf,
     pub config_text: String,
     /// FNV-1a hash of the config text and the program version.
     pub config_hash: u64,
@@ -270,6 +275,14 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
     let dir = base
         .map(Path::to_path_buf)
         .unwrap_or_else(|| path.parent().unwrap_or(Path::new(".")).to_path_buf());
+    let base_dir = {
+        let d = if dir.as_os_str().is_empty() {
+            Path::new(".")
+        } else {
+            dir.as_path()
+        };
+        std::fs::canonicalize(d).unwrap_or_else(|_| d.to_path_buf())
+    };
 
     // Whole numbers of the search, each within its range (S4).
     let mut count = |key: &str, v: &Spanned<usize>, lo: usize, hi: usize| -> usize {
@@ -641,6 +654,12 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         .map(|b| bounds("working_range_k", b, 0.0, "K"));
     let kin_table = raw.kinetics.unwrap_or_default();
     let kin = kin_table.overrides().apply(KineticOptions::default());
+    if let Some((_, span)) = kin_table.nuclei_range() {
+        push(
+            span,
+            "[kinetics]: a range of heterogeneous_nuclei_per_m3 is read by `eval --uncertainty` only; give one number here".into(),
+        );
+    }
     if let Err(e) = kin.validate() {
         let span = match &e {
             crate::kinetics::KineticsError::Value(v) => kin_table.span_of(v.name()),
@@ -663,6 +682,38 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
     let mut models = models.ok_or_else(|| Error::internal("the model set was not loaded"))?;
     if let Some(v) = viscosity {
         models = models.with_viscosity(v);
+    }
+    // An oxide the models were not made for cannot be screened unless the user
+    // allows extrapolation: its effect would be silently zero.
+    if !raw.search.allow_extrapolation {
+        for (k, v) in &raw.oxides {
+            let Ok(o) = k.get_ref().parse::<Oxide>() else {
+                continue;
+            };
+            if v.get_ref()[1] <= 0.0 {
+                continue;
+            }
+            let mut missing = Vec::new();
+            if models.viscosity.domain.max[o.index()] <= 0.0 {
+                missing.push(format!("the viscosity model '{}'", models.viscosity.name));
+            }
+            if models.phases.iter().all(|p| p.domain.max[o.index()] <= 0.0) {
+                missing.push("every liquidus surface".to_string());
+            }
+            if !missing.is_empty() {
+                problems.push(src.problem(
+                    k.span(),
+                    format!(
+                        "{o} may reach {} mol% here, but {} was not made for {o} (its validity domain leaves {o} out), so its effect would count as zero; narrow {o} to [0, 0], use a model set that covers it, or set allow_extrapolation = true under [search]",
+                        v.get_ref()[1],
+                        missing.join(" and ")
+                    ),
+                ));
+            }
+        }
+        if !problems.is_empty() {
+            return Err(src_error(&src, problems, hint).into());
+        }
     }
     let config_hash = fnv1a(format!("{}\n{}", env!("CARGO_PKG_VERSION"), text).as_bytes());
     let batch_model = cost.as_ref().map(|c| c.0.clone());
@@ -708,6 +759,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         batch_model,
         threads,
         config_path: path.to_path_buf(),
+        base_dir,
         config_text: text.clone(),
         config_hash,
         notes,

@@ -220,9 +220,23 @@ impl<'s, 'a> Collector<'s, 'a> {
         }
     }
 
-    pub(crate) fn domain(&mut self, d: &BTreeMap<Spanned<String>, Spanned<[f64; 2]>>) -> Domain {
+    /// The validity domain a model file states. An oxide the table does not
+    /// list is one the model was not made for: [0, 0], so any amount of it is
+    /// flagged as an extrapolation (docs/science.md, "Validity domains"). With
+    /// no table at all, `uses` decides which oxides the model covers
+    /// (0–100 mol%).
+    pub(crate) fn domain(
+        &mut self,
+        d: &BTreeMap<Spanned<String>, Spanned<[f64; 2]>>,
+        uses: impl Fn(Oxide) -> bool,
+    ) -> Domain {
         let mut out = Domain::default();
         let mut seen = Vec::new();
+        for o in Oxide::ALL {
+            if !d.is_empty() || !uses(o) {
+                out.max[o.index()] = 0.0;
+            }
+        }
         for (k, v) in d {
             if let Some(o) = self.oxide_once(k, &mut seen) {
                 let [lo, hi] = *v.get_ref();

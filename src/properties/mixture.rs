@@ -59,6 +59,17 @@ impl MixtureModel {
         }
     }
 
+    /// Whether any term of the model depends on oxide `o`.
+    pub fn uses(&self, o: Oxide) -> bool {
+        let i = o.index();
+        self.linear[i] != 0.0
+            || self.pairs.iter().any(|&(a, b, _)| a == i || b == i)
+            || self
+                .products
+                .iter()
+                .any(|t| t.groups.iter().any(|g| g[i] != 0.0))
+    }
+
     /// The property at mole fractions `x` (which sum to one).
     pub fn eval(&self, x: &[f64; N_OXIDES]) -> f64 {
         let s = self.basis.scale();
@@ -205,7 +216,11 @@ impl Domain {
         for o in Oxide::ALL {
             let (v, lo, hi) = (pct[o.index()], self.min[o.index()], self.max[o.index()]);
             // A hair of slack so a value on the boundary is inside.
-            if v > hi + 1e-9 {
+            if hi <= 0.0 && v > 1e-9 {
+                out.push(format!(
+                    "{o} {v:.2} mol%, an oxide the model does not cover"
+                ));
+            } else if v > hi + 1e-9 {
                 out.push(format!("{o} {v:.2} mol% above {hi}"));
             } else if v < lo - 1e-9 {
                 out.push(format!("{o} {v:.2} mol% below {lo}"));

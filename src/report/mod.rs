@@ -7,5 +7,6 @@ pub mod html;
 pub mod plot;
 pub mod records;
 pub mod text;
+pub mod uncertainty;
 
 pub use text::{batch_text, evaluation_text, sig, CAUTION};

@@ -1,0 +1,81 @@
+//! Text of a Monte Carlo propagation: the band of R_c, the probability of a
+//! glass at the user's quench, and which input would narrow the band most.
+
+use super::text::sig;
+use crate::uncertainty::Propagation;
+use crate::units::{KelvinPerSecond, RateUnit};
+use std::fmt::Write as _;
+
+/// The uncertainty block `eval --uncertainty` prints, rates in `unit`.
+pub fn propagation_text(p: &Propagation, unit: RateUnit) -> String {
+    let r = |k_per_s: f64| match unit {
+        RateUnit::PerSecond => sig(k_per_s),
+        RateUnit::PerMinute => sig(KelvinPerSecond(k_per_s).per_minute()),
+    };
+    let u = unit.symbol();
+    let mut o = String::new();
+    let _ = writeln!(
+        o,
+        "\nUncertainty: {} Latin hypercube draws (seed {}); only as good as the spreads given",
+        p.draws, p.seed
+    );
+    let _ = writeln!(
+        o,
+        "  critical rate  5 %: {} {u}   50 %: {} {u}   95 %: {} {u}",
+        r(p.critical_rate_p05_k_per_s),
+        r(p.critical_rate_p50_k_per_s),
+        r(p.critical_rate_p95_k_per_s)
+    );
+    let _ = writeln!(
+        o,
+        "  sd of log10 R_c: {:.3} decades",
+        p.log10_critical_rate_sd
+    );
+    if let (Some(q), Some(pg), Some(se)) = (
+        p.quench_rate_k_per_s,
+        p.probability_glassy,
+        p.probability_glassy_se,
+    ) {
+        let _ = writeln!(
+            o,
+            "  P(glassy at {} {u}) = P(R_c ≤ {} {u}) = {pg:.3} (± {se:.3}, binomial standard error)",
+            r(q),
+            r(q)
+        );
+    }
+    if p.failed_draws > 0 {
+        let _ = writeln!(
+            o,
+            "  {} of {} draws failed and are left out of these numbers; the first: {}",
+            p.failed_draws,
+            p.draws,
+            p.first_failure.as_deref().unwrap_or("")
+        );
+    }
+    if !p.variance_shares.is_empty() {
+        let _ = writeln!(
+            o,
+            "  share of the variance of log10 R_c each input explains (first order):"
+        );
+        let mut total = 0.0;
+        for s in &p.variance_shares {
+            let _ = writeln!(o, "    {:<48} {:>5.2}", s.input, s.share);
+            if s.share.is_finite() {
+                total += s.share;
+            }
+        }
+        if p.variance_shares.len() > 1 {
+            let _ = writeln!(
+                o,
+                "    {:<48} {:>5.2}",
+                "(the rest: inputs acting together, bin noise)",
+                (1.0 - total).max(0.0)
+            );
+        }
+        let _ = writeln!(
+            o,
+            "  a better measurement of the input with the largest share narrows the band most"
+        );
+    }
+    o
+}

@@ -1,0 +1,564 @@
+//! `eval --uncertainty` and the library's Monte Carlo against answers known
+//! in closed form: with only one input uncertain and R_c monotone in it,
+//! P(R_c ≤ R) and the quantiles of R_c follow from the input's own
+//! distribution through the root α* (or N*) of R_c = R.
+//!
+//! The melt is the demo melt card (invented numbers).
+
+use crate::tolerances::MONTE_CARLO_STANDARD_ERRORS;
+use crate::util::{root, run_in, temp_dir};
+use quenchwise::files::melt_card::parse_melt_card_spreads;
+use quenchwise::files::source::Source;
+use quenchwise::kinetics::{KineticOptions, Kinetics, Melt};
+use quenchwise::properties::{GrowthMode, Interface, ViscosityCurve};
+use quenchwise::uncertainty::melt::{inputs_of, melt_critical_rate, melt_inputs, MeltSpreads};
+use quenchwise::uncertainty::{propagate, Propagation, Settings};
+use quenchwise::units::Kelvin;
+use statrs::distribution::{Continuous, ContinuousCDF, Normal};
+
+const MU: f64 = 0.33;
+
+/// The demo melt card's melt (invented numbers) with α.
+fn melt(alpha: f64) -> Melt {
+    Melt::new(
+        ViscosityCurve::vft(-2.8, 4500.0, 480.0).unwrap(),
+        Kelvin(1300.0),
+        60_000.0,
+        6.0e-5,
+        Interface::TurnbullAlpha(alpha),
+        GrowthMode::Normal,
+    )
+    .unwrap()
+}
+
+fn rc(alpha: f64, nuclei: f64) -> f64 {
+    let opts = KineticOptions {
+        heterogeneous_nuclei_per_m3: nuclei,
+        ..KineticOptions::default()
+    };
+    Kinetics::new(&melt(alpha), &opts)
+        .unwrap()
+        .critical_rate()
+        .unwrap()
+        .0
+}
+
+/// The root of f on [lo, hi] by bisection (f changes sign there).
+fn bisect(f: impl Fn(f64) -> f64, mut lo: f64, mut hi: f64) -> f64 {
+    let flo = f(lo);
+    assert!(flo * f(hi) < 0.0, "no sign change on [{lo}, {hi}]");
+    for _ in 0..100 {
+        let mid = 0.5 * (lo + hi);
+        if (f(mid) > 0.0) == (flo > 0.0) {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    0.5 * (lo + hi)
+}
+
+fn run(spreads: &MeltSpreads, nuclei: f64, draws: usize, seed: u64, quench: f64) -> Propagation {
+    let m = melt(MU);
+    let opts = KineticOptions {
+        heterogeneous_nuclei_per_m3: nuclei,
+        ..KineticOptions::default()
+    };
+    let inputs = melt_inputs(&m, spreads).unwrap();
+    propagate(
+        &inputs_of(&inputs),
+        Settings { draws, seed },
+        Some(quench),
+        |v| melt_critical_rate(&m, &opts, &inputs, v),
+    )
+    .unwrap()
+}
+
+fn alpha_spread(sd: f64) -> MeltSpreads {
+    MeltSpreads {
+        turnbull_alpha_sd: vec![Some(sd)],
+        interface_energy_sd_j_per_m2: vec![None],
+        nuclei_range_per_m3: None,
+    }
+}
+
+#[test]
+fn alpha_alone_gives_the_closed_form_probability_and_quantiles() {
+    let (s, n) = (0.01, 2000);
+    // The premise: R_c falls as α rises (a larger barrier), strictly.
+    let grid: Vec<f64> = (0..=8)
+        .map(|i| rc(MU - 4.0 * s + i as f64 * s, 0.0))
+        .collect();
+    assert!(grid.windows(2).all(|w| w[1] < w[0]), "{grid:?}");
+    // A quench rate a third of R_c at the mean α.
+    let quench = rc(MU, 0.0) / 3.0;
+    let alpha_star = bisect(
+        |a| rc(a, 0.0).log10() - quench.log10(),
+        MU - 6.0 * s,
+        MU + 6.0 * s,
+    );
+    let normal = Normal::standard();
+    // Source: R_c decreasing in α, so {R_c ≤ R} = {α ≥ α*} and
+    // P = 1 − Φ((α* − μ)/s) (monotone transform of a normal variable;
+    // standard probability). Φ from statrs.
+    let exact = 1.0 - normal.cdf((alpha_star - MU) / s);
+    assert!(
+        exact > 0.05 && exact < 0.95,
+        "{exact}: the check would be weak"
+    );
+    let p = run(&alpha_spread(s), 0.0, n, 7, quench);
+    let got = p.probability_glassy.unwrap();
+    let se = (exact * (1.0 - exact) / n as f64).sqrt();
+    assert!(
+        (got - exact).abs() <= MONTE_CARLO_STANDARD_ERRORS * se,
+        "Monte Carlo {got} vs closed form {exact} (SE {se})"
+    );
+    assert_eq!(p.failed_draws, 0);
+    // Source: quantiles map through a decreasing transform as
+    // q_p(R_c) = R_c(q_{1−p}(α)), q_{1−p}(α) = μ + s Φ⁻¹(1 − p) (standard
+    // probability). The sample p-quantile of α has standard error
+    // s √(p(1 − p)/n)/φ(z) (asymptotic normality of order statistics;
+    // standard), carried to log10 R_c by the local slope.
+    for (pp, got) in [
+        (0.05, p.critical_rate_p05_k_per_s),
+        (0.50, p.critical_rate_p50_k_per_s),
+        (0.95, p.critical_rate_p95_k_per_s),
+    ] {
+        let z = normal.inverse_cdf(1.0 - pp);
+        let a = MU + s * z;
+        let want = rc(a, 0.0).log10();
+        let h = 1e-4;
+        let slope = (rc(a + h, 0.0).log10() - rc(a - h, 0.0).log10()) / (2.0 * h);
+        let se_alpha = s * (pp * (1.0 - pp) / n as f64).sqrt() / normal.pdf(z);
+        let tol = MONTE_CARLO_STANDARD_ERRORS * slope.abs() * se_alpha;
+        assert!(
+            (got.log10() - want).abs() <= tol,
+            "quantile {pp}: {} vs {want} (tolerance {tol})",
+            got.log10()
+        );
+    }
+    assert!(
+        (p.variance_shares[0].share - 1.0).abs() < 0.02,
+        "{:?}",
+        p.variance_shares
+    );
+}
+
+#[test]
+fn nuclei_range_alone_gives_the_log_uniform_probability() {
+    let (lo, hi, n) = (1e6, 1e12, 1000);
+    let (r_lo, r_hi) = (rc(MU, lo), rc(MU, hi));
+    assert!(
+        r_hi > r_lo,
+        "pre-existing nuclei must raise R_c: {r_lo} {r_hi}"
+    );
+    let quench = (r_lo * r_hi).sqrt();
+    let ln_star = bisect(
+        |ln_n| rc(MU, ln_n.exp()).ln() - quench.ln(),
+        lo.ln(),
+        hi.ln(),
+    );
+    // Source: R_c rises with N_h, so {R_c ≤ R} = {N_h ≤ N*}; for ln N_h
+    // uniform on [ln lo, ln hi], P = (ln N* − ln lo)/(ln hi − ln lo)
+    // (standard probability).
+    let exact = (ln_star - lo.ln()) / (hi.ln() - lo.ln());
+    let spreads = MeltSpreads {
+        nuclei_range_per_m3: Some((lo, hi)),
+        ..MeltSpreads::default()
+    };
+    let p = run(&spreads, 0.0, n, 5, quench);
+    let got = p.probability_glassy.unwrap();
+    let se = (exact * (1.0 - exact) / n as f64).sqrt();
+    assert!(
+        (got - exact).abs() <= MONTE_CARLO_STANDARD_ERRORS * se,
+        "Monte Carlo {got} vs closed form {exact} (SE {se})"
+    );
+    // Source: the median of a log-uniform variable is √(lo·hi), mapped
+    // through the increasing R_c(N_h) (standard probability).
+    let want = rc(MU, (lo * hi).sqrt()).log10();
+    assert!(
+        (p.critical_rate_p50_k_per_s.log10() - want).abs() < 0.05 * (r_hi / r_lo).log10(),
+        "{} vs {want}",
+        p.critical_rate_p50_k_per_s.log10()
+    );
+}
+
+#[test]
+fn zero_spread_gives_the_point_estimate_in_every_draw() {
+    // Source: a normal with sd 0 is the constant μ (standard probability).
+    let p = run(&alpha_spread(0.0), 0.0, 50, 1, 1.0);
+    let point = rc(MU, 0.0);
+    assert_eq!(p.log10_critical_rate_sd, 0.0);
+    for q in [
+        p.critical_rate_p05_k_per_s,
+        p.critical_rate_p50_k_per_s,
+        p.critical_rate_p95_k_per_s,
+    ] {
+        assert!((q / point - 1.0).abs() < 1e-12, "{q} vs {point}");
+    }
+    assert_eq!(p.variance_shares[0].share, 0.0);
+}
+
+#[test]
+fn the_same_seed_gives_the_same_numbers_at_any_thread_count() {
+    let spreads = MeltSpreads {
+        turnbull_alpha_sd: vec![Some(0.01)],
+        interface_energy_sd_j_per_m2: vec![None],
+        nuclei_range_per_m3: Some((1e6, 1e10)),
+    };
+    let at = |threads: usize, seed: u64| {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap()
+            .install(|| run(&spreads, 0.0, 120, seed, 1.0))
+    };
+    let one = at(1, 9);
+    let three = at(3, 9);
+    assert_eq!(one, three);
+    assert_eq!(one.log10_rates.len(), 120);
+    assert_ne!(one.log10_rates, at(2, 10).log10_rates);
+}
+
+#[test]
+fn melt_card_spreads_are_read_and_bad_ones_named_by_line() {
+    let card = std::fs::read_to_string(root().join("demo-datasets/melt-card.toml")).unwrap();
+    let text = card.replace(
+        "heterogeneous_nuclei_per_m3 = 0.0",
+        "heterogeneous_nuclei_per_m3 = [1e6, 1e12]",
+    );
+    assert_ne!(text, card);
+    let (_, opts, spreads) =
+        parse_melt_card_spreads(&Source::new("card.toml", &text), &KineticOptions::default())
+            .unwrap();
+    assert_eq!(spreads.nuclei_range_per_m3, Some((1e6, 1e12)));
+    assert!(spreads.turnbull_alpha_sd[0].is_some());
+    // The point estimate counts the range's median (its geometric mean).
+    assert!((opts.heterogeneous_nuclei_per_m3 / 1e9 - 1.0).abs() < 1e-12);
+    let line_of = |t: &str, needle: &str| t.lines().position(|l| l.contains(needle)).unwrap() + 1;
+    for (from, to, says) in [
+        (
+            "heterogeneous_nuclei_per_m3 = 0.0",
+            "heterogeneous_nuclei_per_m3 = [1e12, 1e6]",
+            "0 < lo ≤ hi",
+        ),
+        (
+            "heterogeneous_nuclei_per_m3 = 0.0",
+            "heterogeneous_nuclei_per_m3 = [0.0, 1e6]",
+            "0 < lo ≤ hi",
+        ),
+        (
+            "heterogeneous_nuclei_per_m3 = 0.0",
+            "heterogeneous_nuclei_per_m3 = [1e6, 1e9, 1e12]",
+            "0 < lo ≤ hi",
+        ),
+        (
+            "heterogeneous_nuclei_per_m3 = 0.0",
+            "heterogeneous_nuclei_per_m3 = [-1e6, 1e12]",
+            "0 < lo ≤ hi",
+        ),
+        (
+            "heterogeneous_nuclei_per_m3 = 0.0",
+            "heterogeneous_nuclei_per_m3 = \"many\"",
+            "a number of nuclei per m3, or a range [lo, hi]",
+        ),
+    ] {
+        let t = card.replace(from, to);
+        let e = parse_melt_card_spreads(&Source::new("card.toml", &t), &KineticOptions::default())
+            .unwrap_err()
+            .to_string();
+        let line = line_of(&t, to);
+        assert!(e.contains(&format!("card.toml:{line}")), "{e}");
+        assert!(e.contains(says), "{e}");
+    }
+    let sd_line = card
+        .lines()
+        .find(|l| l.starts_with("turnbull_alpha_sd"))
+        .expect("the demo card gives turnbull_alpha_sd");
+    let t = card.replace(sd_line, "turnbull_alpha_sd = -0.01");
+    let e = parse_melt_card_spreads(&Source::new("card.toml", &t), &KineticOptions::default())
+        .unwrap_err()
+        .to_string();
+    assert!(
+        e.contains(&format!("card.toml:{}", line_of(&t, "turnbull_alpha_sd")))
+            && e.contains("turnbull_alpha_sd must be a standard deviation"),
+        "{e}"
+    );
+    // A spread of σ for a crystal given by α.
+    let t = card.replace(sd_line, "interface_energy_sd_j_per_m2 = 0.01");
+    let e = parse_melt_card_spreads(&Source::new("card.toml", &t), &KineticOptions::default())
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("does not give"), "{e}");
+}
+
+#[test]
+fn eval_prints_and_writes_the_band_and_the_probability() {
+    let d = temp_dir("eval-uncertainty");
+    let card = root().join("demo-datasets/melt-card.toml");
+    let card = card.to_str().unwrap();
+    let args = [
+        "eval",
+        "--melt",
+        card,
+        "--uncertainty",
+        "200",
+        "--quench-rate",
+        "60",
+        "--rate-unit",
+        "K/min",
+    ];
+    let r = run_in(&d, &args);
+    r.code(0)
+        .stdout_has("critical rate  5 %:")
+        .stdout_has("P(glassy at 60.0 K/min)")
+        .stdout_has("turnbull_alpha of crystal");
+    let mut json_args = args.to_vec();
+    json_args.extend(["--json", "--threads", "1"]);
+    let one = run_in(&d, &json_args);
+    one.code(0);
+    let v: serde_json::Value = serde_json::from_str(&one.stdout).unwrap();
+    let u = &v["uncertainty"];
+    for key in [
+        "critical_rate_p05_k_per_s",
+        "critical_rate_p50_k_per_s",
+        "critical_rate_p95_k_per_s",
+        "log10_critical_rate_sd",
+        "probability_glassy",
+    ] {
+        assert!(u[key].is_number(), "{key} missing: {u}");
+    }
+    assert_eq!(u["quench_rate_k_per_s"].as_f64(), Some(1.0));
+    assert!(u["variance_shares"][0]["share"].is_number());
+    json_args.pop();
+    json_args.push("2");
+    assert_eq!(run_in(&d, &json_args).stdout, one.stdout);
+    run_in(&d, &["eval", "--melt", card, "--uncertainty", "5"])
+        .code(2)
+        .stderr_has("at least 20");
+    run_in(&d, &["eval", "--melt", card, "--uncertainty", "2000000"])
+        .code(2)
+        .stderr_has("at most 1000000");
+    run_in(&d, &["eval", "--melt", card, "--quench-rate", "1"]).code(2);
+}
+
+fn record(coefficients: &[&str], covariance: Vec<Vec<f64>>) -> quenchwise::properties::FitRecord {
+    quenchwise::properties::FitRecord {
+        data: "invented".into(),
+        data_sha256: String::new(),
+        date: "2026-12-02".into(),
+        method: "test".into(),
+        points: 10,
+        glasses: None,
+        unit: "log10 Pa s".into(),
+        rmse: 0.0,
+        residual_sd: 0.0,
+        dof: Some(8),
+        r_squared: None,
+        cv_method: None,
+        cv_rmse: None,
+        cv_rmse_k: None,
+        coefficients: coefficients.iter().map(|c| c.to_string()).collect(),
+        covariance,
+    }
+}
+
+#[test]
+fn a_composition_whose_coefficients_have_zero_variance_has_zero_spread() {
+    use quenchwise::composition::{Basis, Composition};
+    use quenchwise::files::model_set::load_model_set;
+    use quenchwise::uncertainty::melt::{composition_critical_rate, model_set_inputs};
+    let mut set = load_model_set(None).unwrap();
+    let glass =
+        Composition::parse("SiO2=72 Na2O=14 CaO=10 Al2O3=4", Basis::MolPercent, 0.0).unwrap();
+    let opts = KineticOptions::default();
+    let names = ["a.constant", "b_k.SiO2"];
+    let point = {
+        let props = set.properties(&glass).unwrap();
+        let melt = quenchwise::assess::composition_melt(&set, &props).unwrap();
+        Kinetics::new(&melt, &opts)
+            .unwrap()
+            .critical_rate()
+            .unwrap()
+            .0
+    };
+    let draw = |set: &quenchwise::properties::ModelSet| {
+        let (inputs, notes) = model_set_inputs(set, &opts, None).unwrap();
+        assert!(notes.is_empty(), "{notes:?}");
+        propagate(
+            &inputs_of(&inputs),
+            Settings { draws: 40, seed: 2 },
+            None,
+            |v| composition_critical_rate(set, &glass, &opts, &inputs, v),
+        )
+        .unwrap()
+    };
+    // Source: N(θ̂, 0) is the constant θ̂ (standard probability).
+    set.viscosity.fit = Some(record(&names, vec![vec![0.0; 2]; 2]));
+    let p = draw(&set);
+    assert_eq!(p.log10_critical_rate_sd, 0.0);
+    assert!((p.critical_rate_p50_k_per_s / point - 1.0).abs() < 1e-12);
+    // A spread in the viscosity constant does spread R_c, and it is the
+    // only input, so it explains (almost) all of it.
+    set.viscosity.fit = Some(record(&names, vec![vec![0.01, 0.0], vec![0.0, 0.0]]));
+    let p = draw(&set);
+    assert!(p.log10_critical_rate_sd > 0.01, "{p:?}");
+    assert!(p.variance_shares[0].share > 0.9, "{:?}", p.variance_shares);
+}
+
+#[test]
+fn a_fitted_model_set_draws_every_fit_and_its_band_holds_the_held_out_glass() {
+    // The demo fits (invented data, demo-datasets/README.md), then the
+    // held-out glass lab-13: its invented measured R_c, 1.31 K/min
+    // (demo-datasets/fit-holdout.csv), lies inside the 5–95 % band the
+    // fitted covariances give.
+    let d = temp_dir("uncertainty-fitted");
+    let data = root().join("demo-datasets");
+    let f = |name: &str| data.join(name).to_str().unwrap().to_string();
+    for args in [
+        vec![
+            "fit",
+            "viscosity",
+            &f("fit-viscosity.csv"),
+            "--models",
+            "demo-soda-lime",
+            "--name",
+            "lab-test",
+        ],
+        vec![
+            "fit",
+            "liquidus",
+            &f("fit-liquidus.csv"),
+            "--models",
+            "m.toml",
+            "--shift",
+            "cristobalite",
+        ],
+        vec![
+            "fit",
+            "kinetics",
+            &f("fit-critical-rates.csv"),
+            "--models",
+            "m.toml",
+            "--log10-sd",
+            "0.15",
+        ],
+    ] {
+        let mut a: Vec<&str> = args.iter().map(|s| s.as_ref()).collect();
+        a.extend(["--out", "m.toml"]);
+        run_in(&d, &a).code(0);
+    }
+    let r = run_in(
+        &d,
+        &[
+            "eval",
+            "--mol",
+            "SiO2=71 Na2O=14.5 K2O=1 CaO=9 MgO=3 Al2O3=1.5",
+            "--models",
+            "m.toml",
+            "--uncertainty",
+            "1000",
+            "--quench-rate",
+            "1.31",
+            "--rate-unit",
+            "K/min",
+            "--json",
+        ],
+    );
+    r.code(0);
+    let v: serde_json::Value = serde_json::from_str(&r.stdout).unwrap();
+    let u = &v["uncertainty"];
+    let names: Vec<&str> = u["variance_shares"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|s| s["input"].as_str().unwrap())
+        .collect();
+    assert!(
+        names
+            .iter()
+            .any(|n| n.starts_with("viscosity coefficients")),
+        "{names:?}"
+    );
+    assert!(
+        names
+            .iter()
+            .any(|n| n.starts_with("liquidus surface of devitrite")),
+        "{names:?}"
+    );
+    assert!(
+        names.iter().any(|n| n.starts_with("kinetic factors")),
+        "{names:?}"
+    );
+    let measured = 1.31 / 60.0;
+    let (lo, hi) = (
+        u["critical_rate_p05_k_per_s"].as_f64().unwrap(),
+        u["critical_rate_p95_k_per_s"].as_f64().unwrap(),
+    );
+    assert!(lo < measured && measured < hi, "{lo} {measured} {hi}");
+    assert_eq!(u["failed_draws"].as_u64(), Some(0));
+}
+
+#[test]
+fn a_nuclei_range_in_a_screen_config_is_refused_with_its_line() {
+    let d = temp_dir("uncertainty-screen-range");
+    let text = format!(
+        "{}\n[kinetics]\nheterogeneous_nuclei_per_m3 = [1e6, 1e12]\n",
+        crate::screen::SMALL
+    );
+    std::fs::write(d.join("screen.toml"), &text).unwrap();
+    let line = text
+        .lines()
+        .position(|l| l.starts_with("heterogeneous_nuclei_per_m3"))
+        .unwrap()
+        + 1;
+    run_in(&d, &["check", "screen.toml"])
+        .code(2)
+        .stderr_has(&format!("screen.toml:{line}: "))
+        .stderr_has("read by `eval --uncertainty` only");
+}
+
+#[test]
+fn a_spread_of_sigma_is_drawn_for_a_crystal_given_by_sigma() {
+    use quenchwise::uncertainty::melt::Target;
+    use quenchwise::uncertainty::Distribution;
+    let m = melt(MU);
+    let sigma = m.phases[0].interface_energy_j_per_m2();
+    let by_sigma = m.with_interface(0, Interface::EnergyJPerM2(sigma));
+    let spreads = MeltSpreads {
+        turnbull_alpha_sd: vec![None],
+        interface_energy_sd_j_per_m2: vec![Some(0.005)],
+        nuclei_range_per_m3: None,
+    };
+    let inputs = melt_inputs(&by_sigma, &spreads).unwrap();
+    assert_eq!(inputs[0].target, Target::InterfaceEnergy(0));
+    assert_eq!(
+        inputs[0].input.distribution,
+        Distribution::Normal {
+            mean: sigma,
+            sd: 0.005
+        }
+    );
+    // σ = α ΔH_m/(N_A^⅓ V_m^⅔) is linear in α (docs/science.md, "Crystal–liquid
+    // interfacial energy"), so a σ spread of s_σ is an α spread of
+    // s_σ α/σ: the two give the same draws (same seed), to round-off.
+    let opts = KineticOptions::default();
+    let by_s = propagate(
+        &inputs_of(&inputs),
+        Settings { draws: 50, seed: 4 },
+        Some(1e-3),
+        |v| melt_critical_rate(&by_sigma, &opts, &inputs, v),
+    )
+    .unwrap();
+    let by_a = run(&alpha_spread(0.005 * MU / sigma), 0.0, 50, 4, 1e-3);
+    for (x, y) in by_s.log10_rates.iter().zip(&by_a.log10_rates) {
+        assert!((x - y).abs() < 1e-6, "{x} {y}");
+    }
+    // Both spreads at once, or a spread of the value the crystal lacks, are refused.
+    let both = MeltSpreads {
+        turnbull_alpha_sd: vec![Some(0.01)],
+        ..spreads.clone()
+    };
+    assert!(melt_inputs(&by_sigma, &both).is_err());
+    assert!(melt_inputs(&m, &spreads).is_err());
+}
