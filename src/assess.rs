@@ -9,7 +9,7 @@
 use crate::composition::{Composition, Oxide};
 use crate::error::{Diagnostic, Error};
 use crate::kinetics::{
-    Calibrated, CrystalPhase, DrivingForce, KineticOptions, KineticSummary, Kinetics,
+    plausible, Calibrated, CrystalPhase, DrivingForce, KineticOptions, KineticSummary, Kinetics,
     KineticsError, Melt, Transport,
 };
 use crate::properties::{GrowthMode, Interface, ModelError, ModelSet, Properties};
@@ -238,7 +238,20 @@ fn kinetic_part(
 ) -> Result<(KineticSummary, Option<f64>, Vec<String>), KineticsError> {
     let k = Kinetics::new(melt, opts)?;
     let s = k.analyse()?;
-    let mut warnings = Vec::new();
+    let mut warnings: Vec<String> = melt
+        .implausible()
+        .into_iter()
+        .chain(opts.implausible())
+        .chain(slab.and_then(|q| {
+            plausible::check(
+                None,
+                "melt thermal diffusivity",
+                q.diffusivity_m2_per_s,
+                plausible::MELT_DIFFUSIVITY_M2_PER_S,
+            )
+        }))
+        .map(|i| i.to_string())
+        .collect();
     let thickness = match slab {
         Some(q) => match k.max_glassy_half_thickness_m(q.surface, q.diffusivity_m2_per_s) {
             Ok(h) => Some(2.0 * h * 1e3),
@@ -416,6 +429,44 @@ fn vouch(e: &mut Evaluation) {
     }
 }
 
+/// Every number of an evaluation is finite (serde writes NaN and the
+/// infinities as JSON null, so a null marks one).
+///
+/// # Errors
+/// The first key whose value is not a finite number.
+fn ensure_finite(e: &Evaluation) -> Result<(), KineticsError> {
+    fn walk(v: &serde_json::Value, key: &str) -> Option<String> {
+        match v {
+            serde_json::Value::Null => Some(key.to_string()),
+            serde_json::Value::Number(n) if !n.as_f64().is_some_and(f64::is_finite) => {
+                Some(key.to_string())
+            }
+            serde_json::Value::Object(m) => m.iter().find_map(|(k, v)| {
+                walk(
+                    v,
+                    &if key.is_empty() {
+                        k.clone()
+                    } else {
+                        format!("{key}.{k}")
+                    },
+                )
+            }),
+            serde_json::Value::Array(a) => a
+                .iter()
+                .enumerate()
+                .find_map(|(i, v)| walk(v, &format!("{key}[{i}]"))),
+            _ => None,
+        }
+    }
+    let v = serde_json::to_value(e).map_err(|err| KineticsError::NotFiniteResult {
+        key: err.to_string(),
+    })?;
+    match walk(&v, "") {
+        Some(key) => Err(KineticsError::NotFiniteResult { key }),
+        None => Ok(()),
+    }
+}
+
 const UNCALIBRATED: &str =
     "kinetic factor (Turnbull alpha) not calibrated against a measurement: absolute rates may be off by decades";
 
@@ -437,6 +488,7 @@ pub fn evaluate_melt(
     }
     e.warnings.extend(warnings);
     vouch(&mut e);
+    ensure_finite(&e)?;
     Ok(e)
 }
 
@@ -518,6 +570,7 @@ pub fn evaluate_composition(
     }
     e.warnings.extend(kin_warnings);
     vouch(&mut e);
+    ensure_finite(&e)?;
     Ok(e)
 }
 

@@ -2,34 +2,38 @@
 //! as a sheet, CSV or JSON.
 
 use super::input;
-use super::Outcome;
+use super::{in_range, Outcome};
 use crate::cli::BatchArgs;
-use quenchwise::batch::{least_cost_batch, BatchSettings};
-use quenchwise::composition::parse_pairs;
+use quenchwise::batch::{least_cost_batch, BatchSettings, MAX_BATCH_TOLERANCE_WT_PCT};
+use quenchwise::composition::{parse_pairs, MAX_SUM_TOLERANCE};
 use quenchwise::error::{Error, ResultExt};
 use quenchwise::files::raw_materials::read_raw_materials;
 use quenchwise::report::text::{batch_csv, batch_text, DEMO_SHELF_LABEL};
 use std::io::Write;
 
 pub fn batch(a: BatchArgs) -> Result<Outcome, Error> {
+    in_range(
+        "--sum-tolerance",
+        a.sum_tolerance,
+        (0.0, MAX_SUM_TOLERANCE),
+        false,
+        "percentage points",
+    )?;
+    in_range("--glass-kg", a.glass_kg, (0.0, f64::INFINITY), true, "kg")?;
+    // At most 10 wt%: a wider tolerance lets a batch miss an oxide entirely.
+    in_range(
+        "--tolerance-wt-pct",
+        a.tolerance_wt_pct,
+        (0.0, MAX_BATCH_TOLERANCE_WT_PCT),
+        true,
+        "wt%",
+    )?;
     let glass = input::composition(
         a.mol.as_deref(),
         a.wt.as_deref(),
         a.recipe.as_deref(),
         a.sum_tolerance,
     )?;
-    if !(a.glass_kg.is_finite() && a.glass_kg > 0.0) {
-        return Err(Error::bad_input(format!(
-            "--glass-kg must be positive, got {} kg",
-            a.glass_kg
-        )));
-    }
-    if !(a.tolerance_wt_pct.is_finite() && a.tolerance_wt_pct > 0.0) {
-        return Err(Error::bad_input(format!(
-            "--tolerance-wt-pct must be positive, got {}",
-            a.tolerance_wt_pct
-        )));
-    }
     let mut settings = BatchSettings {
         tolerance_wt_pct: a.tolerance_wt_pct,
         ..BatchSettings::default()

@@ -4,25 +4,134 @@
 use super::input;
 use super::models::{base_options, load_models};
 use super::progress::Progress;
-use super::{threads, Outcome};
+use super::{in_range, threads, Outcome};
 use crate::cli::{EvalArgs, KineticArgs};
 use polars::prelude::{DataFrame, DataType};
 use quenchwise::assess::{
     evaluate_composition, evaluate_melt, Calibration, Evaluation, SlabQuench,
 };
-use quenchwise::composition::{Basis, Composition};
+use quenchwise::composition::{Basis, Composition, MAX_SUM_TOLERANCE};
 use quenchwise::error::{Error, ResultExt};
-use quenchwise::files::melt_card::parse_melt_card;
+use quenchwise::files::melt_card::read_melt_card;
 use quenchwise::files::source::{read_text, Source};
 use quenchwise::files::table::{
-    append_results, read_composition_table, read_melt_table, write_frame, Table,
+    append_results, check_writable, read_composition_table, read_melt_table, write_frame, Table,
 };
 use quenchwise::kinetics::{DrivingForce, KineticOptions, KineticOverrides, Kinetics, Transport};
 use quenchwise::report::{plot, sig, text::evaluation_text, CAUTION};
-use quenchwise::units::{Celsius, RateUnit};
+use quenchwise::units::{Celsius, RateUnit, CELSIUS_OFFSET};
 use rayon::prelude::*;
 use std::io::Write;
 use std::path::Path;
+
+/// Every numeric option of `eval` checked against its range, naming the
+/// option (S3, N3): NaN, infinities, negative or inverted values are refused
+/// before any work.
+fn check_options(a: &EvalArgs) -> Result<(), Error> {
+    in_range(
+        "--sum-tolerance",
+        a.sum_tolerance,
+        (0.0, MAX_SUM_TOLERANCE),
+        false,
+        "percentage points",
+    )?;
+    // Above absolute zero; the glassy-slab estimate says when the plate is
+    // too hot to freeze the melt.
+    in_range(
+        "--quench-surface-c",
+        a.quench_surface_c,
+        (-CELSIUS_OFFSET, f64::INFINITY),
+        true,
+        "°C",
+    )?;
+    in_range(
+        "--melt-diffusivity",
+        a.melt_diffusivity,
+        (0.0, f64::INFINITY),
+        true,
+        "m²/s",
+    )?;
+    check_kinetic_args(&a.kinetics)?;
+    let opt = |name: &str, v: Option<f64>, range: (f64, f64), open_low: bool, unit: &str| {
+        v.map(|v| in_range(name, v, range, open_low, unit))
+            .transpose()
+    };
+    opt(
+        "--calibrate-rate",
+        a.calibrate_rate,
+        (0.0, f64::INFINITY),
+        true,
+        "",
+    )?;
+    opt(
+        "--calibrate-nose-time-s",
+        a.calibrate_nose_time_s,
+        (0.0, f64::INFINITY),
+        true,
+        "s",
+    )?;
+    Ok(())
+}
+
+/// The kinetic options `eval` and `fit kinetics` share, each checked
+/// against its range, naming the option (S3).
+///
+/// # Errors
+/// The first option outside its range.
+pub fn check_kinetic_args(a: &KineticArgs) -> Result<(), Error> {
+    let opt = |name: &str, v: Option<f64>, range: (f64, f64), open_low: bool, unit: &str| {
+        v.map(|v| in_range(name, v, range, open_low, unit))
+            .transpose()
+    };
+    opt(
+        "--detectable-fraction",
+        a.detectable_fraction,
+        (0.0, 1.0),
+        true,
+        "",
+    )?;
+    if a.detectable_fraction == Some(1.0) {
+        return Err(Error::bad_input(
+            "--detectable-fraction must lie in (0, 1), got 1",
+        ));
+    }
+    opt(
+        "--nuclei-per-m3",
+        a.nuclei_per_m3,
+        (0.0, f64::INFINITY),
+        false,
+        "per m³",
+    )?;
+    opt(
+        "--contact-angle-deg",
+        a.contact_angle_deg,
+        (0.0, 180.0),
+        true,
+        "°",
+    )?;
+    opt(
+        "--sample-thickness-mm",
+        a.sample_thickness_mm,
+        (0.0, f64::INFINITY),
+        true,
+        "mm",
+    )?;
+    opt(
+        "--fractional-exponent",
+        a.fractional_exponent,
+        (0.0, 1.0),
+        true,
+        "",
+    )?;
+    opt(
+        "--decoupling-ratio",
+        a.decoupling_ratio,
+        (1.0, f64::INFINITY),
+        false,
+        "",
+    )?;
+    Ok(())
+}
 
 /// The kinetic options given on the command line.
 pub fn overrides(a: &KineticArgs) -> KineticOverrides {
@@ -59,12 +168,7 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
             .num_threads(n)
             .build_global();
     }
-    if !(a.melt_diffusivity > 0.0 && a.melt_diffusivity.is_finite()) {
-        return Err(Error::bad_input(format!(
-            "--melt-diffusivity must be positive, got {} m²/s",
-            a.melt_diffusivity
-        )));
-    }
+    check_options(&a)?;
     let slab = Some(SlabQuench {
         surface: Celsius(a.quench_surface_c).to_kelvin(),
         diffusivity_m2_per_s: a.melt_diffusivity,
@@ -108,6 +212,7 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
         }
         let out = table_out()?;
         let table = read_melt_table(p)?;
+        check_writable(&table.frame, out)?;
         let base = overrides(&a.kinetics).apply(KineticOptions::default());
         return evaluate_table(table, out, |values| {
             let (melt, opts) = values.build(&base).map_err(|e| e.to_string())?;
@@ -124,6 +229,7 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
         };
         let opts = overrides(&a.kinetics).apply(base_options(&models));
         let (table, other) = read_composition_table(p)?;
+        check_writable(&table.frame, out)?;
         if !other.is_empty() {
             eprintln!(
                 "quenchwise: columns not read as oxides (passed through): {}",
@@ -144,19 +250,27 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
     }
     let evaluation = if let Some(p) = &a.melt {
         let text = read_text(p)?;
-        let (melt, card_opts) = parse_melt_card(
+        let card = read_melt_card(
             &Source::new(p.display().to_string(), &text),
             &KineticOptions::default(),
         )?;
-        let opts = overrides(&a.kinetics).apply(card_opts);
-        evaluate_melt(&melt, &opts, slab, &cal)
-            .with_context(|| format!("evaluating {}", p.display()))?
+        let opts = overrides(&a.kinetics).apply(card.options);
+        // An error found while evaluating names the card's line (L1).
+        evaluate_melt(&card.melt, &opts, slab, &cal).map_err(|e| card.locate(e, &opts))?
     } else {
         let wt = a.wt_text.as_deref().filter(|t| !t.is_empty());
         let comp = input::composition(a.mol.as_deref(), wt, a.recipe.as_deref(), a.sum_tolerance)?;
         let models = load_models(a.models.as_deref(), a.viscosity_model.as_deref())?;
         let opts = overrides(&a.kinetics).apply(base_options(&models));
-        evaluate_composition(&models, &comp, &opts, slab, &cal)?
+        evaluate_composition(&models, &comp, &opts, slab, &cal).with_context(|| {
+            format!(
+                "evaluating {} with the model set {}",
+                comp.describe(),
+                a.models
+                    .as_ref()
+                    .map_or(models.about.name.clone(), |p| p.display().to_string())
+            )
+        })?
     };
     let kinetics = evaluation.kinetics()?;
     if let Some(p) = &a.ttt {
@@ -245,7 +359,7 @@ fn table_summary(df: &DataFrame, results: &[Result<Evaluation, String>], out: &P
     for (i, r) in results.iter().enumerate().take(SUMMARY_ROWS) {
         let name = names
             .as_ref()
-            .and_then(|n| n[i].clone())
+            .and_then(|n| n.get(i).cloned().flatten())
             .unwrap_or_default();
         let name: String = name.chars().take(28).collect();
         match r {
@@ -302,7 +416,13 @@ fn write_file(path: &Path, bytes: &[u8]) -> Result<(), Error> {
 fn write_ttt(path: &Path, k: &Kinetics) -> Result<(), Error> {
     let pts = k.ttt_curve(200);
     let mut s = String::from("temperature_k,temperature_c,time_to_detectable_s,nucleation_rate_per_m3_s,growth_rate_m_per_s\n");
-    for p in pts.iter().filter(|p| p.time_s.is_finite()) {
+    // Points where nothing forms (an infinite time) are left out; every
+    // number written is finite.
+    for p in pts.iter().filter(|p| {
+        [p.time_s, p.nucleation_per_m3_s, p.growth_m_per_s]
+            .iter()
+            .all(|v| v.is_finite())
+    }) {
         s.push_str(&format!(
             "{:.3},{:.3},{:.6e},{:.6e},{:.6e}\n",
             p.temperature.0,

@@ -3,7 +3,7 @@
 //! records, plus residuals (CSV) and a residual plot (SVG) when asked, then
 //! print the fit summary.
 
-use super::eval::overrides;
+use super::eval::{check_kinetic_args, overrides};
 use super::models::{base_options, load_models};
 use super::Outcome;
 use crate::cli::{
@@ -486,6 +486,7 @@ fn kinetics(a: FitKineticsArgs) -> Result<Outcome, Error> {
     let c = &a.common;
     let ctx = || format!("fitting {}", c.data.display());
     let (set, notes, name) = base(&a.models, c.name.as_deref())?;
+    check_kinetic_args(&a.kinetics)?;
     let opts = overrides(&a.kinetics).apply(base_options(&set));
     opts.validate()?;
     if let Some(s) = a.log10_sd {

@@ -13,6 +13,7 @@ mod uncertainty;
 
 use crate::cli::{Cli, Command};
 use quenchwise::error::Error;
+use quenchwise::files::screen_config::{max_threads, THREADS_PER_CORE};
 
 /// How a command ended, for the exit code.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -42,10 +43,82 @@ pub fn run(cli: Cli) -> Result<Outcome, Error> {
     }
 }
 
-/// `--threads` checked.
+/// The cores this machine offers (1 when it cannot tell).
+fn cores() -> usize {
+    std::thread::available_parallelism()
+        .map(|n| n.get())
+        .unwrap_or(1)
+}
+
+/// `--threads` checked: at least 1, and capped at [`THREADS_PER_CORE`] × the
+/// cores, with a message when capped.
 fn threads(n: Option<usize>) -> Result<Option<usize>, Error> {
     match n {
         Some(0) => Err(Error::bad_input("--threads must be at least 1")),
-        other => Ok(other),
+        Some(t) => {
+            let cores = cores();
+            let cap = max_threads();
+            if t > cap {
+                eprintln!(
+                    "quenchwise: --threads {t} capped at {cap} ({THREADS_PER_CORE} × the {cores} cores of this machine)"
+                );
+                Ok(Some(cap))
+            } else {
+                Ok(Some(t))
+            }
+        }
+        None => Ok(None),
+    }
+}
+
+/// A numeric option checked against its range, both ends included unless
+/// `open_low` (then the low end is excluded).
+///
+/// # Errors
+/// NaN, an infinity, or a value outside the range, naming the option, the
+/// range and the value.
+fn in_range(
+    option: &str,
+    value: f64,
+    range: (f64, f64),
+    open_low: bool,
+    unit: &str,
+) -> Result<f64, Error> {
+    let (lo, hi) = range;
+    let ok = value.is_finite() && value <= hi && if open_low { value > lo } else { value >= lo };
+    if ok {
+        return Ok(value);
+    }
+    let unit = if unit.is_empty() {
+        String::new()
+    } else {
+        format!(" {unit}")
+    };
+    let bracket = if open_low { "(" } else { "[" };
+    let hi_text = if hi == f64::INFINITY {
+        "inf)".to_string()
+    } else {
+        format!("{hi}]")
+    };
+    Err(Error::bad_input(format!(
+        "{option} must lie in {bracket}{lo}, {hi_text}{unit}, got {value}{unit}"
+    )))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn ranges_refuse_nan_negative_and_outside() {
+        assert_eq!(in_range("--x", 1.0, (0.0, 10.0), false, "K").unwrap(), 1.0);
+        let e = in_range("--x", f64::NAN, (0.0, 10.0), false, "K").unwrap_err();
+        assert_eq!(e.to_string(), "--x must lie in [0, 10] K, got NaN K");
+        assert!(in_range("--x", -1.0, (0.0, 10.0), false, "").is_err());
+        assert!(in_range("--x", 0.0, (0.0, 10.0), true, "").is_err());
+        assert!(in_range("--x", f64::INFINITY, (0.0, f64::INFINITY), false, "").is_err());
+        assert_eq!(threads(Some(1)).unwrap(), Some(1));
+        assert!(threads(Some(0)).is_err());
+        assert_eq!(threads(Some(usize::MAX)).unwrap(), Some(max_threads()));
     }
 }

@@ -89,6 +89,11 @@ fn describe_misses(m: &[Miss]) -> String {
         .join("; ")
 }
 
+/// The widest allowed deviation of a delivered oxide, wt% of the glass:
+/// a tolerance this wide lets a batch miss an oxide entirely, so wider ones
+/// are refused (a config's `tolerance_wt_pct`, `--tolerance-wt-pct`).
+pub const MAX_BATCH_TOLERANCE_WT_PCT: f64 = 10.0;
+
 /// Settings of a batch calculation.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct BatchSettings {

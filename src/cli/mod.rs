@@ -346,7 +346,10 @@ pub struct ScreenArgs {
     /// merge`. Example: --shard 3/8
     #[arg(long, value_name = "K/N")]
     pub shard: Option<String>,
-    /// Worker threads [default: the config's, else all cores].
+    /// Worker threads [default: the config's, else all cores; at most 4 × cores].
+    ///
+    /// More threads than 4 per core only add switching: a larger value is
+    /// capped at 4 × the cores of the machine, with a message.
     #[arg(long, value_name = "N")]
     pub threads: Option<usize>,
     /// Stop after N new chunks as if interrupted (for testing resume).
@@ -424,6 +427,9 @@ pub struct BatchArgs {
     #[arg(long, value_name = "KG", default_value_t = 1.0, help_heading = "Glass")]
     pub glass_kg: f64,
     /// How far (percentage points) amounts may sum from 100 [default: 2].
+    ///
+    /// From 0 to 10. Amounts that sum within it of 100 are normalised (and a
+    /// note says so); further off is an error. Example: --sum-tolerance 0.5
     #[arg(long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Glass")]
     pub sum_tolerance: f64,
     /// Raw-materials table (CSV or Parquet) [default: the built-in demo shelf].
@@ -442,8 +448,9 @@ pub struct BatchArgs {
     pub retention: Option<String>,
     /// Allowed deviation of each delivered oxide, wt% of glass [default: 0.001].
     ///
-    /// 0.001 wt% is 10 mg per kg of glass. A multi-oxide mineral that would
-    /// force an oxide beyond this is reported, naming the oxide.
+    /// Above 0 and at most 10. 0.001 wt% is 10 mg per kg of glass. A
+    /// multi-oxide mineral that would force an oxide beyond this is
+    /// reported, naming the oxide.
     #[arg(
         long,
         value_name = "WT_PCT",
@@ -482,7 +489,8 @@ pub struct KineticArgs {
     /// Detectable crystallised volume fraction X_c [default: 1e-6].
     ///
     /// The fraction at which a melt counts as crystallised (Uhlmann 1972).
-    /// Overrides a melt card's value.
+    /// Overrides a melt card's value. Range (0, 1); values outside 1e-9 to
+    /// 0.05 get a plausibility note.
     #[arg(long, value_name = "FRACTION", help_heading = "Kinetics")]
     pub detectable_fraction: Option<f64>,
 
@@ -495,7 +503,8 @@ pub struct KineticArgs {
     /// Impurities, undissolved batch grains and crucible debris that are
     /// already nuclei when cooling starts. 1e9 per m³ is one per mm³. With
     /// a model set whose α were fitted (quenchwise fit kinetics), the
-    /// default is the density the fit used.
+    /// default is the density the fit used. Zero or positive; above 1e15 per
+    /// m³ gets a plausibility note.
     #[arg(long, value_name = "PER_M3", help_heading = "Kinetics")]
     pub nuclei_per_m3: Option<f64>,
 
@@ -506,10 +515,13 @@ pub struct KineticArgs {
     /// cos θ)²/4, turned into a rate per volume with the wall area 2/d of a
     /// sample d thick (--sample-thickness-mm). 180 (the default) means no
     /// wall nucleation; homogeneous nucleation in the volume is always on.
+    /// Range (0, 180].
     #[arg(long, value_name = "DEGREES", help_heading = "Kinetics")]
     pub contact_angle_deg: Option<f64>,
 
     /// Thickness of the sample whose walls nucleate, mm [default: 10].
+    ///
+    /// Positive. Example: --sample-thickness-mm 4
     #[arg(long, value_name = "MM", help_heading = "Kinetics")]
     pub sample_thickness_mm: Option<f64>,
 
@@ -525,6 +537,7 @@ pub struct KineticArgs {
     /// Decoupling temperature as a multiple of T_g [default: 1.2].
     ///
     /// Where the fractional law takes over; a TTT nose below it is flagged.
+    /// At least 1.
     #[arg(long, value_name = "RATIO", help_heading = "Kinetics")]
     pub decoupling_ratio: Option<f64>,
 }
@@ -577,11 +590,20 @@ pub struct EvalArgs {
     /// A table (CSV or Parquet) of compositions, one per row; needs --out.
     ///
     /// One column per oxide (SiO2, Na2O, ...) in mol% (wt% with --wt); other
-    /// columns (names, ids) are passed through to the output.
+    /// columns (names, ids) are passed through to the output. An empty oxide
+    /// cell counts as 0; a cell that is not a number ("O.5", "NaN") is an
+    /// error naming its row, line and column.
     #[arg(long, value_name = "FILE", requires = "out", help_heading = "Input")]
     pub compositions: Option<PathBuf>,
 
     /// Write the table of results here (.csv or .parquet).
+    ///
+    /// The input columns, then one column per result and an `error` column.
+    /// A row without an error has a finite number in every result column,
+    /// except critical_rate_<phase>_k_per_s of a phase whose liquidus lies
+    /// below the glass transition of that row: that phase cannot crystallise
+    /// from the melt, and its cell is empty. A row with an error has empty
+    /// result cells.
     #[arg(long, value_name = "FILE", help_heading = "Output")]
     pub out: Option<PathBuf>,
 
@@ -610,6 +632,9 @@ pub struct EvalArgs {
     pub viscosity_model: Option<PathBuf>,
 
     /// How far (percentage points) amounts may sum from 100 [default: 2].
+    ///
+    /// From 0 to 10. Amounts that sum within it of 100 are normalised (and a
+    /// note says so); further off is an error. Example: --sum-tolerance 0.5
     #[arg(long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Models")]
     pub sum_tolerance: f64,
 
@@ -618,7 +643,7 @@ pub struct EvalArgs {
 
     /// Fit α so the model reproduces this measured critical cooling rate.
     ///
-    /// The rate is in --rate-unit (K/s by default). Use the α it prints in
+    /// Positive; in --rate-unit (K/s by default). Use the α it prints in
     /// your model set or melt card (as turnbull_alpha, with
     /// calibrated_against naming the measurement).
     #[arg(
@@ -643,6 +668,9 @@ pub struct EvalArgs {
     pub calibrate_nose_time_s: Option<f64>,
 
     /// Quench-plate temperature for the glassy-thickness estimate, °C [default: 25].
+    ///
+    /// Above absolute zero (−273.15 °C); a plate too hot to freeze the melt
+    /// gets a note instead of a thickness. Example: --quench-surface-c -196
     #[arg(
         long,
         value_name = "DEG_C",
@@ -652,10 +680,15 @@ pub struct EvalArgs {
     pub quench_surface_c: f64,
 
     /// Thermal diffusivity of the melt, m²/s [default: 5e-7].
+    ///
+    /// Positive. Values outside 1e-7 to 5e-6 m²/s get a plausibility note.
     #[arg(long, value_name = "M2_PER_S", default_value_t = DEFAULT_MELT_DIFFUSIVITY_M2_PER_S, help_heading = "Quench")]
     pub melt_diffusivity: f64,
 
     /// Worker threads for tables and --uncertainty draws [default: all cores].
+    ///
+    /// At most 4 × the cores of the machine: a larger value is capped there,
+    /// with a message (more threads only add switching).
     #[arg(long, value_name = "N", help_heading = "Output")]
     pub threads: Option<usize>,
 

@@ -22,7 +22,7 @@ impl crate::error::Diagnostic for ExprError {}
 /// The weight of each oxide in a sum of terms `[±][factor*]Oxide`.
 ///
 /// # Errors
-/// An empty term, a factor that is not a number, an unknown oxide.
+/// An empty term, a factor that is not a finite number, an unknown oxide.
 pub fn parse_linear(text: &str) -> Result<[f64; N_OXIDES], ExprError> {
     let mut w = [0.0; N_OXIDES];
     let t = text.replace(' ', "");
@@ -46,10 +46,13 @@ pub fn parse_linear(text: &str) -> Result<[f64; N_OXIDES], ExprError> {
         }
         let (k, name) = match term.split_once('*') {
             Some((k, n)) => (
-                k.parse::<f64>().map_err(|_| ExprError::Factor {
-                    factor: k.to_string(),
-                    text: text.to_string(),
-                })?,
+                k.parse::<f64>()
+                    .ok()
+                    .filter(|f| f.is_finite())
+                    .ok_or_else(|| ExprError::Factor {
+                        factor: k.to_string(),
+                        text: text.to_string(),
+                    })?,
                 n,
             ),
             None => (1.0, term.as_str()),
@@ -84,6 +87,13 @@ mod tests {
             parse_linear("x*CaO"),
             Err(ExprError::Factor { .. })
         ));
+        // S5: a NaN or infinite factor made a constraint no bound can check.
+        for t in ["nan*CaO", "inf*CaO + MgO", "Na2O - -inf*K2O"] {
+            assert!(
+                matches!(parse_linear(t), Err(ExprError::Factor { .. })),
+                "{t}"
+            );
+        }
         assert_eq!(
             parse_linear("Na2O + CaX").unwrap_err().to_string(),
             format!(

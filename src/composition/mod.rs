@@ -53,7 +53,7 @@ pub enum CompositionError {
     },
     #[error("the composition is empty: give at least one oxide with a positive amount")]
     Empty,
-    #[error("amounts sum to {sum:.3} {basis}, more than {tolerance} away from 100")]
+    #[error("amounts sum to {} {basis}, more than {tolerance} away from 100", sum_text(*sum))]
     BadSum {
         sum: f64,
         basis: Basis,
@@ -61,6 +61,8 @@ pub enum CompositionError {
     },
     #[error("cannot read '{0}' as OXIDE=AMOUNT")]
     Syntax(String),
+    #[error("the sum tolerance must lie in [0, {max}] percentage points, got {value}")]
+    BadTolerance { value: f64, max: f64 },
 }
 
 impl Diagnostic for CompositionError {
@@ -80,8 +82,23 @@ impl Diagnostic for CompositionError {
     }
 }
 
+/// A sum for a message: three decimals, or an exponent when it is far from
+/// any real composition (a typing accident such as 1e300).
+fn sum_text(sum: f64) -> String {
+    if sum.abs() < 1e6 {
+        format!("{sum:.3}")
+    } else {
+        format!("{sum:.3e}")
+    }
+}
+
 /// How far (in percentage points) a sum may be from 100 and still be normalised.
 pub const DEFAULT_SUM_TOLERANCE: f64 = 2.0;
+
+/// The largest sum tolerance accepted, percentage points: a composition that
+/// sums further from 100 than this has a missing or mistyped oxide, and
+/// normalising it would hide that (common practice).
+pub const MAX_SUM_TOLERANCE: f64 = 10.0;
 
 /// A validated oxide composition, stored as mole fractions summing to one.
 #[derive(Debug, Clone, PartialEq)]
@@ -99,13 +116,20 @@ impl Composition {
     /// normalised to 100; see [`Composition::normalisation_note`].
     ///
     /// # Errors
-    /// A NaN, infinite or negative amount, an oxide given twice, an all-zero
+    /// A tolerance outside [0, [`MAX_SUM_TOLERANCE`]] (NaN included); a NaN,
+    /// infinite or negative amount, an oxide given twice, an all-zero
     /// composition, or a sum further than `tolerance` from 100.
     pub fn new(
         amounts: &[(Oxide, f64)],
         basis: Basis,
         tolerance: f64,
     ) -> Result<Self, CompositionError> {
+        if !(0.0..=MAX_SUM_TOLERANCE).contains(&tolerance) {
+            return Err(CompositionError::BadTolerance {
+                value: tolerance,
+                max: MAX_SUM_TOLERANCE,
+            });
+        }
         let mut raw = [0.0; N_OXIDES];
         let mut seen = [false; N_OXIDES];
         for &(oxide, value) in amounts {
@@ -401,10 +425,26 @@ mod tests {
             Composition::from_mol_percent(&[(Oxide::SiO2, 70.0)]),
             Err(CompositionError::BadSum { .. })
         ));
+        // A sum of 1e300 is said with an exponent, not 301 digits.
+        let e = Composition::from_mol_percent(&[(Oxide::SiO2, 1e300)]).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "amounts sum to 1.000e300 mol%, more than 2 away from 100"
+        );
         assert!(matches!(
             Composition::from_mol_percent(&[(Oxide::SiO2, 50.0), (Oxide::SiO2, 50.0)]),
             Err(CompositionError::Duplicate { .. })
         ));
+        // S3: a NaN tolerance turned the sum check off; a negative one was taken.
+        for t in [f64::NAN, -1.0, f64::INFINITY, 10.5] {
+            assert!(
+                matches!(
+                    Composition::parse("SiO2=1 Na2O=1", Basis::MolPercent, t),
+                    Err(CompositionError::BadTolerance { .. })
+                ),
+                "{t}"
+            );
+        }
         let e = "SO3".parse::<Oxide>().unwrap_err();
         assert!(e.to_string().contains("unknown oxide 'SO3'"), "{e}");
         assert!(e.hint().unwrap().contains("Na2O"), "{e}");

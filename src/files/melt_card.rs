@@ -5,9 +5,10 @@
 //! share the `[kinetics]` table ([`KineticsTable`]).
 
 use super::source::{DataError, Source};
-use crate::error::Diagnostic;
+use crate::error::{Diagnostic, Error};
 use crate::kinetics::{
-    CrystalPhase, DrivingForce, KineticOptions, KineticOverrides, KineticsError, Melt, Transport,
+    CrystalPhase, DrivingForce, Implausible, KineticOptions, KineticOverrides, KineticsError, Melt,
+    Transport,
 };
 use crate::properties::{GrowthMode, Interface, ViscosityCurve, ViscosityError};
 use crate::uncertainty::melt::MeltSpreads;
@@ -342,6 +343,22 @@ impl CardCrystal {
     }
 }
 
+/// A melt card as read: the validated melt and options, and where each value
+/// sits in the file, so that problems found later (while evaluating it) can
+/// point at the line of the value they are about.
+pub struct MeltCard {
+    pub melt: Melt,
+    /// The card's kinetic options (the base ones with the card's `[kinetics]`).
+    pub options: KineticOptions,
+    /// The spreads `eval --uncertainty` reads (empty unless asked for).
+    pub spreads: MeltSpreads,
+    path: String,
+    text: String,
+    viscosity: CardViscosity,
+    crystals: Vec<CardCrystal>,
+    kinetics: KineticsTable,
+}
+
 /// Parse a melt card.
 ///
 /// # Errors
@@ -350,7 +367,7 @@ pub fn parse_melt_card(
     src: &Source,
     base: &KineticOptions,
 ) -> Result<(Melt, KineticOptions), DataError> {
-    parse_card(src, base, false).map(|(m, o, _)| (m, o))
+    read_card(src, base, false).map(|c| (c.melt, c.options))
 }
 
 /// Parse a melt card with the spreads `eval --uncertainty` reads:
@@ -365,18 +382,22 @@ pub fn parse_melt_card_spreads(
     src: &Source,
     base: &KineticOptions,
 ) -> Result<(Melt, KineticOptions, MeltSpreads), DataError> {
-    parse_card(src, base, true)
+    read_card(src, base, true).map(|c| (c.melt, c.options, c.spreads))
+}
+
+/// Parse a melt card, keeping where its values sit (see [`MeltCard::locate`]).
+///
+/// # Errors
+/// As [`parse_melt_card`].
+pub fn read_melt_card(src: &Source, base: &KineticOptions) -> Result<MeltCard, DataError> {
+    read_card(src, base, false)
 }
 
 /// A card and its spreads. Every spread is checked, but whether a spread
 /// belongs to the interface value a crystal gives only when `spreads` is set:
 /// a card evaluated at its point estimate does not read them (so a card that
 /// swaps α for σ still evaluates).
-fn parse_card(
-    src: &Source,
-    base: &KineticOptions,
-    spreads: bool,
-) -> Result<(Melt, KineticOptions, MeltSpreads), DataError> {
+fn read_card(src: &Source, base: &KineticOptions, spreads: bool) -> Result<MeltCard, DataError> {
     let hint = "a melt card has [viscosity] a, b_k, c_k; [crystal] (or one [[crystal]] per phase, each with a name) liquidus_k, enthalpy_of_fusion_j_per_mol, molar_volume_m3_per_mol, turnbull_alpha (or interface_energy_j_per_m2), growth; optional [kinetics]";
     // [crystal] for one phase, [[crystal]] for several: look at the shape first,
     // then read with spans.
@@ -411,31 +432,135 @@ fn parse_card(
             .collect(),
         kinetics: kinetics.overrides(),
     };
-    let (melt, opts) = values.build(base).map_err(|e| {
-        // Point at the key the error is about.
-        let span = match &e {
-            MeltValueError::InterfaceChoice { crystal } => Some(crystals[*crystal].growth.span()),
-            MeltValueError::Crystal { crystal, error } => crystals[*crystal]
-                .span_of(key_of(error))
-                .or(Some(crystals[*crystal].growth.span())),
-            MeltValueError::Kinetics(ke) => match (ke, key_of(ke)) {
-                (KineticsError::DuplicatePhase(_), _) => {
-                    crystals.last().and_then(|c| c.span_of("name"))
+    match values.build(base) {
+        Ok((melt, options)) => {
+            let spreads = card_spreads(src, &crystals, &kinetics, spreads)?;
+            Ok(MeltCard {
+                melt,
+                options,
+                spreads,
+                path: src.path.clone(),
+                text: src.text.to_string(),
+                viscosity,
+                crystals,
+                kinetics,
+            })
+        }
+        Err(e) => {
+            // Point at the key the error is about.
+            let span = match &e {
+                MeltValueError::InterfaceChoice { crystal } => {
+                    crystals.get(*crystal).map(|c| c.growth.span())
                 }
-                (_, "a") => Some(viscosity.a.span()),
-                (_, "b_k") => Some(viscosity.b_k.span()),
-                (_, "c_k") => Some(viscosity.c_k.span()),
-                (_, name) => kinetics.span_of(name),
+                MeltValueError::Crystal { crystal, error } => crystals
+                    .get(*crystal)
+                    .map(|c| c.span_of(key_of(error)).unwrap_or_else(|| c.growth.span())),
+                MeltValueError::Kinetics(ke) => match (ke, key_of(ke)) {
+                    (KineticsError::DuplicatePhase(_), _) => {
+                        crystals.last().and_then(|c| c.span_of("name"))
+                    }
+                    (_, "a") => Some(viscosity.a.span()),
+                    (_, "b_k") => Some(viscosity.b_k.span()),
+                    (_, "c_k") => Some(viscosity.c_k.span()),
+                    (_, name) => kinetics.span_of(name),
+                },
+            }
+            .unwrap_or(0..0);
+            Err(src.error(
+                vec![src.problem(span, e.to_string())],
+                e.hint().or(Some(hint.to_string())),
+            ))
+        }
+    }
+}
+
+impl MeltCard {
+    /// The span of a key of the melt (`a`, `b_k`, `c_k`) or of phase `k`.
+    fn span_of(&self, phase: Option<usize>, key: &str) -> Option<Range<usize>> {
+        match key {
+            "a" => Some(self.viscosity.a.span()),
+            "b_k" => Some(self.viscosity.b_k.span()),
+            "c_k" => Some(self.viscosity.c_k.span()),
+            "glass transition" => Some(self.viscosity.b_k.span()),
+            _ => match phase {
+                Some(k) => self.crystals.get(k).and_then(|c| c.span_of(key)),
+                None => self.kinetics.span_of(key),
             },
         }
-        .unwrap_or(0..0);
-        src.error(
-            vec![src.problem(span, e.to_string())],
-            e.hint().or(Some(hint.to_string())),
-        )
-    })?;
-    let spreads = card_spreads(src, &crystals, &kinetics, spreads)?;
-    Ok((melt, opts, spreads))
+    }
+
+    /// The span of the kinetic factor of phase `k` (α or σ, whichever is given).
+    fn interface_span(&self, k: usize) -> Option<Range<usize>> {
+        let c = self.crystals.get(k)?;
+        c.span_of("turnbull_alpha")
+            .or_else(|| c.span_of("interface_energy_j_per_m2"))
+    }
+
+    /// The card's values outside the ranges plausible for oxide melts (with
+    /// `options`, which may hold command-line values), each with its span.
+    fn located_implausible(
+        &self,
+        options: &KineticOptions,
+    ) -> Vec<(Option<Range<usize>>, Implausible)> {
+        self.melt
+            .implausible()
+            .into_iter()
+            .chain(options.implausible())
+            .map(|i| {
+                let phase = i
+                    .phase
+                    .as_ref()
+                    .and_then(|n| self.melt.phases.iter().position(|p| &p.name == n));
+                (self.span_of(phase, i.key), i)
+            })
+            .collect()
+    }
+
+    /// An error found while evaluating this card (with `options`, which may
+    /// hold command-line values too), as an error naming the file and the
+    /// line of the value it is most likely about; errors no value of the card
+    /// is behind (a calibration target, a command-line option) keep only the
+    /// file's name.
+    pub fn locate(&self, e: KineticsError, options: &KineticOptions) -> Error {
+        let src = Source::new(self.path.clone(), &self.text);
+        let primary = self.melt.primary();
+        let suspects = self.located_implausible(options);
+        let first_suspect = suspects.iter().find_map(|(s, _)| s.clone());
+        // A value outside its plausible range is the first suspect; else the
+        // value the error is about.
+        let span = match &e {
+            KineticsError::LiquidusBelowGlassTransition { .. }
+            | KineticsError::LiquidusBelowDivergence { .. } => {
+                first_suspect.or_else(|| self.span_of(Some(primary), "liquidus_k"))
+            }
+            KineticsError::NoseBelowGlassTransition { .. }
+            | KineticsError::Numerical(_)
+            | KineticsError::Unrepresentable { .. }
+            | KineticsError::NotFiniteResult { .. } => {
+                first_suspect.or_else(|| self.interface_span(primary))
+            }
+            KineticsError::Value(v) => self.kinetics.span_of(v.name()),
+            // The curve itself: a suspect value of it, else its constant.
+            KineticsError::Viscosity(_) => first_suspect.or_else(|| self.span_of(None, "a")),
+            _ => None,
+        };
+        let mut message = e.to_string();
+        if !suspects.is_empty() && span.is_some() {
+            let list: Vec<String> = suspects.iter().map(|(_, i)| i.to_string()).collect();
+            message.push_str(&format!("; implausible inputs: {}", list.join("; ")));
+        }
+        match span {
+            Some(span) => Error::from(src.error(vec![src.problem(span, message)], e.hint())),
+            None => {
+                let mut err =
+                    Error::bad_input(message).context(format!("evaluating {}", self.path));
+                if let Some(h) = e.hint() {
+                    err = err.with_hint(h);
+                }
+                err
+            }
+        }
+    }
 }
 
 /// The spreads of a card, each checked where it stands.

@@ -129,15 +129,15 @@ struct MixtureFile {
     #[serde(default)]
     unit: Option<TemperatureUnit>,
     #[serde(default)]
-    constant: f64,
+    constant: Option<Spanned<f64>>,
     #[serde(default)]
-    linear: BTreeMap<Spanned<String>, f64>,
+    linear: BTreeMap<Spanned<String>, Spanned<f64>>,
     #[serde(default)]
-    pairs: BTreeMap<Spanned<String>, f64>,
+    pairs: BTreeMap<Spanned<String>, Spanned<f64>>,
     #[serde(default)]
     products: Vec<ProductFile>,
     #[serde(default)]
-    standard_errors: BTreeMap<Spanned<String>, f64>,
+    standard_errors: BTreeMap<Spanned<String>, Spanned<f64>>,
     #[serde(default)]
     #[allow(dead_code)]
     note: Option<String>,
@@ -146,7 +146,7 @@ struct MixtureFile {
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct ProductFile {
-    coefficient: f64,
+    coefficient: Spanned<f64>,
     groups: Vec<Spanned<String>>,
 }
 
@@ -240,8 +240,9 @@ pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
             (Some(m), None) => LiquidusSurface::Mixture(mixture(&mut c, m, true, name_span)),
             (None, Some(f)) => {
                 let mut nu = [0.0; N_OXIDES];
+                let mut seen = Vec::new();
                 for (k, v) in &f.components {
-                    if let Some(o) = c.oxide(k) {
+                    if let Some(o) = c.oxide_once(k, &mut seen) {
                         let n = *v.get_ref();
                         if !(n.is_finite() && n > 0.0) {
                             c.push(
@@ -367,6 +368,16 @@ pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
         }
     });
     c.finish(hint)?;
+    // A missing viscosity part was recorded as a problem above.
+    let viscosity = viscosity.ok_or_else(|| {
+        src.error(
+            vec![src.problem(
+                file.viscosity.form.span(),
+                "the viscosity model is incomplete",
+            )],
+            Some(hint.to_string()),
+        )
+    })?;
     Ok(ModelSet {
         about: About {
             name: file.about.name,
@@ -377,7 +388,7 @@ pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
             invented: file.about.invented,
             fitted: file.about.fitted,
         },
-        viscosity: viscosity.expect("no problems were recorded"),
+        viscosity,
         phases,
         kinetics_fit,
     })
@@ -394,7 +405,15 @@ pub fn parse_viscosity_model(src: &Source) -> Result<ViscosityModel, DataError> 
     let mut c = Collector::new(src);
     let v = viscosity_model(&mut c, &file.viscosity);
     c.finish(hint)?;
-    Ok(v.expect("no problems were recorded"))
+    v.ok_or_else(|| {
+        src.error(
+            vec![src.problem(
+                file.viscosity.form.span(),
+                "the viscosity model is incomplete",
+            )],
+            Some(hint.to_string()),
+        )
+    })
 }
 
 fn viscosity_model(c: &mut Collector, v: &ViscosityFile) -> Option<ViscosityModel> {
@@ -614,20 +633,50 @@ fn mixture(
     want_temperature: bool,
     span: Range<usize>,
 ) -> MixtureModel {
-    let mut out = MixtureModel::constant(m.constant);
+    // S6: every coefficient a finite number, located.
+    let coef = |c: &mut Collector, what: &str, v: &Spanned<f64>| -> f64 {
+        let x = *v.get_ref();
+        if !x.is_finite() {
+            c.push(v.span(), format!("{what} must be a finite number, got {x}"));
+        }
+        x
+    };
+    let constant = m
+        .constant
+        .as_ref()
+        .map_or(0.0, |v| coef(c, "the constant", v));
+    let mut out = MixtureModel::constant(constant);
     out.basis = m.basis;
+    let mut seen = Vec::new();
     for (k, v) in &m.linear {
-        if let Some(o) = c.oxide(k) {
-            out.linear[o.index()] = *v;
+        if let Some(o) = c.oxide_once(k, &mut seen) {
+            out.linear[o.index()] = coef(c, &format!("the coefficient of {o}"), v);
         }
     }
+    let mut seen_pairs: Vec<(usize, usize, &Spanned<String>)> = Vec::new();
     for (k, v) in &m.pairs {
         match k.get_ref().split_once('*') {
             Some((a, b)) => {
                 let a = Spanned::new(k.span(), a.trim().to_string());
                 let b = Spanned::new(k.span(), b.trim().to_string());
                 if let (Some(a), Some(b)) = (c.oxide(&a), c.oxide(&b)) {
-                    out.pairs.push((a.index(), b.index(), *v));
+                    let (i, j) = (a.index().min(b.index()), a.index().max(b.index()));
+                    if let Some((.., first)) =
+                        seen_pairs.iter().find(|(p, q, _)| (*p, *q) == (i, j))
+                    {
+                        let line = c.src.problem(first.span(), "").line;
+                        c.push(
+                            k.span(),
+                            format!(
+                                "pair '{}' names {a}*{b} again (first as '{}' on line {line})",
+                                k.get_ref(),
+                                first.get_ref()
+                            ),
+                        );
+                    }
+                    seen_pairs.push((i, j, k));
+                    let x = coef(c, &format!("the coefficient of {a}*{b}"), v);
+                    out.pairs.push((a.index(), b.index(), x));
                 }
             }
             None => c.push(
@@ -639,15 +688,23 @@ fn mixture(
     for p in &m.products {
         let groups: Vec<_> = p.groups.iter().filter_map(|g| c.expr(g)).collect();
         out.products.push(ProductTerm {
-            coefficient: p.coefficient,
+            coefficient: coef(c, "a product coefficient", &p.coefficient),
             groups,
         });
     }
     if !m.standard_errors.is_empty() {
         let mut se = [0.0; N_OXIDES];
+        let mut seen = Vec::new();
         for (k, v) in &m.standard_errors {
-            if let Some(o) = c.oxide(k) {
-                se[o.index()] = *v;
+            if let Some(o) = c.oxide_once(k, &mut seen) {
+                let x = coef(c, &format!("the standard error of {o}"), v);
+                if x < 0.0 {
+                    c.push(
+                        v.span(),
+                        format!("the standard error of {o} must not be negative, got {x}"),
+                    );
+                }
+                se[o.index()] = x;
             }
         }
         out.linear_standard_errors = Some(se);
@@ -687,6 +744,69 @@ mod tests {
         assert_eq!(m.phases[2].melting_point.0, 1999.0);
         let v = parse_viscosity_model(&Source::new("grd", GRD2008_VISCOSITY)).unwrap();
         assert!(v.name.contains("Giordano"), "{}", v.name);
+    }
+
+    #[test]
+    fn regression_s6_nan_and_infinite_coefficients_are_located() {
+        // TOML writes NaN and the infinities as nan and inf: a model set
+        // with one used to load and then fail every evaluation.
+        let text = DEMO_MODELS.replacen("constant = -2.45", "constant = nan", 1);
+        assert_ne!(
+            text, DEMO_MODELS,
+            "the demo file changed: pick another value"
+        );
+        let err = parse_model_set(&Source::new("m.toml", &text))
+            .unwrap_err()
+            .to_string();
+        let line = text
+            .lines()
+            .position(|l| l.contains("constant = nan"))
+            .unwrap()
+            + 1;
+        assert!(
+            err.contains(&format!(
+                "m.toml:{line}: the constant must be a finite number, got NaN"
+            )),
+            "{err}"
+        );
+        let text = DEMO_MODELS.replacen("SiO2 = 6464.0", "SiO2 = -inf", 1);
+        assert_ne!(
+            text, DEMO_MODELS,
+            "the demo file changed: pick another value"
+        );
+        let err = parse_model_set(&Source::new("m.toml", &text))
+            .unwrap_err()
+            .to_string();
+        let line = text
+            .lines()
+            .position(|l| l.contains("SiO2 = -inf"))
+            .unwrap()
+            + 1;
+        assert!(
+            err.contains(&format!(
+                "m.toml:{line}: the coefficient of SiO2 must be a finite number, got -inf"
+            )),
+            "{err}"
+        );
+    }
+
+    #[test]
+    fn regression_s7_an_oxide_named_twice_in_other_case_is_located() {
+        let text = DEMO_MODELS.replacen("SiO2 = 6464.0,", "SiO2 = 6464.0, SIO2 = 1.0,", 1);
+        assert_ne!(
+            text, DEMO_MODELS,
+            "the demo file changed: pick another value"
+        );
+        let err = parse_model_set(&Source::new("m.toml", &text))
+            .unwrap_err()
+            .to_string();
+        let line = text.lines().position(|l| l.contains("SIO2 = 1.0")).unwrap() + 1;
+        assert!(
+            err.contains(&format!(
+                "m.toml:{line}: 'SIO2' names SiO2 again (first as 'SiO2' on line {line})"
+            )),
+            "{err}"
+        );
     }
 
     #[test]

@@ -40,8 +40,9 @@ pub fn parse_recipe(src: &Source, tolerance: f64) -> Result<Composition, DataErr
         }
     };
     let mut pairs = Vec::new();
+    let mut seen = Vec::new();
     for (k, v) in &file.oxides {
-        if let Some(o) = c.oxide(k) {
+        if let Some(o) = c.oxide_once(k, &mut seen) {
             let x = *v.get_ref();
             if x.is_nan() || x < 0.0 || x.is_infinite() {
                 c.push(

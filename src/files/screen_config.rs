@@ -7,7 +7,7 @@ use super::melt_card::KineticsTable;
 use super::model_set::{load_model_set, load_viscosity_model};
 use super::raw_materials::read_raw_materials;
 use super::source::{read_text, DataError, Problem, Source};
-use crate::batch::{BatchSettings, CostModel};
+use crate::batch::{BatchSettings, CostModel, MAX_BATCH_TOLERANCE_WT_PCT};
 use crate::composition::expr::parse_linear;
 use crate::composition::Oxide;
 use crate::error::Error;
@@ -17,7 +17,7 @@ use crate::screen::{
     CostLimit, Equipment, LinearConstraint, ObjectiveKind, ScreenProblem, Search, Weights,
     DEFAULT_MARGIN_CAP_DECADES,
 };
-use crate::units::{Celsius, RateUnit};
+use crate::units::{Celsius, RateUnit, CELSIUS_OFFSET};
 use serde::Deserialize;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -53,22 +53,22 @@ struct RawSearch {
     seed: u64,
     first_pass_points: Spanned<usize>,
     #[serde(default = "default_refine_from")]
-    refine_from: usize,
+    refine_from: Spanned<usize>,
     #[serde(default = "default_refine_iterations")]
-    refine_iterations: u64,
+    refine_iterations: Spanned<u64>,
     #[serde(default)]
-    threads: Option<usize>,
+    threads: Option<Spanned<usize>>,
     #[serde(default = "default_chunk")]
     chunk_size: Spanned<usize>,
     #[serde(default)]
     allow_extrapolation: bool,
 }
 
-fn default_refine_from() -> usize {
-    6
+fn default_refine_from() -> Spanned<usize> {
+    Spanned::new(0..0, 6)
 }
-fn default_refine_iterations() -> u64 {
-    60
+fn default_refine_iterations() -> Spanned<u64> {
+    Spanned::new(0..0, 60)
 }
 fn default_chunk() -> Spanned<usize> {
     Spanned::new(0..0, 256)
@@ -78,8 +78,8 @@ fn default_chunk() -> Spanned<usize> {
 #[serde(deny_unknown_fields)]
 struct RawConstraint {
     expr: Spanned<String>,
-    min: Option<f64>,
-    max: Option<f64>,
+    min: Option<Spanned<f64>>,
+    max: Option<Spanned<f64>>,
 }
 
 #[derive(Deserialize)]
@@ -121,9 +121,9 @@ pub const DEFAULT_MELTING_MARGIN_C: f64 = 20.0;
 struct RawCost {
     max_per_kg_glass: Spanned<f64>,
     #[serde(default)]
-    raw_materials: Option<String>,
+    raw_materials: Option<Spanned<String>>,
     #[serde(default)]
-    tolerance_wt_pct: Option<f64>,
+    tolerance_wt_pct: Option<Spanned<f64>>,
 }
 
 #[derive(Deserialize)]
@@ -136,45 +136,45 @@ struct RawProperties {
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct RawObjective {
-    kind: ObjectiveKind,
+    kind: Spanned<ObjectiveKind>,
     #[serde(default)]
     weights: Option<RawWeights>,
     #[serde(default)]
     margin_cap_decades: Option<Spanned<f64>>,
 }
 
-#[derive(Deserialize, Clone, Copy)]
+#[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct RawWeights {
     #[serde(default)]
-    margin: f64,
+    margin: Option<Spanned<f64>>,
     #[serde(default)]
-    cost: f64,
+    cost: Option<Spanned<f64>>,
     #[serde(default)]
-    melting_temperature: f64,
+    melting_temperature: Option<Spanned<f64>>,
 }
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct RawShortlist {
     #[serde(default = "default_size")]
-    size: usize,
+    size: Spanned<usize>,
     #[serde(default = "default_distance")]
-    min_distance_mol_pct: f64,
+    min_distance_mol_pct: Spanned<f64>,
 }
 
-fn default_size() -> usize {
-    8
+fn default_size() -> Spanned<usize> {
+    Spanned::new(0..0, 8)
 }
-fn default_distance() -> f64 {
-    2.0
+fn default_distance() -> Spanned<f64> {
+    Spanned::new(0..0, 2.0)
 }
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct RawModels {
-    set: Option<String>,
-    viscosity: Option<String>,
+    set: Option<Spanned<String>>,
+    viscosity: Option<Spanned<String>>,
 }
 
 /// A validated screen config: the problem and the search, and how the run goes.
@@ -195,6 +195,36 @@ pub struct RunPlan {
     pub config_text: String,
     /// FNV-1a hash of the config text and the program version.
     pub config_hash: u64,
+    /// What the loader changed and the user should hear about (a capped
+    /// thread count), one sentence each.
+    pub notes: Vec<String>,
+}
+
+/// The largest `first_pass_points`.
+pub const MAX_FIRST_PASS_POINTS: usize = 50_000_000;
+/// The largest `chunk_size` (a chunk is held in memory while it is evaluated).
+pub const MAX_CHUNK_SIZE: usize = 1_000_000;
+/// The largest `refine_from` (each seed runs its own Nelder–Mead).
+pub const MAX_REFINE_FROM: usize = 1000;
+/// The largest `refine_iterations`.
+pub const MAX_REFINE_ITERATIONS: u64 = 100_000;
+/// The largest `[shortlist] size`.
+pub const MAX_SHORTLIST_SIZE: usize = 1000;
+/// The largest `threads` a config may ask for (a larger count is a typing
+/// accident); counts above [`max_threads`] are capped with a note.
+pub const MAX_THREADS: usize = 1024;
+/// Worker threads allowed per core.
+pub const THREADS_PER_CORE: usize = 4;
+/// The widest distance two compositions can lie apart, mol% (Euclidean:
+/// 100 mol% of one oxide against 100 mol% of another is 100·√2 apart).
+pub const MAX_MIN_DISTANCE_MOL_PCT: f64 = 141.43;
+
+/// [`THREADS_PER_CORE`] × the cores of this machine.
+pub fn max_threads() -> usize {
+    THREADS_PER_CORE
+        * std::thread::available_parallelism()
+            .map(|n| n.get())
+            .unwrap_or(1)
 }
 
 /// FNV-1a, 64 bit (a stable hash for checkpoint headers).
@@ -213,7 +243,13 @@ pub(crate) fn fnv1a(bytes: &[u8]) -> u64 {
 /// Syntax, unknown keys, bad values, unreadable model or raw-material files —
 /// all problems of the file at once, each with its line.
 pub fn load(path: &Path) -> Result<RunPlan, Error> {
-    load_with_base(path, None)
+    let plan = load_with_base(path, None)?;
+    // What the loader changed (a capped thread count) is said once, here,
+    // where a user reads it; a resumed run re-loads silently.
+    for note in &plan.notes {
+        eprintln!("quenchwise: {}: {note}", path.display());
+    }
+    Ok(plan)
 }
 
 /// As [`load`], with relative paths inside the config taken from `base`
@@ -234,6 +270,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         hint: Some(hint.into()),
     })?;
     let mut problems: Vec<Problem> = Vec::new();
+    let mut notes: Vec<String> = Vec::new();
     let mut push = |span: std::ops::Range<usize>, m: String| problems.push(src.problem(span, m));
     let dir = base
         .map(Path::to_path_buf)
@@ -247,24 +284,81 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         std::fs::canonicalize(d).unwrap_or_else(|_| d.to_path_buf())
     };
 
-    let n = *raw.search.first_pass_points.get_ref();
-    if n == 0 || n > 50_000_000 {
+    // Whole numbers of the search, each within its range (S4).
+    let mut count = |key: &str, v: &Spanned<usize>, lo: usize, hi: usize| -> usize {
+        let x = *v.get_ref();
+        if !(lo..=hi).contains(&x) {
+            push(
+                v.span(),
+                format!("{key} must be between {lo} and {hi}, got {x}"),
+            );
+        }
+        x
+    };
+    let n = count(
+        "first_pass_points",
+        &raw.search.first_pass_points,
+        1,
+        MAX_FIRST_PASS_POINTS,
+    );
+    let chunk = count("chunk_size", &raw.search.chunk_size, 1, MAX_CHUNK_SIZE);
+    let refine_from = count("refine_from", &raw.search.refine_from, 0, MAX_REFINE_FROM);
+    let shortlist = raw.shortlist.unwrap_or(RawShortlist {
+        size: default_size(),
+        min_distance_mol_pct: default_distance(),
+    });
+    let size = count("[shortlist] size", &shortlist.size, 1, MAX_SHORTLIST_SIZE);
+    let threads = raw
+        .search
+        .threads
+        .as_ref()
+        .map(|t| count("threads", t, 1, MAX_THREADS));
+    let iterations = *raw.search.refine_iterations.get_ref();
+    if iterations > MAX_REFINE_ITERATIONS {
         push(
-            raw.search.first_pass_points.span(),
-            format!("first_pass_points must be between 1 and 50000000, got {n}"),
+            raw.search.refine_iterations.span(),
+            format!(
+                "refine_iterations must be between 0 and {MAX_REFINE_ITERATIONS}, got {iterations}"
+            ),
         );
     }
-    let chunk = *raw.search.chunk_size.get_ref();
-    if chunk == 0 {
-        push(
-            raw.search.chunk_size.span(),
-            "chunk_size must be at least 1".into(),
-        );
-    }
-    let mut oxides = Vec::new();
+    let threads = threads.map(|t| {
+        let cap = max_threads();
+        if t > cap {
+            notes.push(format!(
+                "threads = {t} capped at {cap} ({THREADS_PER_CORE} × the cores of this machine)"
+            ));
+            cap
+        } else {
+            t
+        }
+    });
+
+    let mut oxides: Vec<(Oxide, f64, f64)> = Vec::new();
+    let mut named: Vec<(Oxide, &Spanned<String>)> = Vec::new();
     for (k, v) in &raw.oxides {
         match k.get_ref().parse::<Oxide>() {
             Ok(o) => {
+                // S7: names differ only in case, yet name one oxide.
+                if let Some((_, other)) = named.iter().find(|(q, _)| *q == o) {
+                    // Keys come sorted: name the one that comes first in the file.
+                    let (first, again) = if other.span().start <= k.span().start {
+                        (*other, k)
+                    } else {
+                        (k, *other)
+                    };
+                    let line = src.problem(first.span(), "").line;
+                    push(
+                        again.span(),
+                        format!(
+                            "'{}' names {o} again (first as '{}' on line {line}); oxide names ignore case",
+                            again.get_ref(),
+                            first.get_ref()
+                        ),
+                    );
+                    continue;
+                }
+                named.push((o, k));
                 let [lo, hi] = *v.get_ref();
                 if !(lo.is_finite() && hi.is_finite() && 0.0 <= lo && lo <= hi && hi <= 100.0) {
                     push(v.span(), format!("{o} limits must be [min, max] with 0 <= min <= max <= 100 mol%, got [{lo}, {hi}]"));
@@ -302,9 +396,35 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
     }
     let mut constraints = Vec::new();
     for c in &raw.constraint {
+        let bound = |b: &Option<Spanned<f64>>| b.as_ref().map(|b| *b.get_ref());
+        let (min, max) = (bound(&c.min), bound(&c.max));
+        for (key, b) in [("min", &c.min), ("max", &c.max)] {
+            if let Some(b) = b {
+                if !b.get_ref().is_finite() {
+                    push(
+                        b.span(),
+                        format!(
+                            "constraint {key} must be a finite number of mol%, got {}",
+                            b.get_ref()
+                        ),
+                    );
+                }
+            }
+        }
+        if let (Some(lo), Some(hi), Some(span)) = (min, max, c.max.as_ref().map(|m| m.span())) {
+            if lo > hi {
+                push(
+                    span,
+                    format!(
+                        "constraint '{}' has min {lo} above max {hi}: no recipe can meet it",
+                        c.expr.get_ref()
+                    ),
+                );
+            }
+        }
         match parse_linear(c.expr.get_ref()) {
             Ok(w) => {
-                if c.min.is_none() && c.max.is_none() {
+                if min.is_none() && max.is_none() {
                     push(
                         c.expr.span(),
                         format!("constraint '{}' needs min or max", c.expr.get_ref()),
@@ -313,8 +433,8 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
                 constraints.push(LinearConstraint {
                     text: c.expr.get_ref().clone(),
                     weights: w,
-                    min: c.min,
-                    max: c.max,
+                    min,
+                    max,
                 });
             }
             Err(m) => push(c.expr.span(), m.to_string()),
@@ -379,21 +499,47 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
             );
         }
     }
-    let models = match raw.models.as_ref().and_then(|m| m.set.as_deref()) {
-        None | Some("demo-soda-lime") => load_model_set(None),
-        Some(p) => load_model_set(Some(&dir.join(p))),
+    // Files the config names: a problem with one is reported at the line
+    // that names it (L1), with the file's own problem below.
+    let file_problem = |key: &str, s: &Spanned<String>, e: Error| {
+        (
+            s.span(),
+            format!("{key} = \"{}\" cannot be used:\n{e}", s.get_ref()),
+        )
     };
-    let viscosity = raw
-        .models
-        .as_ref()
-        .and_then(|m| m.viscosity.as_deref())
-        .map(|v| {
-            if v == "grd2008" || v == "demo-soda-lime" {
-                load_viscosity_model(Path::new(v))
-            } else {
-                load_viscosity_model(&dir.join(v))
+    let models_spec = raw.models.as_ref().and_then(|m| m.set.as_ref());
+    let models = match models_spec.map(|s| s.get_ref().as_str()) {
+        None | Some("demo-soda-lime") => load_model_set(None).ok(),
+        Some(p) => match load_model_set(Some(&dir.join(p))) {
+            Ok(m) => Some(m),
+            Err(e) => {
+                if let Some(s) = models_spec {
+                    let (span, m) = file_problem("[models] set", s, e.into());
+                    push(span, m);
+                }
+                None
             }
-        });
+        },
+    };
+    let viscosity = match raw.models.as_ref().and_then(|m| m.viscosity.as_ref()) {
+        None => None,
+        Some(v) => {
+            let spec = v.get_ref().as_str();
+            let loaded = if spec == "grd2008" || spec == "demo-soda-lime" {
+                load_viscosity_model(Path::new(spec))
+            } else {
+                load_viscosity_model(&dir.join(spec))
+            };
+            match loaded {
+                Ok(m) => Some(m),
+                Err(e) => {
+                    let (span, m) = file_problem("[models] viscosity", v, e.into());
+                    push(span, m);
+                    None
+                }
+            }
+        }
+    };
     let cost = match &raw.cost {
         None => None,
         Some(c) => {
@@ -404,63 +550,108 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
                     format!("max_per_kg_glass must be positive, got {max}"),
                 );
             }
-            let shelf_path = c
+            let mut settings = BatchSettings::default();
+            if let Some(t) = &c.tolerance_wt_pct {
+                let v = *t.get_ref();
+                if !(v.is_finite() && v > 0.0 && v <= MAX_BATCH_TOLERANCE_WT_PCT) {
+                    push(
+                        t.span(),
+                        format!(
+                            "tolerance_wt_pct must lie in (0, {MAX_BATCH_TOLERANCE_WT_PCT}] wt% of glass, got {v}"
+                        ),
+                    );
+                }
+                settings.tolerance_wt_pct = v;
+            }
+            let shelf = c
                 .raw_materials
                 .as_ref()
-                .filter(|s| s.as_str() != "demo")
-                .map(|p| dir.join(p));
+                .filter(|s| s.get_ref().as_str() != "demo");
+            let shelf_path = shelf.map(|p| dir.join(p.get_ref()));
             let label = shelf_path
                 .as_ref()
                 .map(|p| p.display().to_string())
                 .unwrap_or_else(|| DEMO_SHELF_LABEL.into());
-            let raws = read_raw_materials(shelf_path.as_deref())?;
-            let mut settings = BatchSettings::default();
-            if let Some(t) = c.tolerance_wt_pct {
-                settings.tolerance_wt_pct = t;
+            match (read_raw_materials(shelf_path.as_deref()), shelf) {
+                (Ok(raws), _) => Some((Arc::new(CostModel { raws, settings }), max, label)),
+                (Err(e), Some(s)) => {
+                    let (span, m) = file_problem("[cost] raw_materials", s, e.into());
+                    push(span, m);
+                    None
+                }
+                (Err(e), None) => return Err(e.into()),
             }
-            Some((Arc::new(CostModel { raws, settings }), max, label))
         }
     };
     let (objective, weights) = match &raw.objective {
         None => (ObjectiveKind::Margin, Weights::default()),
         Some(o) => {
-            let w = o.weights.unwrap_or(RawWeights {
-                margin: 1.0,
-                cost: 0.0,
-                melting_temperature: 0.0,
-            });
-            (
-                o.kind,
-                Weights {
-                    margin: w.margin,
-                    cost: w.cost,
-                    melting_temperature: w.melting_temperature,
-                },
-            )
+            let w = match &o.weights {
+                None => Weights::default(),
+                Some(w) => {
+                    let mut weight = |key: &str, v: &Option<Spanned<f64>>| -> f64 {
+                        let x = v.as_ref().map_or(0.0, |v| *v.get_ref());
+                        if let Some(v) = v {
+                            if !(x.is_finite() && x >= 0.0) {
+                                push(
+                                    v.span(),
+                                    format!(
+                                        "weights.{key} must be a finite number, zero or positive, got {x}"
+                                    ),
+                                );
+                            }
+                        }
+                        x
+                    };
+                    Weights {
+                        margin: weight("margin", &w.margin),
+                        cost: weight("cost", &w.cost),
+                        melting_temperature: weight("melting_temperature", &w.melting_temperature),
+                    }
+                }
+            };
+            if matches!(o.kind.get_ref(), ObjectiveKind::Blend)
+                && !(w.margin > 0.0 || w.cost > 0.0 || w.melting_temperature > 0.0)
+            {
+                push(
+                    o.kind.span(),
+                    "objective kind = \"blend\" needs at least one positive weight in [objective.weights]".into(),
+                );
+            }
+            (*o.kind.get_ref(), w)
         }
     };
-    if matches!(objective, ObjectiveKind::Cost) && cost.is_none() {
+    if matches!(objective, ObjectiveKind::Cost) && raw.cost.is_none() {
         push(
-            0..0,
+            raw.objective.as_ref().map_or(0..0, |o| o.kind.span()),
             "objective kind = \"cost\" needs a [cost] table with the raw materials".into(),
         );
     }
+    let mut bounds = |key: &str, b: &Spanned<[f64; 2]>, lowest: f64, unit: &str| -> (f64, f64) {
+        let [lo, hi] = *b.get_ref();
+        if !(lo.is_finite() && hi.is_finite() && lo >= lowest && lo <= hi) {
+            push(
+                b.span(),
+                format!(
+                    "{key} must be [min, max] with {lowest} <= min <= max {unit}, got [{lo}, {hi}]"
+                ),
+            );
+        }
+        (lo, hi)
+    };
     let tg_bounds = raw
         .properties
         .as_ref()
         .and_then(|p| p.glass_transition_c.as_ref())
         .map(|b| {
-            let [lo, hi] = *b.get_ref();
+            let (lo, hi) = bounds("glass_transition_c", b, -CELSIUS_OFFSET, "°C");
             (Celsius(lo).to_kelvin(), Celsius(hi).to_kelvin())
         });
     let wr = raw
         .properties
         .as_ref()
         .and_then(|p| p.working_range_k.as_ref())
-        .map(|b| {
-            let [lo, hi] = *b.get_ref();
-            (lo, hi)
-        });
+        .map(|b| bounds("working_range_k", b, 0.0, "K"));
     let kin_table = raw.kinetics.unwrap_or_default();
     let kin = kin_table.overrides().apply(KineticOptions::default());
     if let Some((_, span)) = kin_table.nuclei_range() {
@@ -476,19 +667,21 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         };
         push(span.unwrap_or(0..0), format!("[kinetics]: {e}"));
     }
-    let shortlist = raw.shortlist.unwrap_or(RawShortlist {
-        size: default_size(),
-        min_distance_mol_pct: default_distance(),
-    });
-    if shortlist.size == 0 {
-        push(0..0, "[shortlist] size must be at least 1".into());
+    let distance = *shortlist.min_distance_mol_pct.get_ref();
+    if !(distance.is_finite() && (0.0..=MAX_MIN_DISTANCE_MOL_PCT).contains(&distance)) {
+        push(
+            shortlist.min_distance_mol_pct.span(),
+            format!(
+                "min_distance_mol_pct must lie in [0, {MAX_MIN_DISTANCE_MOL_PCT}] mol% (100·√2 is the widest two compositions can lie apart), got {distance}"
+            ),
+        );
     }
     if !problems.is_empty() {
         return Err(src_error(&src, problems, hint).into());
     }
-    let mut models = models?;
+    let mut models = models.ok_or_else(|| Error::internal("the model set was not loaded"))?;
     if let Some(v) = viscosity {
-        models = models.with_viscosity(v?);
+        models = models.with_viscosity(v);
     }
     // An oxide the models were not made for cannot be screened unless the user
     // allows extrapolation: its effect would be silently zero.
@@ -553,22 +746,23 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
             allow_extrapolation: raw.search.allow_extrapolation,
             models,
             kinetic_options: kin,
-            shortlist_size: shortlist.size,
-            min_distance_mol_pct: shortlist.min_distance_mol_pct,
+            shortlist_size: size,
+            min_distance_mol_pct: distance,
         },
         search: Search {
             seed: raw.search.seed,
             first_pass_points: n,
             chunk_size: chunk,
-            refine_from: raw.search.refine_from,
-            refine_iterations: raw.search.refine_iterations,
+            refine_from,
+            refine_iterations: iterations,
         },
         batch_model,
-        threads: raw.search.threads,
+        threads,
         config_path: path.to_path_buf(),
         base_dir,
         config_text: text.clone(),
         config_hash,
+        notes,
     })
 }
 

@@ -179,6 +179,36 @@ impl<'s, 'a> Collector<'s, 'a> {
         }
     }
 
+    /// As [`Collector::oxide`], refusing a second name of an oxide already in
+    /// `seen` (`MgO` and `MGO`: names ignore case), with the first one's line.
+    pub(crate) fn oxide_once<'k>(
+        &mut self,
+        name: &'k Spanned<String>,
+        seen: &mut Vec<(Oxide, &'k Spanned<String>)>,
+    ) -> Option<Oxide> {
+        let o = self.oxide(name)?;
+        if let Some((_, other)) = seen.iter().find(|(q, _)| *q == o) {
+            // Tables come sorted by key: name the one that comes first in the file.
+            let (first, again) = if other.span().start <= name.span().start {
+                (*other, name)
+            } else {
+                (name, *other)
+            };
+            let line = self.src.problem(first.span(), "").line;
+            self.push(
+                again.span(),
+                format!(
+                    "'{}' names {o} again (first as '{}' on line {line}); oxide names ignore case",
+                    again.get_ref(),
+                    first.get_ref()
+                ),
+            );
+            return None;
+        }
+        seen.push((o, name));
+        Some(o)
+    }
+
     /// Parse "SiO2+TiO2-P2O5" or "2*Fe2O3+FeO" into oxide weights.
     pub(crate) fn expr(&mut self, g: &Spanned<String>) -> Option<[f64; N_OXIDES]> {
         match parse_linear(g.get_ref()) {
@@ -201,13 +231,14 @@ impl<'s, 'a> Collector<'s, 'a> {
         uses: impl Fn(Oxide) -> bool,
     ) -> Domain {
         let mut out = Domain::default();
+        let mut seen = Vec::new();
         for o in Oxide::ALL {
             if !d.is_empty() || !uses(o) {
                 out.max[o.index()] = 0.0;
             }
         }
         for (k, v) in d {
-            if let Some(o) = self.oxide(k) {
+            if let Some(o) = self.oxide_once(k, &mut seen) {
                 let [lo, hi] = *v.get_ref();
                 if !(lo.is_finite() && hi.is_finite() && 0.0 <= lo && lo <= hi && hi <= 100.0) {
                     self.push(v.span(), format!("domain of {o} must be [min, max] with 0 <= min <= max <= 100 mol%, got [{lo}, {hi}]"));

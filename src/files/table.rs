@@ -2,8 +2,16 @@
 //! and composition tables read into typed inputs, one per row, with a row's
 //! problem kept as that row's error; evaluation results appended as columns.
 //! Evaluating the rows is the caller's business (in parallel, in `app`).
+//!
+//! Cells are read strictly: a cell that should hold a number and holds
+//! anything else ("O.5", "abc", "NaN", "inf", a list) is an error naming the
+//! file, the row (and the line of a CSV file) and the column, never a
+//! default. An *empty* cell means "not given"; each reader says what that
+//! means for its columns (an empty oxide cell of a composition is 0, as in a
+//! spreadsheet). CSV files may end their lines with LF, CRLF or a lone CR.
 
 use super::melt_card::{CrystalValues, MeltValues};
+use super::source::DataError;
 use crate::assess::Evaluation;
 use crate::composition::Oxide;
 use crate::error::{Diagnostic, ErrorKind};
@@ -31,12 +39,52 @@ pub enum TableError {
         column: String,
         allowed: String,
     },
+    #[error("{path}: the columns '{first}' and '{second}' both name {what}")]
+    DuplicateColumn {
+        path: String,
+        first: String,
+        second: String,
+        what: String,
+    },
+    #[error("{path}: the table has no rows")]
+    NoRows { path: String },
+    #[error("{}", cells_text(problems))]
+    Cells { problems: Vec<String> },
+    #[error("{path}: column '{column}' ({dtype}) cannot be written to {format}: {message}")]
+    Unwritable {
+        path: String,
+        column: String,
+        dtype: String,
+        format: &'static str,
+        message: String,
+    },
     #[error("{path}: {message}")]
     Write { path: String, message: String },
     #[error("{}", problems.join("\n"))]
     Rows { problems: Vec<String> },
+    #[error(transparent)]
+    Data(#[from] DataError),
     #[error("{path}: unsupported extension; use .csv or .parquet")]
     Extension { path: String },
+}
+
+/// At most this many bad cells are listed; the count of the rest follows.
+const CELLS_SHOWN: usize = 20;
+
+fn cells_text(problems: &[String]) -> String {
+    let mut s = problems
+        .iter()
+        .take(CELLS_SHOWN)
+        .cloned()
+        .collect::<Vec<_>>()
+        .join("\n");
+    if problems.len() > CELLS_SHOWN {
+        s.push_str(&format!(
+            "\n... and {} more bad cells",
+            problems.len() - CELLS_SHOWN
+        ));
+    }
+    s
 }
 
 impl Diagnostic for TableError {
@@ -52,6 +100,17 @@ impl Diagnostic for TableError {
             TableError::UnknownColumn { allowed, .. } => {
                 Some(format!("allowed columns are {allowed}"))
             }
+            TableError::DuplicateColumn { .. } => {
+                Some("oxide names ignore case: keep one of the two columns".into())
+            }
+            TableError::Cells { .. } => Some(
+                "write plain numbers with a decimal point (e.g. 0.5, 1e-3); leave a cell empty where there is no value"
+                    .into(),
+            ),
+            TableError::Unwritable { .. } => Some(
+                "write the output as .parquet, or remove the column from the input table".into(),
+            ),
+            TableError::Data(e) => e.hint(),
             _ => None,
         }
     }
@@ -81,32 +140,173 @@ fn kind(path: &Path) -> Option<Kind> {
     }
 }
 
+/// Where the rows of a table sit, for messages: the file's name and, for a
+/// CSV file, the line each row starts on.
+#[derive(Debug, Clone)]
+pub struct Places {
+    path: String,
+    lines: Option<Vec<usize>>,
+}
+
+impl Places {
+    /// Rows of a file without line numbers (Parquet).
+    pub fn rows_only(path: impl Into<String>) -> Self {
+        Places {
+            path: path.into(),
+            lines: None,
+        }
+    }
+
+    /// The file's name as given.
+    pub fn path(&self) -> &str {
+        &self.path
+    }
+
+    /// The line row `i` (0-based, after the header) starts on, for a CSV file.
+    pub fn line(&self, i: usize) -> Option<usize> {
+        self.lines.as_ref().and_then(|l| l.get(i).copied())
+    }
+
+    /// "file.csv:5: row 4" (CSV) or "file.parquet: row 4"; rows count from 1.
+    pub fn row(&self, i: usize) -> String {
+        match self.line(i) {
+            Some(line) => format!("{}:{line}: row {}", self.path, i + 1),
+            None => format!("{}: row {}", self.path, i + 1),
+        }
+    }
+
+    /// A cell's place: "file.csv:5: row 4, column 'SiO2'".
+    pub fn cell(&self, i: usize, column: &str) -> String {
+        format!("{}, column '{column}'", self.row(i))
+    }
+}
+
+/// The text of a CSV file with every line ending made LF (a file saved with
+/// lone CR line endings, as old spreadsheet programs do, reads correctly).
+fn normalise_line_endings(bytes: Vec<u8>) -> Vec<u8> {
+    if !bytes.contains(&b'\r') {
+        return bytes;
+    }
+    let mut out = Vec::with_capacity(bytes.len());
+    let mut i = 0;
+    while i < bytes.len() {
+        match bytes[i] {
+            b'\r' if bytes.get(i + 1) == Some(&b'\n') => {}
+            b'\r' => out.push(b'\n'),
+            b => out.push(b),
+        }
+        i += 1;
+    }
+    out
+}
+
+/// The line (1-based) each data record of a CSV text starts on: records
+/// are split at LF outside double quotes; the first record is the header;
+/// lines holding nothing are not records.
+fn record_lines(bytes: &[u8]) -> Vec<usize> {
+    let mut starts = Vec::new();
+    let mut line = 1;
+    let mut in_quotes = false;
+    let mut at_start = true;
+    let mut record_line = 1;
+    let mut record_empty = true;
+    for &b in bytes {
+        if at_start {
+            record_line = line;
+            record_empty = true;
+            at_start = false;
+        }
+        match b {
+            b'"' => {
+                in_quotes = !in_quotes;
+                record_empty = false;
+            }
+            b'\n' => {
+                line += 1;
+                if !in_quotes {
+                    if !record_empty {
+                        starts.push(record_line);
+                    }
+                    at_start = true;
+                }
+            }
+            _ => record_empty = false,
+        }
+    }
+    if !at_start && !record_empty {
+        starts.push(record_line);
+    }
+    // The first record is the header.
+    if !starts.is_empty() {
+        starts.remove(0);
+    }
+    starts
+}
+
+/// Read CSV text (already in memory) into a data frame.
+fn csv_frame(bytes: Vec<u8>, label: &str) -> Result<(DataFrame, Places), TableError> {
+    let bytes = normalise_line_endings(bytes);
+    let lines = record_lines(&bytes);
+    let df = CsvReadOptions::default()
+        .with_has_header(true)
+        .with_infer_schema_length(None)
+        .into_reader_with_file_handle(std::io::Cursor::new(bytes))
+        .finish()
+        .map_err(|e| TableError::Read {
+            path: label.to_string(),
+            message: e.to_string(),
+        })?;
+    // Where the scan agrees with the reader, rows get lines; otherwise (a
+    // layout the scan does not follow) they keep their row numbers only.
+    let lines = (lines.len() == df.height()).then_some(lines);
+    Ok((
+        df,
+        Places {
+            path: label.to_string(),
+            lines,
+        },
+    ))
+}
+
+/// Read CSV text held in memory (e.g. an embedded demo table), naming it `label`.
+///
+/// # Errors
+/// Malformed CSV.
+pub fn read_csv_text(text: &str, label: &str) -> Result<(DataFrame, Places), TableError> {
+    csv_frame(text.as_bytes().to_vec(), label)
+}
+
+/// Read a CSV or Parquet file into a data frame, with where its rows sit.
+///
+/// # Errors
+/// An unknown extension, an unreadable or malformed file.
+pub fn read_table(path: &Path) -> Result<(DataFrame, Places), TableError> {
+    let p = path.display().to_string();
+    let k = kind(path).ok_or_else(|| TableError::Extension { path: p.clone() })?;
+    let bytes = std::fs::read(path).map_err(|e| TableError::Read {
+        path: p.clone(),
+        message: e.to_string(),
+    })?;
+    match k {
+        Kind::Csv => csv_frame(bytes, &p),
+        Kind::Parquet => {
+            let df = ParquetReader::new(std::io::Cursor::new(bytes))
+                .finish()
+                .map_err(|e| TableError::Read {
+                    path: p.clone(),
+                    message: e.to_string(),
+                })?;
+            Ok((df, Places::rows_only(p)))
+        }
+    }
+}
+
 /// Read a CSV or Parquet file into a data frame.
 ///
 /// # Errors
 /// An unknown extension, an unreadable or malformed file.
 pub fn read_frame(path: &Path) -> Result<DataFrame, TableError> {
-    let p = path.display().to_string();
-    let err = |e: PolarsError| TableError::Read {
-        path: p.clone(),
-        message: e.to_string(),
-    };
-    match kind(path) {
-        Some(Kind::Csv) => CsvReadOptions::default()
-            .with_has_header(true)
-            .with_infer_schema_length(None)
-            .try_into_reader_with_file_path(Some(path.to_path_buf()))
-            .and_then(|r| r.finish())
-            .map_err(err),
-        Some(Kind::Parquet) => {
-            let f = std::fs::File::open(path).map_err(|e| TableError::Read {
-                path: p.clone(),
-                message: e.to_string(),
-            })?;
-            ParquetReader::new(f).finish().map_err(err)
-        }
-        None => Err(TableError::Extension { path: p }),
-    }
+    read_table(path).map(|(df, _)| df)
 }
 
 /// Write a data frame as CSV or Parquet, atomically (temp file, then rename).
@@ -141,20 +341,171 @@ pub fn write_frame(path: &Path, df: &mut DataFrame) -> Result<(), TableError> {
     std::fs::rename(&tmp, path).map_err(|e| werr(e.to_string()))
 }
 
-/// A column as numbers (None where empty or NaN), if it exists and casts.
-pub(crate) fn float_column(df: &DataFrame, name: &str) -> Option<Vec<Option<f64>>> {
-    let c = df.column(name).ok()?;
-    let c = c.cast(&DataType::Float64).ok()?;
-    let ca = c.f64().ok()?.clone();
-    Some(ca.iter().map(|v| v.filter(|x| !x.is_nan())).collect())
+/// Check, before any work, that every column of `df` can be written to
+/// `path` in its format (a list or binary column cannot go into a CSV file).
+///
+/// # Errors
+/// An unknown extension; the first column the format cannot hold, named.
+pub fn check_writable(df: &DataFrame, path: &Path) -> Result<(), TableError> {
+    let p = path.display().to_string();
+    let k = kind(path).ok_or_else(|| TableError::Extension { path: p.clone() })?;
+    for c in df.columns() {
+        // One row (or none) of the column alone, written to memory.
+        let mut one = DataFrame::new(1.min(c.len()), vec![c.head(Some(1))]).map_err(|e| {
+            TableError::Write {
+                path: p.clone(),
+                message: e.to_string(),
+            }
+        })?;
+        let mut sink = Vec::new();
+        let (format, res) = match k {
+            Kind::Csv => ("CSV", CsvWriter::new(&mut sink).finish(&mut one)),
+            Kind::Parquet => (
+                "Parquet",
+                ParquetWriter::new(&mut sink).finish(&mut one).map(|_| ()),
+            ),
+        };
+        if let Err(e) = res {
+            return Err(TableError::Unwritable {
+                path: p,
+                column: c.name().to_string(),
+                dtype: c.dtype().to_string(),
+                format,
+                message: e.to_string(),
+            });
+        }
+    }
+    Ok(())
 }
 
-/// A column as texts, if it exists and casts.
-pub(crate) fn string_column(df: &DataFrame, name: &str) -> Option<Vec<Option<String>>> {
+/// Read one cell's text as a number: empty (or only spaces) is `None`; a
+/// finite number is `Some`; anything else is refused with what was found.
+///
+/// # Errors
+/// Text that is not a number, or NaN or an infinity.
+pub fn parse_number_cell(text: &str) -> Result<Option<f64>, String> {
+    let t = text.trim();
+    if t.is_empty() {
+        return Ok(None);
+    }
+    match t.parse::<f64>() {
+        Ok(v) if v.is_finite() => Ok(Some(v)),
+        Ok(_) => Err(format!("\"{t}\" is not a finite number")),
+        Err(_) => {
+            let comma = t.replace(',', ".").parse::<f64>().is_ok_and(f64::is_finite);
+            Err(format!(
+                "\"{t}\" is not a number{}",
+                if comma {
+                    " (use a decimal point, not a comma)"
+                } else {
+                    ""
+                }
+            ))
+        }
+    }
+}
+
+/// Describe a column's type for an error.
+fn dtype_words(dt: &DataType) -> String {
+    match dt {
+        DataType::List(_) => "lists".into(),
+        DataType::Binary | DataType::BinaryOffset => "binary data".into(),
+        DataType::Boolean => "true/false values".into(),
+        other => format!("values of type {other}"),
+    }
+}
+
+/// The cells of column `name` as numbers, `None` where empty. `Ok(None)`
+/// when the table has no such column. Every cell that is not a finite
+/// number is added to `problems`, with its place.
+pub(crate) fn number_column(
+    df: &DataFrame,
+    places: &Places,
+    name: &str,
+    problems: &mut Vec<String>,
+) -> Option<Vec<Option<f64>>> {
     let c = df.column(name).ok()?;
-    let c = c.cast(&DataType::String).ok()?;
-    let ca = c.str().ok()?.clone();
-    Some(ca.iter().map(|v| v.map(|s| s.to_string())).collect())
+    let n = df.height();
+    let mut out = vec![None; n];
+    let dt = c.dtype().clone();
+    if dt.is_primitive_numeric() {
+        let Ok(f) = c.cast(&DataType::Float64) else {
+            problems.push(format!(
+                "{}: column '{name}' holds {} that cannot be read as numbers",
+                places.path(),
+                dtype_words(&dt)
+            ));
+            return Some(out);
+        };
+        let Ok(ca) = f.f64() else {
+            return Some(out);
+        };
+        for (i, v) in ca.iter().enumerate().take(n) {
+            match v {
+                Some(x) if x.is_finite() => out[i] = Some(x),
+                Some(x) => problems.push(format!(
+                    "{}: {x} is not a finite number",
+                    places.cell(i, name)
+                )),
+                None => {}
+            }
+        }
+    } else if dt == DataType::String {
+        let Ok(ca) = c.str() else {
+            return Some(out);
+        };
+        for (i, v) in ca.iter().enumerate().take(n) {
+            match v.map(parse_number_cell) {
+                Some(Ok(x)) => out[i] = x,
+                Some(Err(why)) => problems.push(format!("{}: {why}", places.cell(i, name))),
+                None => {}
+            }
+        }
+    } else if dt != DataType::Null {
+        problems.push(format!(
+            "{}: column '{name}' holds {}, not numbers",
+            places.path(),
+            dtype_words(&dt)
+        ));
+    }
+    Some(out)
+}
+
+/// The cells of column `name` as texts, `None` where empty. `Ok(None)` when
+/// the table has no such column. A column of lists or binary data is added
+/// to `problems`.
+pub(crate) fn text_column(
+    df: &DataFrame,
+    places: &Places,
+    name: &str,
+    problems: &mut Vec<String>,
+) -> Option<Vec<Option<String>>> {
+    let c = df.column(name).ok()?;
+    let n = df.height();
+    let dt = c.dtype().clone();
+    let readable = dt == DataType::String
+        || dt == DataType::Null
+        || dt == DataType::Boolean
+        || dt.is_primitive_numeric();
+    let cast = readable
+        .then(|| c.cast(&DataType::String).ok())
+        .flatten()
+        .and_then(|s| s.str().ok().cloned());
+    match cast {
+        Some(ca) => {
+            let mut v: Vec<Option<String>> = ca.iter().map(|s| s.map(str::to_string)).collect();
+            v.resize(n, None);
+            Some(v)
+        }
+        None => {
+            problems.push(format!(
+                "{}: column '{name}' holds {}, not text",
+                places.path(),
+                dtype_words(&dt)
+            ));
+            Some(vec![None; n])
+        }
+    }
 }
 
 /// The error for a missing column, listing the columns that are there.
@@ -171,55 +522,88 @@ pub(crate) fn missing(df: &DataFrame, path: &str, column: &str) -> TableError {
     }
 }
 
-fn require(df: &DataFrame, path: &Path, name: &str) -> Result<Vec<Option<f64>>, TableError> {
-    float_column(df, name).ok_or_else(|| missing(df, &path.display().to_string(), name))
-}
-
 /// A table as read: the frame (its columns pass through to the output) and
 /// one input per row, or why that row cannot be used.
 pub struct Table<T> {
     pub frame: DataFrame,
     pub rows: Vec<Result<T, String>>,
+    /// Where each row sits in the file.
+    pub places: Places,
+}
+
+/// Refuse a table without rows (e.g. only a header).
+fn need_rows(df: &DataFrame, places: &Places) -> Result<(), TableError> {
+    if df.height() == 0 {
+        Err(TableError::NoRows {
+            path: places.path().to_string(),
+        })
+    } else {
+        Ok(())
+    }
+}
+
+/// The bad cells found, as an error.
+fn cells(problems: Vec<String>) -> Result<(), TableError> {
+    if problems.is_empty() {
+        Ok(())
+    } else {
+        Err(TableError::Cells { problems })
+    }
 }
 
 /// Read a table of melt cards, one per row; columns are named like the
-/// card's keys.
+/// card's keys. An empty cell of a required column makes that row's error;
+/// an empty optional cell takes the default (as if the key were left out).
 ///
 /// # Errors
-/// The file cannot be read, or a required column is missing. Bad rows are
-/// not errors: each keeps its reason.
+/// The file cannot be read, has no rows, a required column is missing, or a
+/// cell does not hold what its column needs (every such cell is listed).
+/// Rows whose values the kinetics refuse are not errors: each keeps its reason.
 pub fn read_melt_table(path: &Path) -> Result<Table<MeltValues>, TableError> {
-    let df = read_frame(path)?;
+    let (df, places) = read_table(path)?;
+    need_rows(&df, &places)?;
     let n = df.height();
-    let a = require(&df, path, "a")?;
-    let b = require(&df, path, "b_k")?;
-    let c = require(&df, path, "c_k")?;
-    let tl = require(&df, path, "liquidus_k")?;
-    let dh = require(&df, path, "enthalpy_of_fusion_j_per_mol")?;
-    let vm = require(&df, path, "molar_volume_m3_per_mol")?;
-    let alpha = float_column(&df, "turnbull_alpha");
-    let sigma = float_column(&df, "interface_energy_j_per_m2");
+    let p = path.display().to_string();
+    let mut bad = Vec::new();
+    let require = |name: &str, bad: &mut Vec<String>| {
+        number_column(&df, &places, name, bad).ok_or_else(|| missing(&df, &p, name))
+    };
+    let a = require("a", &mut bad)?;
+    let b = require("b_k", &mut bad)?;
+    let c = require("c_k", &mut bad)?;
+    let tl = require("liquidus_k", &mut bad)?;
+    let dh = require("enthalpy_of_fusion_j_per_mol", &mut bad)?;
+    let vm = require("molar_volume_m3_per_mol", &mut bad)?;
+    let alpha = number_column(&df, &places, "turnbull_alpha", &mut bad);
+    let sigma = number_column(&df, &places, "interface_energy_j_per_m2", &mut bad);
     if alpha.is_none() && sigma.is_none() {
         return Err(missing(
             &df,
-            &path.display().to_string(),
+            &p,
             "turnbull_alpha (or interface_energy_j_per_m2)",
         ));
     }
-    let growth = string_column(&df, "growth")
-        .ok_or_else(|| missing(&df, &path.display().to_string(), "growth"))?;
-    let xc = float_column(&df, "detectable_fraction");
-    let df_kind = string_column(&df, "driving_force");
-    let nh = float_column(&df, "heterogeneous_nuclei_per_m3");
-    let theta = float_column(&df, "contact_angle_deg");
-    let thick = float_column(&df, "sample_thickness_m");
-    let dcp = float_column(&df, "heat_capacity_change_j_per_mol_k");
-    let pick = |v: &Option<Vec<Option<f64>>>, i: usize| v.as_ref().and_then(|v| v[i]);
+    let growth =
+        text_column(&df, &places, "growth", &mut bad).ok_or_else(|| missing(&df, &p, "growth"))?;
+    let xc = number_column(&df, &places, "detectable_fraction", &mut bad);
+    let df_kind = text_column(&df, &places, "driving_force", &mut bad);
+    let nh = number_column(&df, &places, "heterogeneous_nuclei_per_m3", &mut bad);
+    let theta = number_column(&df, &places, "contact_angle_deg", &mut bad);
+    let thick = number_column(&df, &places, "sample_thickness_m", &mut bad);
+    let dcp = number_column(&df, &places, "heat_capacity_change_j_per_mol_k", &mut bad);
+    cells(bad)?;
+    let pick = |v: &Option<Vec<Option<f64>>>, i: usize| {
+        v.as_ref().and_then(|v| v.get(i).copied().flatten())
+    };
     let rows = (0..n)
         .map(|i| -> Result<MeltValues, String> {
-            let need =
-                |v: &Vec<Option<f64>>, name: &str| v[i].ok_or_else(|| format!("{name} is empty"));
-            let growth = match growth[i].as_deref().map(str::trim) {
+            let need = |v: &Vec<Option<f64>>, name: &str| {
+                v.get(i)
+                    .copied()
+                    .flatten()
+                    .ok_or_else(|| format!("{name} is empty"))
+            };
+            let growth = match growth.get(i).cloned().flatten().as_deref().map(str::trim) {
                 Some("normal") => GrowthMode::Normal,
                 Some("screw") => GrowthMode::Screw,
                 other => {
@@ -231,7 +615,7 @@ pub fn read_melt_table(path: &Path) -> Result<Table<MeltValues>, TableError> {
             };
             let driving_force = match df_kind
                 .as_ref()
-                .and_then(|v| v[i].clone())
+                .and_then(|v| v.get(i).cloned().flatten())
                 .as_deref()
                 .map(str::trim)
             {
@@ -272,47 +656,80 @@ pub fn read_melt_table(path: &Path) -> Result<Table<MeltValues>, TableError> {
             })
         })
         .collect();
-    Ok(Table { frame: df, rows })
+    Ok(Table {
+        frame: df,
+        rows,
+        places,
+    })
 }
 
 /// One composition as (oxide, amount) pairs, in the table's basis.
 pub type OxideAmounts = Vec<(Oxide, f64)>;
 
 /// A composition table: one column per oxide (mol% or wt%, read as given),
-/// other columns passed through. Returns the table and the columns that were
-/// not read as oxides.
+/// other columns passed through. An empty oxide cell is 0 (as in a
+/// spreadsheet); a row whose oxide cells are all empty is that row's error.
+/// Returns the table and the columns that were not read as oxides.
 ///
 /// # Errors
-/// The file cannot be read, or has no oxide column.
+/// The file cannot be read, has no rows or no oxide column, two columns name
+/// one oxide (`MgO` and `MGO`), or an oxide cell is not a number (every such
+/// cell is listed with its row, line and column).
 pub fn read_composition_table(
     path: &Path,
 ) -> Result<(Table<OxideAmounts>, Vec<String>), TableError> {
-    let df = read_frame(path)?;
-    let mut oxide_cols = Vec::new();
+    let (df, places) = read_table(path)?;
+    let mut oxide_cols: Vec<(Oxide, String, Vec<Option<f64>>)> = Vec::new();
     let mut other = Vec::new();
+    let mut bad = Vec::new();
     for name in df.get_column_names() {
         match name.as_str().parse::<Oxide>() {
-            Ok(o) => oxide_cols.push((o, float_column(&df, name.as_str()).unwrap_or_default())),
+            Ok(o) => {
+                if let Some((_, first, _)) = oxide_cols.iter().find(|(q, ..)| *q == o) {
+                    return Err(TableError::DuplicateColumn {
+                        path: places.path().to_string(),
+                        first: first.clone(),
+                        second: name.to_string(),
+                        what: o.formula().to_string(),
+                    });
+                }
+                let v = number_column(&df, &places, name.as_str(), &mut bad).unwrap_or_default();
+                oxide_cols.push((o, name.to_string(), v));
+            }
             Err(_) => other.push(name.to_string()),
         }
     }
     if oxide_cols.is_empty() {
         return Err(TableError::NoOxideColumn {
-            path: path.display().to_string(),
+            path: places.path().to_string(),
             found: other.join(", "),
         });
     }
+    need_rows(&df, &places)?;
+    cells(bad)?;
     let rows = (0..df.height())
         .map(|i| {
+            if oxide_cols
+                .iter()
+                .all(|(_, _, v)| v.get(i).copied().flatten().is_none())
+            {
+                return Err("every oxide cell of this row is empty".to_string());
+            }
             Ok(oxide_cols
                 .iter()
-                .map(|(o, v)| (*o, v.get(i).copied().flatten().unwrap_or(0.0)))
+                .map(|(o, _, v)| (*o, v.get(i).copied().flatten().unwrap_or(0.0)))
                 .collect())
         })
         .collect();
-    Ok((Table { frame: df, rows }, other))
+    Ok((
+        Table {
+            frame: df,
+            rows,
+            places,
+        },
+        other,
+    ))
 }
-
 /// A column name safe for any table tool: letters, digits and underscores.
 fn column_safe(name: &str) -> String {
     name.chars()

@@ -8,7 +8,7 @@
 use super::melt::DEFAULT_DETECTABLE_FRACTION;
 use super::quadrature::{self, Cooling, CoolingIntegrals, Quadrature, QuadratureSettings, NODES};
 use super::rates::{log_add, Kinetics, PhaseRates, Rates};
-use super::ttt::solve_quartic_cubic;
+use super::ttt::{representable, solve_quartic_cubic};
 use super::KineticsError;
 use crate::error::{finite, positive};
 use crate::units::{Kelvin, KelvinPerSecond};
@@ -112,12 +112,16 @@ impl Kinetics {
     /// Critical cooling rate for continuous cooling at a constant rate from T_L.
     ///
     /// # Errors
-    /// Numerical failure (no nucleation or growth anywhere in the window).
+    /// Numerical failure (no nucleation or growth anywhere in the window); a
+    /// rate that is not a finite positive number.
     pub fn critical_rate(&self) -> Result<KelvinPerSecond, KineticsError> {
         let total = total_extent(&self.phase_integrals(Cooling::Constant)?);
-        Ok(KelvinPerSecond(
-            total.critical_scale(self.opts.detectable_fraction),
-        ))
+        let r = total.critical_scale(self.opts.detectable_fraction);
+        Ok(KelvinPerSecond(representable(
+            "critical cooling rate",
+            r,
+            "K/s",
+        )?))
     }
 
     /// Transformed fraction X = 1 − exp(−X_ext) after cooling from T_L to T_e at a constant rate.
@@ -146,7 +150,8 @@ impl Kinetics {
     /// is 2h thick; one cooled through one face with the other insulated is h).
     ///
     /// # Errors
-    /// κ not positive; T_s not below the freeze temperature; numerical failure.
+    /// κ not positive; T_s not below the freeze temperature; numerical
+    /// failure; a thickness that is not a finite positive number.
     pub fn max_glassy_half_thickness_m(
         &self,
         surface: Kelvin,
@@ -162,7 +167,9 @@ impl Kinetics {
         }
         let total = total_extent(&self.phase_integrals(Cooling::Newtonian { surface: surface.0 })?);
         let k = total.critical_scale(self.opts.detectable_fraction);
-        Ok(0.5 * PI * (thermal_diffusivity_m2_per_s / k).sqrt())
+        let h = 0.5 * PI * (thermal_diffusivity_m2_per_s / k).sqrt();
+        representable("thickest glassy slab", 2e3 * h, "mm")?;
+        Ok(h)
     }
 
     /// Crystallised fraction along a cooling path given as (time s, temperature K) points,

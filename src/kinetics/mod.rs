@@ -31,12 +31,14 @@
 //! [`ttt`] (isothermal curve and nose), [`cooling`] (continuous cooling,
 //! critical rate, paths, slab), [`calibration`] (α from a measurement),
 //! [`fit`] (α of several phases and the nuclei density from many
-//! measurements), [`quadrature`] (the adaptive panels).
+//! measurements), [`quadrature`] (the adaptive panels), [`plausible`] (the
+//! ranges inputs are warned about).
 
 pub mod calibration;
 pub mod cooling;
 pub mod fit;
 pub mod melt;
+pub mod plausible;
 pub mod quadrature;
 pub mod rates;
 pub mod ttt;
@@ -48,12 +50,23 @@ pub use melt::{
     DEFAULT_DECOUPLING_RATIO, DEFAULT_DETECTABLE_FRACTION, DEFAULT_FREEZE_LOG_VISCOSITY,
     DEFAULT_SAMPLE_THICKNESS_M,
 };
+pub use plausible::Implausible;
 pub use quadrature::QuadratureSettings;
 pub use rates::{Kinetics, Rates};
 pub use ttt::{KineticSummary, PhaseSummary, TttPoint};
 
 use crate::error::{Diagnostic, ValueError};
 use crate::properties::ViscosityError;
+
+/// A temperature for a message: one decimal, or an exponent when it is far
+/// outside anything a furnace reaches (a value from a unit slip).
+fn kelvin(t: f64) -> String {
+    if t.abs() < 1e6 {
+        format!("{t:.1}")
+    } else {
+        format!("{t:.3e}")
+    }
+}
 
 /// Why a melt or a kinetic calculation was refused.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -62,16 +75,20 @@ pub enum KineticsError {
     Value(#[from] ValueError),
     #[error(transparent)]
     Viscosity(#[from] ViscosityError),
-    #[error("liquidus {liquidus:.1} K is at or below the VFT divergence temperature c = {c:.1} K")]
+    #[error("liquidus {} K is at or below the VFT divergence temperature c = {} K", kelvin(*liquidus), kelvin(*c))]
     LiquidusBelowDivergence { liquidus: f64, c: f64 },
     #[error(
-        "liquidus {liquidus:.1} K is at or below the glass transition {tg:.1} K (η = 10^12 Pa·s)"
+        "liquidus {} K is at or below the glass transition {} K (η = 10^12 Pa·s)",
+        kelvin(*liquidus),
+        kelvin(*tg)
     )]
     LiquidusBelowGlassTransition { liquidus: f64, tg: f64 },
-    #[error("the nose of the TTT curve ({nose:.1} K) lies below the glass transition {tg:.1} K")]
+    #[error("the nose of the TTT curve ({} K) lies below the glass transition {} K", kelvin(*nose), kelvin(*tg))]
     NoseBelowGlassTransition { nose: f64, tg: f64 },
     #[error(
-        "quench surface temperature {surface:.1} K is not below the kinetic freeze temperature {freeze:.1} K"
+        "quench surface temperature {} K is not below the kinetic freeze temperature {} K",
+        kelvin(*surface),
+        kelvin(*freeze)
     )]
     SurfaceTooHot { surface: f64, freeze: f64 },
     #[error("the cooling path needs at least two points with increasing times (point {index} breaks this)")]
@@ -82,6 +99,14 @@ pub enum KineticsError {
     Unreachable(String),
     #[error("numerical failure: {0}")]
     Numerical(String),
+    #[error("the {quantity} comes out as {value:e} {unit}, not a finite positive number: the melt lies outside what the kinetics can represent")]
+    Unrepresentable {
+        quantity: &'static str,
+        value: f64,
+        unit: &'static str,
+    },
+    #[error("the result '{key}' is not a finite number: the melt lies outside what the kinetics can represent")]
+    NotFiniteResult { key: String },
     #[error("a melt needs at least one crystal phase")]
     NoPhase,
     #[error("the crystal phase '{0}' is given twice")]
@@ -102,6 +127,11 @@ impl Diagnostic for KineticsError {
                 }
                 KineticsError::NoseBelowGlassTransition { .. } => {
                     "CNT of the supercooled liquid does not apply there; check the viscosity curve, the liquidus and the kinetic factor"
+                }
+                KineticsError::Unrepresentable { .. }
+                | KineticsError::NotFiniteResult { .. }
+                | KineticsError::Numerical(_) => {
+                    "check the inputs for unit slips or typing accidents: the VFT coefficients, the liquidus, the crystal data and the kinetic factor"
                 }
                 KineticsError::SurfaceTooHot { .. } => {
                     "the slab centre would sit in the crystallisation window forever; give a colder quench surface"

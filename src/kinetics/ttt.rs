@@ -102,6 +102,25 @@ pub(super) fn solve_quartic_cubic(ln_a: f64, ln_b: f64, ln_x: f64) -> f64 {
     z
 }
 
+/// `value` if it is a finite positive number; otherwise the error that says
+/// the melt lies outside what the kinetics can represent (a rate that
+/// overflows, a time that is never reached).
+pub(super) fn representable(
+    quantity: &'static str,
+    value: f64,
+    unit: &'static str,
+) -> Result<f64, KineticsError> {
+    if value.is_finite() && value > 0.0 {
+        Ok(value)
+    } else {
+        Err(KineticsError::Unrepresentable {
+            quantity,
+            value,
+            unit,
+        })
+    }
+}
+
 impl Kinetics {
     /// ln of the isothermal time to reach X_c at T, all phases together:
     /// Σ_k [(π/3) I_k U_k³ t⁴ + (4π/3) N_h,k U_k³ t³] = X_c.
@@ -158,7 +177,9 @@ impl Kinetics {
     /// Nose, nose-method rate and critical cooling rate, with each phase's part.
     ///
     /// # Errors
-    /// Numerical failure; a nose below the glass transition.
+    /// Numerical failure; a nose below the glass transition; a critical
+    /// rate, nose time or rate that is not a finite positive number (the
+    /// melt lies outside what the kinetics can represent).
     pub fn analyse(&self) -> Result<KineticSummary, KineticsError> {
         let integrals = self.phase_integrals(Cooling::Constant)?;
         let total = total_extent(&integrals);
@@ -200,13 +221,42 @@ impl Kinetics {
             })
             .0;
         let r = self.rates(Kelvin(nose_t));
+        let nose_rate = (self.tl - nose_t) / nose_time;
+        representable("critical cooling rate", critical, "K/s")?;
+        representable("TTT nose time", nose_time, "s")?;
+        representable("nose-method rate", nose_rate, "K/s")?;
+        for (what, v) in [
+            ("nucleation rate at the nose", r.nucleation_per_m3_s()),
+            ("growth rate at the nose", r.growth_m_per_s()),
+        ] {
+            if !v.is_finite() {
+                return Err(KineticsError::Unrepresentable {
+                    quantity: what,
+                    value: v,
+                    unit: if what.starts_with("growth") {
+                        "m/s"
+                    } else {
+                        "per m3 s"
+                    },
+                });
+            }
+        }
+        for p in &phases {
+            if !(p.critical_rate.0.is_finite() && p.share.is_finite()) {
+                return Err(KineticsError::Unrepresentable {
+                    quantity: "critical cooling rate of one phase",
+                    value: p.critical_rate.0,
+                    unit: "K/s",
+                });
+            }
+        }
         Ok(KineticSummary {
             liquidus: Kelvin(self.tl),
             glass_transition: Kelvin(self.tg),
             freeze_temperature: Kelvin(self.freeze),
             nose_temperature: Kelvin(nose_t),
             nose_time_s: nose_time,
-            nose_rate: KelvinPerSecond((self.tl - nose_t) / nose_time),
+            nose_rate: KelvinPerSecond(nose_rate),
             critical_rate: KelvinPerSecond(critical),
             nose_nucleation_per_m3_s: r.nucleation_per_m3_s(),
             nose_growth_m_per_s: r.growth_m_per_s(),

@@ -34,6 +34,16 @@ pub fn sig(x: f64) -> String {
     }
 }
 
+/// Four decimals where that reads well (a kinetic factor), an exponent for
+/// values far outside the usual range (α = 1e100 is not printed in full).
+fn four(x: f64) -> String {
+    if x.is_finite() && (x == 0.0 || (1e-3..1e5).contains(&x.abs())) {
+        format!("{x:.4}")
+    } else {
+        format!("{x:.3e}")
+    }
+}
+
 /// A duration in s with a readable unit beside it: "7200 s (2.00 h)".
 pub fn duration(s: f64) -> String {
     if !s.is_finite() {
@@ -210,9 +220,9 @@ pub fn evaluation_text(e: &Evaluation) -> String {
         &mut o,
         "kinetic factor",
         format!(
-            "α = {:.4}   σ = {:.4} J/m²   {}",
-            e.turnbull_alpha,
-            e.interface_energy_j_per_m2,
+            "α = {}   σ = {} J/m²   {}",
+            four(e.turnbull_alpha),
+            four(e.interface_energy_j_per_m2),
             match &e.calibrated_against {
                 Some(s) => format!("calibrated against {s}"),
                 None => "NOT calibrated".into(),
