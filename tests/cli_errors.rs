@@ -117,7 +117,7 @@ fn missing_file_and_missing_input() {
         .code(2)
         .stderr_has("nope.toml: cannot read the file");
     run_in(&d, &["eval"]).code(2);
-    run_in(&d, &["eval", "--melts", "x.csv"])
+    run_in(&d, &["eval", "--melt-cards", "x.csv"])
         .code(2)
         .stderr_has("--out");
 }
@@ -126,7 +126,7 @@ fn missing_file_and_missing_input() {
 fn table_without_required_columns() {
     let d = temp_dir("err-table");
     std::fs::write(d.join("m.csv"), "a,b_k\n1,2\n").unwrap();
-    run_in(&d, &["eval", "--melts", "m.csv", "--out", "o.csv"])
+    run_in(&d, &["eval", "--melt-cards", "m.csv", "--out", "o.csv"])
         .code(2)
         .stderr_has("missing column 'c_k'");
 }

@@ -179,9 +179,9 @@ fn calibration_reproduces_the_measured_rate() {
 }
 
 #[test]
-fn grd2008_flags_soda_rich_melts_on_the_lines_it_affects() {
+fn giordano2008_flags_soda_rich_melts_on_the_lines_it_affects() {
     // Source: the model's stated scope (natural melts), checked by hand.
-    let d = temp_dir("eval-grd");
+    let d = temp_dir("eval-giordano2008");
     let r = run_in(
         &d,
         &[
@@ -189,7 +189,7 @@ fn grd2008_flags_soda_rich_melts_on_the_lines_it_affects() {
             "--mol",
             "Na2O=33.33 SiO2=66.67",
             "--viscosity-model",
-            "grd2008",
+            "giordano2008",
         ],
     );
     r.code(0)
@@ -206,12 +206,12 @@ fn grd2008_flags_soda_rich_melts_on_the_lines_it_affects() {
 #[test]
 fn melt_and_composition_tables_keep_going_past_bad_rows() {
     let d = temp_dir("eval-tables");
-    let melts = root().join("demo-datasets/melts.csv");
+    let melts = root().join("demo-datasets/melt-cards.csv");
     run_in(
         &d,
         &[
             "eval",
-            "--melts",
+            "--melt-cards",
             melts.to_str().unwrap(),
             "--out",
             "melts-out.csv",

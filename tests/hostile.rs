@@ -137,7 +137,7 @@ fn every_file_of_the_hostile_corpus_is_refused_cleanly_or_gives_finite_outputs()
                 "eval", "--melt", path, "--json", "--ttt", "ttt.csv", "--plot", "p.svg",
             ]],
             "compositions" => vec![vec!["eval", "--compositions", path, "--out", "o.csv"]],
-            "melts" => vec![vec!["eval", "--melts", path, "--out", "o.csv"]],
+            "melts" => vec![vec!["eval", "--melt-cards", path, "--out", "o.csv"]],
             "models" => vec![
                 vec!["models", "--models", path],
                 vec!["eval", "--mol", GLASS, "--models", path, "--json"],

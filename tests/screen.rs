@@ -255,7 +255,13 @@ fn infeasible_config_names_the_binding_limits() {
     let r = run_in(&d, &["screen", cfg.to_str().unwrap(), "--out", "out"]);
     r.code(2)
         .stderr_has("no recipe meets every limit")
-        .stderr_has("critical rate above equipment rate / safety factor");
+        .stderr_has("critical rate above equipment rate / safety factor")
+        // Every limit of SMALL binds somewhere, so candidates break two at once.
+        .stderr_has("limits broken together most often (candidates breaking both):")
+        .stderr_has("critical rate above equipment rate / safety factor + ");
+    // An infeasible run still explains itself in a report.
+    let report = std::fs::read_to_string(d.join("out/report.html")).unwrap();
+    assert!(report.contains("<svg"), "the report has no picture");
 }
 
 #[test]

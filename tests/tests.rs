@@ -11,7 +11,7 @@ mod cli_fit;
 mod demo_models;
 mod fault_injection;
 mod fit;
-mod grd2008;
+mod giordano2008;
 mod hostile;
 mod issue14;
 mod kinetics_reference;

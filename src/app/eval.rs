@@ -185,12 +185,12 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
         a.wt_text.as_deref().is_some_and(|t| !t.is_empty()),
         a.recipe.is_some(),
         a.melt.is_some(),
-        a.melts.is_some(),
+        a.melt_cards.is_some(),
         a.compositions.is_some(),
     ];
     if inputs.iter().filter(|&&b| b).count() != 1 {
         return Err(Error::bad_input(
-            "give exactly one input: --mol, --wt, --recipe, --melt, --melts or --compositions",
+            "give exactly one input: --mol, --wt, --recipe, --melt, --melt-cards or --compositions",
         ));
     }
     if wt_table && a.compositions.is_none() {
@@ -204,10 +204,10 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
             .as_deref()
             .ok_or_else(|| Error::bad_input("a table input needs --out FILE (.csv or .parquet)"))
     };
-    if let Some(p) = &a.melts {
+    if let Some(p) = &a.melt_cards {
         if a.json || a.ttt.is_some() || a.plot.is_some() {
             return Err(Error::bad_input(
-                "--json, --ttt and --plot apply to one melt or composition, not to --melts",
+                "--json, --ttt and --plot apply to one melt or composition, not to --melt-cards",
             ));
         }
         let out = table_out()?;
@@ -245,7 +245,7 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
     }
     if a.out.is_some() {
         return Err(Error::bad_input(
-            "--out writes tables: use it with --melts or --compositions",
+            "--out writes tables: use it with --melt-cards or --compositions",
         ));
     }
     let evaluation = if let Some(p) = &a.melt {

@@ -22,7 +22,7 @@ use std::io::Write;
 
 /// Run `eval` with `--uncertainty` (the caller checked there is one input).
 pub fn eval_uncertainty(a: &EvalArgs, draws: usize) -> Result<Outcome, Error> {
-    if a.melts.is_some() || a.compositions.is_some() || a.out.is_some() {
+    if a.melt_cards.is_some() || a.compositions.is_some() || a.out.is_some() {
         return Err(Error::bad_input(
             "--uncertainty applies to one melt card or composition (--melt, --mol, --wt, --recipe), not to tables",
         ));

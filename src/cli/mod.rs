@@ -282,7 +282,7 @@ pub struct FitLiquidusArgs {
     #[arg(long = "shift", value_name = "PHASE", help_heading = "Model")]
     pub shift: Vec<String>,
 
-    /// Replace the base set's viscosity model: "grd2008" or a TOML file.
+    /// Replace the base set's viscosity model: "giordano2008" or a TOML file.
     ///
     /// Written into the fitted set with the new surfaces; default: keep the
     /// base set's. Example: --viscosity-model lab-viscosity.toml
@@ -543,7 +543,7 @@ pub struct KineticArgs {
 }
 
 #[derive(Debug, Args)]
-#[command(group(clap::ArgGroup::new("input").required(true).multiple(true).args(["mol", "wt_text", "recipe", "melt", "melts", "compositions"])))]
+#[command(group(clap::ArgGroup::new("input").required(true).multiple(true).args(["mol", "wt_text", "recipe", "melt", "melt_cards", "compositions"])))]
 pub struct EvalArgs {
     /// One composition in mol%, e.g. "SiO2=72 Na2O=14 CaO=10 Al2O3=4".
     ///
@@ -585,7 +585,7 @@ pub struct EvalArgs {
     /// or interface_energy_j_per_m2, growth, and optionally the [kinetics]
     /// keys. Rows run in parallel; a failed row gets its reason in `error`.
     #[arg(long, value_name = "FILE", requires = "out", help_heading = "Input")]
-    pub melts: Option<PathBuf>,
+    pub melt_cards: Option<PathBuf>,
 
     /// A table (CSV or Parquet) of compositions, one per row; needs --out.
     ///
@@ -623,9 +623,9 @@ pub struct EvalArgs {
     #[arg(long, value_name = "FILE", help_heading = "Models")]
     pub models: Option<PathBuf>,
 
-    /// Replace the set's viscosity model: "grd2008" or a TOML file.
+    /// Replace the set's viscosity model: "giordano2008" or a TOML file.
     ///
-    /// "grd2008" is Giordano, Russell & Dingwell (2008) for natural silicate
+    /// "giordano2008" is Giordano, Russell & Dingwell (2008) for natural silicate
     /// melts; soda-rich technical glasses fall outside its validity and are
     /// flagged.
     #[arg(long, value_name = "NAME|FILE", help_heading = "Models")]
@@ -764,7 +764,7 @@ mod tests {
 
     #[test]
     fn table_inputs_need_out() {
-        assert!(parse(&["eval", "--melts", "x.csv"]).is_err());
+        assert!(parse(&["eval", "--melt-cards", "x.csv"]).is_err());
         assert!(parse(&["eval"]).is_err());
     }
 

@@ -20,7 +20,8 @@ use toml::Spanned;
 /// The demo model set, embedded.
 pub const DEMO_MODELS: &str = include_str!("../../configs/models/demo-soda-lime.toml");
 /// The Giordano–Russell–Dingwell (2008) viscosity model, embedded.
-pub const GRD2008_VISCOSITY: &str = include_str!("../../configs/models/grd2008-viscosity.toml");
+pub const GIORDANO2008_VISCOSITY: &str =
+    include_str!("../../configs/models/giordano2008-viscosity.toml");
 /// Name of the default model set.
 pub const DEFAULT_MODEL_SET: &str = "demo-soda-lime";
 
@@ -400,7 +401,7 @@ pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
 /// As [`parse_model_set`], for the viscosity part.
 pub fn parse_viscosity_model(src: &Source) -> Result<ViscosityModel, DataError> {
     let hint =
-        "a viscosity file has [about] and [viscosity]; see configs/models/grd2008-viscosity.toml";
+        "a viscosity file has [about] and [viscosity]; see configs/models/giordano2008-viscosity.toml";
     let file: ModelFile = src.parse(hint)?;
     let mut c = Collector::new(src);
     let v = viscosity_model(&mut c, &file.viscosity);
@@ -608,15 +609,16 @@ pub fn is_built_in(spec: Option<&Path>) -> bool {
     spec.is_none_or(|p| p.as_os_str() == DEFAULT_MODEL_SET)
 }
 
-/// A viscosity model by built-in name (`grd2008`, `demo-soda-lime`) or file path.
+/// A viscosity model by built-in name (`giordano2008`, `demo-soda-lime`) or file path.
 ///
 /// # Errors
 /// An unreadable or invalid file.
 pub fn load_viscosity_model(spec: &Path) -> Result<ViscosityModel, DataError> {
     match spec.to_str() {
-        Some("grd2008") => {
-            parse_viscosity_model(&Source::new("<built-in grd2008>", GRD2008_VISCOSITY))
-        }
+        Some("giordano2008") => parse_viscosity_model(&Source::new(
+            "<built-in giordano2008>",
+            GIORDANO2008_VISCOSITY,
+        )),
         Some(DEFAULT_MODEL_SET) => {
             parse_viscosity_model(&Source::new("<built-in demo-soda-lime>", DEMO_MODELS))
         }
@@ -742,7 +744,8 @@ mod tests {
         // Values as written in the file.
         assert_eq!(m.phases[2].enthalpy_of_fusion_j_per_mol, 8900.0);
         assert_eq!(m.phases[2].melting_point.0, 1999.0);
-        let v = parse_viscosity_model(&Source::new("grd", GRD2008_VISCOSITY)).unwrap();
+        let v =
+            parse_viscosity_model(&Source::new("giordano2008", GIORDANO2008_VISCOSITY)).unwrap();
         assert!(v.name.contains("Giordano"), "{}", v.name);
     }
 

@@ -420,7 +420,7 @@ pub fn write_text(path: &Path, text: &str) -> Result<(), String> {
 mod tests {
     use super::*;
     use crate::files::model_set::{
-        parse_model_set, parse_viscosity_model, DEMO_MODELS, GRD2008_VISCOSITY,
+        parse_model_set, parse_viscosity_model, DEMO_MODELS, GIORDANO2008_VISCOSITY,
     };
     use crate::files::source::Source;
 
@@ -450,16 +450,17 @@ mod tests {
     #[test]
     fn the_shipped_sets_survive_a_round_trip() {
         // Read, write, read again: the same set (products and pairs of the
-        // GRD 2008 model included), and the demo's notes are kept.
+        // Giordano, Russell & Dingwell 2008 model included), and the demo's notes are kept.
         let demo = parse_model_set(&Source::new("demo", DEMO_MODELS)).unwrap();
         let text = model_set_toml(&demo, &Notes::of_text(DEMO_MODELS), &["a header".into()]);
         let back = parse_model_set(&Source::new("written", &text)).unwrap();
         assert_eq!(back, demo);
         assert!(text.contains("Richet et al. 1982"), "notes are kept");
-        let grd = parse_viscosity_model(&Source::new("grd", GRD2008_VISCOSITY)).unwrap();
+        let published =
+            parse_viscosity_model(&Source::new("giordano2008", GIORDANO2008_VISCOSITY)).unwrap();
         let about = demo.about.clone();
-        let text = viscosity_toml(&about, &grd, &[]);
+        let text = viscosity_toml(&about, &published, &[]);
         let back = parse_viscosity_model(&Source::new("written", &text)).unwrap();
-        assert_eq!(back, grd);
+        assert_eq!(back, published);
     }
 }

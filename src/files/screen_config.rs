@@ -525,7 +525,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         None => None,
         Some(v) => {
             let spec = v.get_ref().as_str();
-            let loaded = if spec == "grd2008" || spec == "demo-soda-lime" {
+            let loaded = if spec == "giordano2008" || spec == "demo-soda-lime" {
                 load_viscosity_model(Path::new(spec))
             } else {
                 load_viscosity_model(&dir.join(spec))

@@ -30,7 +30,7 @@ pub const VFT_A: Plausible = Plausible {
     lo: -10.0,
     hi: 2.0,
     unit: "",
-    source: "log10 of the high-temperature viscosity limit; VFT fits of silicate melts give about -6 to -1 (from memory), and Giordano et al. 2008 use one value, -4.55, for all their melts (configs/models/grd2008-viscosity.toml)",
+    source: "log10 of the high-temperature viscosity limit; VFT fits of silicate melts give about -6 to -1 (from memory), and Giordano et al. 2008 use one value, -4.55, for all their melts (configs/models/giordano2008-viscosity.toml)",
 };
 /// VFT `b_k`.
 pub const VFT_B: Plausible = Plausible {

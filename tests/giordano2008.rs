@@ -1,13 +1,13 @@
 //! The Giordano–Russell–Dingwell (2008) viscosity model and its validity guard.
 
 use quenchwise::composition::{Basis, Composition};
-use quenchwise::files::model_set::{parse_viscosity_model, GRD2008_VISCOSITY};
+use quenchwise::files::model_set::{parse_viscosity_model, GIORDANO2008_VISCOSITY};
 use quenchwise::files::source::Source;
 use quenchwise::properties::ViscosityCurve;
 use quenchwise::units::{Kelvin, Log10PaS};
 
 /// Source: regression values computed by hand from the 2-decimal
-/// GRD table (Giordano et al. 2008, EPSL 271, 123–134, coefficients via two public
+/// The published table (Giordano et al. 2008, EPSL 271, 123–134, coefficients via two public
 /// transcriptions). They test our implementation of the published equations, not
 /// reality. Printed: B, C to 2 decimals; T_g and m to 1; log η to 3.
 const CASES: [(&str, f64, f64, f64, f64, f64); 6] = [
@@ -53,12 +53,13 @@ const CASES: [(&str, f64, f64, f64, f64, f64); 6] = [
 
 #[test]
 fn regression_values_of_the_published_equations() {
-    let model = parse_viscosity_model(&Source::new("grd", GRD2008_VISCOSITY)).unwrap();
+    let model =
+        parse_viscosity_model(&Source::new("giordano2008", GIORDANO2008_VISCOSITY)).unwrap();
     for (text, b, c, tg, m, log_eta) in CASES {
         let comp = Composition::parse(text, Basis::MolPercent, 0.0).unwrap();
         let (curve, _) = model.curve(&comp).unwrap();
         let ViscosityCurve::Vft { a, b_k, c_k } = curve else {
-            panic!("GRD is VFT")
+            panic!("the published model is VFT")
         };
         // Source: Giordano, Russell & Dingwell (2008), Table 1 (as transcribed), A = −4.55.
         assert_eq!(a, -4.55);
@@ -79,7 +80,8 @@ fn regression_values_of_the_published_equations() {
 fn soda_rich_melts_are_flagged_outside_model_validity() {
     // Source: the model's stated scope (natural melts), checked by hand: Na2O·2SiO2 gives
     // C < 0 and must be flagged "outside model validity".
-    let model = parse_viscosity_model(&Source::new("grd", GRD2008_VISCOSITY)).unwrap();
+    let model =
+        parse_viscosity_model(&Source::new("giordano2008", GIORDANO2008_VISCOSITY)).unwrap();
     let ns2 = Composition::parse("Na2O=33.333 SiO2=66.667", Basis::MolPercent, 0.01).unwrap();
     let (curve, flags) = model.curve(&ns2).unwrap();
     let ViscosityCurve::Vft { c_k, .. } = curve else {
