@@ -49,8 +49,16 @@ impl ScreenObserver for Watch {
     }
 }
 
+/// What the config loader changed (a capped thread count), said once.
+fn say_notes(plan: &screen_config::RunPlan, config: &std::path::Path) {
+    for note in &plan.notes {
+        eprintln!("quenchwise: {}: {note}", config.display());
+    }
+}
+
 pub fn check(a: CheckArgs) -> Result<Outcome, Error> {
     let plan = screen_config::load(&a.config)?;
+    say_notes(&plan, &a.config);
     let problem = &plan.problem;
     let simplex = Simplex::new(problem);
     println!(
@@ -82,6 +90,7 @@ fn options(out: &std::path::Path, f: &FolderArgs) -> ScreenOptions {
 
 pub fn screen(a: ScreenArgs) -> Result<Outcome, Error> {
     let mut plan = screen_config::load(&a.config)?;
+    say_notes(&plan, &a.config);
     if let Some(t) = threads(a.threads)? {
         plan.threads = Some(t);
     }

@@ -238,18 +238,14 @@ pub(crate) fn fnv1a(bytes: &[u8]) -> u64 {
 }
 
 /// Read and validate a screen config; paths inside it are relative to its folder.
+/// What the loader changed (a capped thread count) is in `RunPlan.notes`, for
+/// the command to say.
 ///
 /// # Errors
 /// Syntax, unknown keys, bad values, unreadable model or raw-material files —
 /// all problems of the file at once, each with its line.
 pub fn load(path: &Path) -> Result<RunPlan, Error> {
-    let plan = load_with_base(path, None)?;
-    // What the loader changed (a capped thread count) is said once, here,
-    // where a user reads it; a resumed run re-loads silently.
-    for note in &plan.notes {
-        eprintln!("quenchwise: {}: {note}", path.display());
-    }
-    Ok(plan)
+    load_with_base(path, None)
 }
 
 /// As [`load`], with relative paths inside the config taken from `base`
