@@ -694,15 +694,18 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
                 missing.push(format!("the viscosity model '{}'", models.viscosity.name));
             }
             if models.phases.iter().all(|p| p.domain.max[o.index()] <= 0.0) {
-                missing.push("every liquidus surface".to_string());
+                missing.push("any liquidus surface".to_string());
             }
             if !missing.is_empty() {
                 problems.push(src.problem(
                     k.span(),
                     format!(
-                        "{o} may reach {} mol% here, but {} was not made for {o} (its validity domain leaves {o} out), so its effect would count as zero; narrow {o} to [0, 0], use a model set that covers it, or set allow_extrapolation = true under [search]",
+                        "{o} may reach {} mol% here, but {} (no validity domain lists it), so its effect would count as zero; narrow {o} to [0, 0], use a model set that covers it, or set allow_extrapolation = true under [search]",
                         v.get_ref()[1],
-                        missing.join(" and ")
+                        match missing.as_slice() {
+                            [one] => format!("{one} does not cover {o}"),
+                            _ => format!("neither {} covers {o}", missing.join(" nor ")),
+                        }
                     ),
                 ));
             }
