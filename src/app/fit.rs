@@ -28,7 +28,7 @@ use quenchwise::report::fit::{
     viscosity_fit_text, viscosity_residuals_csv,
 };
 use quenchwise::report::plot::{residuals_svg, ResidualSeries};
-use quenchwise::report::text::nucleation_text;
+use quenchwise::report::text::{count, nucleation_text};
 use quenchwise::units::kelvin_to_celsius;
 use std::io::Write;
 use std::path::Path;
@@ -256,11 +256,11 @@ fn viscosity(a: FitViscosityArgs) -> Result<Outcome, Error> {
     )
     .with_context(ctx)?;
     let line = format!(
-        "viscosity: {form_name} fitted to {} (sha256 {}…; {} points of {} glasses) on {}: RMSE {:.4} log10 Pa s{}",
+        "viscosity: {form_name} fitted to {} (sha256 {}…; {} of {}) on {}: RMSE {:.4} log10 Pa s{}",
         prov.data,
         short_sha(&prov),
-        data.points.len(),
-        data.glasses.len(),
+        count(data.points.len(), "point", "points"),
+        count(data.glasses.len(), "glass", "glasses"),
         prov.date,
         fit.solution.statistics.rmse,
         fit.cv_rmse

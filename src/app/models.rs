@@ -13,6 +13,7 @@ use quenchwise::properties::{
     Domain, FitRecord, FractionBasis, GrowthMode, LiquidusSurface, MixtureModel, ModelSet,
 };
 use quenchwise::report::fit::g5;
+use quenchwise::report::text::count;
 use std::fmt::Write as _;
 use std::io::Write;
 use std::path::Path;
@@ -157,10 +158,10 @@ fn fit_text(out: &mut String, indent: &str, f: &FitRecord) {
     );
     let _ = writeln!(out, "{indent}method      {}", f.method);
     let mut stats = format!(
-        "{indent}statistics  {} points{}, RMSE {} {}, residual sd {} {}",
-        f.points,
+        "{indent}statistics  {}{}, RMSE {} {}, residual sd {} {}",
+        count(f.points, "point", "points"),
         f.glasses
-            .map(|g| format!(" of {g} glasses"))
+            .map(|g| format!(" of {}", count(g, "glass", "glasses")))
             .unwrap_or_default(),
         g5(f.rmse),
         f.unit,
@@ -168,7 +169,11 @@ fn fit_text(out: &mut String, indent: &str, f: &FitRecord) {
         f.unit
     );
     if let Some(d) = f.dof {
-        let _ = write!(stats, " ({d} degrees of freedom)");
+        let _ = write!(
+            stats,
+            " ({})",
+            count(d, "degree of freedom", "degrees of freedom")
+        );
     }
     if let Some(r) = f.r_squared {
         let _ = write!(stats, ", R² {r:.5}");

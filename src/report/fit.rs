@@ -2,7 +2,7 @@
 //! errors and 95 % intervals (Student t), each glass or phase with its error,
 //! and every point's residual as CSV. Every number carries its unit.
 
-use super::text::sig;
+use super::text::{count, sig};
 use crate::kinetics::fit::{KineticFit, KineticPoint, Measurement};
 use crate::numeric::least_squares::{interval_factor, Statistics};
 use crate::properties::fit::{
@@ -83,7 +83,10 @@ pub fn coefficient_table(rows: &[CoefficientRow], dof: Option<usize>) -> String 
         "  (intervals: ± {} standard errors, {})",
         sig(t),
         match dof {
-            Some(d) => format!("Student t with {d} degrees of freedom"),
+            Some(d) => format!(
+                "Student t with {}",
+                count(d, "degree of freedom", "degrees of freedom")
+            ),
             None => "normal, the measurements' scatter given".into(),
         }
     );
@@ -97,13 +100,20 @@ fn stats_line(s: &Statistics, unit: &str) -> String {
         g5(s.sigma)
     );
     match s.dof {
-        Some(d) => line.push_str(&format!(" ({d} degrees of freedom)")),
+        Some(d) => line.push_str(&format!(
+            " ({})",
+            count(d, "degree of freedom", "degrees of freedom")
+        )),
         None => line.push_str(" (given)"),
     }
     if s.r_squared.is_finite() {
         line.push_str(&format!("   R² {:.5}", s.r_squared));
     }
-    line.push_str(&format!("   {} points, {} coefficients", s.n, s.p));
+    line.push_str(&format!(
+        "   {}, {}",
+        count(s.n, "point", "points"),
+        count(s.p, "coefficient", "coefficients")
+    ));
     line
 }
 
@@ -142,9 +152,9 @@ pub fn viscosity_fit_text(
     );
     let _ = writeln!(
         o,
-        "data            {} points of {} glasses, {:.0}–{:.0} °C",
-        points.len(),
-        labels.len(),
+        "data            {} of {}, {:.0}–{:.0} °C",
+        count(points.len(), "point", "points"),
+        count(labels.len(), "glass", "glasses"),
         c(t0),
         c(t1)
     );

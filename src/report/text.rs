@@ -16,6 +16,16 @@ pub const CAUTION: &str = "caution: melts at 1000-1600 °C and quenching (steam 
 experiments: confirm glassiness by XRD/DSC and follow your lab's safety rules and licensed practice.";
 
 /// A number in a compact form that keeps 3 significant figures across decades.
+/// "1 glass", "3 glasses": a count with its noun in the right number
+/// (`plural` is the noun's plural form).
+pub fn count(n: usize, singular: &str, plural: &str) -> String {
+    if n == 1 {
+        format!("1 {singular}")
+    } else {
+        format!("{n} {plural}")
+    }
+}
+
 pub fn sig(x: f64) -> String {
     if !x.is_finite() {
         return format!("{x}");
@@ -428,6 +438,13 @@ mod tests {
         assert_eq!(sig(0.01534), "0.015");
         assert_eq!(sig(1.234e-7), "1.23e-7");
         assert_eq!(sig(1234.0), "1234");
+    }
+
+    #[test]
+    fn counts_take_the_noun_in_the_right_number() {
+        assert_eq!(count(1, "glass", "glasses"), "1 glass");
+        assert_eq!(count(0, "glass", "glasses"), "0 glasses");
+        assert_eq!(count(12, "coefficient", "coefficients"), "12 coefficients");
     }
 
     #[test]
