@@ -737,8 +737,12 @@ fn check_reachable(setup: &Setup) -> Result<(), KineticFitError> {
 pub(crate) fn short(v: f64) -> String {
     if v != 0.0 && (v.abs() < 1e-3 || v.abs() >= 1e5) {
         format!("{v:.3e}")
+    } else if v == 0.0 {
+        "0".into()
     } else {
-        format!("{}", (v * 1e4).round() / 1e4)
+        // Decimals so that four significant figures show (1e-3 ≤ |v| < 1e5).
+        let decimals = (3 - v.abs().log10().floor() as i32).max(0) as usize;
+        format!("{v:.decimals$}")
     }
 }
 
@@ -788,4 +792,18 @@ fn coordinate(setup: &Setup, theta: &[f64], k: usize) -> Result<Vec<f64>, Kineti
     let mut t = theta.to_vec();
     t[k] = if at(v) <= bv { v } else { scan[best] };
     Ok(t)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::short;
+
+    #[test]
+    fn short_numbers_keep_four_significant_figures() {
+        assert_eq!(short(72664.8698), "72665");
+        assert_eq!(short(0.0225), "0.02250");
+        assert_eq!(short(1.5), "1.500");
+        assert_eq!(short(2.5e-5), "2.500e-5");
+        assert_eq!(short(0.0), "0");
+    }
 }
