@@ -142,6 +142,9 @@ fn linear_liquidus_intervals_cover_known_coefficients_95_percent_of_the_time() {
     // Known surface T_L = Σ a_i x_i (x mole fractions) on 20 fixed glasses,
     // σ = 5 K (a DSC liquidus, common practice), 2000 seeded draws. With the
     // model right, the t intervals are exact: coverage 0.95 per coefficient.
+    // Source: the exact t interval of ordinary least squares with normal errors
+    // (e.g. Seber & Lee, Linear Regression Analysis, 2nd ed., Wiley 2003, §5.1;
+    // from memory); Student t quantiles from statrs.
     let oxides = [
         Oxide::SiO2,
         Oxide::Al2O3,
@@ -273,6 +276,8 @@ fn vft_intervals_cover_known_coefficients_95_percent_of_the_time() {
     // draws. The intervals come from the Jacobian at the solution
     // (linearisation), so coverage is 0.95 only asymptotically; with 96
     // points and this σ the curvature is small, and the binomial bounds hold.
+    // Source: asymptotic normality of non-linear least squares (e.g. Seber &
+    // Wild, Nonlinear Regression, Wiley 1989, §5.1; from memory).
     let (ox, a, b, c) = vft_truth();
     let glasses = demo_glasses();
     let params = |x: &[f64; N_OXIDES]| {
@@ -849,7 +854,8 @@ fn a_rate_no_alpha_reaches_is_refused_with_the_range() {
 
 #[test]
 fn myega_recovers_its_coefficients_from_exact_points() {
-    // Points on known MYEGA curves (Mauro et al. 2009): L = −2.9, T_g and m
+    // Source: the MYEGA form of Mauro et al. (2009), PNAS 106, 19780.
+    // Points on known MYEGA curves: L = −2.9, T_g and m
     // linear in mole fractions (invented values), five glasses; the fit starts
     // from a VFT fit and must land on the truth.
     let glasses = [
