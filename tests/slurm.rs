@@ -300,7 +300,7 @@ impl Cluster {
             .map_or(2000, |kb| kb / 1024 * 9 / 10);
         let (ctld_port, d_port) = (free_port()?, free_port()?);
         let d = dir.display();
-        // After BUILD-NOTES.md's measured recipe; own ports, munge socket
+        // A minimal single-node configuration (Slurm's slurm.conf manual page); own ports, munge socket
         // and files, so nothing else on the machine is touched.
         let conf = format!(
             "ClusterName=quenchwisetest
