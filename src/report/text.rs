@@ -378,8 +378,13 @@ pub fn binding_text(s: &LimitSummary, with_hint: bool) -> String {
     let mut by: Vec<_> = s.by_limit.clone();
     by.sort_by_key(|e| std::cmp::Reverse(e.1));
     let mut t = String::from("limits that rejected candidates (breaking it / breaking only it):");
+    let width = by
+        .iter()
+        .map(|e| e.0.label().chars().count())
+        .max()
+        .unwrap_or(0);
     for (l, any, only) in by {
-        t.push_str(&format!("\n  {:<52} {any:>7} / {only:>7}", l.label()));
+        t.push_str(&format!("\n  {:<width$} {any:>7} / {only:>7}", l.label()));
     }
     if with_hint {
         // Where no limit rejects much alone, the limits bind jointly: name
