@@ -45,7 +45,7 @@ pub fn base_options(set: &ModelSet) -> KineticOptions {
 fn domain_text(d: &Domain) -> String {
     let parts: Vec<String> = Oxide::ALL
         .iter()
-        .filter(|o| d.max[o.index()] > 0.0)
+        .filter(|o| d.covers(**o))
         .map(|o| range_text(d, *o))
         .collect();
     if parts.is_empty() {
@@ -83,16 +83,15 @@ fn domains_table(m: &ModelSet) -> String {
     }
     out.push('\n');
     for o in Oxide::ALL {
-        if domains.iter().all(|d| d.max[o.index()] <= 0.0) {
+        if !domains.iter().any(|d| d.covers(o)) {
             continue;
         }
         let _ = write!(out, "{:<7}", o.formula());
         for (d, w) in domains.iter().zip(&width) {
-            let (lo, hi) = (d.min[o.index()], d.max[o.index()]);
-            let cell = if hi <= 0.0 {
-                "—".to_string()
+            let cell = if d.covers(o) {
+                format!("{:.1}–{:.1}", d.min[o.index()], d.max[o.index()])
             } else {
-                format!("{lo:.1}–{hi:.1}")
+                "—".to_string()
             };
             let _ = write!(out, "  {cell:>w$}");
         }
@@ -100,7 +99,7 @@ fn domains_table(m: &ModelSet) -> String {
     }
     let uncovered: Vec<&str> = Oxide::ALL
         .iter()
-        .filter(|o| domains.iter().all(|d| d.max[o.index()] <= 0.0))
+        .filter(|o| !domains.iter().any(|d| d.covers(**o)))
         .map(|o| o.formula())
         .collect();
     if !uncovered.is_empty() {

@@ -9,6 +9,7 @@ use quenchwise::error::Error;
 use quenchwise::files::results::write_report;
 use quenchwise::files::run_folder::{self, Opening, RunFolder, ScreenOptions, Shard};
 use quenchwise::files::screen_config;
+use quenchwise::report::text::count;
 use quenchwise::screen::{chunk_count, ScreenObserver, Simplex, Stage};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::{Arc, OnceLock};
@@ -144,9 +145,9 @@ fn tell(end: run_folder::Outcome, out: &std::path::Path, again: &str) -> Result<
                 println!("report: {}", out.join("report.html").display());
             }
             println!(
-                "\nshortlist: {} ({shortlisted} recipe{} of {feasible} feasible, {evaluated} evaluated); batch sheets in {}",
+                "\nshortlist: {} ({} of {feasible} feasible, {evaluated} evaluated); batch sheets in {}",
                 out.join("shortlist.csv").display(),
-                if shortlisted == 1 { "" } else { "s" },
+                count(shortlisted, "recipe", "recipes"),
                 out.join("batch-sheets").display()
             );
             Ok(Outcome::Finished)

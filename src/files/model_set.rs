@@ -753,43 +753,27 @@ mod tests {
     fn regression_s6_nan_and_infinite_coefficients_are_located() {
         // TOML writes NaN and the infinities as nan and inf: a model set
         // with one used to load and then fail every evaluation.
-        let text = DEMO_MODELS.replacen("constant = -2.45", "constant = nan", 1);
-        assert_ne!(
-            text, DEMO_MODELS,
-            "the demo file changed: pick another value"
+        let located = |from: &str, to: &str, message: &str| {
+            let text = DEMO_MODELS.replacen(from, to, 1);
+            assert_ne!(
+                text, DEMO_MODELS,
+                "the demo file changed: pick another value"
+            );
+            let err = parse_model_set(&Source::new("m.toml", &text))
+                .unwrap_err()
+                .to_string();
+            let line = text.lines().position(|l| l.contains(to)).unwrap() + 1;
+            assert!(err.contains(&format!("m.toml:{line}: {message}")), "{err}");
+        };
+        located(
+            "constant = -2.45",
+            "constant = nan",
+            "the constant must be a finite number, got NaN",
         );
-        let err = parse_model_set(&Source::new("m.toml", &text))
-            .unwrap_err()
-            .to_string();
-        let line = text
-            .lines()
-            .position(|l| l.contains("constant = nan"))
-            .unwrap()
-            + 1;
-        assert!(
-            err.contains(&format!(
-                "m.toml:{line}: the constant must be a finite number, got NaN"
-            )),
-            "{err}"
-        );
-        let text = DEMO_MODELS.replacen("SiO2 = 6464.0", "SiO2 = -inf", 1);
-        assert_ne!(
-            text, DEMO_MODELS,
-            "the demo file changed: pick another value"
-        );
-        let err = parse_model_set(&Source::new("m.toml", &text))
-            .unwrap_err()
-            .to_string();
-        let line = text
-            .lines()
-            .position(|l| l.contains("SiO2 = -inf"))
-            .unwrap()
-            + 1;
-        assert!(
-            err.contains(&format!(
-                "m.toml:{line}: the coefficient of SiO2 must be a finite number, got -inf"
-            )),
-            "{err}"
+        located(
+            "SiO2 = 6464.0",
+            "SiO2 = -inf",
+            "the coefficient of SiO2 must be a finite number, got -inf",
         );
     }
 

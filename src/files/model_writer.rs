@@ -192,7 +192,7 @@ fn domain(out: &mut String, table: &str, d: &Domain) {
     let listed: Vec<Oxide> = Oxide::ALL
         .into_iter()
         // An oxide left out reads back as [0, 0]: not covered.
-        .filter(|o| d.max[o.index()] > 0.0)
+        .filter(|o| d.covers(*o))
         .collect();
     if listed.is_empty() {
         return;

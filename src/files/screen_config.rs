@@ -690,10 +690,10 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
                 continue;
             }
             let mut missing = Vec::new();
-            if models.viscosity.domain.max[o.index()] <= 0.0 {
+            if !models.viscosity.domain.covers(o) {
                 missing.push(format!("the viscosity model '{}'", models.viscosity.name));
             }
-            if models.phases.iter().all(|p| p.domain.max[o.index()] <= 0.0) {
+            if !models.phases.iter().any(|p| p.domain.covers(o)) {
                 missing.push("any liquidus surface".to_string());
             }
             if !missing.is_empty() {

@@ -188,6 +188,13 @@ impl Default for Domain {
 }
 
 impl Domain {
+    /// Whether the model was made for oxide `o` at all: an oxide whose range
+    /// is [0, 0] is not covered, and any amount of it is an extrapolation
+    /// (docs/science.md, "Oxides a model does not cover").
+    pub fn covers(&self, o: Oxide) -> bool {
+        self.max[o.index()] > 0.0
+    }
+
     /// The range of each oxide over a set of compositions (mole fractions):
     /// an oxide none of them contains gets [0, 0].
     pub fn of_data<'a>(xs: impl IntoIterator<Item = &'a [f64; N_OXIDES]>) -> Domain {
@@ -216,7 +223,7 @@ impl Domain {
         for o in Oxide::ALL {
             let (v, lo, hi) = (pct[o.index()], self.min[o.index()], self.max[o.index()]);
             // A hair of slack so a value on the boundary is inside.
-            if hi <= 0.0 && v > 1e-9 {
+            if !self.covers(o) && v > 1e-9 {
                 out.push(format!(
                     "{o} {v:.2} mol%, an oxide the model does not cover"
                 ));

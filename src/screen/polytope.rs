@@ -253,10 +253,10 @@ fn normalise(rows: Vec<Ineq>) -> Option<Vec<Ineq>> {
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
 
-    fn row(a: &[f64], b: f64) -> Row {
+    pub(crate) fn row(a: &[f64], b: f64) -> Row {
         Row {
             a: a.to_vec(),
             b,
@@ -264,8 +264,9 @@ mod tests {
         }
     }
 
-    /// A triangle-cut box: 0 ≤ y ≤ 10, y0 + y1 + y2 ≤ 12, y0 − y1 ≥ −2.
-    fn cut_box() -> Polytope {
+    /// A triangle-cut box: 0 ≤ y ≤ 10, y0 + y1 + y2 ≤ 12, y0 − y1 ≥ −2
+    /// (the SQP tests use it too).
+    pub(crate) fn cut_box() -> Polytope {
         let mut rows = Vec::new();
         for d in 0..3 {
             let mut a = vec![0.0; 3];

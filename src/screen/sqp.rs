@@ -375,30 +375,7 @@ fn damped_bfgs(b: &mut [Vec<f64>], s: &[f64], r: &[f64]) {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::screen::polytope::Row;
-
-    fn row(a: &[f64], b: f64) -> Row {
-        Row {
-            a: a.to_vec(),
-            b,
-            label: String::new(),
-        }
-    }
-
-    /// 0 ≤ y_i ≤ 10 and two cuts: Σ y ≤ 12, y0 − y1 ≥ −2 (a slanted vertex set).
-    fn cut_box() -> Polytope {
-        let mut rows = Vec::new();
-        for d in 0..3 {
-            let mut a = vec![0.0; 3];
-            a[d] = 1.0;
-            rows.push(row(&a, 10.0));
-            a[d] = -1.0;
-            rows.push(row(&a, 0.0));
-        }
-        rows.push(row(&[1.0, 1.0, 1.0], 12.0));
-        rows.push(row(&[-1.0, 1.0, 0.0], 2.0));
-        Polytope::from_rows(rows)
-    }
+    use crate::screen::polytope::tests::{cut_box, row};
 
     /// The best vertex of a linear objective, by brute force over every
     /// choice of three rows taken as equalities (an independent method: no
