@@ -5,12 +5,11 @@
 mod app;
 mod cli;
 
-use clap::Parser;
 use quenchwise::error::ErrorKind;
 use std::process::ExitCode;
 
 fn main() -> ExitCode {
-    let cli = cli::Cli::parse();
+    let cli = cli::Cli::parse_args();
     match app::run(cli) {
         Ok(app::Outcome::Finished) => ExitCode::SUCCESS,
         Ok(app::Outcome::Interrupted) => ExitCode::from(130),

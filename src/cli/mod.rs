@@ -7,6 +7,38 @@ use quenchwise::composition::DEFAULT_SUM_TOLERANCE;
 use quenchwise::units::RateUnit;
 use std::path::PathBuf;
 
+/// Every option that takes a value also takes a negative number ("-1"), so
+/// that our own range checks answer (with the unit and the allowed range)
+/// instead of clap's "unexpected argument '-1'".
+fn negative_numbers_are_values(cmd: clap::Command) -> clap::Command {
+    cmd.mut_args(|a| {
+        if a.get_action().takes_values() {
+            a.allow_negative_numbers(true)
+        } else {
+            a
+        }
+    })
+    .mut_subcommands(negative_numbers_are_values)
+}
+
+impl Cli {
+    /// Parse the command line (exits with clap's message on a syntax error).
+    pub fn parse_args() -> Cli {
+        Self::parse_from_iter(std::env::args_os()).unwrap_or_else(|e| e.exit())
+    }
+
+    /// Parse any argument list (the program name first).
+    pub fn parse_from_iter<I, T>(args: I) -> Result<Cli, clap::Error>
+    where
+        I: IntoIterator<Item = T>,
+        T: Into<std::ffi::OsString> + Clone,
+    {
+        use clap::{CommandFactory, FromArgMatches};
+        let matches = negative_numbers_are_values(Cli::command()).try_get_matches_from(args)?;
+        Cli::from_arg_matches(&matches)
+    }
+}
+
 /// A rate unit on the command line.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum RateUnitArg {
@@ -745,7 +777,7 @@ mod tests {
     use super::*;
 
     fn parse(args: &[&str]) -> std::result::Result<Cli, clap::Error> {
-        Cli::try_parse_from(std::iter::once("quenchwise").chain(args.iter().copied()))
+        Cli::parse_from_iter(std::iter::once("quenchwise").chain(args.iter().copied()))
     }
 
     #[test]
@@ -766,6 +798,26 @@ mod tests {
     fn table_inputs_need_out() {
         assert!(parse(&["eval", "--melt-cards", "x.csv"]).is_err());
         assert!(parse(&["eval"]).is_err());
+    }
+
+    #[test]
+    fn a_negative_number_is_a_value_for_our_range_checks() {
+        let c = parse(&[
+            "eval",
+            "--melt",
+            "m.toml",
+            "--uncertainty",
+            "10",
+            "--quench-rate",
+            "-1",
+        ])
+        .unwrap();
+        let Command::Eval(a) = c.command else {
+            panic!()
+        };
+        assert_eq!(a.uncertainty.quench_rate, Some(-1.0));
+        // Flags that take no value still refuse a stray number.
+        assert!(parse(&["eval", "--melt", "m.toml", "--json", "-1"]).is_err());
     }
 
     #[test]
