@@ -458,7 +458,7 @@ pub fn probability_stage_text(problem: &ScreenProblem, o: &ProbabilityOutcome) -
     }
     if let Some(m) = u.min_probability {
         t.push_str(&format!(
-            "\n  {} below min_probability {m}",
+            "\n  {} known to fall below min_probability {m} (drawn, or bounded below it)",
             count(o.below_min, "recipe", "recipes")
         ));
     }

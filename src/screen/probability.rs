@@ -541,3 +541,45 @@ impl Stage<'_> {
         rest
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::uncertainty::sampling::latin_hypercube;
+
+    #[test]
+    fn a_corner_dominates_exactly_the_draws_at_or_below_it_in_every_coordinate() {
+        // Source: in one coordinate with distinct values, exactly j + 1
+        // values lie at or below the (j + 1)-th order statistic (definition
+        // of order statistics).
+        let one: Vec<Vec<Vec<f64>>> = (0..50)
+            .map(|i| vec![vec![((i * 37) % 50) as f64]])
+            .collect();
+        let c = Corners::new(vec![(0, 0, 1.0)], &one);
+        for j in 0..50 {
+            assert_eq!(c.dominated[j], j + 1);
+        }
+        // Two coordinates, one glass-friendly upwards (an α) and one
+        // downwards (a nuclei density): against a count by definition.
+        let two: Vec<Vec<Vec<f64>>> = latin_hypercube(60, 2, 5)
+            .into_iter()
+            .map(|r| vec![vec![r[0]], vec![r[1]]])
+            .collect();
+        let c = Corners::new(vec![(0, 0, 1.0), (1, 0, -1.0)], &two);
+        let centre = vec![vec![0.5], vec![0.5]];
+        for j in 0..60 {
+            let corner = c.values(j, &centre);
+            let count = two
+                .iter()
+                .filter(|d| d[0][0] <= corner[0][0] && d[1][0] >= corner[1][0])
+                .count();
+            assert_eq!(c.dominated[j], count, "corner {j}");
+            assert!((c.bound(j) - (1.0 - count as f64 / 60.0)).abs() < 1e-15);
+        }
+        assert_eq!(c.dominated[59], 60);
+        // The least glass-friendly corner whose bound lies below 0.5.
+        let (j, b) = c.level_below(0.5).unwrap();
+        assert!(b < 0.5 && (j == 0 || c.bound(j - 1) >= 0.5));
+        assert!(c.level_below(0.0).is_none());
+    }
+}
