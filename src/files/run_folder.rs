@@ -1102,7 +1102,12 @@ fn write_outputs(
             shortlist.len(),
         );
         if let Some(p) = probability {
-            text.push_str(&probability_stage_text(problem, p));
+            // Before the closing caution.
+            let stage = probability_stage_text(problem, p);
+            match text.find("caution:") {
+                Some(i) => text.insert_str(i, &stage),
+                None => text.push_str(&stage),
+            }
         }
         folder.write("summary.txt", text.as_bytes())?;
         Ok(())
