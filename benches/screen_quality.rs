@@ -82,6 +82,7 @@ fn name(kind: ObjectiveKind) -> &'static str {
         ObjectiveKind::Cost => "cost per kg",
         ObjectiveKind::Margin => "margin (decades, capped)",
         ObjectiveKind::Blend => "blend",
+        ObjectiveKind::Probability => "probability of a glass",
     }
 }
 
@@ -240,7 +241,10 @@ fn run_screen(p: &RunPlan) -> ScreenResult {
     let t0 = Instant::now();
     let end = screen::run(&p.problem, &p.search, &mut Mem::default(), &mut Unobserved).unwrap();
     let seconds = t0.elapsed().as_secs_f64();
-    let ScreenEnd::Finished { shortlist, summary } = end else {
+    let ScreenEnd::Finished {
+        shortlist, summary, ..
+    } = end
+    else {
         panic!("interrupted")
     };
     let best = shortlist.first().map(|s| {

@@ -24,5 +24,6 @@ mod proptests;
 mod report_browser;
 mod run_folder;
 mod screen;
+mod screen_probability;
 mod slurm;
 mod uncertainty;

@@ -500,7 +500,8 @@ fn a_fitted_model_set_draws_every_fit_and_its_band_holds_the_held_out_glass() {
 }
 
 #[test]
-fn a_nuclei_range_in_a_screen_config_is_refused_with_its_line() {
+fn a_nuclei_range_in_a_screen_config_without_uncertainty_is_refused_with_its_line() {
+    // With an [uncertainty] table the range is drawn (tests/screen_probability.rs).
     let d = temp_dir("uncertainty-screen-range");
     let text = format!(
         "{}\n[kinetics]\nheterogeneous_nuclei_per_m3 = [1e6, 1e12]\n",
@@ -515,7 +516,7 @@ fn a_nuclei_range_in_a_screen_config_is_refused_with_its_line() {
     run_in(&d, &["check", "screen.toml"])
         .code(2)
         .stderr_has(&format!("screen.toml:{line}: "))
-        .stderr_has("read by `eval --uncertainty` only");
+        .stderr_has("is drawn only with an [uncertainty] table");
 }
 
 #[test]

@@ -63,7 +63,7 @@ pub fn check(a: CheckArgs) -> Result<Outcome, Error> {
     let problem = &plan.problem;
     let simplex = Simplex::new(problem);
     println!(
-        "{}: valid. {} oxides vary ({} free, {} closes the sum); {} linear constraints; {} first-pass points in {} chunks; R_c must be ≤ {:.4} K/s",
+        "{}: valid. {} oxides vary ({} free, {} closes the sum); {} linear constraints; {} first-pass points in {} chunks; {}",
         a.config.display(),
         problem.oxides.len(),
         simplex.dims(),
@@ -71,7 +71,13 @@ pub fn check(a: CheckArgs) -> Result<Outcome, Error> {
         problem.constraints.len(),
         plan.search.first_pass_points,
         chunk_count(&plan.search),
-        problem.allowed_rate().0
+        match problem.uncertainty.and_then(|u| u.min_probability) {
+            Some(p) => format!(
+                "P(glassy at {:.4} K/s) must be ≥ {p} (the probability decides, not the safety factor)",
+                problem.equipment.rate.0
+            ),
+            None => format!("R_c must be ≤ {:.4} K/s", problem.allowed_rate().0),
+        }
     );
     Ok(Outcome::Finished)
 }

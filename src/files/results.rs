@@ -9,13 +9,16 @@ use crate::batch::least_cost_batch;
 use crate::composition::{Composition, Oxide, N_OXIDES};
 use crate::error::{Error, ResultExt};
 use crate::report::html::{ReportRecipe, ScreenReport};
-use crate::report::plot::TradePoint;
-use crate::report::records::{oxide_column, oxide_of_column, Cell, RESULT_FIELDS};
+use crate::report::plot::{ProbabilityPoint, TradePoint};
+use crate::report::records::{fields, oxide_column, oxide_of_column, Cell};
 use crate::report::text::{batch_csv, batch_text, evaluation_text};
 use crate::screen::{evaluate_candidate_with, Pass, Row, ScreenProblem, Shortlisted};
 use crate::units::kelvin_to_celsius;
 use polars::prelude::*;
 use std::path::{Path, PathBuf};
+
+/// The table of every recipe a screen's Monte Carlo stage drew.
+pub const DRAWN_TABLE: &str = "drawn-recipes.csv";
 
 /// The screen's table of rows: `rank` and the result columns for the
 /// shortlist; index, pass, feasibility, broken limits, objective, the result
@@ -27,6 +30,21 @@ pub(crate) fn rows_frame(
     problem: &ScreenProblem,
     rows: &[&Row],
     with_rank: bool,
+) -> PolarsResult<DataFrame> {
+    rows_frame_with(problem, rows, with_rank, false)
+}
+
+/// As [`rows_frame`], with the Monte Carlo columns after the result columns
+/// when `probability` (the shortlist and the drawn recipes of a screen with
+/// `[uncertainty]`).
+///
+/// # Errors
+/// Polars refuses the columns.
+pub(crate) fn rows_frame_with(
+    problem: &ScreenProblem,
+    rows: &[&Row],
+    with_rank: bool,
+    probability: bool,
 ) -> PolarsResult<DataFrame> {
     let mut cols: Vec<Column> = Vec::new();
     if with_rank {
@@ -64,7 +82,7 @@ pub(crate) fn rows_frame(
                 .collect::<Vec<_>>(),
         ));
     }
-    for f in RESULT_FIELDS {
+    for f in fields(probability) {
         let cells: Vec<Cell> = rows.iter().map(|r| (f.get)(r)).collect();
         let col = if cells.iter().all(|c| matches!(c, Cell::Num(_))) {
             Column::new(
@@ -124,7 +142,7 @@ pub(crate) fn shortlist_json(problem: &ScreenProblem, rows: &[&Row]) -> String {
             for (o, ..) in &problem.oxides {
                 m.insert(oxide_column(*o), r.mol_pct[o.index()].into());
             }
-            for f in RESULT_FIELDS {
+            for f in fields(problem.uncertainty.is_some()) {
                 let v = match (f.get)(r) {
                     Cell::Num(v) => v.map(serde_json::Value::from).unwrap_or_default(),
                     Cell::Text(v) => v.map(serde_json::Value::from).unwrap_or_default(),
@@ -179,6 +197,91 @@ pub(crate) fn write_batch_sheets(
         )?;
     }
     Ok(())
+}
+
+/// A number column of a table, if it has one by that name.
+fn number_column(
+    df: &DataFrame,
+    name: &str,
+    file: &str,
+) -> Result<Option<Vec<Option<f64>>>, Error> {
+    let Ok(c) = df.column(name) else {
+        return Ok(None);
+    };
+    let bad = |e: PolarsError| Error::bad_input(format!("{file}: column {name}: {e}"));
+    let v = c.cast(&DataType::Float64).map_err(bad)?;
+    Ok(Some(v.f64().map_err(bad)?.iter().collect()))
+}
+
+/// The Monte Carlo columns of shortlist.csv, put back on the re-evaluated
+/// rows (a screen without `[uncertainty]` has none).
+fn restore_probability(dir: &Path, rows: &mut [&mut Row]) -> Result<(), Error> {
+    let file = "shortlist.csv";
+    let df = read_frame(&dir.join(file))?;
+    let p = number_column(&df, "probability_glassy", file)?;
+    let lo = number_column(&df, "critical_rate_p05_k_per_s", file)?;
+    let hi = number_column(&df, "critical_rate_p95_k_per_s", file)?;
+    let vouched: Option<Vec<Option<bool>>> = df
+        .column("band_vouched")
+        .ok()
+        .and_then(|c| c.bool().ok().map(|b| b.iter().collect()));
+    for (i, r) in rows.iter_mut().enumerate() {
+        let at =
+            |c: &Option<Vec<Option<f64>>>| c.as_ref().and_then(|v| v.get(i).copied().flatten());
+        r.probability_glassy = at(&p);
+        r.critical_rate_p05_k_per_s = at(&lo);
+        r.critical_rate_p95_k_per_s = at(&hi);
+        r.band_vouched = vouched.as_ref().and_then(|v| v.get(i).copied().flatten());
+    }
+    Ok(())
+}
+
+/// Every recipe the Monte Carlo stage drew against cost per kg (or, for a
+/// screen without prices, melting temperature in °C), the shortlist marked.
+fn probability_points(
+    dir: &Path,
+    short: &[ReportRecipe],
+    by_cost: bool,
+) -> Result<Vec<ProbabilityPoint>, Error> {
+    let path = dir.join(DRAWN_TABLE);
+    if !path.exists() {
+        return Ok(Vec::new());
+    }
+    let df = read_frame(&path)?;
+    let x_name = if by_cost {
+        "cost_per_kg"
+    } else {
+        "melting_temperature_k"
+    };
+    let x = number_column(&df, x_name, DRAWN_TABLE)?.unwrap_or_default();
+    let p = number_column(&df, "probability_glassy", DRAWN_TABLE)?.unwrap_or_default();
+    let shown = |v: f64| if by_cost { v } else { kelvin_to_celsius(v) };
+    let mut out: Vec<ProbabilityPoint> = x
+        .iter()
+        .zip(&p)
+        .filter_map(|(x, p)| {
+            Some(ProbabilityPoint {
+                x: shown((*x)?),
+                probability: (*p)?,
+                shortlisted: false,
+            })
+        })
+        .collect();
+    for s in short {
+        let x = if by_cost {
+            s.row.cost_per_kg
+        } else {
+            s.row.melting_temperature_k
+        };
+        if let (Some(x), Some(p)) = (x, s.row.probability_glassy) {
+            out.push(ProbabilityPoint {
+                x: shown(x),
+                probability: p,
+                shortlisted: true,
+            });
+        }
+    }
+    Ok(out)
 }
 
 /// The shortlisted compositions as written to shortlist.csv, in rank order.
@@ -326,6 +429,8 @@ pub(crate) fn read_finished_run(dir: &Path) -> Result<(RunPlan, Vec<ReportRecipe
             batch_text: batch,
         });
     }
+    let mut rows: Vec<&mut Row> = recipes.iter_mut().map(|r| &mut r.row).collect();
+    restore_probability(dir, &mut rows)?;
     let summary = std::fs::read_to_string(dir.join("summary.txt")).unwrap_or_default();
     Ok((plan, recipes, summary))
 }
@@ -338,12 +443,14 @@ pub fn write_report(folder: &RunFolder) -> Result<PathBuf, Error> {
     let dir = folder.root();
     let (plan, recipes, summary) = read_finished_run(dir)?;
     let (by_cost, by_melting) = trade_points(dir, &recipes)?;
+    let by_probability = probability_points(dir, &recipes, plan.problem.cost.is_some())?;
     let html = crate::report::html::screen_report_html(&ScreenReport {
         problem: &plan.problem,
         seed: plan.search.seed,
         recipes,
         by_cost,
         by_melting,
+        by_probability,
         summary,
     });
     folder.write("report.html", html.as_bytes())

@@ -22,11 +22,14 @@
 //! A screen may also be split into shards (`--shard K/N`, one per cluster
 //! task), each keeping its share of the first pass, and merged
 //! ([`merge`]) into exactly the result one process gives.
-use super::results::{rows_frame, shortlist_json, write_batch_sheets, write_report};
+use super::results::{
+    rows_frame, rows_frame_with, shortlist_json, write_batch_sheets, write_report, DRAWN_TABLE,
+};
 use super::screen_config::{self, RunPlan};
 use super::table::write_frame;
 use crate::error::Error;
-use crate::report::text::{binding_text, screen_summary_text};
+use crate::report::text::{binding_text, probability_stage_text, screen_summary_text};
+use crate::screen::probability::ProbabilityOutcome;
 use crate::screen::{
     self, chunk_count, Row, ScreenEnd, ScreenObserver, ScreenStore, Stage, Unobserved,
 };
@@ -779,14 +782,18 @@ fn finish(
 ) -> Result<Outcome, Error> {
     let mut observer = observer(plan, folder, o, watcher);
     let end = pool.install(|| screen::run(&plan.problem, &plan.search, store, &mut observer))?;
-    let (shortlist, summary) = match end {
+    let (shortlist, summary, probability) = match end {
         ScreenEnd::Interrupted { stage, done, total } => {
             return Ok(Outcome::Interrupted { stage, done, total })
         }
         ScreenEnd::ChunksKept { .. } => {
             return Err(Error::internal("a whole run stopped after its chunks"))
         }
-        ScreenEnd::Finished { shortlist, summary } => (shortlist, summary),
+        ScreenEnd::Finished {
+            shortlist,
+            summary,
+            probability,
+        } => (shortlist, summary, probability),
     };
     if let Some(w) = observer.writer.take() {
         w.finish()
@@ -796,9 +803,15 @@ fn finish(
         std::fs::rename(&tmp, &to).map_err(|e| Error::io("renaming", &tmp, e))?;
     }
     let notices = std::mem::take(&mut observer.notices);
-    let written = write_outputs(plan, folder, &shortlist, &summary, o.report, &mut || {
-        observer.stop_now()
-    })?;
+    let written = write_outputs(
+        plan,
+        folder,
+        &shortlist,
+        &summary,
+        probability.as_deref(),
+        o.report,
+        &mut || observer.stop_now(),
+    )?;
     if let Some((done, total)) = written {
         return Ok(Outcome::Interrupted {
             stage: Stage::Outputs,
@@ -1022,6 +1035,7 @@ fn write_outputs(
     folder: &RunFolder,
     shortlist: &[screen::Shortlisted],
     summary: &screen::LimitSummary,
+    probability: Option<&ProbabilityOutcome>,
     report: bool,
     stop: &mut dyn FnMut() -> bool,
 ) -> Result<Option<(usize, usize)>, Error> {
@@ -1029,11 +1043,20 @@ fn write_outputs(
     let rows: Vec<&Row> = shortlist.iter().map(|s| &s.row).collect();
     let mut steps: Vec<Box<dyn FnOnce() -> Result<(), Error> + '_>> = Vec::new();
     steps.push(Box::new(|| {
-        let mut df = rows_frame(problem, &rows, true)
+        let with_p = problem.uncertainty.is_some();
+        let mut df = rows_frame_with(problem, &rows, true, with_p)
             .map_err(|e| Error::internal(format!("building the shortlist table: {e}")))?;
         write_frame(&folder.own("shortlist.csv")?, &mut df)?;
         write_frame(&folder.own("shortlist.parquet")?, &mut df)?;
         folder.write("shortlist.json", shortlist_json(problem, &rows).as_bytes())?;
+        if let Some(p) = probability {
+            // Every recipe the Monte Carlo stage drew (the report's
+            // probability-against-cost picture reads it).
+            let drawn: Vec<&Row> = p.drawn.iter().collect();
+            let mut df = rows_frame_with(problem, &drawn, false, true)
+                .map_err(|e| Error::internal(format!("building the drawn-recipes table: {e}")))?;
+            write_frame(&folder.own(DRAWN_TABLE)?, &mut df)?;
+        }
         Ok(())
     }));
     steps.push(Box::new(|| write_batch_sheets(plan, folder, shortlist)));
@@ -1072,12 +1095,20 @@ fn write_outputs(
             lim.push_str(&format!("\"{}\",{any},{only}\n", l.label()));
         }
         folder.write("limits.csv", lim.as_bytes())?;
-        let text = screen_summary_text(
+        let mut text = screen_summary_text(
             &plan.config_path.display().to_string(),
             problem,
             summary,
             shortlist.len(),
         );
+        if let Some(p) = probability {
+            // Before the closing caution.
+            let stage = probability_stage_text(problem, p);
+            match text.find("caution:") {
+                Some(i) => text.insert_str(i, &stage),
+                None => text.push_str(&stage),
+            }
+        }
         folder.write("summary.txt", text.as_bytes())?;
         Ok(())
     }));

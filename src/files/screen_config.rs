@@ -14,9 +14,11 @@ use crate::error::Error;
 use crate::kinetics::KineticOptions;
 use crate::report::text::DEMO_SHELF_LABEL;
 use crate::screen::{
-    CostLimit, Equipment, LinearConstraint, ObjectiveKind, ScreenProblem, Search, Weights,
-    DEFAULT_MARGIN_CAP_DECADES,
+    CostLimit, Equipment, LinearConstraint, ObjectiveKind, ScreenProblem, ScreenUncertainty,
+    Search, Weights, DEFAULT_MARGIN_CAP_DECADES,
 };
+use crate::uncertainty::melt::model_set_inputs;
+use crate::uncertainty::MIN_DRAWS;
 use crate::units::{Celsius, RateUnit, CELSIUS_OFFSET};
 use serde::Deserialize;
 use std::collections::BTreeMap;
@@ -45,6 +47,30 @@ struct RawConfig {
     models: Option<RawModels>,
     #[serde(default)]
     kinetics: Option<KineticsTable>,
+    #[serde(default)]
+    uncertainty: Option<Spanned<RawUncertainty>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawUncertainty {
+    #[serde(default = "default_draws")]
+    draws: Spanned<usize>,
+    #[serde(default)]
+    min_probability: Option<Spanned<f64>>,
+    #[serde(default)]
+    seed: Option<u64>,
+}
+
+/// Draws per recipe when `[uncertainty]` does not say: a probability to
+/// about ±0.035 (binomial standard error at p = 0.5).
+pub const DEFAULT_SCREEN_DRAWS: usize = 200;
+/// The most draws per recipe a screen may ask for (each recipe drawn costs
+/// this many critical-rate solves).
+pub const MAX_SCREEN_DRAWS: usize = 100_000;
+
+fn default_draws() -> Spanned<usize> {
+    Spanned::new(0..0, DEFAULT_SCREEN_DRAWS)
 }
 
 #[derive(Deserialize)]
@@ -650,10 +676,53 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         .map(|b| bounds("working_range_k", b, 0.0, "K"));
     let kin_table = raw.kinetics.unwrap_or_default();
     let kin = kin_table.overrides().apply(KineticOptions::default());
-    if let Some((_, span)) = kin_table.nuclei_range() {
+    let mut nuclei_range = None;
+    if let Some((r, span)) = kin_table.nuclei_range() {
+        if raw.uncertainty.is_none() {
+            push(
+                span,
+                "[kinetics]: a range of heterogeneous_nuclei_per_m3 is drawn only with an [uncertainty] table; give one number here, or add [uncertainty]".into(),
+            );
+        } else if r.len() == 2 && r.iter().all(|v| v.is_finite()) && 0.0 < r[0] && r[0] <= r[1] {
+            nuclei_range = Some((r[0], r[1]));
+        } else {
+            push(
+                span,
+                format!("[kinetics]: heterogeneous_nuclei_per_m3 = [lo, hi] needs 0 < lo <= hi per m³, got {r:?}"),
+            );
+        }
+    }
+    let uncertainty = raw.uncertainty.as_ref().map(|t| {
+        let t = t.get_ref();
+        let draws = *t.draws.get_ref();
+        if !(MIN_DRAWS..=MAX_SCREEN_DRAWS).contains(&draws) {
+            push(
+                t.draws.span(),
+                format!("[uncertainty] draws must be between {MIN_DRAWS} and {MAX_SCREEN_DRAWS} per recipe drawn, got {draws}"),
+            );
+        }
+        let min_probability = t.min_probability.as_ref().map(|m| {
+            let v = *m.get_ref();
+            if !(v.is_finite() && v > 0.0 && v <= 1.0) {
+                push(
+                    m.span(),
+                    format!("[uncertainty] min_probability must be a probability above 0 and at most 1, got {v}"),
+                );
+            }
+            v
+        });
+        ScreenUncertainty {
+            draws,
+            seed: t.seed.unwrap_or(raw.search.seed),
+            min_probability,
+            nuclei_range_per_m3: nuclei_range,
+            preselection: Default::default(),
+        }
+    });
+    if objective == ObjectiveKind::Probability && uncertainty.is_none() {
         push(
-            span,
-            "[kinetics]: a range of heterogeneous_nuclei_per_m3 is read by `eval --uncertainty` only; give one number here".into(),
+            raw.objective.as_ref().map_or(0..0, |o| o.kind.span()),
+            "objective kind = \"probability\" needs an [uncertainty] table (draws = N, and min_probability = p if a recipe must reach it)".into(),
         );
     }
     if let Err(e) = kin.validate() {
@@ -714,6 +783,24 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
             return Err(src_error(&src, problems, hint).into());
         }
     }
+    // The draws need spreads: the set's fit records, a turnbull_alpha_sd, or
+    // a range of the nuclei density.
+    if let (Some(t), Some(u)) = (&raw.uncertainty, &uncertainty) {
+        match model_set_inputs(&models, &kin, u.nuclei_range_per_m3) {
+            Ok((inputs, _)) if !inputs.is_empty() => {}
+            Ok(_) => problems.push(src.problem(
+                t.span(),
+                format!(
+                    "[uncertainty]: model set '{}' gives no spread to draw from (no fit record, no turnbull_alpha_sd) and [kinetics] gives no heterogeneous_nuclei_per_m3 = [lo, hi]",
+                    models.about.name
+                ),
+            )),
+            Err(e) => problems.push(src.problem(t.span(), format!("[uncertainty]: {e}"))),
+        }
+        if !problems.is_empty() {
+            return Err(src_error(&src, problems, hint).into());
+        }
+    }
     let config_hash = fnv1a(format!("{}\n{}", env!("CARGO_PKG_VERSION"), text).as_bytes());
     let batch_model = cost.as_ref().map(|c| c.0.clone());
     let cost = cost.map(|(model, max_per_kg, label)| CostLimit {
@@ -747,6 +834,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
             kinetic_options: kin,
             shortlist_size: size,
             min_distance_mol_pct: distance,
+            uncertainty,
         },
         search: Search {
             seed: raw.search.seed,

@@ -3,7 +3,7 @@
 //! and why. It renders values it is given; reading a results folder is the
 //! job of `files::results`.
 
-use super::plot::{self, TradePoint};
+use super::plot::{self, ProbabilityPoint, TradePoint};
 use super::text::{sig, CAUTION};
 use crate::assess::Evaluation;
 use crate::composition::Oxide;
@@ -70,6 +70,9 @@ pub struct ScreenReport<'a> {
     pub by_cost: Vec<TradePoint>,
     /// The same against melting temperature in °C.
     pub by_melting: Vec<TradePoint>,
+    /// Every recipe the Monte Carlo stage drew: P(glassy) against cost per
+    /// kg (or melting temperature in °C when the screen prices nothing).
+    pub by_probability: Vec<ProbabilityPoint>,
     /// The run summary (summary.txt).
     pub summary: String,
 }
@@ -167,6 +170,27 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
         margin,
         problem.equipment.safety_factor.log10()
     );
+    let band = match (
+        l.row.critical_rate_p05_k_per_s,
+        l.row.critical_rate_p95_k_per_s,
+    ) {
+        (Some(lo), Some(hi)) => Some((lo, hi)),
+        _ => None,
+    };
+    if let (Some((lo, hi)), Some(p)) = (band, l.row.probability_glassy) {
+        let _ = write!(
+            h,
+            "<p>From the models' spreads: R_c lies between <b>{} and {} K/s</b> in 90 % of the draws (5–95 %), and the probability of a glass at {} K/s is <b>{p:.3}</b>.{}</p>",
+            sig(lo),
+            sig(hi),
+            sig(problem.equipment.rate.0),
+            if l.row.band_vouched == Some(false) {
+                " ⚠ The band reaches below 1e-3 K/s, beyond what the model can vouch for."
+            } else {
+                ""
+            }
+        );
+    }
     h.push_str(&property_table(e));
     match e.kinetics() {
         Ok(k) => {
@@ -175,19 +199,21 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
             let _ = write!(
                 h,
                 "<figure>{}</figure>",
-                inline(&plot::ttt_svg(
+                inline(&plot::ttt_band_svg(
                     &k,
                     s,
                     Some((problem.equipment.rate, &problem.equipment.name)),
+                    band,
                     &title
                 ))
             );
             let _ = write!(
                 h,
                 "<figure>{}</figure>",
-                inline(&plot::fraction_svg(
+                inline(&plot::fraction_band_svg(
                     &k,
                     s,
+                    band,
                     &format!("Continuous cooling, rank {}", l.rank)
                 ))
             );
@@ -275,11 +301,33 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
             plan.equipment.safety_factor
         ),
     );
-    row(
-        &mut h,
-        "critical rate must be at most",
-        format!("{} K/s", sig(plan.allowed_rate().0)),
-    );
+    if let Some(u) = plan.uncertainty.filter(|u| u.min_probability.is_some()) {
+        row(
+            &mut h,
+            "feasibility at the quench decided by",
+            format!(
+                "the probability: P(glassy at {} K/s) ≥ {} over {} draws of the models' spreads (seed {}); the safety factor is not used",
+                sig(plan.equipment.rate.0),
+                u.min_probability.unwrap_or(0.0),
+                u.draws,
+                u.seed
+            ),
+        );
+    } else {
+        row(
+            &mut h,
+            "feasibility at the quench decided by",
+            format!(
+                "the safety factor: R_c ≤ {} K/s{}",
+                sig(plan.allowed_rate().0),
+                if plan.uncertainty.is_some() {
+                    " (the probability is shown; no min_probability asked)"
+                } else {
+                    " (no uncertainty data)"
+                }
+            ),
+        );
+    }
     row(
         &mut h,
         "furnace",
@@ -372,7 +420,12 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
         for (o, _) in &r.recipes[0].mol_pct {
             let _ = write!(h, "<th>{o}<br/>mol%</th>");
         }
-        h.push_str("<th>R_c<br/>K/s</th><th>margin<br/>decades</th><th>melting<br/>°C</th><th>liquidus<br/>°C</th><th class=\"l\">primary phase</th><th>T_g<br/>°C</th><th>cost<br/>per kg</th><th class=\"l\">binding</th></tr>");
+        h.push_str("<th>R_c<br/>K/s</th>");
+        let mc = plan.uncertainty.is_some();
+        if mc {
+            h.push_str("<th>P(glassy)</th><th>R_c 5 %<br/>K/s</th><th>R_c 95 %<br/>K/s</th>");
+        }
+        h.push_str("<th>margin<br/>decades</th><th>melting<br/>°C</th><th>liquidus<br/>°C</th><th class=\"l\">primary phase</th><th>T_g<br/>°C</th><th>cost<br/>per kg</th><th class=\"l\">binding</th></tr>");
         for l in &r.recipes {
             let _ = write!(h, "<tr><td><a href=\"#rank-{0}\">{0}</a></td>", l.rank);
             for (_, v) in &l.mol_pct {
@@ -383,8 +436,28 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
             let w = &l.row;
             let _ = write!(
                 h,
-                "<td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"l\">{}</td><td>{}</td><td>{}</td><td class=\"l\">{}</td></tr>",
-                w.critical_rate_k_per_s.map(sig).unwrap_or_default(),
+                "<td>{}</td>",
+                w.critical_rate_k_per_s.map(sig).unwrap_or_default()
+            );
+            if mc {
+                // A band end beyond what the model can vouch for is marked
+                // as the point estimate's warning marks R_c.
+                let mark = if w.band_vouched == Some(false) {
+                    " ⚠"
+                } else {
+                    ""
+                };
+                let _ = write!(
+                    h,
+                    "<td>{}</td><td>{}{mark}</td><td>{}</td>",
+                    f(w.probability_glassy, 3),
+                    w.critical_rate_p05_k_per_s.map(sig).unwrap_or_default(),
+                    w.critical_rate_p95_k_per_s.map(sig).unwrap_or_default()
+                );
+            }
+            let _ = write!(
+                h,
+                "<td>{}</td><td>{}</td><td>{}</td><td class=\"l\">{}</td><td>{}</td><td>{}</td><td class=\"l\">{}</td></tr>",
                 f(w.margin_decades, 2),
                 c(w.melting_temperature_k),
                 c(w.liquidus_k),
@@ -420,6 +493,24 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
             "Critical rate against melting temperature"
         ))
     );
+    if let Some(u) = plan.uncertainty {
+        let x_desc = if plan.cost.is_some() {
+            "cost per kg of glass"
+        } else {
+            "melting temperature (10 Pa·s) / °C"
+        };
+        let _ = write!(
+            h,
+            "<figure>{}</figure><p class=\"note\">Every recipe the Monte Carlo stage drew ({} draws each); recipes the bound showed could not reach the shortlist were not drawn and are not shown.</p>",
+            inline(&plot::probability_svg(
+                &r.by_probability,
+                x_desc,
+                u.min_probability,
+                &format!("Probability of a glass at {} K/s against {}", sig(plan.equipment.rate.0), if plan.cost.is_some() { "cost" } else { "melting temperature" })
+            )),
+            u.draws
+        );
+    }
     // Per-recipe sections.
     let _ = write!(h, "<h2>The recipes</h2>");
     for l in &r.recipes {

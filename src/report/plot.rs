@@ -17,6 +17,8 @@ const AMBER: RGBColor = RGBColor(214, 140, 30);
 const BRICK: RGBColor = RGBColor(170, 60, 50);
 const STONE: RGBColor = RGBColor(150, 150, 140);
 const MOSS: RGBColor = RGBColor(90, 130, 60);
+/// The band of a Monte Carlo critical rate: a lighter brick.
+const ROSE: RGBColor = RGBColor(214, 140, 130);
 
 /// Picture size in pixels.
 pub const SIZE: (u32, u32) = (760, 500);
@@ -71,6 +73,18 @@ pub fn ttt_svg(
     k: &Kinetics,
     s: &KineticSummary,
     equipment: Option<(KelvinPerSecond, &str)>,
+    title: &str,
+) -> String {
+    ttt_band_svg(k, s, equipment, None, title)
+}
+
+/// As [`ttt_svg`], with the 5–95 % band of the critical rate from Monte
+/// Carlo draws (K/s) as two cooling lines in a lighter brick, when given.
+pub fn ttt_band_svg(
+    k: &Kinetics,
+    s: &KineticSummary,
+    equipment: Option<(KelvinPerSecond, &str)>,
+    band: Option<(f64, f64)>,
     title: &str,
 ) -> String {
     let pts: Vec<(f64, f64)> = k
@@ -144,6 +158,10 @@ pub fn ttt_svg(
         if let Some((r, name)) = equipment {
             lines.push((r, name.to_string(), AMBER));
         }
+        if let Some((lo, hi)) = band {
+            lines.push((KelvinPerSecond(lo), "R_c 5 % quantile".to_string(), ROSE));
+            lines.push((KelvinPerSecond(hi), "R_c 95 % quantile".to_string(), ROSE));
+        }
         for (rate, label, colour) in lines {
             if rate.0.is_nan() || rate.0 <= 0.0 {
                 continue;
@@ -191,13 +209,29 @@ pub fn ttt_svg(
 
 /// Transformed fraction after constant-rate cooling against the rate, with X_c.
 pub fn fraction_svg(k: &Kinetics, s: &KineticSummary, title: &str) -> String {
+    fraction_band_svg(k, s, None, title)
+}
+
+/// As [`fraction_svg`], with the 5–95 % band of the critical rate from
+/// Monte Carlo draws (K/s) shaded, when given; the rate axis widens to hold it.
+pub fn fraction_band_svg(
+    k: &Kinetics,
+    s: &KineticSummary,
+    band: Option<(f64, f64)>,
+    title: &str,
+) -> String {
     let rc = s.critical_rate.0;
     if !(rc > 0.0 && rc.is_finite()) {
         return message_svg(title, "no critical cooling rate to draw around");
     }
+    let band = band.filter(|(lo, hi)| lo.is_finite() && hi.is_finite() && *lo > 0.0 && lo <= hi);
+    let (r0, r1) = match band {
+        Some((lo, hi)) => ((rc / 1e3).min(lo / 3.0), (rc * 1e3).max(hi * 3.0)),
+        None => (rc / 1e3, rc * 1e3),
+    };
     let xc = k.options().detectable_fraction;
     let rates: Vec<f64> = (0..=60)
-        .map(|i| rc * 10f64.powf(-3.0 + 6.0 * i as f64 / 60.0))
+        .map(|i| r0 * (r1 / r0).powf(i as f64 / 60.0))
         .collect();
     let pts: Vec<(f64, f64)> = rates
         .iter()
@@ -216,10 +250,7 @@ pub fn fraction_svg(k: &Kinetics, s: &KineticSummary, title: &str) -> String {
             .margin(14)
             .x_label_area_size(46)
             .y_label_area_size(70)
-            .build_cartesian_2d(
-                (rc / 1e3..rc * 1e3).log_scale(),
-                (1e-16f64..1.0).log_scale(),
-            )
+            .build_cartesian_2d((r0..r1).log_scale(), (1e-16f64..1.0).log_scale())
             .map_err(e)?;
         chart
             .configure_mesh()
@@ -233,6 +264,18 @@ pub fn fraction_svg(k: &Kinetics, s: &KineticSummary, title: &str) -> String {
             .bold_line_style(STONE.mix(0.25))
             .draw()
             .map_err(e)?;
+        if let Some((lo, hi)) = band {
+            chart
+                .draw_series(std::iter::once(Rectangle::new(
+                    [(lo, 1e-16), (hi, 1.0)],
+                    ROSE.mix(0.3).filled(),
+                )))
+                .map_err(e)?
+                .label(format!("R_c 5–95 % band: {lo:.3e} – {hi:.3e} K/s"))
+                .legend(|(x, y)| {
+                    Rectangle::new([(x, y - 5), (x + 22, y + 5)], ROSE.mix(0.5).filled())
+                });
+        }
         chart
             .draw_series(LineSeries::new(
                 pts.into_iter().filter(|p| p.1 >= 1e-16),
@@ -243,7 +286,7 @@ pub fn fraction_svg(k: &Kinetics, s: &KineticSummary, title: &str) -> String {
             .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 22, y)], TEAL.stroke_width(3)));
         chart
             .draw_series(LineSeries::new(
-                vec![(rc / 1e3, xc), (rc * 1e3, xc)],
+                vec![(r0, xc), (r1, xc)],
                 STONE.stroke_width(1),
             ))
             .map_err(e)?
@@ -584,6 +627,108 @@ pub fn tradeoff_svg(points: &[TradePoint], x_desc: &str, allowed_rate: f64, titl
             .background_style(GROUND.mix(0.9))
             .border_style(STONE)
             .label_font(("sans-serif", 13).into_font().color(&INK))
+            .draw()
+            .map_err(e)?;
+        root.present().map_err(e)
+    })();
+    r.map(|_| svg).unwrap_or_else(|m| message_svg(title, &m))
+}
+
+/// One recipe of the probability trade-off: a quantity (cost per kg, or
+/// melting temperature) against P(glassy at the equipment rate).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ProbabilityPoint {
+    pub x: f64,
+    pub probability: f64,
+    pub shortlisted: bool,
+}
+
+/// P(glassy at the equipment rate) against a quantity for every recipe the
+/// Monte Carlo stage drew, the shortlist marked, and `min_probability` as a
+/// line when the screen asks for one.
+pub fn probability_svg(
+    points: &[ProbabilityPoint],
+    x_desc: &str,
+    min_probability: Option<f64>,
+    title: &str,
+) -> String {
+    let usable: Vec<&ProbabilityPoint> = points
+        .iter()
+        .filter(|p| p.x.is_finite() && p.probability.is_finite())
+        .collect();
+    if usable.is_empty() {
+        return message_svg(title, "no recipe was drawn with this quantity to plot");
+    }
+    let (mut x0, mut x1) = usable
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), p| {
+            (a.min(p.x), b.max(p.x))
+        });
+    if x1 <= x0 {
+        x0 -= 1.0;
+        x1 += 1.0;
+    }
+    let pad = 0.04 * (x1 - x0);
+    let mut svg = String::new();
+    let r: Res = (|| {
+        let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
+        root.fill(&GROUND).map_err(e)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(title, ("sans-serif", 17).into_font().color(&INK))
+            .margin(14)
+            .x_label_area_size(46)
+            .y_label_area_size(70)
+            .build_cartesian_2d(x0 - pad..x1 + pad, -0.03f64..1.03)
+            .map_err(e)?;
+        chart
+            .configure_mesh()
+            .y_label_formatter(&|v| axis_label(*v))
+            .x_desc(x_desc)
+            .y_desc("P(glassy at the equipment rate)")
+            .axis_desc_style(("sans-serif", 15).into_font().color(&INK))
+            .label_style(("sans-serif", 13).into_font().color(&INK))
+            .light_line_style(GROUND.mix(0.0))
+            .bold_line_style(STONE.mix(0.25))
+            .draw()
+            .map_err(e)?;
+        chart
+            .draw_series(
+                usable
+                    .iter()
+                    .filter(|p| !p.shortlisted)
+                    .map(|p| Circle::new((p.x, p.probability), 3, TEAL.mix(0.7).filled())),
+            )
+            .map_err(e)?
+            .label("drawn")
+            .legend(|(x, y)| Circle::new((x + 10, y), 3, TEAL.filled()));
+        chart
+            .draw_series(
+                usable
+                    .iter()
+                    .filter(|p| p.shortlisted)
+                    .map(|p| Circle::new((p.x, p.probability), 6, BRICK.filled())),
+            )
+            .map_err(e)?
+            .label("shortlisted")
+            .legend(|(x, y)| Circle::new((x + 10, y), 5, BRICK.filled()));
+        if let Some(m) = min_probability {
+            chart
+                .draw_series(LineSeries::new(
+                    vec![(x0 - pad, m), (x1 + pad, m)],
+                    AMBER.stroke_width(2),
+                ))
+                .map_err(e)?
+                .label(format!("min_probability {m}"))
+                .legend(|(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 22, y)], AMBER.stroke_width(2))
+                });
+        }
+        chart
+            .configure_series_labels()
+            .background_style(GROUND.mix(0.9))
+            .border_style(STONE)
+            .label_font(("sans-serif", 13).into_font().color(&INK))
+            .position(SeriesLabelPosition::LowerLeft)
             .draw()
             .map_err(e)?;
         root.present().map_err(e)

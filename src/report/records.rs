@@ -76,6 +76,39 @@ pub const RESULT_FIELDS: [Field; 12] = [
     },
 ];
 
+/// The columns of a screen's Monte Carlo stage (a config with
+/// `[uncertainty]`), after the result columns in the shortlist and in the
+/// table of the recipes drawn; the candidates table, written before the
+/// draws, does not carry them.
+pub const PROBABILITY_FIELDS: [Field; 4] = [
+    Field {
+        name: "probability_glassy",
+        get: |r| Cell::Num(r.probability_glassy),
+    },
+    Field {
+        name: "critical_rate_p05_k_per_s",
+        get: |r| Cell::Num(r.critical_rate_p05_k_per_s),
+    },
+    Field {
+        name: "critical_rate_p95_k_per_s",
+        get: |r| Cell::Num(r.critical_rate_p95_k_per_s),
+    },
+    Field {
+        name: "band_vouched",
+        get: |r| Cell::Bool(r.band_vouched),
+    },
+];
+
+/// The result columns of a table, with the Monte Carlo columns when asked.
+pub fn fields(with_probability: bool) -> impl Iterator<Item = &'static Field> {
+    let extra: &'static [Field] = if with_probability {
+        &PROBABILITY_FIELDS
+    } else {
+        &[]
+    };
+    RESULT_FIELDS.iter().chain(extra)
+}
+
 /// The column of an oxide's amount.
 pub fn oxide_column(o: Oxide) -> String {
     format!("{o}_mol_pct")
@@ -88,7 +121,7 @@ pub fn oxide_of_column(name: &str) -> Option<Oxide> {
 
 /// A result field by name.
 pub fn field(name: &str) -> Option<&'static Field> {
-    RESULT_FIELDS.iter().find(|f| f.name == name)
+    fields(true).find(|f| f.name == name)
 }
 
 #[cfg(test)]

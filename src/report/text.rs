@@ -6,6 +6,7 @@ use crate::assess::Evaluation;
 use crate::batch::Batch;
 use crate::composition::{Composition, Oxide};
 use crate::kinetics::{DrivingForce, KineticOptions, Transport};
+use crate::screen::probability::ProbabilityOutcome;
 use crate::screen::{LimitSummary, ScreenProblem};
 use crate::units::kelvin_to_celsius as c;
 use std::fmt::Write;
@@ -404,6 +405,73 @@ pub fn binding_text(s: &LimitSummary, with_hint: bool) -> String {
     t
 }
 
+/// What decides whether a recipe's critical rate is acceptable: the safety
+/// factor (no uncertainty data) or the probability of a glass (a screen
+/// with `[uncertainty] min_probability`), in one line.
+pub fn feasibility_text(problem: &ScreenProblem) -> String {
+    let e = &problem.equipment;
+    match problem.uncertainty {
+        Some(u) if u.min_probability.is_some() => format!(
+            "equipment: {} at {:.3} K/s → P(glassy at {:.3} K/s) must be ≥ {} over {} draws of the models' spreads (seed {}); the probability decides, not the safety factor",
+            e.name,
+            e.rate.0,
+            e.rate.0,
+            u.min_probability.unwrap_or(0.0),
+            u.draws,
+            u.seed
+        ),
+        _ => format!(
+            "equipment: {} at {:.3} K/s with safety factor {} → R_c must be ≤ {:.3} K/s (the safety factor decides{})",
+            e.name,
+            e.rate.0,
+            e.safety_factor,
+            problem.allowed_rate().0,
+            if problem.uncertainty.is_some() {
+                "; the probability is reported, no min_probability asked"
+            } else {
+                "; no uncertainty data"
+            }
+        ),
+    }
+}
+
+/// The Monte Carlo stage of a screen in a few lines: how many recipes were
+/// drawn of those the search kept, how many the bound left out, and why.
+pub fn probability_stage_text(problem: &ScreenProblem, o: &ProbabilityOutcome) -> String {
+    let Some(u) = problem.uncertainty else {
+        return String::new();
+    };
+    let mut t = format!(
+        "Monte Carlo over the {} feasible recipes kept ({} draws each, seed {}): {} drawn; {} glassy even at the least favourable corner of the draws (P = 1 without drawing); {} left undrawn because a bound keeps them off the shortlist (docs/science.md, \"Uncertainty in the screen\"); {} corner evaluations",
+        o.considered,
+        u.draws,
+        u.seed,
+        o.drawn.len() - o.certain,
+        o.certain,
+        o.bounded_out,
+        o.corner_evaluations
+    );
+    if !o.monotone {
+        t.push_str(
+            "; a spread that moves R_c both ways (a fitted viscosity or liquidus) leaves no bound",
+        );
+    }
+    if let Some(m) = u.min_probability {
+        t.push_str(&format!(
+            "\n  {} known to fall below min_probability {m} (drawn, or bounded below it)",
+            count(o.below_min, "recipe", "recipes")
+        ));
+    }
+    if let Some(f) = o.failures.first() {
+        t.push_str(&format!(
+            "\n  {} could not be drawn (counted as not glassy enough); the first: {f}",
+            count(o.failures.len(), "recipe", "recipes")
+        ));
+    }
+    t.push('\n');
+    t
+}
+
 /// The run summary printed at the end of a screen and written to summary.txt.
 pub fn screen_summary_text(
     config: &str,
@@ -413,7 +481,7 @@ pub fn screen_summary_text(
 ) -> String {
     format!(
         "screen {}: {} candidates kept ({} evaluations with refinement), {} meet every limit, {} shortlisted\n\
-         equipment: {} at {:.3} K/s with safety factor {} → R_c must be ≤ {:.3} K/s\n\
+         {}\n\
          furnace: {:.0} °C; melting temperature ≤ {:.0} °C, liquidus ≤ {:.0} °C\n\
          nucleation: {}\n{}\n{}\n",
         config,
@@ -421,10 +489,7 @@ pub fn screen_summary_text(
         s.evaluations,
         s.feasible,
         shortlisted,
-        problem.equipment.name,
-        problem.equipment.rate.0,
-        problem.equipment.safety_factor,
-        problem.allowed_rate().0,
+        feasibility_text(problem),
         problem.furnace_max.to_celsius().0,
         problem.melting_max.to_celsius().0,
         problem.liquidus_max.to_celsius().0,

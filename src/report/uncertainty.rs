@@ -2,6 +2,7 @@
 //! glass at the user's quench, and which input would narrow the band most.
 
 use super::text::sig;
+use crate::assess::VOUCH_CRITICAL_RATE_K_PER_S;
 use crate::uncertainty::Propagation;
 use crate::units::{KelvinPerSecond, RateUnit};
 use std::fmt::Write as _;
@@ -26,6 +27,16 @@ pub fn propagation_text(p: &Propagation, unit: RateUnit) -> String {
         r(p.critical_rate_p50_k_per_s),
         r(p.critical_rate_p95_k_per_s)
     );
+    let beyond = p.beyond_vouching();
+    if !beyond.is_empty() {
+        // The same words as the point estimate's note (assess::vouch).
+        let _ = writeln!(
+            o,
+            "  beyond what the model can vouch for: {} (below {} K/s; a real melt would crystallise from defects or impurities long before)",
+            beyond.join(", "),
+            sig(VOUCH_CRITICAL_RATE_K_PER_S)
+        );
+    }
     let _ = writeln!(
         o,
         "  sd of log10 R_c: {:.3} decades",

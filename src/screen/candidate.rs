@@ -130,12 +130,16 @@ pub(crate) fn measure(
 /// missing, when the batch cannot be made).
 pub(crate) fn gauges(problem: &ScreenProblem, e: &Evaluation, cost: Option<f64>) -> Vec<Gauge> {
     let mut g = Vec::with_capacity(8);
-    let allowed = problem.allowed_rate().0;
-    g.push(Gauge {
-        limit: Limit::CoolingRate,
-        label: "critical rate",
-        value: (e.critical_rate_k_per_s / allowed).log10(),
-    });
+    // With a least probability of a glass the Monte Carlo stage judges the
+    // critical rate, not the safety factor (screen::probability).
+    if !problem.probability_decides() {
+        let allowed = problem.allowed_rate().0;
+        g.push(Gauge {
+            limit: Limit::CoolingRate,
+            label: "critical rate",
+            value: (e.critical_rate_k_per_s / allowed).log10(),
+        });
+    }
     let tm = e.melting_temperature_k.unwrap_or(f64::INFINITY);
     g.push(Gauge {
         limit: Limit::MeltingTemperature,
@@ -344,6 +348,9 @@ pub(crate) fn objective(
                 + w.cost * cost.unwrap_or(0.0)
                 + w.melting_temperature * tm / 100.0
         }
+        // The point estimate's margin, uncapped, orders the search; the
+        // Monte Carlo stage ranks the recipes it keeps by their probability.
+        ObjectiveKind::Probability => -(problem.equipment.rate.0 / e.critical_rate_k_per_s).log10(),
     }
 }
 
@@ -463,6 +470,20 @@ pub struct Row {
     /// The limits a feasible recipe sits on, joined with ", ".
     #[serde(default)]
     pub binding: String,
+    /// P(glassy at the equipment rate), for the recipes the Monte Carlo
+    /// stage drew (screen::probability); None for the others.
+    #[serde(default)]
+    pub probability_glassy: Option<f64>,
+    /// The 5 % quantile of the drawn critical rates, K/s.
+    #[serde(default)]
+    pub critical_rate_p05_k_per_s: Option<f64>,
+    /// The 95 % quantile of the drawn critical rates, K/s.
+    #[serde(default)]
+    pub critical_rate_p95_k_per_s: Option<f64>,
+    /// Both ends of the 5–95 % band lie within what the model can vouch for
+    /// (`assess::VOUCH_CRITICAL_RATE_K_PER_S`).
+    #[serde(default)]
+    pub band_vouched: Option<bool>,
 }
 
 fn finite(x: f64) -> Option<f64> {
@@ -497,6 +518,10 @@ impl Row {
             error: c.error.clone(),
             evaluations: 1,
             binding: c.binding.join(", "),
+            probability_glassy: None,
+            critical_rate_p05_k_per_s: None,
+            critical_rate_p95_k_per_s: None,
+            band_vouched: None,
         }
     }
 

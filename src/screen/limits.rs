@@ -23,11 +23,13 @@ pub enum Limit {
     GlassTransition,
     /// Working range outside the requested range.
     WorkingRange,
+    /// P(glassy at the equipment rate) below the config's `min_probability`.
+    Probability,
 }
 
 impl Limit {
     /// Every limit, in report order.
-    pub const ALL: [Limit; 9] = [
+    pub const ALL: [Limit; 10] = [
         Limit::CompositionLimits,
         Limit::ModelDomain,
         Limit::Evaluation,
@@ -37,6 +39,7 @@ impl Limit {
         Limit::Cost,
         Limit::GlassTransition,
         Limit::WorkingRange,
+        Limit::Probability,
     ];
 
     /// A short label.
@@ -53,6 +56,9 @@ impl Limit {
             Limit::Cost => "cost above ceiling (or no feasible batch)",
             Limit::GlassTransition => "glass transition outside range",
             Limit::WorkingRange => "working range outside range",
+            Limit::Probability => {
+                "probability of a glass at the equipment rate below min_probability"
+            }
         }
     }
 
@@ -122,6 +128,26 @@ pub struct LimitSummary {
 }
 
 impl LimitSummary {
+    /// Count `n` candidates that met every other limit as breaking `l` alone
+    /// (the Monte Carlo stage finds them after the point estimates were
+    /// counted as feasible).
+    pub fn reject_feasible(&mut self, l: Limit, n: usize) {
+        if n == 0 {
+            return;
+        }
+        self.feasible = self.feasible.saturating_sub(n);
+        match self.by_limit.iter_mut().find(|e| e.0 == l) {
+            Some(e) => {
+                e.1 += n;
+                e.2 += n;
+            }
+            None => {
+                self.by_limit.push((l, n, n));
+                self.by_limit.sort_by_key(|e| e.0);
+            }
+        }
+    }
+
     /// Count one candidate that stands for `evaluations` chain evaluations.
     pub fn add(&mut self, broken: LimitSet, evaluations: usize) {
         self.evaluated += 1;

@@ -27,6 +27,7 @@ pub mod candidate;
 pub mod first_pass;
 pub mod limits;
 pub mod polytope;
+pub mod probability;
 pub mod problem;
 pub(crate) mod qp;
 pub mod refine;
@@ -42,8 +43,8 @@ pub use first_pass::{chunk_count, sobol_points, space_filling_chunk};
 pub use limits::{Limit, LimitSet, LimitSummary};
 pub use polytope::Polytope;
 pub use problem::{
-    CostLimit, Equipment, LinearConstraint, ObjectiveKind, ScreenProblem, Search, Weights,
-    DEFAULT_MARGIN_CAP_DECADES,
+    CostLimit, Equipment, LinearConstraint, ObjectiveKind, ScreenProblem, ScreenUncertainty,
+    Search, Weights, DEFAULT_MARGIN_CAP_DECADES,
 };
 pub use refine::{refine, RefineError, ScreenModel};
 pub use run::{

@@ -54,6 +54,10 @@ pub enum ObjectiveKind {
     MeltingTemperature,
     /// Weighted blend of the three.
     Blend,
+    /// Highest probability of a glass at the equipment rate, P(R_c ≤ R),
+    /// from Monte Carlo draws of the models' uncertain inputs (needs
+    /// [`ScreenUncertainty`]).
+    Probability,
 }
 
 /// The quench the recipes must survive.
@@ -64,6 +68,26 @@ pub struct Equipment {
     pub rate: KelvinPerSecond,
     /// R_c must be at most rate / safety factor.
     pub safety_factor: f64,
+}
+
+/// The Monte Carlo stage of a screen (docs/science.md, "Uncertainty in the
+/// screen"): how many draws of the model set's uncertain inputs, from which
+/// seed, and the least probability of a glass a recipe must reach.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ScreenUncertainty {
+    /// Latin hypercube draws per recipe drawn.
+    pub draws: usize,
+    /// Seed of the draws (the same draws serve every recipe).
+    pub seed: u64,
+    /// With a value, a recipe needs P(glassy at the equipment rate) ≥ this,
+    /// and the probability replaces the safety factor as the limit on R_c.
+    pub min_probability: Option<f64>,
+    /// log-uniform range of the pre-existing nuclei per m³ (the point
+    /// estimate uses its geometric mean).
+    pub nuclei_range_per_m3: Option<(f64, f64)>,
+    /// Which recipes are drawn (a config always bounds; tests compare with
+    /// drawing every one).
+    pub preselection: super::probability::Preselection,
 }
 
 /// A cost ceiling and the model that prices a glass.
@@ -107,12 +131,21 @@ pub struct ScreenProblem {
     pub shortlist_size: usize,
     /// No two shortlisted recipes closer than this (Euclidean, mol%).
     pub min_distance_mol_pct: f64,
+    /// The Monte Carlo stage, when the config asks for one.
+    pub uncertainty: Option<ScreenUncertainty>,
 }
 
 impl ScreenProblem {
     /// The largest critical rate allowed: R_equipment / safety factor.
     pub fn allowed_rate(&self) -> KelvinPerSecond {
         KelvinPerSecond(self.equipment.rate.0 / self.equipment.safety_factor)
+    }
+
+    /// Whether the probability of a glass (not the safety factor) decides
+    /// whether a recipe's critical rate is acceptable.
+    pub fn probability_decides(&self) -> bool {
+        self.uncertainty
+            .is_some_and(|u| u.min_probability.is_some())
     }
 }
 

@@ -11,8 +11,9 @@
 
 use super::candidate::{evaluate_candidate_with, Candidate, Pass, Row};
 use super::first_pass::{chunk_count, space_filling_chunk};
-use super::limits::LimitSummary;
+use super::limits::{Limit, LimitSummary};
 use super::polytope::ACTIVE_TOL_MOL_PCT;
+use super::probability::{select as select_by_probability, ProbabilityOutcome};
 use super::problem::{ScreenProblem, Search};
 use super::refine::refine;
 use super::select::{objective_key, rank, Pools};
@@ -112,6 +113,8 @@ pub enum ScreenEnd {
     Finished {
         shortlist: Vec<Shortlisted>,
         summary: LimitSummary,
+        /// The Monte Carlo stage, when the problem has one.
+        probability: Option<Box<ProbabilityOutcome>>,
     },
     /// Stopped on request during `stage` with `done` of `total` of its units
     /// kept; everything kept so far resumes.
@@ -310,7 +313,22 @@ pub fn run(
             None => break,
         }
     }
-    picks.sort_by(|a, b| rank(a, b, objective_key));
+    // With uncertainty, the Monte Carlo stage picks from the feasible rows
+    // kept (screen::probability); the point-estimate picks above gave it the
+    // refined recipes of each place.
+    let mut summary = pools.tally().clone();
+    let probability = match problem.uncertainty {
+        Some(_) => {
+            let out = select_by_probability(problem, pools.feasible())?;
+            summary.reject_feasible(Limit::Probability, out.below_min);
+            picks = out.picks.clone();
+            Some(Box::new(out))
+        }
+        None => {
+            picks.sort_by(|a, b| rank(a, b, objective_key));
+            None
+        }
+    };
     // Re-evaluate the shortlisted recipes from their compositions (this also
     // restores the warnings the pools dropped to save memory), with the slab
     // estimate the batch sheets and the report show; a recipe held at the
@@ -334,6 +352,20 @@ pub fn run(
             );
             let mut row = Row::new(&candidate, problem);
             row.evaluations = r.evaluations;
+            row.probability_glassy = r.probability_glassy;
+            row.critical_rate_p05_k_per_s = r.critical_rate_p05_k_per_s;
+            row.critical_rate_p95_k_per_s = r.critical_rate_p95_k_per_s;
+            row.band_vouched = r.band_vouched;
+            if let Some(w) = r
+                .warnings
+                .split("; ")
+                .find(|w| w.starts_with("band beyond"))
+            {
+                if !row.warnings.is_empty() {
+                    row.warnings.push_str("; ");
+                }
+                row.warnings.push_str(w);
+            }
             let x = r.composition();
             for (j, other) in compositions.iter().enumerate().take(k) {
                 let dist = super::simplex::dist2(&x, other).sqrt();
@@ -350,6 +382,7 @@ pub fn run(
         .collect();
     Ok(ScreenEnd::Finished {
         shortlist,
-        summary: pools.tally().clone(),
+        summary,
+        probability,
     })
 }

@@ -190,6 +190,11 @@ impl Pools {
     pub(crate) fn tally(&self) -> &LimitSummary {
         &self.tally
     }
+
+    /// The feasible rows kept (the best by objective, in no order).
+    pub(crate) fn feasible(&self) -> &[Row] {
+        &self.by_objective
+    }
 }
 
 /// Keep the `keep` best rows by key, in [`rank`] order.

@@ -24,6 +24,7 @@
 pub mod melt;
 pub mod sampling;
 
+use crate::assess::VOUCH_CRITICAL_RATE_K_PER_S;
 use crate::error::Diagnostic;
 use nalgebra::{DMatrix, DVector};
 use rayon::prelude::*;
@@ -161,9 +162,46 @@ pub struct Propagation {
     #[serde(skip_serializing_if = "Option::is_none")]
     pub probability_glassy_se: Option<f64>,
     pub variance_shares: Vec<VarianceShare>,
+    /// Whether the 5 % quantile of R_c lies within what the model can vouch
+    /// for (at least `assess::VOUCH_CRITICAL_RATE_K_PER_S`), as the point
+    /// estimate's `vouched` says for R_c itself.
+    pub critical_rate_p05_vouched: bool,
+    /// The same for the 95 % quantile.
+    pub critical_rate_p95_vouched: bool,
     /// log10 R_c of every successful draw, in draw order (not written).
     #[serde(skip)]
     pub log10_rates: Vec<f64>,
+}
+
+impl Propagation {
+    /// Both ends of the 5–95 % band lie within what the model can vouch for.
+    pub fn band_vouched(&self) -> bool {
+        self.critical_rate_p05_vouched && self.critical_rate_p95_vouched
+    }
+
+    /// The ends of the band the model cannot vouch for, as phrases in the
+    /// words of the point estimate's note ("a 5 % quantile of R_c of
+    /// 5.9e-7 K/s"); empty when it can vouch for both.
+    pub fn beyond_vouching(&self) -> Vec<String> {
+        let mut out = Vec::new();
+        for (vouched, what, r) in [
+            (
+                self.critical_rate_p05_vouched,
+                "5 %",
+                self.critical_rate_p05_k_per_s,
+            ),
+            (
+                self.critical_rate_p95_vouched,
+                "95 %",
+                self.critical_rate_p95_k_per_s,
+            ),
+        ] {
+            if !vouched {
+                out.push(format!("a {what} quantile of R_c of {r:.1e} K/s"));
+            }
+        }
+        out
+    }
 }
 
 /// A prepared input: its distribution with a square root of its covariance.
@@ -284,6 +322,48 @@ impl Prepared {
     }
 }
 
+/// The values of every draw (`[draw][input][coordinate]`) and, per input,
+/// the standardised coordinates of every draw (`[input][draw][coordinate]`),
+/// from the seeded Latin hypercube: what [`propagate`] runs the model on.
+type Draws = (Vec<Vec<Vec<f64>>>, Vec<Vec<Vec<f64>>>);
+
+fn draws(inputs: &[UncertainInput], settings: Settings) -> Result<Draws, UncertaintyError> {
+    let prepared = inputs.iter().map(prepare).collect::<Result<Vec<_>, _>>()?;
+    let dims: usize = inputs.iter().map(|i| i.distribution.dims()).sum();
+    let n = settings.draws;
+    let lhs = sampling::latin_hypercube(n, dims, settings.seed);
+    let normal = Normal::standard();
+    // values[i][k]: draw i, input k; coords[k][i]: the standardised coordinates.
+    let mut values = Vec::with_capacity(n);
+    let mut coords: Vec<Vec<Vec<f64>>> = vec![Vec::with_capacity(n); inputs.len()];
+    for row in &lhs {
+        let mut at = 0;
+        let mut draw = Vec::with_capacity(inputs.len());
+        for (k, p) in prepared.iter().enumerate() {
+            let d = p.dist.dims();
+            let (v, z) = p.map(&row[at..at + d], &normal);
+            at += d;
+            draw.push(v);
+            coords[k].push(z);
+        }
+        values.push(draw);
+    }
+    Ok((values, coords))
+}
+
+/// The values of every draw, `[draw][input][coordinate]`, exactly as
+/// [`propagate`] with the same inputs and settings runs them (the screen's
+/// bound on the probability counts them; `screen::probability`).
+///
+/// # Errors
+/// A distribution that is not one.
+pub fn draw_values(
+    inputs: &[UncertainInput],
+    settings: Settings,
+) -> Result<Vec<Vec<Vec<f64>>>, UncertaintyError> {
+    Ok(draws(inputs, settings)?.0)
+}
+
 /// Draw `settings.draws` values of every input from a Latin hypercube in
 /// the seed's order, run `model` on each (values per input, in the inputs'
 /// order) in parallel, and summarise log10 of the critical rates it returns
@@ -309,26 +389,8 @@ where
     if settings.draws > MAX_DRAWS {
         return Err(UncertaintyError::TooManyDraws(settings.draws));
     }
-    let prepared = inputs.iter().map(prepare).collect::<Result<Vec<_>, _>>()?;
-    let dims: usize = inputs.iter().map(|i| i.distribution.dims()).sum();
+    let (values, coords) = draws(inputs, settings)?;
     let n = settings.draws;
-    let lhs = sampling::latin_hypercube(n, dims, settings.seed);
-    let normal = Normal::standard();
-    // values[i][k]: draw i, input k; coords[k][i]: the standardised coordinates.
-    let mut values = Vec::with_capacity(n);
-    let mut coords: Vec<Vec<Vec<f64>>> = vec![Vec::with_capacity(n); inputs.len()];
-    for row in &lhs {
-        let mut at = 0;
-        let mut draw = Vec::with_capacity(inputs.len());
-        for (k, p) in prepared.iter().enumerate() {
-            let d = p.dist.dims();
-            let (v, z) = p.map(&row[at..at + d], &normal);
-            at += d;
-            draw.push(v);
-            coords[k].push(z);
-        }
-        values.push(draw);
-    }
     let results: Vec<Result<f64, String>> = values
         .par_iter()
         .map(|v| {
@@ -407,6 +469,8 @@ where
         probability_glassy: probability,
         probability_glassy_se: se,
         variance_shares,
+        critical_rate_p05_vouched: p05 >= VOUCH_CRITICAL_RATE_K_PER_S,
+        critical_rate_p95_vouched: p95 >= VOUCH_CRITICAL_RATE_K_PER_S,
         log10_rates: y,
     })
 }

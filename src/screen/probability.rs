@@ -1,0 +1,585 @@
+//! The Monte Carlo stage of a screen: the probability that a recipe comes out
+//! glassy at the equipment rate, P(R_c ≤ R), from the same seeded draws of
+//! the model set's uncertain inputs for every recipe (`uncertainty`), for the
+//! recipes the point-estimate search kept — and only for those that could
+//! still make the shortlist.
+//!
+//! The rule (docs/science.md, "Uncertainty in the screen"): where every
+//! uncertain input moves R_c one way (each α raises the barrier: R_c falls;
+//! more pre-existing nuclei: R_c rises), a draw that is on the crystalline
+//! side of a corner point θ^c in every coordinate has an R_c at least that
+//! of the corner. So one evaluation at the corner bounds the probability:
+//! if R_c(θ^c) > R, P ≤ 1 − W(θ^c)/N, W the number of draws the corner
+//! dominates. A recipe is drawn unless that bound puts it strictly below
+//! the probability of the last shortlisted recipe (or below
+//! `min_probability`); the bounds are checked again against the final
+//! shortlist, so the result is the one drawing every recipe gives.
+//! No I/O.
+
+use super::candidate::Row;
+use super::problem::{ObjectiveKind, ScreenProblem};
+use super::select::{objective_key, rank};
+use super::simplex::dist2;
+use crate::composition::{Composition, N_OXIDES};
+use crate::error::Error;
+use crate::uncertainty::melt::{
+    composition_critical_rate, inputs_of, model_set_inputs, Target, Uncertain,
+};
+use crate::uncertainty::{draw_values, propagate, Propagation, Settings, UncertainInput};
+use rayon::prelude::*;
+
+/// A corner's R_c must exceed the equipment rate by this much (decades)
+/// before the bound is used: far above the error of the critical-rate
+/// solve, so a numerically non-monotone last digit cannot break the bound.
+pub const CORNER_MARGIN_DECADES: f64 = 0.01;
+
+/// Which recipes the stage draws.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Preselection {
+    /// Only those the bound cannot rule out (the default).
+    #[default]
+    Bounded,
+    /// Every feasible recipe kept (to check the bound; slow).
+    Full,
+}
+
+/// What the stage found.
+#[derive(Debug, Clone, Default)]
+pub struct ProbabilityOutcome {
+    /// The shortlist, best first, with the probability columns filled.
+    pub picks: Vec<Row>,
+    /// Every recipe with a probability (drawn, or certain), in the point
+    /// estimate's rank order.
+    pub drawn: Vec<Row>,
+    /// Feasible recipes the stage looked at.
+    pub considered: usize,
+    /// Recipes known to fall below `min_probability` (drawn, or bounded).
+    pub below_min: usize,
+    /// Recipes left undrawn because their bound keeps them off the shortlist.
+    pub bounded_out: usize,
+    /// Recipes left undrawn because the least glass-friendly corner is
+    /// glassy, so every draw is (P = 1; in `drawn` without a band).
+    pub certain: usize,
+    /// Evaluations at corners spent on bounds.
+    pub corner_evaluations: usize,
+    /// Whether every input moves R_c one way, so that bounds apply.
+    pub monotone: bool,
+    /// Draws that failed, and the first reason (the recipe is then not glassy
+    /// enough to count, see `uncertainty::MAX_FAILED_SHARE`).
+    pub failures: Vec<String>,
+}
+
+/// The draws' coordinates that move R_c one way: (input, coordinate, sign),
+/// sign +1 when a larger value makes a glass more likely.
+fn monotone_coordinates(inputs: &[Uncertain]) -> Option<Vec<(usize, usize, f64)>> {
+    let mut out = Vec::new();
+    for (k, u) in inputs.iter().enumerate() {
+        match &u.target {
+            Target::Alpha(_) | Target::InterfaceEnergy(_) => out.push((k, 0, 1.0)),
+            Target::Nuclei => out.push((k, 0, -1.0)),
+            Target::KineticsFit(map) => {
+                for (c, slot) in map.iter().enumerate() {
+                    out.push((k, c, if slot.is_some() { 1.0 } else { -1.0 }));
+                }
+            }
+            Target::Viscosity(_) | Target::Liquidus { .. } => return None,
+        }
+    }
+    Some(out)
+}
+
+/// The diagonal corners of the draws: corner j takes, in every monotone
+/// coordinate, the (j+1)-th least glass-friendly drawn value; `dominated[j]`
+/// counts the draws no more glass-friendly than corner j in every coordinate.
+struct Corners {
+    coordinates: Vec<(usize, usize, f64)>,
+    /// sorted[c]: the drawn values of coordinate c, least glass-friendly first.
+    sorted: Vec<Vec<f64>>,
+    dominated: Vec<usize>,
+}
+
+impl Corners {
+    fn new(coordinates: Vec<(usize, usize, f64)>, values: &[Vec<Vec<f64>>]) -> Corners {
+        let n = values.len();
+        let sorted: Vec<Vec<f64>> = coordinates
+            .iter()
+            .map(|&(k, c, s)| {
+                let mut v: Vec<f64> = values.iter().map(|d| d[k][c]).collect();
+                v.sort_by(|a, b| (s * a).total_cmp(&(s * b)));
+                v
+            })
+            .collect();
+        // rank[c][d]: the position of draw d's value in sorted[c]; draw d is
+        // dominated by corner j when every rank is ≤ j, so W(j) counts the
+        // draws whose largest rank is ≤ j.
+        let mut worst = vec![0usize; n];
+        for (ci, &(k, c, s)) in coordinates.iter().enumerate() {
+            for (d, w) in worst.iter_mut().enumerate() {
+                let x = s * values[d][k][c];
+                // The first position holding this value: ties (a fixed
+                // coordinate) are dominated by every corner.
+                let r = sorted[ci].partition_point(|v| s * v < x);
+                *w = (*w).max(r);
+            }
+        }
+        let mut dominated = vec![0usize; n];
+        for w in worst {
+            dominated[w] += 1;
+        }
+        for j in 1..n {
+            dominated[j] += dominated[j - 1];
+        }
+        Corners {
+            coordinates,
+            sorted,
+            dominated,
+        }
+    }
+
+    /// The least glass-friendly corner whose bound 1 − W/N lies strictly
+    /// below `tau`, and that bound.
+    fn level_below(&self, tau: f64) -> Option<(usize, f64)> {
+        let n = self.dominated.len() as f64;
+        self.dominated
+            .iter()
+            .position(|&w| 1.0 - w as f64 / n < tau)
+            .map(|j| (j, 1.0 - self.dominated[j] as f64 / n))
+    }
+
+    /// The bound 1 − W/N corner j gives.
+    fn bound(&self, j: usize) -> f64 {
+        1.0 - self.dominated[j] as f64 / self.dominated.len() as f64
+    }
+
+    /// The input values of corner j: the centre (any value) where no
+    /// monotone coordinate sets it.
+    fn values(&self, j: usize, centre: &[Vec<f64>]) -> Vec<Vec<f64>> {
+        let mut v = centre.to_vec();
+        for (ci, &(k, c, _)) in self.coordinates.iter().enumerate() {
+            v[k][c] = self.sorted[ci][j];
+        }
+        v
+    }
+}
+
+/// What is known of one recipe.
+#[derive(Debug, Clone)]
+enum Known {
+    Unknown,
+    Drawn(Result<Propagation, String>),
+    /// P ≤ this bound.
+    Bounded(f64),
+    /// Every draw glassy (the least glass-friendly corner is): P = 1 unless
+    /// a draw fails.
+    Certain,
+}
+
+/// The Monte Carlo stage over the feasible rows the point-estimate search
+/// kept: draw the recipes that could still make the shortlist, and pick the
+/// shortlist — by probability for `kind = "probability"`, else by the
+/// objective among the recipes that reach `min_probability`.
+///
+/// # Errors
+/// The problem has no uncertainty, or its inputs are no distributions.
+pub fn select(problem: &ScreenProblem, pool: &[Row]) -> Result<ProbabilityOutcome, Error> {
+    let u = problem
+        .uncertainty
+        .ok_or_else(|| Error::internal("the Monte Carlo stage needs [uncertainty]"))?;
+    let (unc, _) = model_set_inputs(
+        &problem.models,
+        &problem.kinetic_options,
+        u.nuclei_range_per_m3,
+    )?;
+    let inputs = inputs_of(&unc);
+    let settings = Settings {
+        draws: u.draws,
+        seed: u.seed,
+    };
+    let values = draw_values(&inputs, settings)?;
+    let centre: Vec<Vec<f64>> = inputs.iter().map(|i| i.distribution.centre()).collect();
+    let coordinates = monotone_coordinates(&unc);
+    let monotone = coordinates.is_some();
+    let corners = coordinates.map(|c| Corners::new(c, &values));
+    let mut rows: Vec<Row> = pool.iter().filter(|r| r.feasible).cloned().collect();
+    rows.sort_by(|a, b| rank(a, b, objective_key));
+    let stage = Stage {
+        problem,
+        unc: &unc,
+        inputs: &inputs,
+        settings,
+        centre: &centre,
+        corners: corners.as_ref(),
+    };
+    let mut known = vec![Known::Unknown; rows.len()];
+    let mut corner_evaluations = 0;
+    let full = u.preselection == Preselection::Full;
+    let k = problem.shortlist_size;
+    let picks: Vec<usize> = if problem.objective == ObjectiveKind::Probability {
+        if full {
+            let all: Vec<usize> = (0..rows.len()).collect();
+            stage.draw(&rows, &all, &mut known);
+        } else {
+            // One evaluation at the least glass-friendly corner: below R,
+            // every draw is glassy (P = 1 unless a draw fails, which only
+            // drawing shows: a pick is always drawn); above R, P ≤ 1 − W/N.
+            if let Some(c) = stage.corners {
+                let all: Vec<usize> = (0..rows.len()).collect();
+                let rates = stage.corner_rates(&rows, &all, 0);
+                corner_evaluations += all.len();
+                let log_r = problem.equipment.rate.0.log10();
+                let bound0 = c.bound(0);
+                for (i, r) in rates.into_iter().enumerate() {
+                    match r.map(f64::log10) {
+                        Some(l) if l < log_r - CORNER_MARGIN_DECADES => known[i] = Known::Certain,
+                        Some(l) if l > log_r + CORNER_MARGIN_DECADES => {
+                            known[i] = Known::Bounded(bound0)
+                        }
+                        _ => {}
+                    }
+                }
+            }
+            // Then the point estimate's own distinct best.
+            let first = greedy(problem, &rows, k);
+            stage.draw(&rows, &first, &mut known);
+            loop {
+                let picks = greedy_by_probability(problem, &rows, &known);
+                // A pick known glassy in every draw is drawn for its band
+                // (and to see whether a draw fails).
+                let certain: Vec<usize> = picks
+                    .iter()
+                    .copied()
+                    .filter(|&i| matches!(known[i], Known::Certain))
+                    .collect();
+                if !certain.is_empty() {
+                    stage.draw(&rows, &certain, &mut known);
+                    continue;
+                }
+                let tau = threshold(&picks, &known, k, u.min_probability);
+                let open: Vec<usize> = (0..rows.len())
+                    .filter(|&i| match known[i] {
+                        Known::Unknown => true,
+                        Known::Bounded(b) => b >= tau,
+                        Known::Drawn(_) | Known::Certain => false,
+                    })
+                    .collect();
+                if open.is_empty() {
+                    break;
+                }
+                let to_draw = stage.bound(&rows, &open, tau, &mut known, &mut corner_evaluations);
+                stage.draw(&rows, &to_draw, &mut known);
+            }
+        }
+        greedy_by_probability(problem, &rows, &known)
+    } else {
+        // Ranked by the objective: walk the point ranking, drawing only the
+        // rows that are not blocked by a pick and not bounded below
+        // min_probability, until the shortlist is full.
+        let mut picks: Vec<usize> = Vec::new();
+        if full {
+            let all: Vec<usize> = (0..rows.len()).collect();
+            stage.draw(&rows, &all, &mut known);
+        }
+        let d2 = problem.min_distance_mol_pct.powi(2);
+        for i in 0..rows.len() {
+            if picks.len() >= k {
+                break;
+            }
+            let x = rows[i].composition();
+            if picks
+                .iter()
+                .any(|&p| dist2(&rows[p].composition(), &x) < d2)
+            {
+                continue;
+            }
+            if matches!(known[i], Known::Unknown) {
+                let to_draw = match u.min_probability {
+                    Some(p) => stage.bound(&rows, &[i], p, &mut known, &mut corner_evaluations),
+                    None => vec![i],
+                };
+                stage.draw(&rows, &to_draw, &mut known);
+            }
+            if usable(&known[i], u.min_probability) {
+                picks.push(i);
+            }
+        }
+        picks
+    };
+    let mut out = ProbabilityOutcome {
+        considered: rows.len(),
+        corner_evaluations,
+        monotone,
+        ..Default::default()
+    };
+    for (i, r) in rows.iter().enumerate() {
+        match &known[i] {
+            Known::Drawn(Ok(p)) => {
+                if u.min_probability.is_some_and(|m| probability(p) < m) {
+                    out.below_min += 1;
+                }
+                out.drawn.push(filled(r, p));
+            }
+            Known::Drawn(Err(e)) => {
+                out.failures.push(format!("recipe {}: {e}", r.index));
+                if u.min_probability.is_some() {
+                    out.below_min += 1;
+                }
+            }
+            Known::Bounded(b) => {
+                out.bounded_out += 1;
+                if u.min_probability.is_some_and(|m| *b < m) {
+                    out.below_min += 1;
+                }
+            }
+            Known::Certain => {
+                out.certain += 1;
+                let mut r = r.clone();
+                r.probability_glassy = Some(1.0);
+                out.drawn.push(r);
+            }
+            Known::Unknown => {}
+        }
+    }
+    out.picks = picks
+        .iter()
+        .filter_map(|&i| match &known[i] {
+            Known::Drawn(Ok(p)) => Some(filled(&rows[i], p)),
+            _ => None,
+        })
+        .collect();
+    Ok(out)
+}
+
+/// The row with the probability columns of its draws.
+fn filled(r: &Row, p: &Propagation) -> Row {
+    let mut r = r.clone();
+    r.probability_glassy = p.probability_glassy;
+    r.critical_rate_p05_k_per_s = Some(p.critical_rate_p05_k_per_s);
+    r.critical_rate_p95_k_per_s = Some(p.critical_rate_p95_k_per_s);
+    r.band_vouched = Some(p.band_vouched());
+    let beyond = p.beyond_vouching();
+    if !beyond.is_empty() {
+        if !r.warnings.is_empty() {
+            r.warnings.push_str("; ");
+        }
+        r.warnings.push_str(&format!(
+            "band beyond what the model can vouch for: {}",
+            beyond.join(", ")
+        ));
+    }
+    r
+}
+
+fn probability(p: &Propagation) -> f64 {
+    p.probability_glassy.unwrap_or(0.0)
+}
+
+/// Drawn, and at least the least probability asked for.
+fn usable(k: &Known, min: Option<f64>) -> bool {
+    match k {
+        Known::Drawn(Ok(p)) => min.is_none_or(|m| probability(p) >= m),
+        Known::Certain => true,
+        _ => false,
+    }
+}
+
+/// The probability a recipe must beat strictly to be left undrawn: that of
+/// the last of a full shortlist, else the least probability asked for (0
+/// without one: then every recipe is drawn).
+fn threshold(picks: &[usize], known: &[Known], k: usize, min: Option<f64>) -> f64 {
+    let floor = min.unwrap_or(0.0);
+    if picks.len() < k {
+        return floor;
+    }
+    match picks.last().map(|&i| &known[i]) {
+        Some(Known::Drawn(Ok(p))) => probability(p).max(floor),
+        _ => floor,
+    }
+}
+
+/// Up to `k` rows, best first by the point ranking, no two closer than the
+/// shortlist distance.
+fn greedy(problem: &ScreenProblem, rows: &[Row], k: usize) -> Vec<usize> {
+    let d2 = problem.min_distance_mol_pct.powi(2);
+    let mut out: Vec<usize> = Vec::new();
+    for i in 0..rows.len() {
+        if out.len() >= k {
+            break;
+        }
+        let x = rows[i].composition();
+        if out.iter().all(|&p| dist2(&rows[p].composition(), &x) >= d2) {
+            out.push(i);
+        }
+    }
+    out
+}
+
+/// The shortlist by probability among the drawn rows: highest first, ties
+/// broken as every ranking is (`select::rank`), no two closer than the
+/// shortlist distance, none below `min_probability`.
+fn greedy_by_probability(problem: &ScreenProblem, rows: &[Row], known: &[Known]) -> Vec<usize> {
+    let min = problem.uncertainty.and_then(|u| u.min_probability);
+    let p_of = |i: usize| match &known[i] {
+        Known::Drawn(Ok(p)) => probability(p),
+        Known::Certain => 1.0,
+        _ => f64::NEG_INFINITY,
+    };
+    let mut order: Vec<usize> = (0..rows.len())
+        .filter(|&i| usable(&known[i], min))
+        .collect();
+    order.sort_by(|&a, &b| {
+        p_of(b)
+            .total_cmp(&p_of(a))
+            .then_with(|| rank(&rows[a], &rows[b], |_| 0.0))
+    });
+    let d2 = problem.min_distance_mol_pct.powi(2);
+    let mut out: Vec<usize> = Vec::new();
+    for i in order {
+        if out.len() >= problem.shortlist_size {
+            break;
+        }
+        let x = rows[i].composition();
+        if out.iter().all(|&p| dist2(&rows[p].composition(), &x) >= d2) {
+            out.push(i);
+        }
+    }
+    out
+}
+
+/// What every draw and bound needs.
+struct Stage<'a> {
+    problem: &'a ScreenProblem,
+    unc: &'a [Uncertain],
+    inputs: &'a [UncertainInput],
+    settings: Settings,
+    centre: &'a [Vec<f64>],
+    corners: Option<&'a Corners>,
+}
+
+impl Stage<'_> {
+    fn composition(&self, r: &Row) -> Result<Composition, String> {
+        let x: [f64; N_OXIDES] = r.composition();
+        Composition::from_mol_percent_array(&x, 1e-6).map_err(|e| e.to_string())
+    }
+
+    /// Draw the rows `which` (each recipe's draws run in parallel; rows in order).
+    fn draw(&self, rows: &[Row], which: &[usize], known: &mut [Known]) {
+        let rate = self.problem.equipment.rate.0;
+        for &i in which {
+            if matches!(known[i], Known::Drawn(_)) {
+                continue;
+            }
+            let result = self.composition(&rows[i]).and_then(|comp| {
+                propagate(self.inputs, self.settings, Some(rate), |v| {
+                    composition_critical_rate(
+                        &self.problem.models,
+                        &comp,
+                        &self.problem.kinetic_options,
+                        self.unc,
+                        v,
+                    )
+                })
+                .map_err(|e| e.to_string())
+            });
+            known[i] = Known::Drawn(result);
+        }
+    }
+
+    /// R_c (K/s) of the rows `which` at corner j (in parallel; None where
+    /// the chain fails).
+    fn corner_rates(&self, rows: &[Row], which: &[usize], j: usize) -> Vec<Option<f64>> {
+        let Some(corners) = self.corners else {
+            return vec![None; which.len()];
+        };
+        let corner = corners.values(j, self.centre);
+        which
+            .par_iter()
+            .map(|&i| {
+                self.composition(&rows[i])
+                    .and_then(|comp| {
+                        composition_critical_rate(
+                            &self.problem.models,
+                            &comp,
+                            &self.problem.kinetic_options,
+                            self.unc,
+                            &corner,
+                        )
+                    })
+                    .ok()
+            })
+            .collect()
+    }
+
+    /// Try to bound the rows `which` strictly below `tau` with one corner
+    /// evaluation each (in parallel); those bounded are marked, the rest
+    /// returned to be drawn.
+    fn bound(
+        &self,
+        rows: &[Row],
+        which: &[usize],
+        tau: f64,
+        known: &mut [Known],
+        spent: &mut usize,
+    ) -> Vec<usize> {
+        let Some((j, bound)) = self.corners.and_then(|c| c.level_below(tau)) else {
+            return which.to_vec();
+        };
+        let limit = self.problem.equipment.rate.0.log10() + CORNER_MARGIN_DECADES;
+        let above: Vec<bool> = self
+            .corner_rates(rows, which, j)
+            .into_iter()
+            .map(|r| r.is_some_and(|r| r.log10() > limit))
+            .collect();
+        *spent += which.len();
+        let mut rest = Vec::new();
+        for (&i, up) in which.iter().zip(above) {
+            if up {
+                known[i] = Known::Bounded(bound);
+            } else {
+                rest.push(i);
+            }
+        }
+        rest
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::uncertainty::sampling::latin_hypercube;
+
+    #[test]
+    fn a_corner_dominates_exactly_the_draws_at_or_below_it_in_every_coordinate() {
+        // Source: in one coordinate with distinct values, exactly j + 1
+        // values lie at or below the (j + 1)-th order statistic (definition
+        // of order statistics).
+        let one: Vec<Vec<Vec<f64>>> = (0..50)
+            .map(|i| vec![vec![((i * 37) % 50) as f64]])
+            .collect();
+        let c = Corners::new(vec![(0, 0, 1.0)], &one);
+        for j in 0..50 {
+            assert_eq!(c.dominated[j], j + 1);
+        }
+        // Two coordinates, one glass-friendly upwards (an α) and one
+        // downwards (a nuclei density): against a count by definition.
+        let two: Vec<Vec<Vec<f64>>> = latin_hypercube(60, 2, 5)
+            .into_iter()
+            .map(|r| vec![vec![r[0]], vec![r[1]]])
+            .collect();
+        let c = Corners::new(vec![(0, 0, 1.0), (1, 0, -1.0)], &two);
+        let centre = vec![vec![0.5], vec![0.5]];
+        for j in 0..60 {
+            let corner = c.values(j, &centre);
+            let count = two
+                .iter()
+                .filter(|d| d[0][0] <= corner[0][0] && d[1][0] >= corner[1][0])
+                .count();
+            assert_eq!(c.dominated[j], count, "corner {j}");
+            assert!((c.bound(j) - (1.0 - count as f64 / 60.0)).abs() < 1e-15);
+        }
+        assert_eq!(c.dominated[59], 60);
+        // The least glass-friendly corner whose bound lies below 0.5.
+        let (j, b) = c.level_below(0.5).unwrap();
+        assert!(b < 0.5 && (j == 0 || c.bound(j - 1) >= 0.5));
+        assert!(c.level_below(0.0).is_none());
+    }
+}
