@@ -18,6 +18,7 @@ mod kinetics_reference;
 mod lab_ready;
 mod layers;
 mod main_job;
+mod melt_card_units;
 mod model_files;
 mod plots;
 mod proptests;
