@@ -9,6 +9,7 @@ mod cli_errors;
 mod cli_eval;
 mod cli_fit;
 mod demo_models;
+mod batch_sheets;
 mod fault_injection;
 mod fit;
 mod giordano2008;
