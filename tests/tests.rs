@@ -4,12 +4,13 @@ mod oracle;
 mod tolerances;
 mod util;
 
+mod batch_sheets;
 mod cli_batch;
 mod cli_errors;
 mod cli_eval;
 mod cli_fit;
 mod demo_models;
-mod batch_sheets;
+mod eval_against;
 mod fault_injection;
 mod fit;
 mod giordano2008;

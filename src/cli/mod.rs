@@ -634,6 +634,25 @@ pub struct EvalArgs {
     #[arg(long, value_name = "FILE", requires = "out", help_heading = "Input")]
     pub compositions: Option<PathBuf>,
 
+    /// Check the --compositions recipes against a screen config's limits.
+    ///
+    /// Each recipe is judged as the screen judges a candidate (composition
+    /// limits, model domain, critical rate, melting temperature, liquidus,
+    /// cost, T_g and working range where the config sets them). --out gets
+    /// one row per recipe: passes_every_limit, failed_limits, and per limit
+    /// a _pass column and a _margin column in the limit's unit (K, decades
+    /// of R_c, mol%, currency per kg; negative = outside). Where the config
+    /// prices glasses, a batch sheet per recipe goes beside --out
+    /// (NAME-batch-sheets.txt). Example:
+    ///   quenchwise eval --compositions mine.csv --against configs/demo-screen.toml --out checked.csv
+    #[arg(
+        long,
+        value_name = "CONFIG",
+        requires = "compositions",
+        help_heading = "Input"
+    )]
+    pub against: Option<PathBuf>,
+
     /// Write the table of results here (.csv or .parquet).
     ///
     /// The input columns, then one column per result and an `error` column.
