@@ -407,10 +407,10 @@ fn diagnose(
     let x = bounded(&mut vars);
     let cost: Expression = raws.iter().zip(&x).map(|(r, &v)| r.price_per_kg * v).sum();
     let mut model = vars.minimise(cost).using(microlp);
-    for i in 0..N_OXIDES {
+    for (i, &t) in target.iter().enumerate() {
         let d = delivered(&x, i);
-        model = model.with(constraint!(d.clone() <= target[i] + tol));
-        model = model.with(constraint!(d >= target[i] - tol));
+        model = model.with(constraint!(d.clone() <= t + tol));
+        model = model.with(constraint!(d >= t - tol));
     }
     match model.solve() {
         Ok(sol) => Ok(x.iter().map(|&v| sol.value(v).max(0.0)).collect()),

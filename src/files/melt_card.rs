@@ -156,12 +156,12 @@ impl CardViscosity {
         }
         let mut v = Vec::with_capacity(3);
         for k in need {
-            let x = match k {
-                &"a" => &self.a,
-                &"b_k" => &self.b_k,
-                &"c_k" => &self.c_k,
-                &"log_eta_inf" => &self.log_eta_inf,
-                &"tg_k" => &self.tg_k,
+            let x = match *k {
+                "a" => &self.a,
+                "b_k" => &self.b_k,
+                "c_k" => &self.c_k,
+                "log_eta_inf" => &self.log_eta_inf,
+                "tg_k" => &self.tg_k,
                 _ => &self.fragility,
             };
             match x {

@@ -144,7 +144,7 @@ fn is_decimal_comma(t: &str) -> bool {
         None => (t, None),
     };
     let digits = |s: &str| !s.is_empty() && s.bytes().all(|b| b.is_ascii_digit());
-    let ok_exp = exponent.map_or(true, |e| digits(e.strip_prefix(['+', '-']).unwrap_or(e)));
+    let ok_exp = exponent.is_none_or(|e| digits(e.strip_prefix(['+', '-']).unwrap_or(e)));
     match mantissa.split_once(',') {
         Some((a, b)) => digits(a) && digits(b) && ok_exp,
         None => false,
