@@ -1,8 +1,9 @@
 //! Melt cards (TOML): a melt measured by the user (VFT or MYEGA viscosity,
 //! in Pa·s or dPa·s, and one `[crystal]` or several `[[crystal]]` phases with
 //! liquidus (K or °C) and crystal data, optional `[kinetics]`) turned into a
-//! validated melt, with the line of any bad value. Table rows of melt cards share [`MeltValues`]; screen configs
-//! share the `[kinetics]` table ([`KineticsTable`]).
+//! validated melt, with the line of any bad value. Table rows of melt cards
+//! (VFT in Pa·s, liquidus in K) share [`MeltValues`]; screen configs share
+//! the `[kinetics]` table ([`KineticsTable`]).
 
 use super::model_set::FormName;
 use super::source::{DataError, Problem, Source};
@@ -77,7 +78,7 @@ impl CardViscosity {
         self.form.as_ref().map_or(FormName::Vft, |f| *f.get_ref())
     }
 
-    /// The span of a key (the form's line for a key that is not given).
+    /// The span of a key of the curve, where it is given.
     fn span_of(&self, key: &str) -> Option<Range<usize>> {
         let s = |o: &Option<Spanned<f64>>| o.as_ref().map(|v| v.span());
         match key {
@@ -102,7 +103,8 @@ impl CardViscosity {
             .unwrap_or(0..0)
     }
 
-    /// The curve the table gives, in Pa·s; every problem with its place.
+    /// The curve `[viscosity]` gives, in Pa·s; else every problem with its
+    /// place.
     fn curve(&self, src: &Source) -> Result<ViscosityCurve, Vec<Problem>> {
         let mut problems = Vec::new();
         let shift = match &self.unit {
