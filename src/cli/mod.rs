@@ -443,10 +443,10 @@ pub struct BatchArgs {
     pub recipe: Option<PathBuf>,
     /// A table (CSV or Parquet) of glasses, one per row: one sheet each.
     ///
-    /// One column per oxide (SiO2, Na2O, ...) in mol% (wt% with a bare --wt);
-    /// a `name` (or `id`, `label`) column heads each sheet. A row that cannot
-    /// be batched says why on its sheet; the others still print, and the run
-    /// ends with an error naming the rows. Example:
+    /// One column per oxide (SiO2, Na2O, ...) in mol% (wt% with a bare
+    /// --wt); a `name` (or `id`, `label`) column heads each sheet. A row
+    /// that cannot be batched says why on its sheet; the others still
+    /// print, and the run ends with an error naming the rows. Example:
     ///   quenchwise batch --compositions my-recipes.csv --glass-kg 0.2
     #[arg(
         long,
