@@ -37,7 +37,7 @@ fn negative_amount() {
 fn missing_key_in_a_card() {
     eval_card("card-missing-key.toml")
         .code(2)
-        .stderr_has("card-missing-key.toml:2: missing field `b_k`");
+        .stderr_has("card-missing-key.toml:3: [viscosity] with form = \"vft\" needs b_k");
 }
 
 #[test]

@@ -219,6 +219,14 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
             evaluate_melt(&melt, &opts, slab, &Calibration::None).map_err(|e| e.to_string())
         });
     }
+    if let (Some(p), Some(config)) = (&a.compositions, &a.against) {
+        let basis = if wt_table {
+            Basis::WtPercent
+        } else {
+            Basis::MolPercent
+        };
+        return super::against::against(p, config, table_out()?, basis, a.sum_tolerance);
+    }
     if let Some(p) = &a.compositions {
         let out = table_out()?;
         let models = load_models(a.models.as_deref(), a.viscosity_model.as_deref())?;

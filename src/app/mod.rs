@@ -2,6 +2,7 @@
 //! the terminal. The only home of the Ctrl-C handler, the progress bar and
 //! the global thread pool. Handlers return an [`Outcome`]; only `main` exits.
 
+mod against;
 mod batch;
 mod eval;
 mod fit;

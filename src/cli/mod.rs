@@ -444,17 +444,49 @@ pub struct CheckArgs {
 }
 
 #[derive(Debug, Args)]
-#[command(group(clap::ArgGroup::new("glass").required(true).args(["mol", "wt", "recipe"])))]
+#[command(group(clap::ArgGroup::new("glass").required(true).multiple(true).args(["mol", "wt", "recipe", "compositions"])))]
 pub struct BatchArgs {
     /// The glass in mol%, e.g. "SiO2=72 Na2O=14 CaO=10 Al2O3=4".
     #[arg(long, value_name = "OXIDES", help_heading = "Glass")]
     pub mol: Option<String>,
-    /// The glass in wt%.
-    #[arg(long, value_name = "OXIDES", help_heading = "Glass")]
+    /// The glass in wt%; with --compositions: read the table as wt%.
+    ///
+    /// `--wt "SiO2=74 Na2O=16 CaO=10"` is one glass in mass percent. Given
+    /// without a value next to --compositions, it says the table's oxide
+    /// columns are wt% rather than mol%.
+    #[arg(long, value_name = "OXIDES", num_args = 0..=1, default_missing_value = "", help_heading = "Glass")]
     pub wt: Option<String>,
-    /// The glass from a recipe file (TOML: basis = "mol%", [oxides]).
-    #[arg(long, value_name = "FILE", help_heading = "Glass")]
+    /// The glass from a recipe file (TOML: name, basis = "mol%", [oxides]).
+    ///
+    /// The recipe's `name` heads the sheet. Example file:
+    ///   name = "window trial 3"
+    ///   basis = "mol%"
+    ///   [oxides]
+    ///   SiO2 = 72.0
+    ///   Na2O = 14.0
+    ///   CaO = 10.0
+    ///   Al2O3 = 4.0
+    #[arg(
+        long,
+        value_name = "FILE",
+        help_heading = "Glass",
+        verbatim_doc_comment
+    )]
     pub recipe: Option<PathBuf>,
+    /// A table (CSV or Parquet) of glasses, one per row: one sheet each.
+    ///
+    /// One column per oxide (SiO2, Na2O, ...) in mol% (wt% with a bare
+    /// --wt); a `name` (or `id`, `label`) column heads each sheet. A row
+    /// that cannot be batched says why on its sheet; the others still
+    /// print, and the run ends with an error naming the rows. Example:
+    ///   quenchwise batch --compositions my-recipes.csv --glass-kg 0.2
+    #[arg(
+        long,
+        value_name = "FILE",
+        help_heading = "Glass",
+        verbatim_doc_comment
+    )]
+    pub compositions: Option<PathBuf>,
     /// Mass of glass to make, kg [default: 1].
     #[arg(long, value_name = "KG", default_value_t = 1.0, help_heading = "Glass")]
     pub glass_kg: f64,
@@ -494,6 +526,9 @@ pub struct BatchArgs {
     #[arg(long, help_heading = "Output", conflicts_with = "csv")]
     pub json: bool,
     /// Print the sheet as CSV (raw material, kg, cost).
+    ///
+    /// With --compositions, one CSV for every sheet, its first column the
+    /// recipe's name.
     #[arg(long, help_heading = "Output")]
     pub csv: bool,
 }
@@ -598,8 +633,11 @@ pub struct EvalArgs {
 
     /// A melt card (TOML) with measured viscosity and crystal data.
     ///
-    /// Skips the composition models. Keys: [viscosity] a, b_k, c_k;
-    /// [crystal] (or one [[crystal]] with a name per phase) liquidus_k,
+    /// Skips the composition models. Keys: [viscosity] a, b_k, c_k (VFT), or
+    /// form = "myega" with log_eta_inf, tg_k, fragility (Mauro et al. 2009);
+    /// unit = "dPa.s" (poise) when log10 η is in dPa·s (default Pa·s);
+    /// [crystal] (or one [[crystal]] with a name per phase) liquidus_k (K) or
+    /// liquidus_c (°C),
     /// enthalpy_of_fusion_j_per_mol, molar_volume_m3_per_mol, turnbull_alpha
     /// or interface_energy_j_per_m2, growth ("normal" or "screw"), optional
     /// heat_capacity_change_j_per_mol_k, melting_point_k,
@@ -627,6 +665,25 @@ pub struct EvalArgs {
     /// error naming its row, line and column.
     #[arg(long, value_name = "FILE", requires = "out", help_heading = "Input")]
     pub compositions: Option<PathBuf>,
+
+    /// Check the --compositions recipes against a screen config's limits.
+    ///
+    /// Each recipe is judged as the screen judges a candidate (composition
+    /// limits, model domain, critical rate, melting temperature, liquidus,
+    /// cost, T_g and working range where the config sets them). --out gets
+    /// one row per recipe: passes_every_limit, failed_limits, and per limit
+    /// a _pass column and a _margin column in the limit's unit (K, decades
+    /// of R_c, mol%, currency per kg; negative = outside). Where the config
+    /// prices glasses, a batch sheet per recipe goes beside --out
+    /// (NAME-batch-sheets.txt). Example:
+    ///   quenchwise eval --compositions mine.csv --against configs/demo-screen.toml --out checked.csv
+    #[arg(
+        long,
+        value_name = "CONFIG",
+        requires = "compositions",
+        help_heading = "Input"
+    )]
+    pub against: Option<PathBuf>,
 
     /// Write the table of results here (.csv or .parquet).
     ///

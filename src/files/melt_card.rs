@@ -1,10 +1,12 @@
-//! Melt cards (TOML): a melt measured by the user (VFT viscosity, and one
-//! `[crystal]` or several `[[crystal]]` phases with liquidus and crystal data,
-//! optional `[kinetics]`) turned into a validated melt, with the line of any
-//! bad value. Table rows of melt cards share [`MeltValues`]; screen configs
-//! share the `[kinetics]` table ([`KineticsTable`]).
+//! Melt cards (TOML): a melt measured by the user (VFT or MYEGA viscosity,
+//! in Pa·s or dPa·s, and one `[crystal]` or several `[[crystal]]` phases with
+//! liquidus (K or °C) and crystal data, optional `[kinetics]`) turned into a
+//! validated melt, with the line of any bad value. Table rows of melt cards
+//! (VFT in Pa·s, liquidus in K) share [`MeltValues`]; screen configs share
+//! the `[kinetics]` table ([`KineticsTable`]).
 
-use super::source::{DataError, Source};
+use super::model_set::FormName;
+use super::source::{DataError, Problem, Source};
 use crate::error::{Diagnostic, Error};
 use crate::kinetics::{
     CrystalPhase, DrivingForce, Implausible, KineticOptions, KineticOverrides, KineticsError, Melt,
@@ -12,7 +14,7 @@ use crate::kinetics::{
 };
 use crate::properties::{GrowthMode, Interface, ViscosityCurve, ViscosityError};
 use crate::uncertainty::melt::MeltSpreads;
-use crate::units::Kelvin;
+use crate::units::{Celsius, Kelvin};
 use serde::Deserialize;
 use std::ops::Range;
 use toml::Spanned;
@@ -31,12 +33,164 @@ struct CardFile<C> {
     kinetics: Option<KineticsTable>,
 }
 
+/// `[viscosity]`: VFT (`a`, `b_k`, `c_k`, the default form) or MYEGA
+/// (`form = "myega"`: `log_eta_inf`, `tg_k`, `fragility`), with log10 η in
+/// Pa·s unless `unit = "dPa.s"` (poise).
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct CardViscosity {
-    a: Spanned<f64>,
-    b_k: Spanned<f64>,
-    c_k: Spanned<f64>,
+    #[serde(default)]
+    form: Option<Spanned<FormName>>,
+    #[serde(default)]
+    unit: Option<Spanned<String>>,
+    #[serde(default)]
+    a: Option<Spanned<f64>>,
+    #[serde(default)]
+    b_k: Option<Spanned<f64>>,
+    #[serde(default)]
+    c_k: Option<Spanned<f64>>,
+    #[serde(default)]
+    log_eta_inf: Option<Spanned<f64>>,
+    #[serde(default)]
+    tg_k: Option<Spanned<f64>>,
+    #[serde(default)]
+    fragility: Option<Spanned<f64>>,
+}
+
+/// log10(η/dPa·s) − log10(η/Pa·s): 1 Pa·s = 10 dPa·s (SI brochure, 9th ed.,
+/// 2019: the dyne and centimetre give 1 P = 1 dPa·s = 0.1 Pa·s).
+pub const DECADES_DPA_S_PER_PA_S: f64 = 1.0;
+
+/// The units a card's log10 η may be given in: (what the file says, decades
+/// to subtract to get log10(η/Pa·s)).
+const VISCOSITY_UNITS: [(&str, f64); 7] = [
+    ("Pa.s", 0.0),
+    ("Pa·s", 0.0),
+    ("Pa s", 0.0),
+    ("dPa.s", DECADES_DPA_S_PER_PA_S),
+    ("dPa·s", DECADES_DPA_S_PER_PA_S),
+    ("dPa s", DECADES_DPA_S_PER_PA_S),
+    ("poise", DECADES_DPA_S_PER_PA_S),
+];
+
+impl CardViscosity {
+    fn form(&self) -> FormName {
+        self.form.as_ref().map_or(FormName::Vft, |f| *f.get_ref())
+    }
+
+    /// The span of a key of the curve, where it is given.
+    fn span_of(&self, key: &str) -> Option<Range<usize>> {
+        let s = |o: &Option<Spanned<f64>>| o.as_ref().map(|v| v.span());
+        match key {
+            "a" => s(&self.a),
+            "b_k" => s(&self.b_k),
+            "c_k" => s(&self.c_k),
+            "log_eta_inf" => s(&self.log_eta_inf),
+            "tg_k" => s(&self.tg_k),
+            "fragility" => s(&self.fragility),
+            _ => None,
+        }
+    }
+
+    /// The first value of the curve (for errors about the curve as a whole).
+    fn first_span(&self) -> Range<usize> {
+        let key = match self.form() {
+            FormName::Vft => "a",
+            FormName::Myega => "log_eta_inf",
+        };
+        self.span_of(key)
+            .or_else(|| self.form.as_ref().map(|f| f.span()))
+            .unwrap_or(0..0)
+    }
+
+    /// The curve `[viscosity]` gives, in Pa·s; else every problem with its
+    /// place.
+    fn curve(&self, src: &Source) -> Result<ViscosityCurve, Vec<Problem>> {
+        let mut problems = Vec::new();
+        let shift = match &self.unit {
+            None => 0.0,
+            Some(u) => match VISCOSITY_UNITS
+                .iter()
+                .find(|(n, _)| *n == u.get_ref().trim())
+            {
+                Some((_, d)) => *d,
+                None => {
+                    problems.push(src.problem(
+                        u.span(),
+                        format!(
+                            "unit must be \"Pa.s\" or \"dPa.s\" (poise): the unit of η in log10 η, got \"{}\"",
+                            u.get_ref()
+                        ),
+                    ));
+                    0.0
+                }
+            },
+        };
+        let (need, other, form_name): (&[&str], &[&str], &str) = match self.form() {
+            FormName::Vft => (
+                &["a", "b_k", "c_k"],
+                &["log_eta_inf", "tg_k", "fragility"],
+                "vft",
+            ),
+            FormName::Myega => (
+                &["log_eta_inf", "tg_k", "fragility"],
+                &["a", "b_k", "c_k"],
+                "myega",
+            ),
+        };
+        let at = self
+            .form
+            .as_ref()
+            .map(|f| f.span())
+            .or_else(|| need.iter().find_map(|k| self.span_of(k)))
+            .or_else(|| other.iter().find_map(|k| self.span_of(k)))
+            .unwrap_or(0..0);
+        for k in other {
+            if let Some(span) = self.span_of(k) {
+                problems.push(src.problem(
+                    span,
+                    format!(
+                        "{k} belongs to form = \"{}\", not \"{form_name}\"",
+                        if form_name == "vft" { "myega" } else { "vft" }
+                    ),
+                ));
+            }
+        }
+        let mut v = Vec::with_capacity(3);
+        for k in need {
+            let x = match *k {
+                "a" => &self.a,
+                "b_k" => &self.b_k,
+                "c_k" => &self.c_k,
+                "log_eta_inf" => &self.log_eta_inf,
+                "tg_k" => &self.tg_k,
+                _ => &self.fragility,
+            };
+            match x {
+                Some(x) => v.push(*x.get_ref()),
+                None => problems.push(src.problem(
+                    at.clone(),
+                    format!("[viscosity] with form = \"{form_name}\" needs {k}"),
+                )),
+            }
+        }
+        if !problems.is_empty() {
+            return Err(problems);
+        }
+        // log10(η/Pa·s) = log10(η/dPa·s) − 1: only the constant term moves.
+        let made = match self.form() {
+            FormName::Vft => ViscosityCurve::vft(v[0] - shift, v[1], v[2]),
+            FormName::Myega => ViscosityCurve::myega(v[0] - shift, v[1], v[2]),
+        };
+        made.map_err(|e| {
+            let span = match &e {
+                ViscosityError::Value(val) => self.span_of(val.name()),
+                _ => None,
+            }
+            .unwrap_or_else(|| self.first_span());
+            vec![src.problem(span, e.to_string())]
+        })
+    }
 }
 
 #[derive(Deserialize)]
@@ -44,7 +198,11 @@ struct CardViscosity {
 struct CardCrystal {
     #[serde(default)]
     name: Option<Spanned<String>>,
-    liquidus_k: Spanned<f64>,
+    /// The liquidus in K, or `liquidus_c` in °C: exactly one.
+    #[serde(default)]
+    liquidus_k: Option<Spanned<f64>>,
+    #[serde(default)]
+    liquidus_c: Option<Spanned<f64>>,
     enthalpy_of_fusion_j_per_mol: Spanned<f64>,
     molar_volume_m3_per_mol: Spanned<f64>,
     turnbull_alpha: Option<Spanned<f64>>,
@@ -271,19 +429,30 @@ impl MeltValues {
     pub fn build(&self, base: &KineticOptions) -> Result<(Melt, KineticOptions), MeltValueError> {
         let viscosity =
             ViscosityCurve::vft(self.a, self.b_k, self.c_k).map_err(KineticsError::from)?;
-        let mut phases = Vec::with_capacity(self.crystals.len());
-        for (k, c) in self.crystals.iter().enumerate() {
-            let p = c.phase(k)?;
-            // Each phase alone first, so an error names its crystal.
-            Melt::with_phases(viscosity, vec![p.clone()])
-                .map_err(|error| MeltValueError::Crystal { crystal: k, error })?;
-            phases.push(p);
-        }
-        let melt = Melt::with_phases(viscosity, phases)?;
-        let opts = self.kinetics.apply(*base);
-        opts.validate()?;
-        Ok((melt, opts))
+        build_melt(viscosity, &self.crystals, &self.kinetics, base)
     }
+}
+
+/// A melt from a viscosity curve and its crystals, with its kinetic options
+/// (`base` with `kinetics` applied).
+fn build_melt(
+    viscosity: ViscosityCurve,
+    crystals: &[CrystalValues],
+    kinetics: &KineticOverrides,
+    base: &KineticOptions,
+) -> Result<(Melt, KineticOptions), MeltValueError> {
+    let mut phases = Vec::with_capacity(crystals.len());
+    for (k, c) in crystals.iter().enumerate() {
+        let p = c.phase(k)?;
+        // Each phase alone first, so an error names its crystal.
+        Melt::with_phases(viscosity, vec![p.clone()])
+            .map_err(|error| MeltValueError::Crystal { crystal: k, error })?;
+        phases.push(p);
+    }
+    let melt = Melt::with_phases(viscosity, phases)?;
+    let opts = kinetics.apply(*base);
+    opts.validate()?;
+    Ok((melt, opts))
 }
 
 /// The key a kinetics error is about, for locating it.
@@ -296,6 +465,26 @@ fn key_of(e: &KineticsError) -> &'static str {
 }
 
 impl CardCrystal {
+    /// The liquidus in K from `liquidus_k` or `liquidus_c` (°C), exactly one;
+    /// else the problem and where it is.
+    fn liquidus_k(&self) -> Result<f64, (Range<usize>, &'static str)> {
+        match (&self.liquidus_k, &self.liquidus_c) {
+            (Some(k), None) => Ok(*k.get_ref()),
+            (None, Some(c)) => Ok(Celsius(*c.get_ref()).to_kelvin().0),
+            (Some(_), Some(c)) => Err((
+                c.span(),
+                "give the liquidus once: liquidus_k (K) or liquidus_c (°C), not both",
+            )),
+            (None, None) => Err((
+                self.name
+                    .as_ref()
+                    .map(|n| n.span())
+                    .unwrap_or_else(|| self.growth.span()),
+                "this crystal needs its liquidus: liquidus_k (K) or liquidus_c (°C)",
+            )),
+        }
+    }
+
     fn values(&self, k: usize, several: bool) -> CrystalValues {
         let v = |s: &Option<Spanned<f64>>| s.as_ref().map(|v| *v.get_ref());
         CrystalValues {
@@ -310,7 +499,8 @@ impl CardCrystal {
                         "crystal".into()
                     }
                 }),
-            liquidus_k: *self.liquidus_k.get_ref(),
+            // Checked before (read_card): NaN never reaches a melt.
+            liquidus_k: self.liquidus_k().unwrap_or(f64::NAN),
             enthalpy_of_fusion_j_per_mol: *self.enthalpy_of_fusion_j_per_mol.get_ref(),
             molar_volume_m3_per_mol: *self.molar_volume_m3_per_mol.get_ref(),
             turnbull_alpha: v(&self.turnbull_alpha),
@@ -325,7 +515,7 @@ impl CardCrystal {
     fn span_of(&self, name: &str) -> Option<Range<usize>> {
         let s = |o: &Option<Spanned<f64>>| o.as_ref().map(|v| v.span());
         match name {
-            "liquidus_k" => Some(self.liquidus_k.span()),
+            "liquidus_k" => s(&self.liquidus_k).or_else(|| s(&self.liquidus_c)),
             "enthalpy_of_fusion_j_per_mol" => Some(self.enthalpy_of_fusion_j_per_mol.span()),
             "molar_volume_m3_per_mol" => Some(self.molar_volume_m3_per_mol.span()),
             "turnbull_alpha" => s(&self.turnbull_alpha),
@@ -398,7 +588,7 @@ pub fn read_melt_card(src: &Source, base: &KineticOptions) -> Result<MeltCard, D
 /// a card evaluated at its point estimate does not read them (so a card that
 /// swaps α for σ still evaluates).
 fn read_card(src: &Source, base: &KineticOptions, spreads: bool) -> Result<MeltCard, DataError> {
-    let hint = "a melt card has [viscosity] a, b_k, c_k; [crystal] (or one [[crystal]] per phase, each with a name) liquidus_k, enthalpy_of_fusion_j_per_mol, molar_volume_m3_per_mol, turnbull_alpha (or interface_energy_j_per_m2), growth; optional [kinetics]";
+    let hint = "a melt card has [viscosity] a, b_k, c_k (VFT; or form = \"myega\" with log_eta_inf, tg_k, fragility; optional unit = \"dPa.s\" for η in poise); [crystal] (or one [[crystal]] per phase, each with a name) liquidus_k or liquidus_c, enthalpy_of_fusion_j_per_mol, molar_volume_m3_per_mol, turnbull_alpha (or interface_energy_j_per_m2), growth; optional [kinetics]";
     // [crystal] for one phase, [[crystal]] for several: look at the shape first,
     // then read with spans.
     let several = src
@@ -421,18 +611,23 @@ fn read_card(src: &Source, base: &KineticOptions, spreads: bool) -> Result<MeltC
             Some(hint.to_string()),
         ));
     }
-    let values = MeltValues {
-        a: *viscosity.a.get_ref(),
-        b_k: *viscosity.b_k.get_ref(),
-        c_k: *viscosity.c_k.get_ref(),
-        crystals: crystals
-            .iter()
-            .enumerate()
-            .map(|(k, c)| c.values(k, several))
-            .collect(),
-        kinetics: kinetics.overrides(),
+    // The curve and every liquidus first: each problem with its line.
+    let mut problems = Vec::new();
+    let curve = viscosity.curve(src).map_err(|p| problems.extend(p)).ok();
+    for c in &crystals {
+        if let Err((span, why)) = c.liquidus_k() {
+            problems.push(src.problem(span, why));
+        }
+    }
+    let Some(curve) = curve.filter(|_| problems.is_empty()) else {
+        return Err(src.error(problems, Some(hint.to_string())));
     };
-    match values.build(base) {
+    let values: Vec<CrystalValues> = crystals
+        .iter()
+        .enumerate()
+        .map(|(k, c)| c.values(k, several))
+        .collect();
+    match build_melt(curve, &values, &kinetics.overrides(), base) {
         Ok((melt, options)) => {
             let spreads = card_spreads(src, &crystals, &kinetics, spreads)?;
             Ok(MeltCard {
@@ -459,10 +654,7 @@ fn read_card(src: &Source, base: &KineticOptions, spreads: bool) -> Result<MeltC
                     (KineticsError::DuplicatePhase(_), _) => {
                         crystals.last().and_then(|c| c.span_of("name"))
                     }
-                    (_, "a") => Some(viscosity.a.span()),
-                    (_, "b_k") => Some(viscosity.b_k.span()),
-                    (_, "c_k") => Some(viscosity.c_k.span()),
-                    (_, name) => kinetics.span_of(name),
+                    (_, name) => viscosity.span_of(name).or_else(|| kinetics.span_of(name)),
                 },
             }
             .unwrap_or(0..0);
@@ -478,10 +670,13 @@ impl MeltCard {
     /// The span of a key of the melt (`a`, `b_k`, `c_k`) or of phase `k`.
     fn span_of(&self, phase: Option<usize>, key: &str) -> Option<Range<usize>> {
         match key {
-            "a" => Some(self.viscosity.a.span()),
-            "b_k" => Some(self.viscosity.b_k.span()),
-            "c_k" => Some(self.viscosity.c_k.span()),
-            "glass transition" => Some(self.viscosity.b_k.span()),
+            "a" | "b_k" | "c_k" | "log_eta_inf" | "tg_k" | "fragility" => {
+                self.viscosity.span_of(key)
+            }
+            "glass transition" => self
+                .viscosity
+                .span_of("b_k")
+                .or_else(|| self.viscosity.span_of("tg_k")),
             _ => match phase {
                 Some(k) => self.crystals.get(k).and_then(|c| c.span_of(key)),
                 None => self.kinetics.span_of(key),
@@ -541,7 +736,9 @@ impl MeltCard {
             }
             KineticsError::Value(v) => self.kinetics.span_of(v.name()),
             // The curve itself: a suspect value of it, else its constant.
-            KineticsError::Viscosity(_) => first_suspect.or_else(|| self.span_of(None, "a")),
+            KineticsError::Viscosity(_) => {
+                first_suspect.or_else(|| Some(self.viscosity.first_span()))
+            }
             _ => None,
         };
         let mut message = e.to_string();

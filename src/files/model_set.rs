@@ -52,9 +52,11 @@ struct AboutFile {
     fitted: Vec<String>,
 }
 
+/// The viscosity forms a file may name (`form = "vft"` or `"myega"`): model
+/// sets and melt cards read the same names.
 #[derive(Deserialize, Clone, Copy, PartialEq, Eq)]
 #[serde(rename_all = "snake_case")]
-enum FormName {
+pub(crate) enum FormName {
     Vft,
     Myega,
 }

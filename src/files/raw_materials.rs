@@ -2,6 +2,10 @@
 //! (one `[[raw_material]]` per entry), each row from a formula or an analysis,
 //! every bad row reported at once with its line.
 //!
+//! A CSV saved by a spreadsheet set to a decimal comma (fields separated by
+//! `;`, numbers like `0,45`) is read as such: the header decides (`;` and no
+//! `,` in it).
+//!
 //! Empty cells: an empty `purity_pct` is 100 %, an empty `available_kg` is
 //! an unlimited stock, an empty `<Oxide>_wt_pct` is 0 (the oxide is not in
 //! the analysis). A cell that holds anything but a number ("9O", "n/a") is an
@@ -49,14 +53,102 @@ pub fn read_raw_materials(path: Option<&Path>) -> Result<Vec<RawMaterial>, Table
     }) {
         return raw_materials_toml(p);
     }
-    let (df, places) = match path {
-        Some(p) => read_table(p)?,
-        None => read_csv_text(
+    let semicolon = path
+        .filter(|p| p.extension().is_some_and(|e| e.eq_ignore_ascii_case("csv")))
+        .map(|p| {
+            std::fs::read_to_string(p)
+                .map_err(|e| TableError::Read {
+                    path: p.display().to_string(),
+                    message: e.to_string(),
+                })
+                .map(|text| (p, semicolon_csv(&text)))
+        })
+        .transpose()?;
+    let (df, places) = match (path, semicolon) {
+        (Some(p), Some((_, Some(text)))) => read_csv_text(&text, &p.display().to_string())?,
+        (Some(p), _) => read_table(p)?,
+        (None, _) => read_csv_text(
             DEMO_RAW_MATERIALS,
             "<built-in demo-datasets/raw-materials.csv>",
         )?,
     };
     raw_materials_frame(&df, &places)
+}
+
+/// A CSV text with `;` between fields and decimal commas (as spreadsheets
+/// set to such a locale save it) rewritten with `,` and decimal points, line
+/// for line, so that rows keep their line numbers; `None` when the header
+/// has a `,` or no `;` (an ordinary CSV).
+fn semicolon_csv(text: &str) -> Option<String> {
+    let header = text.lines().find(|l| !l.trim().is_empty())?;
+    if !header.contains(';') || header.contains(',') {
+        return None;
+    }
+    let mut out = String::with_capacity(text.len());
+    for line in text.split_inclusive('\n') {
+        let (body, end) = match line.strip_suffix("\r\n") {
+            Some(b) => (b, "\r\n"),
+            None => match line.strip_suffix('\n') {
+                Some(b) => (b, "\n"),
+                None => (line, ""),
+            },
+        };
+        let fields: Vec<String> = split_quoted(body, ';')
+            .into_iter()
+            .map(|f| {
+                let t = f.trim();
+                if is_decimal_comma(t) {
+                    t.replace(',', ".")
+                } else if f.contains([',', '"']) {
+                    format!("\"{}\"", f.replace('"', "\"\""))
+                } else {
+                    f
+                }
+            })
+            .collect();
+        out.push_str(&fields.join(","));
+        out.push_str(end);
+    }
+    Some(out)
+}
+
+/// Split a line at `sep` outside double quotes, unquoting the fields.
+fn split_quoted(line: &str, sep: char) -> Vec<String> {
+    let mut fields = vec![String::new()];
+    let mut quoted = false;
+    let mut chars = line.chars().peekable();
+    while let Some(c) = chars.next() {
+        match c {
+            '"' if quoted && chars.peek() == Some(&'"') => {
+                chars.next();
+                fields.last_mut().unwrap_or(&mut String::new()).push('"');
+            }
+            '"' => quoted = !quoted,
+            c if c == sep && !quoted => fields.push(String::new()),
+            c => {
+                if let Some(f) = fields.last_mut() {
+                    f.push(c);
+                }
+            }
+        }
+    }
+    fields
+}
+
+/// A number written with a decimal comma: digits, one comma, digits, an
+/// optional exponent ("0,45", "-1,5e3").
+fn is_decimal_comma(t: &str) -> bool {
+    let t = t.strip_prefix(['+', '-']).unwrap_or(t);
+    let (mantissa, exponent) = match t.find(['e', 'E']) {
+        Some(i) => (&t[..i], Some(&t[i + 1..])),
+        None => (t, None),
+    };
+    let digits = |s: &str| !s.is_empty() && s.bytes().all(|b| b.is_ascii_digit());
+    let ok_exp = exponent.is_none_or(|e| digits(e.strip_prefix(['+', '-']).unwrap_or(e)));
+    match mantissa.split_once(',') {
+        Some((a, b)) => digits(a) && digits(b) && ok_exp,
+        None => false,
+    }
 }
 
 /// The raw materials of a table already read.
@@ -279,6 +371,19 @@ fn entry_span(r: &RawEntry, message: &str) -> std::ops::Range<usize> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn semicolons_and_decimal_commas_become_an_ordinary_csv() {
+        let text = "name;formula;price_per_kg;note\r\nsoda ash;Na2CO3;0,45;\"dense, light\"\nsand;SiO2;1,2e-1;\n";
+        assert_eq!(
+            semicolon_csv(text).unwrap(),
+            "name,formula,price_per_kg,note\r\nsoda ash,Na2CO3,0.45,\"dense, light\"\nsand,SiO2,1.2e-1,\n"
+        );
+        assert_eq!(semicolon_csv("name,formula\nsand,SiO2\n"), None);
+        assert!(
+            !is_decimal_comma("1.234,5") && !is_decimal_comma(",5") && is_decimal_comma("-0,5")
+        );
+    }
 
     #[test]
     fn the_demo_shelf_reads() {

@@ -13,7 +13,6 @@ use toml::Spanned;
 struct RecipeFile {
     basis: Spanned<String>,
     #[serde(default)]
-    #[allow(dead_code)]
     name: Option<String>,
     oxides: BTreeMap<Spanned<String>, Spanned<f64>>,
 }
@@ -24,6 +23,17 @@ struct RecipeFile {
 /// # Errors
 /// Unknown basis or oxide, bad amounts, a sum far from 100 — with the line.
 pub fn parse_recipe(src: &Source, tolerance: f64) -> Result<Composition, DataError> {
+    parse_named_recipe(src, tolerance).map(|(_, c)| c)
+}
+
+/// A recipe file's composition and its `name`, where it gives one.
+///
+/// # Errors
+/// As [`parse_recipe`].
+pub fn parse_named_recipe(
+    src: &Source,
+    tolerance: f64,
+) -> Result<(Option<String>, Composition), DataError> {
     let hint =
         "a recipe file has basis = \"mol%\" or \"wt%\" and an [oxides] table, e.g. SiO2 = 72.0";
     let file: RecipeFile = src.parse(hint)?;
@@ -54,8 +64,14 @@ pub fn parse_recipe(src: &Source, tolerance: f64) -> Result<Composition, DataErr
         }
     }
     c.finish(hint)?;
-    Composition::new(&pairs, basis, tolerance).map_err(|e: CompositionError| {
-        let span = file.oxides.keys().next().map(|k| k.span()).unwrap_or(0..0);
-        src.error(vec![src.problem(span, e.to_string())], e.hint())
-    })
+    let name = file
+        .name
+        .map(|n| n.trim().to_string())
+        .filter(|n| !n.is_empty());
+    Composition::new(&pairs, basis, tolerance)
+        .map(|c| (name, c))
+        .map_err(|e: CompositionError| {
+            let span = file.oxides.keys().next().map(|k| k.span()).unwrap_or(0..0);
+            src.error(vec![src.problem(span, e.to_string())], e.hint())
+        })
 }

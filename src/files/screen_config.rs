@@ -524,10 +524,21 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
     // Files the config names: a problem with one is reported at the line
     // that names it (L1), with the file's own problem below.
     let file_problem = |key: &str, s: &Spanned<String>, e: Error| {
-        (
-            s.span(),
-            format!("{key} = \"{}\" cannot be used:\n{e}", s.get_ref()),
-        )
+        let written = s.get_ref();
+        let text = e.to_string();
+        // A file that cannot be opened is named once: its error starts with
+        // the path it was looked for at.
+        let message = match text.split_once(": ") {
+            Some((p, why)) if !text.contains('\n') && Path::new(p).ends_with(written) => {
+                if p == written.as_str() {
+                    format!("{key} = \"{written}\" cannot be used: {why}")
+                } else {
+                    format!("{key} = \"{written}\" cannot be used: {why} (looked for {p})")
+                }
+            }
+            _ => format!("{key} = \"{written}\" cannot be used:\n{text}"),
+        };
+        (s.span(), message)
     };
     let models_spec = raw.models.as_ref().and_then(|m| m.set.as_ref());
     let models = match models_spec.map(|s| s.get_ref().as_str()) {

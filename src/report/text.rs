@@ -267,6 +267,21 @@ pub fn batch_text(b: &Batch, glass: &Composition, shelf: &str) -> String {
         glass.describe()
     );
     let _ = writeln!(o, "raw materials  {}", shelf);
+    if let Some(note) = glass.normalisation_note() {
+        let _ = writeln!(o, "note           {note}");
+    }
+    if !b.retention.is_empty() {
+        let kept: Vec<String> = b
+            .retention
+            .iter()
+            .map(|(ox, f)| format!("{ox} {}", sig(*f)))
+            .collect();
+        let _ = writeln!(
+            o,
+            "retention      {} (fraction kept in the melt; the batch carries the rest extra)",
+            kept.join(", ")
+        );
+    }
     let _ = writeln!(
         o,
         "\n  {:<26} {:>12} {:>10} {:>10}",

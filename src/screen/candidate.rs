@@ -188,6 +188,12 @@ pub(crate) fn gauges(problem: &ScreenProblem, e: &Evaluation, cost: Option<f64>)
     g
 }
 
+/// Whether an evaluation breaks the model-domain limit: the models are
+/// extrapolated and the problem does not allow it.
+pub(crate) fn outside_domain(problem: &ScreenProblem, e: &Evaluation) -> bool {
+    !problem.allow_extrapolation && (e.viscosity_extrapolated || e.liquidus_extrapolated)
+}
+
 /// Whether the objective ranks recipes by their margin (and so ranks those
 /// the model cannot vouch for last).
 pub(crate) fn uses_margin(problem: &ScreenProblem) -> bool {
@@ -396,7 +402,7 @@ pub fn evaluate_candidate_with(
             return c;
         }
     };
-    if !problem.allow_extrapolation && (e.viscosity_extrapolated || e.liquidus_extrapolated) {
+    if outside_domain(problem, &e) {
         c.violations.push((Limit::ModelDomain, 0.5));
     }
     let cost_value = match cost {

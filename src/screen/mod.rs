@@ -24,6 +24,7 @@
 //!   doi:10.1007/BFb0067703 (SQP with the damped BFGS update).
 
 pub mod candidate;
+pub mod check;
 pub mod first_pass;
 pub mod limits;
 pub mod polytope;

@@ -1,0 +1,276 @@
+//! `quenchwise eval --compositions FILE --against CONFIG.toml --out TABLE`:
+//! recipes the user already has in mind, checked against a screen's limits
+//! (pass or fail and the margin of each, the cost), with a batch sheet for
+//! each recipe the price list can make.
+
+use super::batch::{glass_label, glasses_of_table, Glass};
+use super::progress::Progress;
+use super::Outcome;
+use polars::prelude::{Column, DataFrame};
+use quenchwise::assess::SlabQuench;
+use quenchwise::batch::least_cost_batch;
+use quenchwise::composition::Basis;
+use quenchwise::error::Error;
+use quenchwise::files::screen_config::load;
+use quenchwise::files::table::write_frame;
+use quenchwise::report::sig;
+use quenchwise::report::text::batch_text;
+use quenchwise::screen::check::{check_recipe, RecipeCheck};
+use quenchwise::units::Kelvin;
+use rayon::prelude::*;
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+/// Check every recipe of `table` against the limits of `config`.
+///
+/// # Errors
+/// The config or the table cannot be read; the table cannot be written.
+pub fn against(
+    table: &Path,
+    config: &Path,
+    out: &Path,
+    basis: Basis,
+    sum_tolerance: f64,
+) -> Result<Outcome, Error> {
+    let plan = load(config)?;
+    let problem = &plan.problem;
+    let glasses = glasses_of_table(table, basis, sum_tolerance)?;
+    let progress = Progress::new("", "recipes", glasses.len(), 0, false);
+    let checks: Vec<Result<RecipeCheck, String>> = glasses
+        .par_iter()
+        .map(|g| {
+            let r = g
+                .composition
+                .as_ref()
+                .map_err(Clone::clone)
+                .map(|c| check_recipe(problem, c.mol_percent(), Some(SlabQuench::default())));
+            progress.inc();
+            r
+        })
+        .collect();
+    progress.finish();
+    let mut df = frame(&glasses, &checks)
+        .map_err(|e| Error::internal(format!("assembling the results table: {e}")))?;
+    write_frame(out, &mut df)?;
+    // Batch sheets, for 1 kg of glass, where the config prices glasses.
+    let sheets_path = plan.batch_model.as_ref().map(|model| {
+        let mut text = String::new();
+        for (i, g) in glasses.iter().enumerate() {
+            text.push_str(&format!("=== {} ===\n", glass_label(g, i)));
+            match &g.composition {
+                Ok(c) => match least_cost_batch(&model.raws, c, 1.0, &model.settings) {
+                    Ok(b) => {
+                        let label = problem.cost.as_ref().map_or("", |c| c.label.as_str());
+                        text.push_str(&batch_text(&b, c, label));
+                    }
+                    Err(e) => text.push_str(&format!("no sheet: {e}\n")),
+                },
+                Err(e) => text.push_str(&format!("no sheet: {e}\n")),
+            }
+            text.push('\n');
+        }
+        (sheets_file(out), text)
+    });
+    if let Some((p, text)) = &sheets_path {
+        std::fs::write(p, text).map_err(|e| Error::io("writing", p, e))?;
+    }
+    let summary = summary(
+        &glasses,
+        &checks,
+        config,
+        out,
+        sheets_path.as_ref().map(|s| &s.0),
+    );
+    std::io::stdout()
+        .lock()
+        .write_all(summary.as_bytes())
+        .map_err(|e| Error::internal(format!("writing to stdout: {e}")))?;
+    Ok(Outcome::Finished)
+}
+
+/// `results.csv` → `results-batch-sheets.txt`, beside it.
+fn sheets_file(out: &Path) -> PathBuf {
+    let stem = out
+        .file_stem()
+        .map_or("recipes".into(), |s| s.to_string_lossy().into_owned());
+    out.with_file_name(format!("{stem}-batch-sheets.txt"))
+}
+
+/// The limit keys of every row, in the order they first appear.
+fn keys(checks: &[Result<RecipeCheck, String>]) -> Vec<(&'static str, &'static str, bool)> {
+    let mut keys: Vec<(&'static str, &'static str, bool)> = Vec::new();
+    for c in checks.iter().flatten() {
+        for l in &c.checks {
+            if !keys.iter().any(|k| k.0 == l.key) {
+                keys.push((l.key, l.unit, l.margin.is_some()));
+            } else if l.margin.is_some() {
+                if let Some(k) = keys.iter_mut().find(|k| k.0 == l.key) {
+                    k.2 = true;
+                }
+            }
+        }
+    }
+    keys
+}
+
+/// One row per recipe: its name, whether it passes every limit, which it
+/// fails, a pass and a margin column per limit, then the decisive numbers.
+fn frame(
+    glasses: &[Glass],
+    checks: &[Result<RecipeCheck, String>],
+) -> polars::prelude::PolarsResult<DataFrame> {
+    let n = glasses.len();
+    let mut cols: Vec<Column> = vec![
+        Column::new(
+            "recipe".into(),
+            (0..n)
+                .map(|i| glass_label(&glasses[i], i))
+                .collect::<Vec<_>>(),
+        ),
+        Column::new(
+            "passes_every_limit".into(),
+            checks
+                .iter()
+                .map(|c| c.as_ref().map(RecipeCheck::passes).unwrap_or(false))
+                .collect::<Vec<_>>(),
+        ),
+        Column::new(
+            "failed_limits".into(),
+            checks
+                .iter()
+                .map(|c| match c {
+                    Ok(c) => c.failed().join(" "),
+                    Err(_) => "input".to_string(),
+                })
+                .collect::<Vec<_>>(),
+        ),
+    ];
+    for (key, unit, has_margin) in keys(checks) {
+        let find = |c: &Result<RecipeCheck, String>| {
+            c.as_ref()
+                .ok()
+                .and_then(|c| c.checks.iter().find(|l| l.key == key).cloned())
+        };
+        cols.push(Column::new(
+            format!("{key}_pass").into(),
+            checks
+                .iter()
+                .map(|c| find(c).map(|l| l.pass))
+                .collect::<Vec<_>>(),
+        ));
+        if has_margin {
+            cols.push(Column::new(
+                format!("{key}_margin_{unit}").into(),
+                checks
+                    .iter()
+                    .map(|c| find(c).and_then(|l| l.margin))
+                    .collect::<Vec<_>>(),
+            ));
+        }
+    }
+    let eval = |f: &dyn Fn(&quenchwise::assess::Evaluation) -> Option<f64>| {
+        checks
+            .iter()
+            .map(|c| {
+                c.as_ref()
+                    .ok()
+                    .and_then(|c| c.candidate.evaluation.as_ref())
+                    .and_then(f)
+                    .filter(|v| v.is_finite())
+            })
+            .collect::<Vec<_>>()
+    };
+    cols.push(Column::new(
+        "critical_rate_k_per_s".into(),
+        eval(&|e| Some(e.critical_rate_k_per_s)),
+    ));
+    cols.push(Column::new(
+        "liquidus_c".into(),
+        eval(&|e| Some(e.liquidus_c)),
+    ));
+    cols.push(Column::new(
+        "melting_temperature_c".into(),
+        eval(&|e| e.melting_temperature_k.map(|t| Kelvin(t).to_celsius().0)),
+    ));
+    cols.push(Column::new(
+        "cost_per_kg_glass".into(),
+        checks
+            .iter()
+            .map(|c| c.as_ref().ok().and_then(|c| c.candidate.cost_per_kg))
+            .collect::<Vec<_>>(),
+    ));
+    cols.push(Column::new(
+        "error".into(),
+        checks
+            .iter()
+            .map(|c| match c {
+                Ok(c) => c.candidate.error.clone(),
+                Err(e) => Some(e.clone()),
+            })
+            .collect::<Vec<_>>(),
+    ));
+    DataFrame::new_infer_height(cols)
+}
+
+/// The terminal summary: one line per recipe, then the count.
+fn summary(
+    glasses: &[Glass],
+    checks: &[Result<RecipeCheck, String>],
+    config: &Path,
+    out: &Path,
+    sheets: Option<&PathBuf>,
+) -> String {
+    let mut s = format!(
+        "recipes checked against the limits of {}\n\n{:<28} {:<6} {}\n",
+        config.display(),
+        "recipe",
+        "verdict",
+        "limits failed (margin; negative = outside)"
+    );
+    let mut passed = 0;
+    for (i, c) in checks.iter().enumerate() {
+        let name: String = glass_label(&glasses[i], i).chars().take(28).collect();
+        match c {
+            Ok(c) if c.passes() => {
+                passed += 1;
+                s.push_str(&format!("{name:<28} {:<6} -\n", "pass"));
+            }
+            Ok(c) => {
+                let failed: Vec<String> = c
+                    .checks
+                    .iter()
+                    .filter(|l| !l.pass)
+                    .map(|l| match l.margin {
+                        Some(m) => format!("{} ({} {})", l.key, sig(m), unit_text(l.unit)),
+                        None => l.key.to_string(),
+                    })
+                    .collect();
+                s.push_str(&format!("{name:<28} {:<6} {}\n", "fail", failed.join(", ")));
+            }
+            Err(e) => s.push_str(&format!("{name:<28} {:<6} {e}\n", "error")),
+        }
+    }
+    let n = checks.len();
+    s.push_str(&format!(
+        "\n{passed} of {n} {} every limit; one row per recipe with a pass and a margin column per limit in {}\n",
+        if passed == 1 { "passes" } else { "pass" },
+        out.display()
+    ));
+    if let Some(p) = sheets {
+        s.push_str(&format!(
+            "batch sheets (1 kg of glass each): {}\n",
+            p.display()
+        ));
+    }
+    s
+}
+
+fn unit_text(unit: &str) -> &str {
+    match unit {
+        "k" => "K",
+        "decades" => "decades of R_c",
+        "per_kg" => "per kg of glass",
+        "mol_pct" => "mol%",
+        other => other,
+    }
+}
