@@ -25,4 +25,5 @@ mod report_browser;
 mod run_folder;
 mod screen;
 mod slurm;
+mod tables;
 mod uncertainty;

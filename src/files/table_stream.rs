@@ -466,15 +466,24 @@ impl Batches {
                 let Some((text, lines)) = c.next(self.batch_rows, &self.label)? else {
                     return Ok(None);
                 };
-                let opts = CsvReadOptions::default().with_has_header(true);
-                let opts = match &self.schema {
-                    Some(s) => opts.with_schema(Some(s.clone())),
-                    None => opts.with_infer_schema_length(None),
+                let parse = |schema: Option<SchemaRef>, text: Vec<u8>| {
+                    let opts = CsvReadOptions::default().with_has_header(true);
+                    let opts = match schema {
+                        Some(s) => opts.with_schema(Some(s)),
+                        None => opts.with_infer_schema_length(None),
+                    };
+                    opts.into_reader_with_file_handle(std::io::Cursor::new(text))
+                        .finish()
                 };
-                let df = opts
-                    .into_reader_with_file_handle(std::io::Cursor::new(text))
-                    .finish()
-                    .map_err(|e| read_error(&self.label, e))?;
+                // A batch the file's schema does not fit (the file changed
+                // after the check) is read as it is, so that the row reader
+                // names the bad cell, or the caller sees the changed types.
+                let df = match parse(self.schema.clone(), text.clone()) {
+                    Ok(df) => Ok(df),
+                    Err(_) if self.schema.is_some() => parse(None, text),
+                    Err(e) => Err(e),
+                }
+                .map_err(|e| read_error(&self.label, e))?;
                 // Where the count of records agrees with polars, rows get lines.
                 let lines = (lines.len() == df.height()).then_some(lines);
                 (df, lines)
@@ -765,6 +774,18 @@ pub fn stream_table<R: RowReader>(
         // The first pass checked every cell: a bad one now means the file
         // changed under us.
         super::table::cells(bad)?;
+        if let Some(s) = &batches.schema {
+            if df.schema().as_ref() != s.as_ref() {
+                return Err(TableError::Read {
+                    path: input.display().to_string(),
+                    message: format!(
+                        "the file changed while it was read (rows {} to {})",
+                        places.first_row() + 1,
+                        places.first_row() + df.height()
+                    ),
+                });
+            }
+        }
         let results: Vec<Result<Evaluation, String>> = rows
             .par_iter()
             .map(|r| r.as_ref().map_err(Clone::clone).and_then(&evaluate))
