@@ -12,7 +12,7 @@ use quenchwise::files::table::{
     append_results, read_composition_table, read_frame, read_melt_table, write_frame,
 };
 use quenchwise::files::table_stream::{
-    stream_table, CompositionRows, MeltRows, ResultPlan, StreamSettings,
+    stream_table, CompositionRows, Event, MeltRows, ResultPlan, StreamSettings,
 };
 use quenchwise::kinetics::KineticOptions;
 use quenchwise::properties::ModelSet;
@@ -125,7 +125,6 @@ fn streamed_demo_tables_equal_the_whole_table_path_at_any_batch_size_and_thread_
                 StreamSettings { batch_rows: batch },
                 melt_eval,
                 |_| {},
-                |_| {},
             )
         })
         .unwrap();
@@ -160,7 +159,6 @@ fn streamed_demo_tables_equal_the_whole_table_path_at_any_batch_size_and_thread_
                 StreamSettings { batch_rows: batch },
                 |p| comp_eval(&m, p),
                 |_| {},
-                |_| {},
             )
         })
         .unwrap();
@@ -178,7 +176,6 @@ fn streamed_demo_tables_equal_the_whole_table_path_at_any_batch_size_and_thread_
         &composition_plan(&m),
         StreamSettings { batch_rows: 3 },
         |p| comp_eval(&m, p),
-        |_| {},
         |_| {},
     )
     .unwrap();
@@ -228,7 +225,6 @@ fn a_bad_cell_in_a_late_batch_is_found_before_any_row_runs() {
             melt_eval(v)
         },
         |_| {},
-        |_| {},
     )
     .unwrap_err()
     .to_string();
@@ -257,12 +253,14 @@ fn a_failure_after_some_batches_are_written_leaves_no_complete_looking_file() {
         &ResultPlan::melt_cards(),
         StreamSettings { batch_rows: 2 },
         melt_eval,
-        |rows| {
-            assert_eq!(rows, 10);
-            std::fs::write(&input, melt_table(10, 9, "abc")).unwrap();
-        },
-        |b| {
-            written.fetch_add(b.results.len(), Ordering::Relaxed);
+        |event| match event {
+            Event::Checked(rows) => {
+                assert_eq!(rows, 10);
+                std::fs::write(&input, melt_table(10, 9, "abc")).unwrap();
+            }
+            Event::Batch(b) => {
+                written.fetch_add(b.results.len(), Ordering::Relaxed);
+            }
         },
     )
     .unwrap_err()

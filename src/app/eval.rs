@@ -17,8 +17,8 @@ use quenchwise::files::melt_card::MeltValues;
 use quenchwise::files::source::{read_text, Source};
 use quenchwise::files::table::OxideAmounts;
 use quenchwise::files::table_stream::{
-    stream_table, table_column_names, BatchDone, CompositionRows, MeltRows, ResultPlan, RowReader,
-    StreamSettings, DEFAULT_BATCH_ROWS,
+    stream_table, table_column_names, BatchDone, CompositionRows, Event, MeltRows, ResultPlan,
+    RowReader, StreamSettings, DEFAULT_BATCH_ROWS,
 };
 use quenchwise::kinetics::{DrivingForce, KineticOptions, KineticOverrides, Kinetics, Transport};
 use quenchwise::report::{plot, sig, text::evaluation_text, CAUTION};
@@ -361,10 +361,12 @@ fn evaluate_table<R: RowReader>(
             }
             r
         },
-        |rows| {
-            let _ = progress.set(Progress::new("", "rows", rows, 0, false));
+        |event| match event {
+            Event::Checked(rows) => {
+                let _ = progress.set(Progress::new("", "rows", rows, 0, false));
+            }
+            Event::Batch(batch) => summary.add(&batch),
         },
-        |batch| summary.add(&batch),
     );
     if let Some(p) = progress.get() {
         p.finish();

@@ -693,6 +693,9 @@ pub(crate) fn melt_rows(
     Ok(rows)
 }
 
+/// Each row of a frame read as an input, or why it cannot be one.
+pub type Rows<T> = Vec<Result<T, String>>;
+
 /// One composition as (oxide, amount) pairs, in the table's basis.
 pub type OxideAmounts = Vec<(Oxide, f64)>;
 
@@ -732,7 +735,7 @@ pub(crate) fn composition_rows(
     df: &DataFrame,
     places: &Places,
     bad: &mut Vec<String>,
-) -> Result<(Vec<Result<OxideAmounts, String>>, Vec<String>), TableError> {
+) -> Result<(Rows<OxideAmounts>, Vec<String>), TableError> {
     let mut oxide_cols: Vec<(Oxide, String, Vec<Option<f64>>)> = Vec::new();
     let mut other = Vec::new();
     for name in df.get_column_names() {

@@ -236,6 +236,9 @@ enum Input {
     Parquet(ParquetBatches),
 }
 
+/// A batch of CSV text (header first) and the line each record starts on.
+type CsvBatch = (Vec<u8>, Vec<usize>);
+
 /// A CSV file cut into batches of whole records.
 struct CsvBatches {
     file: BufReader<std::fs::File>,
@@ -339,11 +342,7 @@ impl CsvBatches {
 
     /// The next batch as CSV text with its header, and the line of each
     /// record; `None` when the file is done.
-    fn next(
-        &mut self,
-        max: usize,
-        label: &str,
-    ) -> Result<Option<(Vec<u8>, Vec<usize>)>, TableError> {
+    fn next(&mut self, max: usize, label: &str) -> Result<Option<CsvBatch>, TableError> {
         let mut text = self.header.clone();
         let mut lines = Vec::new();
         self.records(max, &mut text, &mut lines)
@@ -626,7 +625,7 @@ struct Sink {
 // so the file needs no buffer of its own (and every write error is seen).
 enum Writer {
     Csv(polars::io::csv::write::BatchedWriter<std::fs::File>),
-    Parquet(polars::io::parquet::write::BatchedWriter<std::fs::File>),
+    Parquet(Box<polars::io::parquet::write::BatchedWriter<std::fs::File>>),
 }
 
 impl Sink {
@@ -658,11 +657,11 @@ impl Sink {
                     .batched(schema)
                     .map_err(|e| werr(e.to_string()))?,
             ),
-            Some("parquet" | "pq") => Writer::Parquet(
+            Some("parquet" | "pq") => Writer::Parquet(Box::new(
                 ParquetWriter::new(f)
                     .batched(schema)
                     .map_err(|e| werr(e.to_string()))?,
-            ),
+            )),
             _ => return Err(TableError::Extension { path: p }),
         });
         Ok(sink)
@@ -734,6 +733,14 @@ pub struct BatchDone<'a> {
     pub results: &'a [Result<Evaluation, String>],
 }
 
+/// What a streamed table reports as it goes.
+pub enum Event<'a> {
+    /// The first pass is done: the table has this many rows, every cell fine.
+    Checked(usize),
+    /// A batch is evaluated and written.
+    Batch(BatchDone<'a>),
+}
+
 /// What a streamed table came to.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Streamed {
@@ -743,8 +750,8 @@ pub struct Streamed {
 
 /// Read the table `input` batch by batch, evaluate every row (in
 /// parallel, in the rayon pool in force), and write the input columns with
-/// the results appended to `out` (.csv or .parquet). `checked` is called
-/// once the first pass has counted the rows; `done` after each batch.
+/// the results appended to `out` (.csv or .parquet). `on` hears when the
+/// first pass has counted the rows, then of each batch.
 ///
 /// # Errors
 /// Anything wrong with the table as a whole (format, missing columns, a bad
@@ -758,11 +765,10 @@ pub fn stream_table<R: RowReader>(
     plan: &ResultPlan,
     settings: StreamSettings,
     evaluate: impl Fn(&R::Row) -> Result<Evaluation, String> + Sync,
-    checked: impl FnOnce(usize),
-    mut done: impl FnMut(BatchDone<'_>),
+    mut on: impl FnMut(Event<'_>),
 ) -> Result<Streamed, TableError> {
     let pass = check_table(input, out, reader, settings.batch_rows)?;
-    checked(pass.rows);
+    on(Event::Checked(pass.rows));
     let mut batches = Batches::open(input, settings.batch_rows, pass.schema)?;
     let mut sink: Option<Sink> = None;
     let mut columns: Option<ResultColumns> = None;
@@ -812,11 +818,11 @@ pub fn stream_table<R: RowReader>(
         if let Some(s) = sink.as_mut() {
             s.write(&mut frame)?;
         }
-        done(BatchDone {
+        on(Event::Batch(BatchDone {
             input: &df,
             first_row: places.first_row(),
             results: &results,
-        });
+        }));
         rows_seen += results.len();
     }
     match sink {
