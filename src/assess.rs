@@ -429,40 +429,107 @@ fn vouch(e: &mut Evaluation) {
     }
 }
 
-/// Every number of an evaluation is finite (serde writes NaN and the
-/// infinities as JSON null, so a null marks one).
+impl Evaluation {
+    /// Every number the evaluation reports (what it serialises to), with
+    /// its key: a field's name, or "map.entry" for the per-phase maps and
+    /// the composition. `tests` checks the list against the serialised form.
+    pub fn numbers(&self) -> impl Iterator<Item = (NumberKey<'_>, f64)> + '_ {
+        let one = |k: &'static str, v: f64| (NumberKey::Field(k), v);
+        let opt = |k: &'static str, v: Option<f64>| v.map(|v| (NumberKey::Field(k), v));
+        fn map<'a>(
+            k: &'static str,
+            m: &'a BTreeMap<String, f64>,
+        ) -> impl Iterator<Item = (NumberKey<'a>, f64)> + 'a {
+            m.iter()
+                .map(move |(n, v)| (NumberKey::Entry(k, n.as_str()), *v))
+        }
+        [
+            one("liquidus_k", self.liquidus_k),
+            one("liquidus_c", self.liquidus_c),
+            one("glass_transition_k", self.glass_transition_k),
+            one("glass_transition_c", self.glass_transition_c),
+            one("fragility", self.fragility),
+            one("freeze_temperature_k", self.freeze_temperature_k),
+            one("nose_temperature_k", self.nose_temperature_k),
+            one("nose_temperature_c", self.nose_temperature_c),
+            one("nose_time_s", self.nose_time_s),
+            one("nose_rate_k_per_s", self.nose_rate_k_per_s),
+            one("nose_rate_k_per_min", self.nose_rate_k_per_min),
+            one("critical_rate_k_per_s", self.critical_rate_k_per_s),
+            one("critical_rate_k_per_min", self.critical_rate_k_per_min),
+            one(
+                "nose_nucleation_rate_per_m3_s",
+                self.nose_nucleation_rate_per_m3_s,
+            ),
+            one("nose_growth_rate_m_per_s", self.nose_growth_rate_m_per_s),
+            one("turnbull_alpha", self.turnbull_alpha),
+            one("interface_energy_j_per_m2", self.interface_energy_j_per_m2),
+            one("detectable_fraction", self.detectable_fraction),
+            one(
+                "heterogeneous_nuclei_per_m3",
+                self.heterogeneous_nuclei_per_m3,
+            ),
+            one("wall_contact_angle_deg", self.wall_contact_angle_deg),
+            one("sample_thickness_m", self.sample_thickness_m),
+            one("quench_surface_k", self.quench_surface_k),
+            one(
+                "melt_thermal_diffusivity_m2_per_s",
+                self.melt_thermal_diffusivity_m2_per_s,
+            ),
+        ]
+        .into_iter()
+        .chain(
+            [
+                opt("melting_temperature_k", self.melting_temperature_k),
+                opt("working_point_k", self.working_point_k),
+                opt("softening_point_k", self.softening_point_k),
+                opt("strain_point_k", self.strain_point_k),
+                opt("reduced_glass_transition", self.reduced_glass_transition),
+                opt("max_glassy_thickness_mm", self.max_glassy_thickness_mm),
+            ]
+            .into_iter()
+            .flatten(),
+        )
+        .chain(map("liquidus_by_phase_k", &self.liquidus_by_phase_k))
+        .chain(map(
+            "critical_rate_by_phase_k_per_s",
+            &self.critical_rate_by_phase_k_per_s,
+        ))
+        .chain(
+            self.composition_mol_pct
+                .iter()
+                .flat_map(move |m| map("composition_mol_pct", m)),
+        )
+    }
+}
+
+/// The key of a number of an [`Evaluation`].
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum NumberKey<'a> {
+    /// A field.
+    Field(&'static str),
+    /// An entry of a map field (a phase, an oxide).
+    Entry(&'static str, &'a str),
+}
+
+impl std::fmt::Display for NumberKey<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            NumberKey::Field(k) => f.write_str(k),
+            NumberKey::Entry(k, n) => write!(f, "{k}.{n}"),
+        }
+    }
+}
+
+/// Every number of an evaluation is finite.
 ///
 /// # Errors
 /// The first key whose value is not a finite number.
 fn ensure_finite(e: &Evaluation) -> Result<(), KineticsError> {
-    fn walk(v: &serde_json::Value, key: &str) -> Option<String> {
-        match v {
-            serde_json::Value::Null => Some(key.to_string()),
-            serde_json::Value::Number(n) if !n.as_f64().is_some_and(f64::is_finite) => {
-                Some(key.to_string())
-            }
-            serde_json::Value::Object(m) => m.iter().find_map(|(k, v)| {
-                walk(
-                    v,
-                    &if key.is_empty() {
-                        k.clone()
-                    } else {
-                        format!("{key}.{k}")
-                    },
-                )
-            }),
-            serde_json::Value::Array(a) => a
-                .iter()
-                .enumerate()
-                .find_map(|(i, v)| walk(v, &format!("{key}[{i}]"))),
-            _ => None,
-        }
-    }
-    let v = serde_json::to_value(e).map_err(|err| KineticsError::NotFiniteResult {
-        key: err.to_string(),
-    })?;
-    match walk(&v, "") {
-        Some(key) => Err(KineticsError::NotFiniteResult { key }),
+    match e.numbers().find(|(_, v)| !v.is_finite()) {
+        Some((key, _)) => Err(KineticsError::NotFiniteResult {
+            key: key.to_string(),
+        }),
         None => Ok(()),
     }
 }
@@ -623,5 +690,49 @@ mod tests {
         assert_eq!(&e.limiting_phase, fastest);
         assert!(e.nose_rate_k_per_s > e.critical_rate_k_per_s);
         assert!(!e.kinetics_calibrated);
+    }
+
+    /// The numbers `ensure_finite` checks are exactly the numbers an
+    /// evaluation serialises to (every optional one present here).
+    #[test]
+    fn numbers_are_the_serialised_numbers() {
+        fn walk(v: &serde_json::Value, key: &str, out: &mut Vec<(String, f64)>) {
+            match v {
+                serde_json::Value::Number(n) => out.push((key.to_string(), n.as_f64().unwrap())),
+                serde_json::Value::Object(m) => {
+                    for (k, v) in m {
+                        let k = if key.is_empty() {
+                            k.clone()
+                        } else {
+                            format!("{key}.{k}")
+                        };
+                        walk(v, &k, out);
+                    }
+                }
+                _ => {}
+            }
+        }
+        let m = parse_model_set(&Source::new("demo", DEMO_MODELS)).unwrap();
+        let c = Composition::parse(
+            "SiO2=72 Na2O=14 CaO=10 Al2O3=4",
+            crate::composition::Basis::MolPercent,
+            2.0,
+        )
+        .unwrap();
+        let e = evaluate_composition(
+            &m,
+            &c,
+            &KineticOptions::default(),
+            Some(SlabQuench::default()),
+            &Calibration::None,
+        )
+        .unwrap();
+        assert!(e.max_glassy_thickness_mm.is_some() && e.strain_point_k.is_some());
+        let mut json = Vec::new();
+        walk(&serde_json::to_value(&e).unwrap(), "", &mut json);
+        let mut typed: Vec<(String, f64)> = e.numbers().map(|(k, v)| (k.to_string(), v)).collect();
+        json.sort_by(|a, b| a.0.cmp(&b.0));
+        typed.sort_by(|a, b| a.0.cmp(&b.0));
+        assert_eq!(json, typed);
     }
 }

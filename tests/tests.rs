@@ -29,4 +29,5 @@ mod run_folder;
 mod screen;
 mod screen_probability;
 mod slurm;
+mod tables;
 mod uncertainty;

@@ -6,21 +6,23 @@ use super::models::{base_options, load_models};
 use super::progress::Progress;
 use super::{in_range, threads, Outcome};
 use crate::cli::{EvalArgs, KineticArgs};
-use polars::prelude::{DataFrame, DataType};
+use polars::prelude::DataType;
 use quenchwise::assess::{
     evaluate_composition, evaluate_melt, Calibration, Evaluation, SlabQuench,
 };
 use quenchwise::composition::{Basis, Composition, MAX_SUM_TOLERANCE};
 use quenchwise::error::{Error, ResultExt};
 use quenchwise::files::melt_card::read_melt_card;
+use quenchwise::files::melt_card::MeltValues;
 use quenchwise::files::source::{read_text, Source};
-use quenchwise::files::table::{
-    append_results, check_writable, read_composition_table, read_melt_table, write_frame, Table,
+use quenchwise::files::table::OxideAmounts;
+use quenchwise::files::table_stream::{
+    stream_table, table_column_names, BatchDone, CompositionRows, Event, MeltRows, ResultPlan,
+    RowReader, StreamSettings, DEFAULT_BATCH_ROWS,
 };
 use quenchwise::kinetics::{DrivingForce, KineticOptions, KineticOverrides, Kinetics, Transport};
 use quenchwise::report::{plot, sig, text::evaluation_text, CAUTION};
 use quenchwise::units::{Celsius, RateUnit, CELSIUS_OFFSET};
-use rayon::prelude::*;
 use std::io::Write;
 use std::path::Path;
 
@@ -204,6 +206,13 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
             .as_deref()
             .ok_or_else(|| Error::bad_input("a table input needs --out FILE (.csv or .parquet)"))
     };
+    let settings = StreamSettings {
+        batch_rows: match a.batch_rows {
+            Some(0) => return Err(Error::bad_input("--batch-rows must be at least 1")),
+            Some(n) => n,
+            None => DEFAULT_BATCH_ROWS,
+        },
+    };
     if let Some(p) = &a.melt_cards {
         if a.json || a.ttt.is_some() || a.plot.is_some() {
             return Err(Error::bad_input(
@@ -211,13 +220,18 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
             ));
         }
         let out = table_out()?;
-        let table = read_melt_table(p)?;
-        check_writable(&table.frame, out)?;
         let base = overrides(&a.kinetics).apply(KineticOptions::default());
-        return evaluate_table(table, out, |values| {
-            let (melt, opts) = values.build(&base).map_err(|e| e.to_string())?;
-            evaluate_melt(&melt, &opts, slab, &Calibration::None).map_err(|e| e.to_string())
-        });
+        return evaluate_table(
+            p,
+            out,
+            &MeltRows,
+            &ResultPlan::melt_cards(),
+            settings,
+            |values: &MeltValues| {
+                let (melt, opts) = values.build(&base).map_err(|e| e.to_string())?;
+                evaluate_melt(&melt, &opts, slab, &Calibration::None).map_err(|e| e.to_string())
+            },
+        );
     }
     if let (Some(p), Some(config)) = (&a.compositions, &a.against) {
         let basis = if wt_table {
@@ -236,8 +250,7 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
             Basis::MolPercent
         };
         let opts = overrides(&a.kinetics).apply(base_options(&models));
-        let (table, other) = read_composition_table(p)?;
-        check_writable(&table.frame, out)?;
+        let other = composition_columns_passed(p)?;
         if !other.is_empty() {
             eprintln!(
                 "quenchwise: columns not read as oxides (passed through): {}",
@@ -245,11 +258,23 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
             );
         }
         let tolerance = a.sum_tolerance;
-        return evaluate_table(table, out, |pairs| {
-            let comp = Composition::new(pairs, basis, tolerance).map_err(|e| e.to_string())?;
-            evaluate_composition(&models, &comp, &opts, slab, &Calibration::None)
-                .map_err(|e| e.to_string())
-        });
+        let plan = ResultPlan {
+            with_models: true,
+            calibrated: models.phases.iter().any(|p| p.calibrated_against.is_some()),
+            phases: models.phases.iter().map(|p| p.name.clone()).collect(),
+        };
+        return evaluate_table(
+            p,
+            out,
+            &CompositionRows,
+            &plan,
+            settings,
+            |pairs: &OxideAmounts| {
+                let comp = Composition::new(pairs, basis, tolerance).map_err(|e| e.to_string())?;
+                evaluate_composition(&models, &comp, &opts, slab, &Calibration::None)
+                    .map_err(|e| e.to_string())
+            },
+        );
     }
     if a.out.is_some() {
         return Err(Error::bad_input(
@@ -318,96 +343,151 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
     Ok(Outcome::Finished)
 }
 
-/// Evaluate every row of a table in parallel (output order = input order),
-/// print a summary, and write the table with the results appended.
-fn evaluate_table<T: Sync>(
-    table: Table<T>,
+/// Stream a table: read, evaluate (rows in parallel, output order = input
+/// order) and write it batch by batch (`files::table_stream`), then print
+/// a summary of the first rows.
+fn evaluate_table<R: RowReader>(
+    input: &Path,
     out: &Path,
-    evaluate: impl Fn(&T) -> Result<Evaluation, String> + Sync,
+    reader: &R,
+    plan: &ResultPlan,
+    settings: StreamSettings,
+    evaluate: impl Fn(&R::Row) -> Result<Evaluation, String> + Sync,
 ) -> Result<Outcome, Error> {
-    let progress = Progress::new("", "rows", table.rows.len(), 0, false);
-    let results: Vec<Result<Evaluation, String>> = table
-        .rows
-        .par_iter()
-        .map(|row| {
-            let r = row.as_ref().map_err(Clone::clone).and_then(&evaluate);
-            progress.inc();
+    let progress: std::sync::OnceLock<Progress> = std::sync::OnceLock::new();
+    let mut summary = Summary::default();
+    let streamed = stream_table(
+        input,
+        out,
+        reader,
+        plan,
+        settings,
+        |row| {
+            let r = evaluate(row);
+            if let Some(p) = progress.get() {
+                p.inc();
+            }
             r
-        })
-        .collect();
-    progress.finish();
-    let failed = results.iter().filter(|r| r.is_err()).count();
-    write_stdout(&table_summary(&table.frame, &results, out))?;
-    let mut df = append_results(table.frame, &results)
-        .map_err(|e| Error::internal(format!("assembling the results table: {e}")))?;
-    write_frame(out, &mut df)?;
+        },
+        |event| match event {
+            Event::Checked(rows) => {
+                let _ = progress.set(Progress::new("", "rows", rows, 0, false));
+            }
+            Event::Batch(batch) => summary.add(&batch),
+        },
+    );
+    if let Some(p) = progress.get() {
+        p.finish();
+    }
+    let streamed = streamed?;
+    write_stdout(&summary.text(streamed.rows, out))?;
     eprintln!(
         "quenchwise: {} rows evaluated, {} failed (see the error column); wrote {}",
-        results.len(),
-        failed,
+        streamed.rows,
+        streamed.failed,
         out.display()
     );
     eprintln!("{CAUTION}");
     Ok(Outcome::Finished)
 }
 
+/// The columns of a composition table that are not oxides (read from its
+/// header only).
+fn composition_columns_passed(p: &Path) -> Result<Vec<String>, Error> {
+    let names = table_column_names(p)?;
+    Ok(names
+        .into_iter()
+        .filter(|n| n.parse::<quenchwise::composition::Oxide>().is_err())
+        .collect())
+}
+
 /// Rows shown on the terminal after a table run; the file has them all.
 const SUMMARY_ROWS: usize = 40;
 
-fn table_summary(df: &DataFrame, results: &[Result<Evaluation, String>], out: &Path) -> String {
-    let names: Option<Vec<Option<String>>> = ["name", "id", "label"].iter().find_map(|c| {
-        let col = df.column(c).ok()?.cast(&DataType::String).ok()?;
-        let ca = col.str().ok()?.clone();
-        Some(ca.iter().map(|v| v.map(str::to_string)).collect())
-    });
-    let mut s = format!(
-        "{:>4}  {:<28} {:<18} {:>9} {:>11} {:>11}  {}\n",
-        "row", "name", "primary phase", "T_L °C", "R_c K/s", "nose K/s", "note"
-    );
-    for (i, r) in results.iter().enumerate().take(SUMMARY_ROWS) {
-        let name = names
-            .as_ref()
-            .and_then(|n| n.get(i).cloned().flatten())
-            .unwrap_or_default();
-        let name: String = name.chars().take(28).collect();
-        match r {
-            Ok(e) => {
-                let note = if e.viscosity_extrapolated || e.liquidus_extrapolated {
-                    "extrapolated"
-                } else {
-                    ""
-                };
-                s.push_str(&format!(
-                    "{:>4}  {:<28} {:<18} {:>9.1} {:>11} {:>11}  {}\n",
-                    i + 1,
-                    name,
-                    e.primary_phase.as_deref().unwrap_or("-"),
-                    e.liquidus_c,
-                    sig(e.critical_rate_k_per_s),
-                    sig(e.nose_rate_k_per_s),
-                    note
-                ));
+/// The first rows of a table run, as the terminal shows them.
+#[derive(Default)]
+struct Summary {
+    lines: Vec<String>,
+}
+
+impl Summary {
+    fn add(&mut self, b: &BatchDone<'_>) {
+        if self.lines.len() >= SUMMARY_ROWS {
+            return;
+        }
+        let names: Option<Vec<Option<String>>> = ["name", "id", "label"].iter().find_map(|c| {
+            let col = b.input.column(c).ok()?.cast(&DataType::String).ok()?;
+            let ca = col.str().ok()?.clone();
+            Some(
+                ca.iter()
+                    .take(SUMMARY_ROWS)
+                    .map(|v| v.map(str::to_string))
+                    .collect(),
+            )
+        });
+        for (i, r) in b.results.iter().enumerate() {
+            if self.lines.len() >= SUMMARY_ROWS {
+                break;
             }
-            Err(msg) => s.push_str(&format!(
-                "{:>4}  {:<28} {:<18} {:>9} {:>11} {:>11}  error: {}\n",
-                i + 1,
-                name,
-                "-",
-                "-",
-                "-",
-                "-",
-                msg
-            )),
+            let name = names
+                .as_ref()
+                .and_then(|n| n.get(i).cloned().flatten())
+                .unwrap_or_default();
+            self.lines.push(summary_line(b.first_row + i, &name, r));
         }
     }
-    if results.len() > SUMMARY_ROWS {
-        s.push_str(&format!(
-            "      ... {} more rows in {}\n",
-            results.len() - SUMMARY_ROWS,
-            out.display()
-        ));
+
+    fn text(&self, rows: usize, out: &Path) -> String {
+        let mut s = format!(
+            "{:>4}  {:<28} {:<18} {:>9} {:>11} {:>11}  {}\n",
+            "row", "name", "primary phase", "T_L °C", "R_c K/s", "nose K/s", "note"
+        );
+        for l in &self.lines {
+            s.push_str(l);
+        }
+        if rows > SUMMARY_ROWS {
+            s.push_str(&format!(
+                "      ... {} more rows in {}\n",
+                rows - SUMMARY_ROWS,
+                out.display()
+            ));
+        }
+        s
     }
-    s
+}
+
+/// One row of the summary (`i` counts from 0).
+fn summary_line(i: usize, name: &str, r: &Result<Evaluation, String>) -> String {
+    let name: String = name.chars().take(28).collect();
+    match r {
+        Ok(e) => {
+            let note = if e.viscosity_extrapolated || e.liquidus_extrapolated {
+                "extrapolated"
+            } else {
+                ""
+            };
+            format!(
+                "{:>4}  {:<28} {:<18} {:>9.1} {:>11} {:>11}  {}\n",
+                i + 1,
+                name,
+                e.primary_phase.as_deref().unwrap_or("-"),
+                e.liquidus_c,
+                sig(e.critical_rate_k_per_s),
+                sig(e.nose_rate_k_per_s),
+                note
+            )
+        }
+        Err(msg) => format!(
+            "{:>4}  {:<28} {:<18} {:>9} {:>11} {:>11}  error: {}\n",
+            i + 1,
+            name,
+            "-",
+            "-",
+            "-",
+            "-",
+            msg
+        ),
+    }
 }
 
 /// Write a file atomically (temp file, then rename).

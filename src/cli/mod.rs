@@ -781,6 +781,10 @@ pub struct EvalArgs {
     #[arg(long, value_name = "N", help_heading = "Output")]
     pub threads: Option<usize>,
 
+    /// Rows read, evaluated and written at a time for tables (for testing).
+    #[arg(long, value_name = "N", hide = true)]
+    pub batch_rows: Option<usize>,
+
     #[command(flatten)]
     pub uncertainty: UncertaintyArgs,
 }

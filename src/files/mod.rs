@@ -14,3 +14,4 @@ pub mod run_folder;
 pub mod screen_config;
 pub mod source;
 pub mod table;
+pub mod table_stream;

@@ -17,6 +17,7 @@ use crate::composition::Oxide;
 use crate::error::{Diagnostic, ErrorKind};
 use crate::kinetics::{DrivingForce, KineticOverrides};
 use crate::properties::GrowthMode;
+use crate::report::records::column_safe;
 use polars::prelude::*;
 use std::path::Path;
 
@@ -146,6 +147,8 @@ fn kind(path: &Path) -> Option<Kind> {
 pub struct Places {
     path: String,
     lines: Option<Vec<usize>>,
+    /// Rows before the first one here (a batch of a streamed table).
+    first_row: usize,
 }
 
 impl Places {
@@ -154,7 +157,23 @@ impl Places {
         Places {
             path: path.into(),
             lines: None,
+            first_row: 0,
         }
+    }
+
+    /// Rows of a batch that starts after `first_row` rows of the file, with
+    /// the line each starts on where known (CSV).
+    pub fn batch(path: impl Into<String>, first_row: usize, lines: Option<Vec<usize>>) -> Self {
+        Places {
+            path: path.into(),
+            lines,
+            first_row,
+        }
+    }
+
+    /// Rows of the file before the first row here.
+    pub fn first_row(&self) -> usize {
+        self.first_row
     }
 
     /// The file's name as given.
@@ -162,16 +181,19 @@ impl Places {
         &self.path
     }
 
-    /// The line row `i` (0-based, after the header) starts on, for a CSV file.
+    /// The line row `i` (0-based, after the header; of this batch) starts
+    /// on, for a CSV file.
     pub fn line(&self, i: usize) -> Option<usize> {
         self.lines.as_ref().and_then(|l| l.get(i).copied())
     }
 
-    /// "file.csv:5: row 4" (CSV) or "file.parquet: row 4"; rows count from 1.
+    /// "file.csv:5: row 4" (CSV) or "file.parquet: row 4"; rows count from
+    /// 1 at the file's first row.
     pub fn row(&self, i: usize) -> String {
+        let n = self.first_row + i + 1;
         match self.line(i) {
-            Some(line) => format!("{}:{line}: row {}", self.path, i + 1),
-            None => format!("{}: row {}", self.path, i + 1),
+            Some(line) => format!("{}:{line}: row {n}", self.path),
+            None => format!("{}: row {n}", self.path),
         }
     }
 
@@ -259,13 +281,7 @@ fn csv_frame(bytes: Vec<u8>, label: &str) -> Result<(DataFrame, Places), TableEr
     // Where the scan agrees with the reader, rows get lines; otherwise (a
     // layout the scan does not follow) they keep their row numbers only.
     let lines = (lines.len() == df.height()).then_some(lines);
-    Ok((
-        df,
-        Places {
-            path: label.to_string(),
-            lines,
-        },
-    ))
+    Ok((df, Places::batch(label, 0, lines)))
 }
 
 /// Read CSV text held in memory (e.g. an embedded demo table), naming it `label`.
@@ -532,7 +548,7 @@ pub struct Table<T> {
 }
 
 /// Refuse a table without rows (e.g. only a header).
-fn need_rows(df: &DataFrame, places: &Places) -> Result<(), TableError> {
+pub(crate) fn need_rows(df: &DataFrame, places: &Places) -> Result<(), TableError> {
     if df.height() == 0 {
         Err(TableError::NoRows {
             path: places.path().to_string(),
@@ -543,7 +559,7 @@ fn need_rows(df: &DataFrame, places: &Places) -> Result<(), TableError> {
 }
 
 /// The bad cells found, as an error.
-fn cells(problems: Vec<String>) -> Result<(), TableError> {
+pub(crate) fn cells(problems: Vec<String>) -> Result<(), TableError> {
     if problems.is_empty() {
         Ok(())
     } else {
@@ -561,37 +577,55 @@ fn cells(problems: Vec<String>) -> Result<(), TableError> {
 /// Rows whose values the kinetics refuse are not errors: each keeps its reason.
 pub fn read_melt_table(path: &Path) -> Result<Table<MeltValues>, TableError> {
     let (df, places) = read_table(path)?;
-    need_rows(&df, &places)?;
-    let n = df.height();
-    let p = path.display().to_string();
     let mut bad = Vec::new();
+    let rows = melt_rows(&df, &places, &mut bad)?;
+    cells(bad)?;
+    Ok(Table {
+        frame: df,
+        rows,
+        places,
+    })
+}
+
+/// The melt cards of a frame (a whole table, or one batch of a streamed
+/// one), one per row. Every cell that does not hold what its column needs
+/// is added to `bad` with its place.
+///
+/// # Errors
+/// The frame has no rows, or a required column is missing.
+pub(crate) fn melt_rows(
+    df: &DataFrame,
+    places: &Places,
+    bad: &mut Vec<String>,
+) -> Result<Vec<Result<MeltValues, String>>, TableError> {
+    need_rows(df, places)?;
+    let n = df.height();
+    let p = places.path().to_string();
     let require = |name: &str, bad: &mut Vec<String>| {
-        number_column(&df, &places, name, bad).ok_or_else(|| missing(&df, &p, name))
+        number_column(df, places, name, bad).ok_or_else(|| missing(df, &p, name))
     };
-    let a = require("a", &mut bad)?;
-    let b = require("b_k", &mut bad)?;
-    let c = require("c_k", &mut bad)?;
-    let tl = require("liquidus_k", &mut bad)?;
-    let dh = require("enthalpy_of_fusion_j_per_mol", &mut bad)?;
-    let vm = require("molar_volume_m3_per_mol", &mut bad)?;
-    let alpha = number_column(&df, &places, "turnbull_alpha", &mut bad);
-    let sigma = number_column(&df, &places, "interface_energy_j_per_m2", &mut bad);
+    let a = require("a", bad)?;
+    let b = require("b_k", bad)?;
+    let c = require("c_k", bad)?;
+    let tl = require("liquidus_k", bad)?;
+    let dh = require("enthalpy_of_fusion_j_per_mol", bad)?;
+    let vm = require("molar_volume_m3_per_mol", bad)?;
+    let alpha = number_column(df, places, "turnbull_alpha", bad);
+    let sigma = number_column(df, places, "interface_energy_j_per_m2", bad);
     if alpha.is_none() && sigma.is_none() {
         return Err(missing(
-            &df,
+            df,
             &p,
             "turnbull_alpha (or interface_energy_j_per_m2)",
         ));
     }
-    let growth =
-        text_column(&df, &places, "growth", &mut bad).ok_or_else(|| missing(&df, &p, "growth"))?;
-    let xc = number_column(&df, &places, "detectable_fraction", &mut bad);
-    let df_kind = text_column(&df, &places, "driving_force", &mut bad);
-    let nh = number_column(&df, &places, "heterogeneous_nuclei_per_m3", &mut bad);
-    let theta = number_column(&df, &places, "contact_angle_deg", &mut bad);
-    let thick = number_column(&df, &places, "sample_thickness_m", &mut bad);
-    let dcp = number_column(&df, &places, "heat_capacity_change_j_per_mol_k", &mut bad);
-    cells(bad)?;
+    let growth = text_column(df, places, "growth", bad).ok_or_else(|| missing(df, &p, "growth"))?;
+    let xc = number_column(df, places, "detectable_fraction", bad);
+    let df_kind = text_column(df, places, "driving_force", bad);
+    let nh = number_column(df, places, "heterogeneous_nuclei_per_m3", bad);
+    let theta = number_column(df, places, "contact_angle_deg", bad);
+    let thick = number_column(df, places, "sample_thickness_m", bad);
+    let dcp = number_column(df, places, "heat_capacity_change_j_per_mol_k", bad);
     let pick = |v: &Option<Vec<Option<f64>>>, i: usize| {
         v.as_ref().and_then(|v| v.get(i).copied().flatten())
     };
@@ -656,12 +690,11 @@ pub fn read_melt_table(path: &Path) -> Result<Table<MeltValues>, TableError> {
             })
         })
         .collect();
-    Ok(Table {
-        frame: df,
-        rows,
-        places,
-    })
+    Ok(rows)
 }
+
+/// Each row of a frame read as an input, or why it cannot be one.
+pub type Rows<T> = Vec<Result<T, String>>;
 
 /// One composition as (oxide, amount) pairs, in the table's basis.
 pub type OxideAmounts = Vec<(Oxide, f64)>;
@@ -679,9 +712,32 @@ pub fn read_composition_table(
     path: &Path,
 ) -> Result<(Table<OxideAmounts>, Vec<String>), TableError> {
     let (df, places) = read_table(path)?;
+    let mut bad = Vec::new();
+    let (rows, other) = composition_rows(&df, &places, &mut bad)?;
+    cells(bad)?;
+    Ok((
+        Table {
+            frame: df,
+            rows,
+            places,
+        },
+        other,
+    ))
+}
+
+/// The compositions of a frame (a whole table, or one batch of a streamed
+/// one), one per row, and the columns not read as oxides. Every oxide cell
+/// that is not a number is added to `bad` with its place.
+///
+/// # Errors
+/// No oxide column, two columns naming one oxide, or no rows.
+pub(crate) fn composition_rows(
+    df: &DataFrame,
+    places: &Places,
+    bad: &mut Vec<String>,
+) -> Result<(Rows<OxideAmounts>, Vec<String>), TableError> {
     let mut oxide_cols: Vec<(Oxide, String, Vec<Option<f64>>)> = Vec::new();
     let mut other = Vec::new();
-    let mut bad = Vec::new();
     for name in df.get_column_names() {
         match name.as_str().parse::<Oxide>() {
             Ok(o) => {
@@ -693,7 +749,7 @@ pub fn read_composition_table(
                         what: o.formula().to_string(),
                     });
                 }
-                let v = number_column(&df, &places, name.as_str(), &mut bad).unwrap_or_default();
+                let v = number_column(df, places, name.as_str(), bad).unwrap_or_default();
                 oxide_cols.push((o, name.to_string(), v));
             }
             Err(_) => other.push(name.to_string()),
@@ -705,8 +761,7 @@ pub fn read_composition_table(
             found: other.join(", "),
         });
     }
-    need_rows(&df, &places)?;
-    cells(bad)?;
+    need_rows(df, places)?;
     let rows = (0..df.height())
         .map(|i| {
             if oxide_cols
@@ -721,20 +776,7 @@ pub fn read_composition_table(
                 .collect())
         })
         .collect();
-    Ok((
-        Table {
-            frame: df,
-            rows,
-            places,
-        },
-        other,
-    ))
-}
-/// A column name safe for any table tool: letters, digits and underscores.
-fn column_safe(name: &str) -> String {
-    name.chars()
-        .map(|c| if c.is_ascii_alphanumeric() { c } else { '_' })
-        .collect()
+    Ok((rows, other))
 }
 
 /// Per-phase maps ("critical_rate_by_phase_k_per_s": {"devitrite": ...})
@@ -758,7 +800,11 @@ fn flatten_by_phase(
     out
 }
 
-/// The input frame with the evaluation columns and an `error` column appended.
+/// The input frame with the evaluation columns and an `error` column
+/// appended, every column found through each row's JSON form: the
+/// whole-table path, kept as the independent reference the streamed tables
+/// (`table_stream`, typed columns) are tested against. Its columns are those
+/// some row has, so a column no row fills is missing.
 ///
 /// # Errors
 /// Polars refuses the columns (a name clash is avoided by suffixing `_out`).

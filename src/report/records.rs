@@ -1,9 +1,13 @@
 //! The columns of the screen's tables, defined once: the shortlist (CSV,
 //! Parquet, JSON), the candidates table and the report all take their
-//! names and values from here.
+//! names and values from here. The result columns of `eval` tables
+//! ([`EVALUATION_FIELDS`], [`PHASE_FIELDS`]) are defined here too.
 
+use crate::assess::Evaluation;
 use crate::composition::Oxide;
+use crate::kinetics::DrivingForce;
 use crate::screen::Row;
+use std::collections::BTreeMap;
 
 /// One value of a row, typed.
 #[derive(Debug, Clone, PartialEq)]
@@ -122,6 +126,154 @@ pub fn oxide_of_column(name: &str) -> Option<Oxide> {
 /// A result field by name.
 pub fn field(name: &str) -> Option<&'static Field> {
     fields(true).find(|f| f.name == name)
+}
+
+/// One value of an evaluation's row, typed.
+#[derive(Debug, Clone, PartialEq)]
+pub enum EvalCell<'a> {
+    /// A number (None where there is none).
+    Num(Option<f64>),
+    /// A text (None where there is none).
+    Text(Option<&'a str>),
+    /// A yes/no.
+    Bool(Option<bool>),
+    /// Several texts, written joined by "; " (the warnings).
+    Joined(&'a [String]),
+}
+
+/// Which evaluations carry a column of an `eval` table.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Carried {
+    /// Every evaluation.
+    Always,
+    /// Evaluations of a composition with a model set (not melt cards).
+    WithModels,
+    /// Evaluations whose kinetic factor is tied to a measurement.
+    WhenCalibrated,
+}
+
+/// The kind of an [`EvalCell`], known without a row.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum CellKind {
+    Num,
+    Text,
+    Bool,
+    Joined,
+}
+
+/// A column of an `eval` table and how to read it from an evaluation.
+#[derive(Clone, Copy)]
+pub struct EvalField {
+    pub name: &'static str,
+    pub carried: Carried,
+    /// What `get` gives (the variant of [`EvalCell`]).
+    pub kind: CellKind,
+    pub get: for<'a> fn(&'a Evaluation) -> EvalCell<'a>,
+}
+
+/// The word a table writes for a driving force (as in model sets and cards).
+pub fn driving_force_name(d: DrivingForce) -> &'static str {
+    match d {
+        DrivingForce::Turnbull => "turnbull",
+        DrivingForce::Hoffman => "hoffman",
+    }
+}
+
+macro_rules! eval_fields {
+    ($($name:ident: $carried:ident $kind:ident |$e:ident| $get:expr;)*) => {
+        &[$(EvalField {
+            name: stringify!($name),
+            carried: Carried::$carried,
+            kind: CellKind::$kind,
+            get: |$e| EvalCell::$kind($get),
+        }),*]
+    };
+}
+
+/// The result columns of an `eval` table (besides the per-phase ones of
+/// [`PHASE_FIELDS`] and the `error` column). The composition itself is not
+/// repeated: the input columns carry it. `tests/tables.rs` checks that these
+/// are exactly the numbers and texts an [`Evaluation`] serialises to.
+pub const EVALUATION_FIELDS: &[EvalField] = eval_fields![
+    model_set: WithModels Text |e| e.model_set.as_deref();
+    primary_phase: WithModels Text |e| e.primary_phase.as_deref();
+    limiting_phase: Always Text |e| Some(e.limiting_phase.as_str());
+    liquidus_k: Always Num |e| Some(e.liquidus_k);
+    liquidus_c: Always Num |e| Some(e.liquidus_c);
+    glass_transition_k: Always Num |e| Some(e.glass_transition_k);
+    glass_transition_c: Always Num |e| Some(e.glass_transition_c);
+    melting_temperature_k: WithModels Num |e| e.melting_temperature_k;
+    working_point_k: WithModels Num |e| e.working_point_k;
+    softening_point_k: WithModels Num |e| e.softening_point_k;
+    strain_point_k: WithModels Num |e| e.strain_point_k;
+    reduced_glass_transition: WithModels Num |e| e.reduced_glass_transition;
+    fragility: Always Num |e| Some(e.fragility);
+    freeze_temperature_k: Always Num |e| Some(e.freeze_temperature_k);
+    nose_temperature_k: Always Num |e| Some(e.nose_temperature_k);
+    nose_temperature_c: Always Num |e| Some(e.nose_temperature_c);
+    nose_time_s: Always Num |e| Some(e.nose_time_s);
+    nose_rate_k_per_s: Always Num |e| Some(e.nose_rate_k_per_s);
+    nose_rate_k_per_min: Always Num |e| Some(e.nose_rate_k_per_min);
+    critical_rate_k_per_s: Always Num |e| Some(e.critical_rate_k_per_s);
+    critical_rate_k_per_min: Always Num |e| Some(e.critical_rate_k_per_min);
+    nose_nucleation_rate_per_m3_s: Always Num |e| Some(e.nose_nucleation_rate_per_m3_s);
+    nose_growth_rate_m_per_s: Always Num |e| Some(e.nose_growth_rate_m_per_s);
+    turnbull_alpha: Always Num |e| Some(e.turnbull_alpha);
+    interface_energy_j_per_m2: Always Num |e| Some(e.interface_energy_j_per_m2);
+    kinetics_calibrated: Always Bool |e| Some(e.kinetics_calibrated);
+    calibrated_against: WhenCalibrated Text |e| e.calibrated_against.as_deref();
+    detectable_fraction: Always Num |e| Some(e.detectable_fraction);
+    driving_force: Always Text |e| Some(driving_force_name(e.driving_force));
+    heterogeneous_nuclei_per_m3: Always Num |e| Some(e.heterogeneous_nuclei_per_m3);
+    wall_contact_angle_deg: Always Num |e| Some(e.wall_contact_angle_deg);
+    sample_thickness_m: Always Num |e| Some(e.sample_thickness_m);
+    transport: Always Text |e| Some(e.transport.as_str());
+    max_glassy_thickness_mm: Always Num |e| e.max_glassy_thickness_mm;
+    quench_surface_k: Always Num |e| Some(e.quench_surface_k);
+    melt_thermal_diffusivity_m2_per_s: Always Num |e| Some(e.melt_thermal_diffusivity_m2_per_s);
+    viscosity_extrapolated: Always Bool |e| Some(e.viscosity_extrapolated);
+    liquidus_extrapolated: Always Bool |e| Some(e.liquidus_extrapolated);
+    vouched: Always Bool |e| Some(e.vouched);
+    warnings: Always Joined |e| e.warnings.as_slice();
+];
+
+/// A value per crystal phase: column `<prefix>_<phase>_<suffix>`, the
+/// phase's name made safe for any table tool by [`column_safe`].
+#[derive(Clone, Copy)]
+pub struct PhaseField {
+    pub prefix: &'static str,
+    pub suffix: &'static str,
+    pub get: fn(&Evaluation) -> &BTreeMap<String, f64>,
+}
+
+/// The per-phase columns of an `eval` table: every phase's liquidus, and
+/// the critical rate each phase alone would need (empty for a phase whose
+/// liquidus lies below that row's glass transition).
+pub const PHASE_FIELDS: [PhaseField; 2] = [
+    PhaseField {
+        prefix: "liquidus",
+        suffix: "k",
+        get: |e| &e.liquidus_by_phase_k,
+    },
+    PhaseField {
+        prefix: "critical_rate",
+        suffix: "k_per_s",
+        get: |e| &e.critical_rate_by_phase_k_per_s,
+    },
+];
+
+impl PhaseField {
+    /// The column of one phase.
+    pub fn column(&self, phase: &str) -> String {
+        format!("{}_{}_{}", self.prefix, column_safe(phase), self.suffix)
+    }
+}
+
+/// A name safe for any table tool: letters, digits and underscores.
+pub fn column_safe(name: &str) -> String {
+    name.chars()
+        .map(|c| if c.is_ascii_alphanumeric() { c } else { '_' })
+        .collect()
 }
 
 #[cfg(test)]

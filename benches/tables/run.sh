@@ -1,0 +1,76 @@
+#!/bin/sh
+# The table benchmark (issue 12, part 3): `eval --melt-cards` on invented
+# tables of 2e5 and 2e6 melt cards, against the vectorised NumPy R_c of the
+# same 2e5 melts (rc_numpy.py, 201 grid points per melt).
+#
+# Prints, each a median of RUNS runs (default 5) made in this one call, so
+# the ratios compare runs under the same load:
+#   - wall time of the whole process on 2e5 rows at 1 and 2 threads, and the
+#     speed-up (target >= 1.8);
+#   - the NumPy time for R_c alone, computation only (the anchor), and
+#     numpy / quenchwise at 2 threads (target >= 15);
+#   - peak memory (max RSS, /usr/bin/time -v) for 2e5 and 2e6 rows at 2
+#     threads and their ratio (targets: ratio <= 1.2, 2e6 under 300 MB).
+# The load average before and after states the machine's noise.
+#
+# Needs: a release build (built here if missing), /usr/bin/python3 with
+# numpy (Debian: apt-get install -y python3-numpy), /usr/bin/time (apt-get
+# install -y time). Usage: benches/tables/run.sh [RUNS]
+set -eu
+RUNS=${1:-5}
+ROOT=$(cd "$(dirname "$0")/../.." && pwd)
+BIN=${QUENCHWISE_BIN:-$ROOT/target/release/quenchwise}
+WORK=${TMPDIR:-/tmp}/quenchwise-bench-tables
+mkdir -p "$WORK"
+[ -x "$BIN" ] || (cd "$ROOT" && cargo build --release --locked)
+HERE=$ROOT/benches/tables
+[ -f "$WORK/m200k.csv" ] || /usr/bin/python3 "$HERE/gen_melt_cards.py" 200000 "$WORK/m200k.csv"
+[ -f "$WORK/m2m.csv" ] || /usr/bin/python3 "$HERE/gen_melt_cards.py" 2000000 "$WORK/m2m.csv"
+
+echo "load average before: $(cut -d' ' -f1-3 /proc/loadavg)"
+# One run: prints "seconds max_rss_kb".
+one() {
+    /usr/bin/time -f "%e %M" -o "$WORK/time.txt" "$BIN" eval --melt-cards "$1" \
+        --out "$WORK/out.csv" --threads "$2" > /dev/null 2> "$WORK/stderr.txt" || {
+        cat "$WORK/stderr.txt" >&2
+        exit 1
+    }
+    cat "$WORK/time.txt"
+}
+: > "$WORK/runs.txt"
+i=0
+while [ $i -lt "$RUNS" ]; do
+    echo "t1 $(one "$WORK/m200k.csv" 1)" >> "$WORK/runs.txt"
+    echo "t2 $(one "$WORK/m200k.csv" 2)" >> "$WORK/runs.txt"
+    i=$((i + 1))
+done
+cp "$WORK/out.csv" "$WORK/out200k.csv"
+i=0
+while [ $i -lt "$RUNS" ]; do
+    echo "big $(one "$WORK/m2m.csv" 2)" >> "$WORK/runs.txt"
+    i=$((i + 1))
+done
+/usr/bin/python3 "$HERE/rc_numpy.py" "$WORK/m200k.csv" "$RUNS" "$WORK/out200k.csv" > "$WORK/numpy.txt"
+echo "load average after:  $(cut -d' ' -f1-3 /proc/loadavg)"
+/usr/bin/python3 - "$WORK/runs.txt" "$WORK/numpy.txt" <<'PY'
+import statistics, sys
+runs = {}
+for line in open(sys.argv[1]):
+    k, s, kb = line.split()
+    runs.setdefault(k, []).append((float(s), int(kb)))
+numpy = dict(l.split(None, 1) for l in open(sys.argv[2]))
+med = lambda k, i: statistics.median(r[i] for r in runs[k])
+t1, t2 = med("t1", 0), med("t2", 0)
+n = float(numpy["numpy_rc_seconds_median"])
+m_small, m_big = med("t2", 1) / 1024, med("big", 1) / 1024
+print("runs per figure: %d (medians)" % len(runs["t1"]))
+print("200k rows, whole process, 1 thread:   %.2f s   (all: %s)" % (t1, " ".join("%.2f" % r[0] for r in runs["t1"])))
+print("200k rows, whole process, 2 threads:  %.2f s   (all: %s)" % (t2, " ".join("%.2f" % r[0] for r in runs["t2"])))
+print("speed-up 2 threads / 1 thread:        %.2f   (target >= 1.8)" % (t1 / t2))
+print("anchor: numpy R_c alone, 200k melts:  %.2f s   (all: %s)" % (n, numpy["numpy_rc_seconds_all"].strip()))
+print("numpy / quenchwise (2 threads):       %.2f   (target >= 15)" % (n / t2))
+print("numpy R_c vs quenchwise R_c:          median |ratio - 1| = %s" % numpy["median_relative_difference_to_quenchwise"].strip())
+print("peak memory 200k rows (2 threads):    %.0f MB" % m_small)
+print("peak memory 2M rows (2 threads):      %.0f MB   (target < 300 MB)   2M time %.2f s" % (m_big, med("big", 0)))
+print("peak memory ratio 2M / 200k:          %.2f   (target <= 1.2)" % (m_big / m_small))
+PY

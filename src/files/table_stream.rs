@@ -1,0 +1,877 @@
+//! Tables streamed: a melt-card or composition table is read, evaluated and
+//! written in bounded batches, so memory does not grow with the table.
+//!
+//! - **Reading.** A CSV file is cut into batches of whole records (line
+//!   endings made LF, quotes followed, the line of every record counted) and
+//!   each batch is parsed by polars with one schema for the whole file. That
+//!   schema is what polars infers over every row: a first pass reads the
+//!   batches once, merges their inferred types, counts the rows and checks
+//!   every cell, so a bad cell anywhere is reported (with file, row, line
+//!   and column) before any row is evaluated. A Parquet file is read row
+//!   group by row group, in batches within a group.
+//! - **Evaluating.** The rows of a batch run in parallel (rayon, the pool
+//!   in force), and come back in input order.
+//! - **Writing.** Result columns are built typed, straight from each
+//!   [`Evaluation`] through the column definitions of
+//!   [`crate::report::records`], appended to the batch's input columns, and
+//!   written by polars' batched CSV or Parquet writer.
+//!
+//! The output goes to `<out>.partial` (e.g. `results.csv.partial`), renamed
+//! to `<out>` only when every batch is written and synced; on any error the
+//! partial file is removed. A process killed mid-run leaves only the
+//! `.partial` file, never a file under the name asked for.
+//!
+//! The result columns are fixed before the first row is evaluated: every
+//! phase has its per-phase columns even when no row fills them, and a row
+//! that failed has empty result cells. (The whole-table path
+//! [`super::table::append_results`] keeps only columns some row fills.)
+
+use super::melt_card::MeltValues;
+use super::table::{check_writable, composition_rows, melt_rows, OxideAmounts, Places, TableError};
+use crate::assess::Evaluation;
+use crate::report::records::{
+    Carried, CellKind, EvalCell, EvalField, PhaseField, EVALUATION_FIELDS, PHASE_FIELDS,
+};
+use polars::prelude::*;
+use rayon::prelude::*;
+use std::io::{BufRead, BufReader};
+use std::path::{Path, PathBuf};
+
+/// Rows per batch unless told otherwise: large enough that the per-batch
+/// work (parsing, writing) is cheap, small enough that a batch's
+/// evaluations take a few MB.
+pub const DEFAULT_BATCH_ROWS: usize = 4096;
+
+/// At most this many bad cells are collected by the first pass.
+const CELLS_COLLECTED: usize = 10_000;
+
+/// Reads the inputs of a frame's rows (one batch or a whole table).
+pub trait RowReader: Sync {
+    /// One row's input.
+    type Row: Send + Sync;
+    /// The rows of `df`, each an input or why it cannot be one; bad cells
+    /// go to `bad` with their place.
+    ///
+    /// # Errors
+    /// What makes the whole table unusable (a missing column, no rows).
+    fn rows(
+        &self,
+        df: &DataFrame,
+        places: &Places,
+        bad: &mut Vec<String>,
+    ) -> Result<Vec<Result<Self::Row, String>>, TableError>;
+}
+
+/// Rows of melt cards.
+pub struct MeltRows;
+
+impl RowReader for MeltRows {
+    type Row = MeltValues;
+    fn rows(
+        &self,
+        df: &DataFrame,
+        places: &Places,
+        bad: &mut Vec<String>,
+    ) -> Result<Vec<Result<MeltValues, String>>, TableError> {
+        melt_rows(df, places, bad)
+    }
+}
+
+/// Rows of compositions (oxide columns; the others pass through).
+pub struct CompositionRows;
+
+impl RowReader for CompositionRows {
+    type Row = OxideAmounts;
+    fn rows(
+        &self,
+        df: &DataFrame,
+        places: &Places,
+        bad: &mut Vec<String>,
+    ) -> Result<Vec<Result<OxideAmounts, String>>, TableError> {
+        composition_rows(df, places, bad).map(|(rows, _)| rows)
+    }
+}
+
+/// What the result columns of a table are: which fields its evaluations
+/// carry and the phases of its per-phase columns.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ResultPlan {
+    /// Evaluations come from a model set (compositions), not melt cards.
+    pub with_models: bool,
+    /// Some evaluation may carry what its kinetics were calibrated against.
+    pub calibrated: bool,
+    /// Every phase an evaluation may name, in any order.
+    pub phases: Vec<String>,
+}
+
+impl ResultPlan {
+    /// A table of melt cards: one phase, "crystal".
+    pub fn melt_cards() -> Self {
+        ResultPlan {
+            with_models: false,
+            calibrated: false,
+            phases: vec!["crystal".into()],
+        }
+    }
+}
+
+enum Source {
+    Field(&'static EvalField),
+    Phase(&'static PhaseField, String),
+}
+
+/// The result columns of a table, in order, named for its input.
+struct ResultColumns {
+    columns: Vec<(String, Source)>,
+}
+
+impl ResultColumns {
+    /// The columns sorted by their key (as the whole-table path writes
+    /// them); a key that an input column already uses gets `_out`.
+    fn new(plan: &ResultPlan, input: &[String]) -> Self {
+        let mut keyed: Vec<(String, Source)> = EVALUATION_FIELDS
+            .iter()
+            .filter(|f| match f.carried {
+                Carried::Always => true,
+                Carried::WithModels => plan.with_models,
+                Carried::WhenCalibrated => plan.calibrated,
+            })
+            .map(|f| (f.name.to_string(), Source::Field(f)))
+            .collect();
+        let mut phases = plan.phases.clone();
+        phases.sort();
+        phases.dedup();
+        for f in &PHASE_FIELDS {
+            for p in &phases {
+                keyed.push((f.column(p), Source::Phase(f, p.clone())));
+            }
+        }
+        keyed.sort_by(|a, b| a.0.cmp(&b.0));
+        let columns = keyed
+            .into_iter()
+            .map(|(k, s)| {
+                if input.contains(&k) {
+                    (format!("{k}_out"), s)
+                } else {
+                    (k, s)
+                }
+            })
+            .collect();
+        ResultColumns { columns }
+    }
+
+    /// The result columns of a batch, typed, then the `error` column.
+    fn build(&self, results: &[Result<Evaluation, String>]) -> Vec<Column> {
+        let mut out: Vec<Column> = self
+            .columns
+            .par_iter()
+            .map(|(name, source)| match source {
+                Source::Field(f) => field_column(name, f, results),
+                Source::Phase(f, phase) => {
+                    let it = results.iter().map(|r| {
+                        r.as_ref()
+                            .ok()
+                            .and_then(|e| (f.get)(e).get(phase.as_str()).copied())
+                    });
+                    Float64Chunked::from_iter_options(name.as_str().into(), it).into_column()
+                }
+            })
+            .collect();
+        let errors = results.iter().map(|r| r.as_ref().err().map(String::as_str));
+        out.push(StringChunked::from_iter_options("error".into(), errors).into_column());
+        out
+    }
+}
+
+/// One field's column over a batch; rows that failed are empty.
+fn field_column(name: &str, f: &EvalField, results: &[Result<Evaluation, String>]) -> Column {
+    fn cell<'a>(f: &EvalField, r: &'a Result<Evaluation, String>) -> Option<EvalCell<'a>> {
+        r.as_ref().ok().map(|e| (f.get)(e))
+    }
+    let cell = |r| cell(f, r);
+    match f.kind {
+        CellKind::Num => Float64Chunked::from_iter_options(
+            name.into(),
+            results.iter().map(|r| match cell(r) {
+                Some(EvalCell::Num(v)) => v,
+                _ => None,
+            }),
+        )
+        .into_column(),
+        CellKind::Bool => BooleanChunked::from_iter_options(
+            name.into(),
+            results.iter().map(|r| match cell(r) {
+                Some(EvalCell::Bool(v)) => v,
+                _ => None,
+            }),
+        )
+        .into_column(),
+        CellKind::Text | CellKind::Joined => {
+            let mut joined = String::new();
+            let mut b = StringChunkedBuilder::new(name.into(), results.len());
+            for r in results {
+                match cell(r) {
+                    Some(EvalCell::Text(Some(t))) => b.append_value(t),
+                    Some(EvalCell::Joined(parts)) => {
+                        joined.clear();
+                        for (i, p) in parts.iter().enumerate() {
+                            if i > 0 {
+                                joined.push_str("; ");
+                            }
+                            joined.push_str(p);
+                        }
+                        b.append_value(&joined);
+                    }
+                    _ => b.append_null(),
+                }
+            }
+            b.finish().into_column()
+        }
+    }
+}
+
+/// Where the rows of a table come from, batch by batch.
+enum Input {
+    Csv(CsvBatches),
+    Parquet(ParquetBatches),
+}
+
+/// A batch of CSV text (header first) and the line each record starts on.
+type CsvBatch = (Vec<u8>, Vec<usize>);
+
+/// A CSV file cut into batches of whole records.
+struct CsvBatches {
+    file: BufReader<std::fs::File>,
+    /// The header record, LF-terminated.
+    header: Vec<u8>,
+    /// The line the next byte is on (1-based).
+    line: usize,
+    /// The last byte read was a CR (a LF right after it belongs to it).
+    after_cr: bool,
+    done: bool,
+    /// Whether a batch was handed out (an empty file still gives one).
+    gave: bool,
+}
+
+impl CsvBatches {
+    fn open(path: &Path, label: &str) -> Result<Self, TableError> {
+        let file = std::fs::File::open(path).map_err(|e| read_error(label, e))?;
+        let mut b = CsvBatches {
+            file: BufReader::with_capacity(1 << 16, file),
+            header: Vec::new(),
+            line: 1,
+            after_cr: false,
+            done: false,
+            gave: false,
+        };
+        // The header: the first record that holds something.
+        loop {
+            let mut rec = Vec::new();
+            let mut lines = Vec::new();
+            b.records(1, &mut rec, &mut lines)
+                .map_err(|e| read_error(label, e))?;
+            if lines.is_empty() || rec != b"\n" {
+                b.header = rec;
+                break;
+            }
+        }
+        Ok(b)
+    }
+
+    /// Append up to `max` records to `out` (LF line endings), and the line
+    /// each starts on to `lines`. Every line ending outside quotes ends a
+    /// record, as polars reads it (an empty line is a row of empty cells).
+    fn records(
+        &mut self,
+        max: usize,
+        out: &mut Vec<u8>,
+        lines: &mut Vec<usize>,
+    ) -> std::io::Result<()> {
+        let mut in_quotes = false;
+        let mut rec_line = self.line;
+        let mut rec_start = out.len();
+        while !self.done && lines.len() < max {
+            let buf = self.file.fill_buf()?;
+            if buf.is_empty() {
+                self.done = true;
+                if out.len() > rec_start {
+                    out.push(b'\n');
+                    lines.push(rec_line);
+                }
+                break;
+            }
+            let mut used = 0;
+            for &byte in buf {
+                used += 1;
+                let byte = if self.after_cr {
+                    self.after_cr = false;
+                    if byte == b'\n' {
+                        continue;
+                    }
+                    byte
+                } else {
+                    byte
+                };
+                let byte = if byte == b'\r' {
+                    self.after_cr = true;
+                    b'\n'
+                } else {
+                    byte
+                };
+                out.push(byte);
+                match byte {
+                    b'"' => in_quotes = !in_quotes,
+                    b'\n' => {
+                        self.line += 1;
+                        if !in_quotes {
+                            lines.push(rec_line);
+                            rec_line = self.line;
+                            rec_start = out.len();
+                            if lines.len() == max {
+                                break;
+                            }
+                        }
+                    }
+                    _ => {}
+                }
+            }
+            self.file.consume(used);
+        }
+        Ok(())
+    }
+
+    /// The next batch as CSV text with its header, and the line of each
+    /// record; `None` when the file is done.
+    fn next(&mut self, max: usize, label: &str) -> Result<Option<CsvBatch>, TableError> {
+        let mut text = self.header.clone();
+        let mut lines = Vec::new();
+        self.records(max, &mut text, &mut lines)
+            .map_err(|e| read_error(label, e))?;
+        if lines.is_empty() && self.gave {
+            return Ok(None);
+        }
+        self.gave = true;
+        Ok(Some((text, lines)))
+    }
+}
+
+/// A Parquet file read row group by row group.
+struct ParquetBatches {
+    path: PathBuf,
+    metadata: polars::prelude::FileMetadataRef,
+    /// The rows of each row group.
+    groups: Vec<usize>,
+    group: usize,
+    /// The current row group's frame and the next row of it to hand out.
+    frame: Option<(DataFrame, usize)>,
+    gave: bool,
+}
+
+impl ParquetBatches {
+    fn open(path: &Path, label: &str) -> Result<Self, TableError> {
+        let file = std::fs::File::open(path).map_err(|e| read_error(label, e))?;
+        let mut r = ParquetReader::new(file);
+        let metadata = r.get_metadata().map_err(|e| read_error(label, e))?.clone();
+        let groups = metadata.row_groups.iter().map(|g| g.num_rows()).collect();
+        Ok(ParquetBatches {
+            path: path.to_path_buf(),
+            metadata,
+            groups,
+            group: 0,
+            frame: None,
+            gave: false,
+        })
+    }
+
+    fn next(&mut self, max: usize, label: &str) -> Result<Option<DataFrame>, TableError> {
+        loop {
+            if let Some((df, at)) = &mut self.frame {
+                if *at < df.height() {
+                    let n = max.min(df.height() - *at);
+                    let part = df.slice(*at as i64, n);
+                    *at += n;
+                    self.gave = true;
+                    return Ok(Some(part));
+                }
+                self.frame = None;
+            }
+            if self.group >= self.groups.len() {
+                if self.gave {
+                    return Ok(None);
+                }
+                // No rows at all: one empty frame with the file's columns.
+                self.gave = true;
+                let df = self.read_slice(0, 0, label)?;
+                return Ok(Some(df));
+            }
+            let start: usize = self.groups[..self.group].iter().sum();
+            let len = self.groups[self.group];
+            self.group += 1;
+            let df = self.read_slice(start, len, label)?;
+            self.frame = Some((df, 0));
+        }
+    }
+
+    fn read_slice(&self, start: usize, len: usize, label: &str) -> Result<DataFrame, TableError> {
+        let file = std::fs::File::open(&self.path).map_err(|e| read_error(label, e))?;
+        let mut r = ParquetReader::new(file).with_slice(Some((start, len)));
+        r.set_metadata(self.metadata.clone());
+        r.finish().map_err(|e| read_error(label, e))
+    }
+}
+
+fn read_error(label: &str, e: impl std::fmt::Display) -> TableError {
+    TableError::Read {
+        path: label.to_string(),
+        message: e.to_string(),
+    }
+}
+
+/// A table's batches: each a frame and where its rows sit in the file.
+struct Batches {
+    label: String,
+    input: Input,
+    batch_rows: usize,
+    /// The schema every CSV batch is parsed with (None: inferred per batch).
+    schema: Option<SchemaRef>,
+    rows: usize,
+}
+
+impl Batches {
+    fn open(path: &Path, batch_rows: usize, schema: Option<SchemaRef>) -> Result<Self, TableError> {
+        let label = path.display().to_string();
+        let ext = path
+            .extension()
+            .and_then(|e| e.to_str())
+            .map(str::to_ascii_lowercase);
+        let input = match ext.as_deref() {
+            Some("csv") => Input::Csv(CsvBatches::open(path, &label)?),
+            Some("parquet" | "pq") => Input::Parquet(ParquetBatches::open(path, &label)?),
+            _ => return Err(TableError::Extension { path: label }),
+        };
+        Ok(Batches {
+            label,
+            input,
+            batch_rows: batch_rows.max(1),
+            schema,
+            rows: 0,
+        })
+    }
+
+    fn next(&mut self) -> Result<Option<(DataFrame, Places)>, TableError> {
+        let first = self.rows;
+        let (df, lines) = match &mut self.input {
+            Input::Csv(c) => {
+                let Some((text, lines)) = c.next(self.batch_rows, &self.label)? else {
+                    return Ok(None);
+                };
+                let parse = |schema: Option<SchemaRef>, text: Vec<u8>| {
+                    let opts = CsvReadOptions::default().with_has_header(true);
+                    let opts = match schema {
+                        Some(s) => opts.with_schema(Some(s)),
+                        None => opts.with_infer_schema_length(None),
+                    };
+                    opts.into_reader_with_file_handle(std::io::Cursor::new(text))
+                        .finish()
+                };
+                // A batch the file's schema does not fit (the file changed
+                // after the check) is read as it is, so that the row reader
+                // names the bad cell, or the caller sees the changed types.
+                let df = match parse(self.schema.clone(), text.clone()) {
+                    Ok(df) => Ok(df),
+                    Err(_) if self.schema.is_some() => parse(None, text),
+                    Err(e) => Err(e),
+                }
+                .map_err(|e| read_error(&self.label, e))?;
+                // Where the count of records agrees with polars, rows get lines.
+                let lines = (lines.len() == df.height()).then_some(lines);
+                (df, lines)
+            }
+            Input::Parquet(p) => {
+                let Some(df) = p.next(self.batch_rows, &self.label)? else {
+                    return Ok(None);
+                };
+                (df, None)
+            }
+        };
+        self.rows += df.height();
+        let places = Places::batch(self.label.clone(), first, lines);
+        Ok(Some((df, places)))
+    }
+}
+
+/// The column names of a table, from its header (CSV) or schema (Parquet).
+///
+/// # Errors
+/// An unknown extension, an unreadable or malformed file.
+pub fn table_column_names(path: &Path) -> Result<Vec<String>, TableError> {
+    let b = Batches::open(path, 1, None)?;
+    let names = match &b.input {
+        Input::Csv(c) => CsvReadOptions::default()
+            .with_has_header(true)
+            .into_reader_with_file_handle(std::io::Cursor::new(c.header.clone()))
+            .finish()
+            .map_err(|e| read_error(&b.label, e))?
+            .get_column_names()
+            .iter()
+            .map(|s| s.to_string())
+            .collect(),
+        Input::Parquet(p) => p
+            .read_slice(0, 0, &b.label)?
+            .get_column_names()
+            .iter()
+            .map(|s| s.to_string())
+            .collect(),
+    };
+    Ok(names)
+}
+
+/// Merge the type polars inferred for a column in one batch into the type
+/// for the whole file, as polars' own inference over every row would: an
+/// integer and a float make a float, any other mix makes text. A column
+/// that is empty throughout a batch says nothing about its type.
+fn merge_dtype(whole: Option<DataType>, batch: &Column) -> Option<DataType> {
+    if batch.null_count() == batch.len() {
+        return whole;
+    }
+    let b = batch.dtype().clone();
+    Some(match whole {
+        None => b,
+        Some(w) if w == b => w,
+        Some(w)
+            if matches!(
+                (&w, &b),
+                (DataType::Int64, DataType::Float64) | (DataType::Float64, DataType::Int64)
+            ) =>
+        {
+            DataType::Float64
+        }
+        Some(_) => DataType::String,
+    })
+}
+
+/// What the first pass found.
+struct Checked {
+    schema: Option<SchemaRef>,
+    rows: usize,
+}
+
+/// The first pass: every batch parsed, its cells checked and its types
+/// merged; nothing evaluated.
+fn check_table<R: RowReader>(
+    input: &Path,
+    out: &Path,
+    reader: &R,
+    batch_rows: usize,
+) -> Result<Checked, TableError> {
+    let mut batches = Batches::open(input, batch_rows, None)?;
+    let is_csv = matches!(batches.input, Input::Csv(_));
+    let mut names: Vec<PlSmallStr> = Vec::new();
+    let mut types: Vec<Option<DataType>> = Vec::new();
+    let mut bad = Vec::new();
+    let mut first = true;
+    while let Some((df, places)) = batches.next()? {
+        if first {
+            names = df.get_column_names().into_iter().cloned().collect();
+            types = vec![None; names.len()];
+        }
+        let _ = reader.rows(&df, &places, &mut bad)?;
+        if first {
+            // As before any work in the whole-table path: every column can
+            // go into the output's format.
+            check_writable(&df, out)?;
+            first = false;
+        }
+        if is_csv {
+            for (t, c) in types.iter_mut().zip(df.columns()) {
+                *t = merge_dtype(t.take(), c);
+            }
+        }
+        if bad.len() >= CELLS_COLLECTED {
+            bad.truncate(CELLS_COLLECTED);
+            bad.push(format!(
+                "{input}: the check stopped after {CELLS_COLLECTED} bad cells",
+                input = input.display()
+            ));
+            break;
+        }
+    }
+    super::table::cells(bad)?;
+    let schema = is_csv.then(|| {
+        Arc::new(Schema::from_iter(names.into_iter().zip(types).map(
+            |(n, t)| {
+                // Empty throughout: polars reads such a column as text.
+                Field::new(n, t.unwrap_or(DataType::String))
+            },
+        )))
+    });
+    Ok(Checked {
+        schema,
+        rows: batches.rows,
+    })
+}
+
+/// The output file while it is written: `<out>.partial`, renamed to `<out>`
+/// by [`Sink::finish`], removed if dropped unfinished.
+struct Sink {
+    tmp: PathBuf,
+    path: PathBuf,
+    writer: Option<Writer>,
+    /// The file the writer writes, to sync it when done.
+    file: std::fs::File,
+}
+
+// Polars serialises each batch in memory and hands the file large writes,
+// so the file needs no buffer of its own (and every write error is seen).
+enum Writer {
+    Csv(polars::io::csv::write::BatchedWriter<std::fs::File>),
+    Parquet(Box<polars::io::parquet::write::BatchedWriter<std::fs::File>>),
+}
+
+impl Sink {
+    fn create(path: &Path, schema: &Schema) -> Result<Self, TableError> {
+        let p = path.display().to_string();
+        let werr = |m: String| TableError::Write {
+            path: p.clone(),
+            message: m,
+        };
+        let ext = path
+            .extension()
+            .and_then(|e| e.to_str())
+            .map(str::to_ascii_lowercase);
+        let tmp = path.with_extension(format!(
+            "{}.partial",
+            path.extension().and_then(|e| e.to_str()).unwrap_or("out")
+        ));
+        let f = std::fs::File::create(&tmp).map_err(|e| werr(e.to_string()))?;
+        let file = f.try_clone().map_err(|e| werr(e.to_string()))?;
+        let mut sink = Sink {
+            tmp,
+            path: path.to_path_buf(),
+            writer: None,
+            file,
+        };
+        sink.writer = Some(match ext.as_deref() {
+            Some("csv") => Writer::Csv(
+                CsvWriter::new(f)
+                    .batched(schema)
+                    .map_err(|e| werr(e.to_string()))?,
+            ),
+            Some("parquet" | "pq") => Writer::Parquet(Box::new(
+                ParquetWriter::new(f)
+                    .batched(schema)
+                    .map_err(|e| werr(e.to_string()))?,
+            )),
+            _ => return Err(TableError::Extension { path: p }),
+        });
+        Ok(sink)
+    }
+
+    fn werr(&self, e: impl std::fmt::Display) -> TableError {
+        TableError::Write {
+            path: self.path.display().to_string(),
+            message: e.to_string(),
+        }
+    }
+
+    fn write(&mut self, df: &mut DataFrame) -> Result<(), TableError> {
+        df.align_chunks_par();
+        let r = match &mut self.writer {
+            Some(Writer::Csv(w)) => w.write_batch(df),
+            Some(Writer::Parquet(w)) => w.write_batch(df),
+            None => Ok(()),
+        };
+        r.map_err(|e| self.werr(e))
+    }
+
+    fn finish(mut self) -> Result<(), TableError> {
+        match self.writer.take() {
+            Some(Writer::Csv(mut w)) => w.finish().map_err(|e| self.werr(e))?,
+            Some(Writer::Parquet(w)) => {
+                w.finish().map_err(|e| self.werr(e))?;
+            }
+            None => {}
+        }
+        self.file.sync_all().map_err(|e| self.werr(e))?;
+        std::fs::rename(&self.tmp, &self.path).map_err(|e| self.werr(e))?;
+        self.tmp = PathBuf::new();
+        Ok(())
+    }
+}
+
+impl Drop for Sink {
+    fn drop(&mut self) {
+        if !self.tmp.as_os_str().is_empty() {
+            self.writer = None;
+            let _ = std::fs::remove_file(&self.tmp);
+        }
+    }
+}
+
+/// How a streamed table is cut.
+#[derive(Debug, Clone, Copy)]
+pub struct StreamSettings {
+    /// Rows per batch (at least 1).
+    pub batch_rows: usize,
+}
+
+impl Default for StreamSettings {
+    fn default() -> Self {
+        StreamSettings {
+            batch_rows: DEFAULT_BATCH_ROWS,
+        }
+    }
+}
+
+/// One evaluated batch, for a caller that shows progress or a summary.
+pub struct BatchDone<'a> {
+    /// The batch's input columns.
+    pub input: &'a DataFrame,
+    /// Rows of the file before this batch.
+    pub first_row: usize,
+    /// Each row's evaluation or why it failed, in input order.
+    pub results: &'a [Result<Evaluation, String>],
+}
+
+/// What a streamed table reports as it goes.
+pub enum Event<'a> {
+    /// The first pass is done: the table has this many rows, every cell fine.
+    Checked(usize),
+    /// A batch is evaluated and written.
+    Batch(BatchDone<'a>),
+}
+
+/// What a streamed table came to.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Streamed {
+    pub rows: usize,
+    pub failed: usize,
+}
+
+/// Read the table `input` batch by batch, evaluate every row (in
+/// parallel, in the rayon pool in force), and write the input columns with
+/// the results appended to `out` (.csv or .parquet). `on` hears when the
+/// first pass has counted the rows, then of each batch.
+///
+/// # Errors
+/// Anything wrong with the table as a whole (format, missing columns, a bad
+/// cell anywhere: all found before any row is evaluated), or a failed
+/// write. Rows that cannot be evaluated are not errors: their reason goes
+/// into the `error` column. On an error no file `out` is written.
+pub fn stream_table<R: RowReader>(
+    input: &Path,
+    out: &Path,
+    reader: &R,
+    plan: &ResultPlan,
+    settings: StreamSettings,
+    evaluate: impl Fn(&R::Row) -> Result<Evaluation, String> + Sync,
+    mut on: impl FnMut(Event<'_>),
+) -> Result<Streamed, TableError> {
+    let pass = check_table(input, out, reader, settings.batch_rows)?;
+    on(Event::Checked(pass.rows));
+    let mut batches = Batches::open(input, settings.batch_rows, pass.schema)?;
+    let mut sink: Option<Sink> = None;
+    let mut columns: Option<ResultColumns> = None;
+    let mut failed = 0;
+    let mut rows_seen = 0;
+    while let Some((df, places)) = batches.next()? {
+        let mut bad = Vec::new();
+        let rows = reader.rows(&df, &places, &mut bad)?;
+        // The first pass checked every cell: a bad one now means the file
+        // changed under us.
+        super::table::cells(bad)?;
+        if let Some(s) = &batches.schema {
+            if df.schema().as_ref() != s.as_ref() {
+                return Err(TableError::Read {
+                    path: input.display().to_string(),
+                    message: format!(
+                        "the file changed while it was read (rows {} to {})",
+                        places.first_row() + 1,
+                        places.first_row() + df.height()
+                    ),
+                });
+            }
+        }
+        let results: Vec<Result<Evaluation, String>> = rows
+            .par_iter()
+            .map(|r| r.as_ref().map_err(Clone::clone).and_then(&evaluate))
+            .collect();
+        failed += results.iter().filter(|r| r.is_err()).count();
+        let cols = columns.get_or_insert_with(|| {
+            let names: Vec<String> = df
+                .get_column_names()
+                .iter()
+                .map(|s| s.to_string())
+                .collect();
+            ResultColumns::new(plan, &names)
+        });
+        let mut frame = df.clone();
+        for c in cols.build(&results) {
+            frame.with_column(c).map_err(|e| TableError::Write {
+                path: out.display().to_string(),
+                message: format!("assembling the results: {e}"),
+            })?;
+        }
+        if sink.is_none() {
+            sink = Some(Sink::create(out, frame.schema())?);
+        }
+        if let Some(s) = sink.as_mut() {
+            s.write(&mut frame)?;
+        }
+        on(Event::Batch(BatchDone {
+            input: &df,
+            first_row: places.first_row(),
+            results: &results,
+        }));
+        rows_seen += results.len();
+    }
+    match sink {
+        Some(s) => s.finish()?,
+        None => {
+            return Err(TableError::NoRows {
+                path: input.display().to_string(),
+            })
+        }
+    }
+    Ok(Streamed {
+        rows: rows_seen,
+        failed,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn chunks(text: &str, max: usize) -> (Vec<u8>, Vec<(String, Vec<usize>)>) {
+        let d = std::env::temp_dir().join(format!(
+            "quenchwise-chunks-{}-{}",
+            std::process::id(),
+            text.len()
+        ));
+        std::fs::write(&d, text).unwrap();
+        let mut b = CsvBatches::open(&d, "t.csv").unwrap();
+        let header = b.header.clone();
+        let mut out = Vec::new();
+        while let Some((t, l)) = b.next(max, "t.csv").unwrap() {
+            out.push((String::from_utf8(t[header.len()..].to_vec()).unwrap(), l));
+        }
+        let _ = std::fs::remove_file(&d);
+        (header, out)
+    }
+
+    #[test]
+    fn csv_batches_keep_whole_records_and_their_lines() {
+        // A quoted cell over two lines, CRLF and lone-CR endings, an empty
+        // line (a row of empty cells, as polars reads it), no final newline.
+        let (h, b) = chunks("x,y\r\n1,\"a\nb\"\r2,c\n\n3,d", 2);
+        assert_eq!(h, b"x,y\n");
+        assert_eq!(
+            b,
+            vec![
+                ("1,\"a\nb\"\n2,c\n".to_string(), vec![2, 4]),
+                ("\n3,d\n".to_string(), vec![5, 6]),
+            ]
+        );
+    }
+}

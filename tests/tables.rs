@@ -1,0 +1,272 @@
+//! Streamed tables (`files::table_stream`): the same rows as the whole-table
+//! path, in input order, whatever the batch size and thread count; a bad
+//! cell anywhere is found before any row runs; a failure part-way leaves no
+//! file under the name asked for.
+
+use crate::util::{root, temp_dir};
+use quenchwise::assess::{evaluate_composition, evaluate_melt, Calibration, SlabQuench};
+use quenchwise::composition::{Basis, Composition};
+use quenchwise::files::model_set::{parse_model_set, DEMO_MODELS};
+use quenchwise::files::source::Source;
+use quenchwise::files::table::{
+    append_results, read_composition_table, read_frame, read_melt_table, write_frame,
+};
+use quenchwise::files::table_stream::{
+    stream_table, CompositionRows, Event, MeltRows, ResultPlan, StreamSettings,
+};
+use quenchwise::kinetics::KineticOptions;
+use quenchwise::properties::ModelSet;
+use std::path::Path;
+use std::sync::atomic::{AtomicUsize, Ordering};
+
+fn models() -> ModelSet {
+    parse_model_set(&Source::new("demo", DEMO_MODELS)).unwrap()
+}
+
+fn melt_eval(
+    v: &quenchwise::files::melt_card::MeltValues,
+) -> Result<quenchwise::assess::Evaluation, String> {
+    let (melt, opts) = v
+        .build(&KineticOptions::default())
+        .map_err(|e| e.to_string())?;
+    evaluate_melt(
+        &melt,
+        &opts,
+        Some(SlabQuench::default()),
+        &Calibration::None,
+    )
+    .map_err(|e| e.to_string())
+}
+
+fn comp_eval(
+    m: &ModelSet,
+    pairs: &quenchwise::files::table::OxideAmounts,
+) -> Result<quenchwise::assess::Evaluation, String> {
+    let comp = Composition::new(pairs, Basis::MolPercent, 2.0).map_err(|e| e.to_string())?;
+    // As `eval` does: the demo set has no fitted nuclei, so the defaults.
+    assert!(m.kinetics_fit.is_none());
+    let opts = KineticOptions::default();
+    evaluate_composition(
+        m,
+        &comp,
+        &opts,
+        Some(SlabQuench::default()),
+        &Calibration::None,
+    )
+    .map_err(|e| e.to_string())
+}
+
+fn composition_plan(m: &ModelSet) -> ResultPlan {
+    ResultPlan {
+        with_models: true,
+        calibrated: m.phases.iter().any(|p| p.calibrated_against.is_some()),
+        phases: m.phases.iter().map(|p| p.name.clone()).collect(),
+    }
+}
+
+/// Run `f` on a rayon pool of `n` threads.
+fn on_threads<T: Send>(n: usize, f: impl FnOnce() -> T + Send) -> T {
+    rayon::ThreadPoolBuilder::new()
+        .num_threads(n)
+        .build()
+        .unwrap()
+        .install(f)
+}
+
+/// The whole-table frame against the streamed one, both read back from
+/// CSV: every column of the whole-table path is there with the same cells;
+/// the streamed table may add only per-phase columns that no row fills.
+fn assert_same_rows(whole: &Path, streamed: &Path) {
+    let old = read_frame(whole).unwrap();
+    let new = read_frame(streamed).unwrap();
+    assert_eq!(old.height(), new.height());
+    let extra: Vec<String> = new
+        .get_column_names()
+        .iter()
+        .map(|s| s.to_string())
+        .filter(|n| old.column(n).is_err())
+        .collect();
+    for n in &extra {
+        assert!(n.starts_with("critical_rate_"), "unexpected column {n}");
+        let c = new.column(n).unwrap();
+        assert_eq!(c.null_count(), c.len(), "{n} has values");
+    }
+    let new = new.drop_many(extra);
+    assert_eq!(old.get_column_names(), new.get_column_names());
+    assert!(
+        old.equals_missing(&new),
+        "streamed rows differ from the whole-table path:\n{old}\n{new}"
+    );
+}
+
+#[test]
+fn streamed_demo_tables_equal_the_whole_table_path_at_any_batch_size_and_thread_count() {
+    let d = temp_dir("tables-same");
+    // Melt cards: the whole-table path, one row after the other.
+    let input = root().join("demo-datasets/melt-cards.csv");
+    let t = read_melt_table(&input).unwrap();
+    let results: Vec<_> = t
+        .rows
+        .iter()
+        .map(|r| r.clone().and_then(|v| melt_eval(&v)))
+        .collect();
+    let mut df = append_results(t.frame, &results).unwrap();
+    let whole = d.join("melts-whole.csv");
+    write_frame(&whole, &mut df).unwrap();
+    let mut texts = Vec::new();
+    for (threads, batch) in [(1, 1), (2, 1), (2, 3), (1, 4096)] {
+        let out = d.join(format!("melts-{threads}-{batch}.csv"));
+        let s = on_threads(threads, || {
+            stream_table(
+                &input,
+                &out,
+                &MeltRows,
+                &ResultPlan::melt_cards(),
+                StreamSettings { batch_rows: batch },
+                melt_eval,
+                |_| {},
+            )
+        })
+        .unwrap();
+        assert_eq!(s.rows, results.len());
+        assert_same_rows(&whole, &out);
+        texts.push(std::fs::read(&out).unwrap());
+    }
+    // Byte for byte the same file at 1 and 2 threads, any batch size.
+    assert!(texts.windows(2).all(|w| w[0] == w[1]));
+
+    // Compositions with the demo model set.
+    let m = models();
+    let input = root().join("demo-datasets/candidates.csv");
+    let (t, _) = read_composition_table(&input).unwrap();
+    let results: Vec<_> = t
+        .rows
+        .iter()
+        .map(|r| r.clone().and_then(|p| comp_eval(&m, &p)))
+        .collect();
+    let mut df = append_results(t.frame, &results).unwrap();
+    let whole = d.join("cands-whole.csv");
+    write_frame(&whole, &mut df).unwrap();
+    let mut texts = Vec::new();
+    for (threads, batch) in [(1, 2), (2, 3), (2, 4096)] {
+        let out = d.join(format!("cands-{threads}-{batch}.csv"));
+        on_threads(threads, || {
+            stream_table(
+                &input,
+                &out,
+                &CompositionRows,
+                &composition_plan(&m),
+                StreamSettings { batch_rows: batch },
+                |p| comp_eval(&m, p),
+                |_| {},
+            )
+        })
+        .unwrap();
+        assert_same_rows(&whole, &out);
+        texts.push(std::fs::read(&out).unwrap());
+    }
+    assert!(texts.windows(2).all(|w| w[0] == w[1]));
+
+    // Parquet out holds the same rows as CSV out.
+    let pq = d.join("cands.parquet");
+    stream_table(
+        &input,
+        &pq,
+        &CompositionRows,
+        &composition_plan(&m),
+        StreamSettings { batch_rows: 3 },
+        |p| comp_eval(&m, p),
+        |_| {},
+    )
+    .unwrap();
+    let from_pq = read_frame(&pq).unwrap();
+    let csv_again = d.join("cands-from-parquet.csv");
+    write_frame(&csv_again, &mut from_pq.clone()).unwrap();
+    assert_eq!(std::fs::read(&csv_again).unwrap(), texts[0]);
+}
+
+/// A melt-card table of `n` copies of the first demo card, with the cells
+/// of row `bad_row` (1-based) replaced by `bad_cells`.
+fn melt_table(n: usize, bad_row: usize, bad_b_k: &str) -> String {
+    let demo = std::fs::read_to_string(root().join("demo-datasets/melt-cards.csv")).unwrap();
+    let mut lines = demo.lines();
+    let header = lines.next().unwrap();
+    let first = lines.next().unwrap();
+    let mut s = format!("{header}\n");
+    for i in 1..=n {
+        if i == bad_row {
+            let mut cells: Vec<&str> = first.split(',').collect();
+            cells[1] = bad_b_k;
+            s.push_str(&cells.join(","));
+        } else {
+            s.push_str(first);
+        }
+        s.push('\n');
+    }
+    s
+}
+
+#[test]
+fn a_bad_cell_in_a_late_batch_is_found_before_any_row_runs() {
+    let d = temp_dir("tables-late-bad");
+    let input = d.join("m.csv");
+    // Row 9 of 10 (line 10) with batches of 2: the fifth batch.
+    std::fs::write(&input, melt_table(10, 9, "4.5e3x")).unwrap();
+    let out = d.join("o.csv");
+    let ran = AtomicUsize::new(0);
+    let e = stream_table(
+        &input,
+        &out,
+        &MeltRows,
+        &ResultPlan::melt_cards(),
+        StreamSettings { batch_rows: 2 },
+        |v| {
+            ran.fetch_add(1, Ordering::Relaxed);
+            melt_eval(v)
+        },
+        |_| {},
+    )
+    .unwrap_err()
+    .to_string();
+    assert!(
+        e.contains("m.csv:10: row 9, column 'b_k': \"4.5e3x\" is not a number"),
+        "{e}"
+    );
+    assert_eq!(ran.load(Ordering::Relaxed), 0);
+    assert!(!out.exists());
+    assert!(!d.join("o.csv.partial").exists());
+}
+
+#[test]
+fn a_failure_after_some_batches_are_written_leaves_no_complete_looking_file() {
+    let d = temp_dir("tables-fail-late");
+    let input = d.join("m.csv");
+    std::fs::write(&input, melt_table(10, 0, "")).unwrap();
+    let out = d.join("o.csv");
+    // The file is spoiled between the check and the evaluation, so the
+    // second pass meets a bad cell after four batches were written.
+    let written = AtomicUsize::new(0);
+    let e = stream_table(
+        &input,
+        &out,
+        &MeltRows,
+        &ResultPlan::melt_cards(),
+        StreamSettings { batch_rows: 2 },
+        melt_eval,
+        |event| match event {
+            Event::Checked(rows) => {
+                assert_eq!(rows, 10);
+                std::fs::write(&input, melt_table(10, 9, "abc")).unwrap();
+            }
+            Event::Batch(b) => {
+                written.fetch_add(b.results.len(), Ordering::Relaxed);
+            }
+        },
+    )
+    .unwrap_err()
+    .to_string();
+    assert!(e.contains("m.csv:10: row 9, column 'b_k'"), "{e}");
+    assert_eq!(written.load(Ordering::Relaxed), 8);
+    assert!(!out.exists());
+    assert!(!d.join("o.csv.partial").exists());
+}
