@@ -435,6 +435,11 @@ fn vouch(e: &mut Evaluation) {
 /// # Errors
 /// The first key whose value is not a finite number.
 fn ensure_finite(e: &Evaluation) -> Result<(), KineticsError> {
+    // The common case without building the JSON value (the screen evaluates
+    // every candidate through here); the walk below names the key otherwise.
+    if numbers_finite(e) {
+        return Ok(());
+    }
     fn walk(v: &serde_json::Value, key: &str) -> Option<String> {
         match v {
             serde_json::Value::Null => Some(key.to_string()),
@@ -465,6 +470,103 @@ fn ensure_finite(e: &Evaluation) -> Result<(), KineticsError> {
         Some(key) => Err(KineticsError::NotFiniteResult { key }),
         None => Ok(()),
     }
+}
+
+/// Every number serde writes for an evaluation is finite. The destructuring
+/// names every field, so a new field must be placed here to compile.
+fn numbers_finite(e: &Evaluation) -> bool {
+    let Evaluation {
+        composition_mol_pct,
+        model_set: _,
+        primary_phase: _,
+        limiting_phase: _,
+        liquidus_k,
+        liquidus_c,
+        liquidus_by_phase_k,
+        glass_transition_k,
+        glass_transition_c,
+        melting_temperature_k,
+        working_point_k,
+        softening_point_k,
+        strain_point_k,
+        reduced_glass_transition,
+        fragility,
+        freeze_temperature_k,
+        nose_temperature_k,
+        nose_temperature_c,
+        nose_time_s,
+        nose_rate_k_per_s,
+        nose_rate_k_per_min,
+        critical_rate_k_per_s,
+        critical_rate_k_per_min,
+        critical_rate_by_phase_k_per_s,
+        nose_nucleation_rate_per_m3_s,
+        nose_growth_rate_m_per_s,
+        turnbull_alpha,
+        interface_energy_j_per_m2,
+        kinetics_calibrated: _,
+        calibrated_against: _,
+        detectable_fraction,
+        driving_force: _,
+        heterogeneous_nuclei_per_m3,
+        wall_contact_angle_deg,
+        sample_thickness_m,
+        transport: _,
+        max_glassy_thickness_mm,
+        quench_surface_k,
+        melt_thermal_diffusivity_m2_per_s,
+        viscosity_extrapolated: _,
+        liquidus_extrapolated: _,
+        vouched: _,
+        warnings: _,
+        // Not serialised.
+        melt: _,
+        options: _,
+        kinetic_summary: _,
+    } = e;
+    let plain = [
+        liquidus_k,
+        liquidus_c,
+        glass_transition_k,
+        glass_transition_c,
+        fragility,
+        freeze_temperature_k,
+        nose_temperature_k,
+        nose_temperature_c,
+        nose_time_s,
+        nose_rate_k_per_s,
+        nose_rate_k_per_min,
+        critical_rate_k_per_s,
+        critical_rate_k_per_min,
+        nose_nucleation_rate_per_m3_s,
+        nose_growth_rate_m_per_s,
+        turnbull_alpha,
+        interface_energy_j_per_m2,
+        detectable_fraction,
+        heterogeneous_nuclei_per_m3,
+        wall_contact_angle_deg,
+        sample_thickness_m,
+        quench_surface_k,
+        melt_thermal_diffusivity_m2_per_s,
+    ];
+    let optional = [
+        melting_temperature_k,
+        working_point_k,
+        softening_point_k,
+        strain_point_k,
+        reduced_glass_transition,
+        max_glassy_thickness_mm,
+    ];
+    plain.iter().all(|v| v.is_finite())
+        && optional.iter().all(|v| v.is_none_or(f64::is_finite))
+        && [
+            Some(liquidus_by_phase_k),
+            Some(critical_rate_by_phase_k_per_s),
+            composition_mol_pct.as_ref(),
+        ]
+        .iter()
+        .flatten()
+        .all(|m| m.values().all(|v| v.is_finite()))
 }
 
 const UNCALIBRATED: &str =
@@ -623,5 +725,71 @@ mod tests {
         assert_eq!(&e.limiting_phase, fastest);
         assert!(e.nose_rate_k_per_s > e.critical_rate_k_per_s);
         assert!(!e.kinetics_calibrated);
+    }
+
+    #[test]
+    fn a_non_finite_number_is_named_with_or_without_the_json_walk() {
+        // The direct check agrees with serde's view of the evaluation: finite
+        // as evaluated; each number made NaN in turn is caught and named.
+        let m = parse_model_set(&Source::new("demo", DEMO_MODELS)).unwrap();
+        let c = Composition::parse(
+            "SiO2=72 Na2O=14 CaO=10 Al2O3=4",
+            crate::composition::Basis::MolPercent,
+            2.0,
+        )
+        .unwrap();
+        let opts = KineticOptions::default();
+        let e = evaluate_composition(
+            &m,
+            &c,
+            &opts,
+            Some(SlabQuench::default()),
+            &Calibration::None,
+        )
+        .unwrap();
+        assert!(numbers_finite(&e));
+        let breakers: [(&str, fn(&mut Evaluation)); 5] = [
+            ("fragility", |e| e.fragility = f64::NAN),
+            ("max_glassy_thickness_mm", |e| {
+                e.max_glassy_thickness_mm = Some(f64::INFINITY)
+            }),
+            ("nose_time_s", |e| e.nose_time_s = f64::NAN),
+            ("critical_rate_by_phase_k_per_s.wollastonite", |e| {
+                *e.critical_rate_by_phase_k_per_s
+                    .get_mut("wollastonite")
+                    .unwrap() = f64::NAN
+            }),
+            ("composition_mol_pct.SiO2", |e| {
+                *e.composition_mol_pct
+                    .as_mut()
+                    .unwrap()
+                    .get_mut("SiO2")
+                    .unwrap() = f64::NEG_INFINITY
+            }),
+        ];
+        for (key, brk) in breakers {
+            let mut bad = e.clone();
+            brk(&mut bad);
+            assert!(!numbers_finite(&bad), "{key}");
+            assert_eq!(
+                ensure_finite(&bad),
+                Err(KineticsError::NotFiniteResult { key: key.into() })
+            );
+        }
+        // The direct check sees as many numbers as serde writes.
+        fn count(v: &serde_json::Value) -> usize {
+            match v {
+                serde_json::Value::Number(_) => 1,
+                serde_json::Value::Object(m) => m.values().map(count).sum(),
+                serde_json::Value::Array(a) => a.iter().map(count).sum(),
+                _ => 0,
+            }
+        }
+        let numbers = 23
+            + 6
+            + e.liquidus_by_phase_k.len()
+            + e.critical_rate_by_phase_k_per_s.len()
+            + e.composition_mol_pct.as_ref().map_or(0, |m| m.len());
+        assert_eq!(count(&serde_json::to_value(&e).unwrap()), numbers);
     }
 }
