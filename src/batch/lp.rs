@@ -270,14 +270,13 @@ fn classify(
     let nr = shelf.price.len();
     let tol = shelf.tol;
     let (mut basic_x, mut upper_x, mut basic_r, mut upper_r) = (0u64, 0u64, 0u64, 0u64);
-    for k in 0..nr {
+    for (k, (&v, &u)) in x_full.iter().zip(&shelf.upper).enumerate() {
         if usable & (1 << k) == 0 {
             continue;
         }
-        let v = x_full[k];
-        if v > CLASSIFY_X && v < shelf.upper[k] - CLASSIFY_X {
+        if v > CLASSIFY_X && v < u - CLASSIFY_X {
             basic_x |= 1 << k;
-        } else if v >= shelf.upper[k] - CLASSIFY_X {
+        } else if v >= u - CLASSIFY_X {
             upper_x |= 1 << k;
         }
     }
@@ -357,7 +356,7 @@ fn classify(
     let lu = b.lu();
     // Refuse a nearly singular basis: its solutions would not be trustworthy.
     let d = lu.u().diagonal().map(f64::abs);
-    if !(d.min() > 1e-12 * d.max()) {
+    if d.min().partial_cmp(&(1e-12 * d.max())) != Some(std::cmp::Ordering::Greater) {
         return None;
     }
     Some(Kept {
