@@ -210,21 +210,21 @@ pub fn composition_melt(models: &ModelSet, props: &Properties) -> Result<Melt, K
 }
 
 fn calibrate(
-    melt: &Melt,
+    melt: Melt,
     opts: &KineticOptions,
     cal: &Calibration,
 ) -> Result<(Melt, Option<String>), KineticsError> {
     let name = |c: &Calibrated| c.melt.phases[c.phase].name.clone();
     Ok(match cal {
-        Calibration::None => (melt.clone(), None),
-        Calibration::Given(s) => (melt.clone(), Some(s.clone())),
+        Calibration::None => (melt, None),
+        Calibration::Given(s) => (melt, Some(s.clone())),
         Calibration::ToCriticalRate(r) => {
-            let c = Kinetics::calibrate_to_critical_rate(melt, opts, *r, None)?;
+            let c = Kinetics::calibrate_to_critical_rate(&melt, opts, *r, None)?;
             let what = format!("measured critical cooling rate {} K/s ({})", r.0, name(&c));
             (c.melt, Some(what))
         }
         Calibration::ToNoseTime(t) => {
-            let c = Kinetics::calibrate_to_nose_time(melt, opts, *t, None)?;
+            let c = Kinetics::calibrate_to_nose_time(&melt, opts, *t, None)?;
             let what = format!("measured nose time {t} s ({})", name(&c));
             (c.melt, Some(what))
         }
@@ -333,8 +333,8 @@ fn transport_text(opts: &KineticOptions) -> String {
 }
 
 fn base(
-    s: &KineticSummary,
-    melt: &Melt,
+    s: KineticSummary,
+    melt: Melt,
     opts: &KineticOptions,
     slab: Option<SlabQuench>,
     thickness: Option<f64>,
@@ -393,9 +393,9 @@ fn base(
         liquidus_extrapolated: false,
         vouched: true,
         warnings: Vec::new(),
-        melt: melt.clone(),
+        melt,
         options: *opts,
-        kinetic_summary: s.clone(),
+        kinetic_summary: s,
     }
 }
 
@@ -547,9 +547,9 @@ pub fn evaluate_melt(
     slab: Option<SlabQuench>,
     cal: &Calibration,
 ) -> Result<Evaluation, KineticsError> {
-    let (melt, calibrated_against) = calibrate(melt, opts, cal)?;
+    let (melt, calibrated_against) = calibrate(melt.clone(), opts, cal)?;
     let (s, thickness, warnings) = kinetic_part(&melt, opts, slab)?;
-    let mut e = base(&s, &melt, opts, slab, thickness, calibrated_against);
+    let mut e = base(s, melt, opts, slab, thickness, calibrated_against);
     if !e.kinetics_calibrated {
         e.warnings.push(UNCALIBRATED.to_string());
     }
@@ -573,7 +573,7 @@ pub fn evaluate_composition(
     let props: Properties = models.properties(comp)?;
     let melt = composition_melt(models, &props)?;
     let phase = &models.phases[props.primary_phase];
-    let (melt, calibrated_against) = calibrate(&melt, opts, cal)?;
+    let (melt, calibrated_against) = calibrate(melt, opts, cal)?;
     let (s, thickness, kin_warnings) = kinetic_part(&melt, opts, slab)?;
     // Without a calibration asked for, the limiting phase's own record counts.
     let calibrated_against = calibrated_against.or_else(|| {
@@ -584,7 +584,7 @@ pub fn evaluate_composition(
             .find(|p| &p.name == limiting)
             .and_then(|p| p.calibrated_against.clone())
     });
-    let mut e = base(&s, &melt, opts, slab, thickness, calibrated_against);
+    let mut e = base(s, melt, opts, slab, thickness, calibrated_against);
     e.liquidus_by_phase_k = models
         .phases
         .iter()

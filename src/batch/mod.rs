@@ -15,6 +15,7 @@
 //! - IUPAC 2021 standard atomic weights, see [`crate::composition`].
 
 pub mod formula;
+mod lp;
 pub mod raw;
 
 pub use formula::{ideal_yields, parse_formula};
@@ -454,13 +455,12 @@ impl CostModel {
     /// As [`least_cost_batch`]; a screen counts it as a violated constraint.
     pub fn cost_per_kg_glass(&self, glass: &Composition) -> Result<f64, BatchError> {
         let target = glass.wt_percent().map(|v| v / 100.0);
-        let x = solve(&self.raws, &target, 1.0, &self.settings)?;
-        Ok(self
-            .raws
-            .iter()
-            .zip(&x)
-            .map(|(r, m)| r.price_per_kg * m)
-            .sum())
+        // A kept optimal basis answers most candidates (`lp`); the full
+        // programme below answers the rest and gives the bases to keep.
+        lp::least_cost(&self.raws, &target, 1.0, &self.settings, || {
+            solve(&self.raws, &target, 1.0, &self.settings)
+        })
+        .map(|(cost, _)| cost)
     }
 }
 

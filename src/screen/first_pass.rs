@@ -12,7 +12,7 @@
 //! - R. Cranley, T. N. L. Patterson, SIAM J. Numer. Anal. 13 (1976) 904–914,
 //!   doi:10.1137/0713071 (random shift of a lattice rule).
 
-use super::candidate::{evaluate_candidate, Candidate, Pass};
+use super::candidate::{evaluate_candidate, Candidate, Pass, Row};
 use super::polytope::Polytope;
 use super::problem::{ScreenProblem, Search};
 use super::simplex::Simplex;
@@ -63,6 +63,32 @@ pub fn space_filling_chunk(
             let y = polytope.map_unit(u).unwrap_or_else(|| simplex.from_unit(u));
             let x = simplex.compose(&y);
             evaluate_candidate(problem, (start + j) as u64, Pass::SpaceFilling, x)
+        })
+        .collect()
+}
+
+/// Chunk `k` of the space-filling pass evaluated and flattened to rows, both
+/// on the worker threads (what the run stores and streams).
+pub fn space_filling_rows(
+    problem: &ScreenProblem,
+    search: &Search,
+    simplex: &Simplex,
+    k: usize,
+) -> Vec<Row> {
+    use rayon::prelude::*;
+    let start = k * search.chunk_size;
+    let count = search
+        .chunk_size
+        .min(search.first_pass_points.saturating_sub(start));
+    let pts = sobol_points(simplex.dims(), search.seed, start, count);
+    let polytope = Polytope::new(problem, simplex);
+    pts.par_iter()
+        .enumerate()
+        .map(|(j, u)| {
+            let y = polytope.map_unit(u).unwrap_or_else(|| simplex.from_unit(u));
+            let x = simplex.compose(&y);
+            let c = evaluate_candidate(problem, (start + j) as u64, Pass::SpaceFilling, x);
+            Row::new(&c, problem)
         })
         .collect()
 }

@@ -40,7 +40,7 @@ pub mod sqp;
 pub use candidate::{
     evaluate_candidate, evaluate_candidate_with, Candidate, Gauge, Pass, Row, BINDING_GAUGE_TOL,
 };
-pub use first_pass::{chunk_count, sobol_points, space_filling_chunk};
+pub use first_pass::{chunk_count, sobol_points, space_filling_chunk, space_filling_rows};
 pub use limits::{Limit, LimitSet, LimitSummary};
 pub use polytope::Polytope;
 pub use problem::{

@@ -10,7 +10,7 @@
 //! same shortlist as an uninterrupted one.
 
 use super::candidate::{evaluate_candidate_with, Candidate, Pass, Row};
-use super::first_pass::{chunk_count, space_filling_chunk};
+use super::first_pass::{chunk_count, space_filling_rows};
 use super::limits::{Limit, LimitSummary};
 use super::polytope::ACTIVE_TOL_MOL_PCT;
 use super::probability::{select as select_by_probability, ProbabilityOutcome};
@@ -163,10 +163,7 @@ pub fn run_chunks(
 }
 
 fn chunk_rows(problem: &ScreenProblem, search: &Search, simplex: &Simplex, k: usize) -> Vec<Row> {
-    space_filling_chunk(problem, search, simplex, k)
-        .iter()
-        .map(|c| Row::new(c, problem))
-        .collect()
+    space_filling_rows(problem, search, simplex, k)
 }
 
 fn forward_notices(store: &mut dyn ScreenStore, observer: &mut dyn ScreenObserver) {
