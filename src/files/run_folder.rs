@@ -168,6 +168,27 @@ fn temp_names(p: &Path) -> [PathBuf; 2] {
     ]
 }
 
+/// Take the folder's lock. A lock that our own process seems to hold (the
+/// file names our pid) is what a child process briefly inherits while another
+/// thread spawns it (between fork and exec the child shares the lock's open
+/// file description): wait for that to pass, up to 2 s, before calling the
+/// folder busy.
+fn try_lock_own(lock: &std::fs::File, path: &Path) -> Result<(), std::fs::TryLockError> {
+    let own = std::process::id().to_string();
+    let mut waited = 0;
+    loop {
+        match lock.try_lock() {
+            Err(std::fs::TryLockError::WouldBlock)
+                if waited < 40 && std::fs::read_to_string(path).is_ok_and(|p| p.trim() == own) =>
+            {
+                waited += 1;
+                std::thread::sleep(std::time::Duration::from_millis(50));
+            }
+            other => return other,
+        }
+    }
+}
+
 impl RunFolder {
     /// Open (and lock) `root` for a run.
     ///
@@ -209,7 +230,7 @@ impl RunFolder {
             .truncate(false)
             .open(&lock_path)
             .map_err(|e| Error::io("opening", &lock_path, e))?;
-        match lock.try_lock() {
+        match try_lock_own(&lock, &lock_path) {
             Ok(()) => {}
             Err(std::fs::TryLockError::WouldBlock) => {
                 let pid = std::fs::read_to_string(&lock_path).unwrap_or_default();
