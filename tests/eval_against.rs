@@ -148,3 +148,68 @@ fn against_needs_compositions_and_names_a_bad_config() {
     .code(2)
     .stderr_has("nope.toml");
 }
+
+#[test]
+fn with_a_least_probability_the_recipe_gets_the_screens_draws() {
+    // Source: the screen's own Monte Carlo (a consistency check: the same
+    // seeded draws, one definition): a recipe the probability screen
+    // shortlists has the same P(glassy) when checked on its own, and a
+    // recipe whose point estimate R_c (3.18 K/s) is above the 3 K/s quench
+    // cannot meet P >= 0.9 (before, the cooling limit was silently skipped).
+    let d = temp_dir("eval-against-probability");
+    let demo =
+        std::fs::read_to_string(root().join("configs/demo-screen-probability.toml")).unwrap();
+    let small = demo
+        .replace("first_pass_points = 2048", "first_pass_points = 256")
+        .replace("refine_from = 6 ", "refine_from = 0 ");
+    assert!(small.contains("first_pass_points = 256") && small.contains("refine_from = 0 "));
+    std::fs::write(d.join("small.toml"), &small).unwrap();
+    run_in(&d, &["screen", "small.toml", "--out", "res"]).code(0);
+    let short = serde_json::from_str::<serde_json::Value>(
+        &std::fs::read_to_string(d.join("res/shortlist.json")).unwrap(),
+    )
+    .unwrap();
+    let best = &short.as_array().unwrap()[0];
+    let p_screen = best["probability_glassy"].as_f64().unwrap();
+    let oxides = ["SiO2", "Na2O", "K2O", "CaO", "MgO", "Al2O3", "B2O3"];
+    let mut table = format!("name,{}\n", oxides.join(","));
+    let cells: Vec<String> = oxides
+        .iter()
+        .map(|o| {
+            format!(
+                "{:.17}",
+                best[format!("{o}_mol_pct")].as_f64().unwrap_or(0.0)
+            )
+        })
+        .collect();
+    table += &format!("best,{}\n", cells.join(","));
+    // demo-datasets/candidates.csv, plate-B (more lime): invented.
+    table += "lime,70,13,0,14,0,3,0\n";
+    std::fs::write(d.join("mine.csv"), table).unwrap();
+    run_in(
+        &d,
+        &[
+            "eval",
+            "--compositions",
+            "mine.csv",
+            "--against",
+            "small.toml",
+            "--out",
+            "checked.csv",
+        ],
+    )
+    .code(0);
+    let checked = rows(&std::fs::read_to_string(d.join("checked.csv")).unwrap());
+    let margin: f64 = checked[0]["probability_glassy_margin_probability"]
+        .parse()
+        .unwrap();
+    assert!(
+        (margin + 0.9 - p_screen).abs() < 1e-12,
+        "{margin} vs P {p_screen}"
+    );
+    assert_eq!(checked[0]["probability_glassy_pass"], "true");
+    let rc: f64 = checked[1]["critical_rate_k_per_s"].parse().unwrap();
+    assert!(rc > 3.0, "{rc} K/s");
+    assert_eq!(checked[1]["probability_glassy_pass"], "false");
+    assert_eq!(checked[1]["passes_every_limit"], "false");
+}

@@ -156,5 +156,25 @@ pub fn check_recipe(
             pass: g.value <= 0.0,
         });
     }
+    // Where the probability decides feasibility the cooling-rate gauge is
+    // left out (as in the screen): the recipe gets the screen's draws here.
+    if let Some(min) = problem.uncertainty.and_then(|u| u.min_probability) {
+        let p = crate::composition::Composition::from_mol_percent_array(&x, 1e-6)
+            .map_err(|err| err.to_string())
+            .and_then(|c| {
+                super::probability::recipe_propagation(problem, &c).map_err(|err| err.to_string())
+            });
+        let probability = p.as_ref().ok().and_then(|p| p.probability_glassy);
+        if let Err(err) = &p {
+            candidate.error.get_or_insert_with(|| err.clone());
+        }
+        checks.push(LimitCheck {
+            limit: Limit::Probability,
+            key: "probability_glassy",
+            margin: probability.map(|v| v - min),
+            unit: "probability",
+            pass: probability.is_some_and(|v| v >= min),
+        });
+    }
     RecipeCheck { candidate, checks }
 }

@@ -349,6 +349,35 @@ pub fn select(problem: &ScreenProblem, pool: &[Row]) -> Result<ProbabilityOutcom
     Ok(out)
 }
 
+/// The screen's Monte Carlo for one recipe outside a screen (`eval
+/// --against`): the same seeded draws of the same inputs as [`select`].
+///
+/// # Errors
+/// No `[uncertainty]` in the problem, inputs that cannot be drawn, or too
+/// many failed draws.
+pub fn recipe_propagation(
+    problem: &ScreenProblem,
+    comp: &Composition,
+) -> Result<Propagation, Error> {
+    let u = problem
+        .uncertainty
+        .ok_or_else(|| Error::internal("a recipe's probability needs [uncertainty]"))?;
+    let (unc, _) = model_set_inputs(
+        &problem.models,
+        &problem.kinetic_options,
+        u.nuclei_range_per_m3,
+    )?;
+    let inputs = inputs_of(&unc);
+    let settings = Settings {
+        draws: u.draws,
+        seed: u.seed,
+    };
+    propagate(&inputs, settings, Some(problem.equipment.rate.0), |v| {
+        composition_critical_rate(&problem.models, comp, &problem.kinetic_options, &unc, v)
+    })
+    .map_err(|e| Error::bad_input(e.to_string()))
+}
+
 /// The row with the probability columns of its draws.
 fn filled(r: &Row, p: &Propagation) -> Row {
     let mut r = r.clone();
