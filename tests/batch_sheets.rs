@@ -292,3 +292,42 @@ fn a_table_of_recipes_gives_one_sheet_each_and_names_the_row_without_one() {
     let rows_one: Vec<String> = one.lines().skip(1).map(str::to_string).collect();
     assert_eq!(rows_b, rows_one);
 }
+
+#[test]
+fn a_row_with_a_stray_comma_is_located_without_a_library_option_name() {
+    // Source: RFC 4180 §2 (a field containing a comma is enclosed in double
+    // quotes; every record has the header's number of fields).
+    let d = temp_dir("batch-ragged");
+    let ragged = SHELF.replace("soda ash,0.4", "soda ash, light,0.4");
+    std::fs::write(d.join("shelf.csv"), ragged).unwrap();
+    let r = run_in(
+        &d,
+        &[
+            "batch",
+            "--wt",
+            "SiO2=75 Na2O=15 Al2O3=10",
+            "--raw-materials",
+            "shelf.csv",
+        ],
+    );
+    r.code(2)
+        .stderr_has("line 3 has 8 cells but the header names 7 columns");
+    assert!(!r.stderr.contains("truncate_ragged"), "{}", r.stderr);
+    // Quoted, the same name reads.
+    let quoted = SHELF.replace("soda ash,0.4", "\"soda ash, light\",0.4");
+    std::fs::write(d.join("quoted.csv"), quoted).unwrap();
+    run_in(
+        &d,
+        &[
+            "batch",
+            "--wt",
+            "SiO2=75 Na2O=15 Al2O3=10",
+            "--raw-materials",
+            "quoted.csv",
+            "--tolerance-wt-pct",
+            "2",
+        ],
+    )
+    .code(0)
+    .stdout_has("soda ash, light");
+}

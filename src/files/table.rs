@@ -265,10 +265,52 @@ fn record_lines(bytes: &[u8]) -> Vec<usize> {
     starts
 }
 
+/// The first record with more comma-separated cells than the header, as
+/// (line, cells, header cells): commas inside double quotes do not count.
+fn longer_record(bytes: &[u8]) -> Option<(usize, usize, usize)> {
+    let mut line = 1;
+    let mut record_line = 1;
+    let mut cells = 1;
+    let mut empty = true;
+    let mut in_quotes = false;
+    let mut head: Option<usize> = None;
+    for &b in bytes.iter().chain(std::iter::once(&b'\n')) {
+        match b {
+            b'"' => {
+                in_quotes = !in_quotes;
+                empty = false;
+            }
+            b',' if !in_quotes => {
+                cells += 1;
+                empty = false;
+            }
+            b'\n' => {
+                line += 1;
+                if in_quotes {
+                    continue;
+                }
+                if !empty {
+                    match head {
+                        None => head = Some(cells),
+                        Some(h) if cells > h => return Some((record_line, cells, h)),
+                        Some(_) => {}
+                    }
+                }
+                record_line = line;
+                cells = 1;
+                empty = true;
+            }
+            _ => empty = false,
+        }
+    }
+    None
+}
+
 /// Read CSV text (already in memory) into a data frame.
 fn csv_frame(bytes: Vec<u8>, label: &str) -> Result<(DataFrame, Places), TableError> {
     let bytes = normalise_line_endings(bytes);
     let lines = record_lines(&bytes);
+    let bytes_for_errors = bytes.clone();
     let df = CsvReadOptions::default()
         .with_has_header(true)
         .with_infer_schema_length(None)
@@ -276,7 +318,13 @@ fn csv_frame(bytes: Vec<u8>, label: &str) -> Result<(DataFrame, Places), TableEr
         .finish()
         .map_err(|e| TableError::Read {
             path: label.to_string(),
-            message: e.to_string(),
+            message: match longer_record(&bytes_for_errors) {
+                Some((line, n, head)) => format!(
+                    "line {line} has {n} cells but the header names {head} columns \
+                     (a comma inside a cell needs the cell in double quotes)"
+                ),
+                None => e.to_string(),
+            },
         })?;
     // Where the scan agrees with the reader, rows get lines; otherwise (a
     // layout the scan does not follow) they keep their row numbers only.
