@@ -85,6 +85,13 @@ fn the_bounded_stage_keeps_the_shortlist_that_drawing_every_recipe_gives() {
         summary.contains("left undrawn because a bound"),
         "{summary}"
     );
+    // The nucleation line says the point estimate's level is the range's
+    // geometric mean (10^9 for [1e6, 1e12]) and that the range is drawn.
+    assert!(
+        summary.contains("1.00e9 pre-existing nuclei/m³")
+            && summary.contains("which the Monte Carlo draws log-uniformly"),
+        "{summary}"
+    );
     // The shortlist is ranked by probability, none below 0.5.
     let p = column(&bounded, "shortlist.csv", "probability_glassy");
     assert!(!p.is_empty());
@@ -263,6 +270,26 @@ fn the_probability_demo_runs_and_its_report_shows_bands() {
             lo <= rc * (1.0 + 1e-9) && rc <= hi * (1.0 + 1e-9),
             "{lo} {rc} {hi}"
         );
+    }
+    // A band whose point estimate the model cannot vouch for (a glassy slab
+    // above 100 mm, ...) is not vouched for either: its 5 % end lies on the
+    // glassy side (docs/science.md, "Uncertainty in the screen").
+    let flags = |col: &str| -> Vec<bool> {
+        let df = read_frame(&out.join("shortlist.csv")).unwrap();
+        df.column(col)
+            .unwrap()
+            .cast(&polars::prelude::DataType::Boolean)
+            .unwrap()
+            .bool()
+            .unwrap()
+            .iter()
+            .map(|b| b.unwrap())
+            .collect()
+    };
+    let (vouched, band) = (flags("vouched"), flags("band_vouched"));
+    assert!(vouched.iter().any(|v| !v), "{vouched:?}");
+    for (v, b) in vouched.iter().zip(&band) {
+        assert!(*v || !*b, "{vouched:?} {band:?}");
     }
     let html = read(&out, "report.html");
     assert!(html.contains("R_c 5–95 % band") && html.contains("R_c 95 % quantile"));

@@ -341,7 +341,7 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
     row(
         &mut h,
         "nucleation counted",
-        super::text::nucleation_text(&plan.kinetic_options),
+        super::text::screen_nucleation_text(plan),
     );
     if let Some(c) = &plan.cost {
         row(

@@ -372,6 +372,20 @@ pub fn nucleation_text(o: &KineticOptions) -> String {
     s
 }
 
+/// A screen's nucleation in words; with a drawn nuclei range, says that the
+/// point estimate takes its geometric mean and the Monte Carlo the range.
+pub fn screen_nucleation_text(problem: &ScreenProblem) -> String {
+    let mut s = nucleation_text(&problem.kinetic_options);
+    if let Some((lo, hi)) = problem.uncertainty.and_then(|u| u.nuclei_range_per_m3) {
+        s.push_str(&format!(
+            " (the geometric mean of {}–{} nuclei/m³, which the Monte Carlo draws log-uniformly)",
+            sig(lo),
+            sig(hi)
+        ));
+    }
+    s
+}
+
 /// A batch sheet as CSV: raw material, mass (under `mass_column`), cost.
 pub fn batch_csv(b: &Batch, mass_column: &str) -> String {
     let mut s = format!("raw_material,{mass_column},cost\n");
@@ -508,7 +522,7 @@ pub fn screen_summary_text(
         problem.furnace_max.to_celsius().0,
         problem.melting_max.to_celsius().0,
         problem.liquidus_max.to_celsius().0,
-        nucleation_text(&problem.kinetic_options),
+        screen_nucleation_text(problem),
         binding_text(s, false),
         CAUTION
     )

@@ -384,8 +384,18 @@ fn filled(r: &Row, p: &Propagation) -> Row {
     r.probability_glassy = p.probability_glassy;
     r.critical_rate_p05_k_per_s = Some(p.critical_rate_p05_k_per_s);
     r.critical_rate_p95_k_per_s = Some(p.critical_rate_p95_k_per_s);
-    r.band_vouched = Some(p.band_vouched());
-    let beyond = p.beyond_vouching();
+    // The 5 % end lies on the glassy side of the point estimate: where the
+    // point estimate is beyond what the model can vouch for (a glassy slab
+    // above 100 mm, a nose after a day, a rate below the bound), so is that end.
+    let point_vouched = r.vouched != Some(false);
+    r.band_vouched = Some(p.band_vouched() && point_vouched);
+    let mut beyond = p.beyond_vouching();
+    if !point_vouched && p.critical_rate_p05_vouched {
+        beyond.push(format!(
+            "a 5 % quantile of R_c of {:.1e} K/s, on the glassy side of a point estimate the model cannot vouch for",
+            p.critical_rate_p05_k_per_s
+        ));
+    }
     if !beyond.is_empty() {
         if !r.warnings.is_empty() {
             r.warnings.push_str("; ");

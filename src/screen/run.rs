@@ -352,16 +352,28 @@ pub fn run(
             row.probability_glassy = r.probability_glassy;
             row.critical_rate_p05_k_per_s = r.critical_rate_p05_k_per_s;
             row.critical_rate_p95_k_per_s = r.critical_rate_p95_k_per_s;
-            row.band_vouched = r.band_vouched;
-            if let Some(w) = r
+            // Re-evaluated with the glassy slab, the point estimate knows
+            // whether the model vouches for it; the band's 5 % end lies on
+            // its glassy side (super::probability::filled).
+            let point_vouched = row.vouched != Some(false);
+            row.band_vouched = r.band_vouched.map(|b| b && point_vouched);
+            let mut band_note = r
                 .warnings
                 .split("; ")
                 .find(|w| w.starts_with("band beyond"))
-            {
+                .map(str::to_string);
+            if band_note.is_none() && r.band_vouched == Some(true) && !point_vouched {
+                band_note = r.critical_rate_p05_k_per_s.map(|lo| {
+                    format!(
+                        "band beyond what the model can vouch for: a 5 % quantile of R_c of {lo:.1e} K/s, on the glassy side of a point estimate the model cannot vouch for"
+                    )
+                });
+            }
+            if let Some(w) = band_note {
                 if !row.warnings.is_empty() {
                     row.warnings.push_str("; ");
                 }
-                row.warnings.push_str(w);
+                row.warnings.push_str(&w);
             }
             let x = r.composition();
             for (j, other) in compositions.iter().enumerate().take(k) {
