@@ -79,3 +79,29 @@ fn models_domains_shows_ranges_and_uncovered_oxides() {
         .expect("a line of uncovered oxides");
     assert!(none.contains("BaO") && !none.contains("SiO2"), "{none}");
 }
+
+#[test]
+fn screen_tables_give_each_temperature_in_celsius_beside_kelvin() {
+    // Source: ISO 80000-5 / SI brochure (9th ed.): t/°C = T/K − 273.15.
+    let d = temp_dir("celsius-columns");
+    std::fs::write(d.join("small.toml"), crate::screen::SMALL).unwrap();
+    run_in(&d, &["screen", "small.toml", "--out", "out"]).code(0);
+    let short: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d.join("out/shortlist.json")).unwrap())
+            .unwrap();
+    let rows = short.as_array().unwrap();
+    assert!(!rows.is_empty());
+    for r in rows {
+        for t in ["melting_temperature", "liquidus", "glass_transition"] {
+            let k = r[format!("{t}_k")].as_f64().unwrap();
+            let c = r[format!("{t}_c")].as_f64().unwrap();
+            assert!((k - 273.15 - c).abs() < 1e-9, "{t}: {k} K, {c} °C");
+        }
+    }
+    // The CSV names the °C column right after its K column.
+    let csv = std::fs::read_to_string(d.join("out/shortlist.csv")).unwrap();
+    let head = csv.lines().next().unwrap();
+    for t in ["melting_temperature", "liquidus", "glass_transition"] {
+        assert!(head.contains(&format!("{t}_k,{t}_c")), "{head}");
+    }
+}

@@ -27,9 +27,14 @@ pub struct Field {
     pub get: for<'a> fn(&'a Row) -> Cell<'a>,
 }
 
+/// A temperature in K as °C (the config and the report speak °C).
+fn celsius(k: f64) -> f64 {
+    crate::units::Kelvin(k).to_celsius().0
+}
+
 /// The result columns every screen table carries after the composition,
-/// in this order.
-pub const RESULT_FIELDS: [Field; 12] = [
+/// in this order (each temperature in K with its °C beside it).
+pub const RESULT_FIELDS: [Field; 15] = [
     Field {
         name: "critical_rate_k_per_s",
         get: |r| Cell::Num(r.critical_rate_k_per_s),
@@ -47,8 +52,16 @@ pub const RESULT_FIELDS: [Field; 12] = [
         get: |r| Cell::Num(r.melting_temperature_k),
     },
     Field {
+        name: "melting_temperature_c",
+        get: |r| Cell::Num(r.melting_temperature_k.map(celsius)),
+    },
+    Field {
         name: "liquidus_k",
         get: |r| Cell::Num(r.liquidus_k),
+    },
+    Field {
+        name: "liquidus_c",
+        get: |r| Cell::Num(r.liquidus_k.map(celsius)),
     },
     Field {
         name: "primary_phase",
@@ -65,6 +78,10 @@ pub const RESULT_FIELDS: [Field; 12] = [
     Field {
         name: "glass_transition_k",
         get: |r| Cell::Num(r.glass_transition_k),
+    },
+    Field {
+        name: "glass_transition_c",
+        get: |r| Cell::Num(r.glass_transition_k.map(celsius)),
     },
     Field {
         name: "cost_per_kg",
