@@ -48,6 +48,29 @@ pub fn space_filling_chunk(
     simplex: &Simplex,
     k: usize,
 ) -> Vec<Candidate> {
+    map_chunk(problem, search, simplex, k, |c| c)
+}
+
+/// Chunk `k` of the space-filling pass evaluated and flattened to rows, both
+/// on the worker threads (what the run stores and streams).
+pub fn space_filling_rows(
+    problem: &ScreenProblem,
+    search: &Search,
+    simplex: &Simplex,
+    k: usize,
+) -> Vec<Row> {
+    map_chunk(problem, search, simplex, k, |c| Row::new(&c, problem))
+}
+
+/// Evaluate chunk `k` on the worker threads and turn each candidate into
+/// what the caller keeps, there too; in point order.
+fn map_chunk<T: Send>(
+    problem: &ScreenProblem,
+    search: &Search,
+    simplex: &Simplex,
+    k: usize,
+    keep: impl Fn(Candidate) -> T + Sync,
+) -> Vec<T> {
     use rayon::prelude::*;
     let start = k * search.chunk_size;
     let count = search
@@ -62,33 +85,12 @@ pub fn space_filling_chunk(
             // box map: every point is then rejected on composition limits.
             let y = polytope.map_unit(u).unwrap_or_else(|| simplex.from_unit(u));
             let x = simplex.compose(&y);
-            evaluate_candidate(problem, (start + j) as u64, Pass::SpaceFilling, x)
-        })
-        .collect()
-}
-
-/// Chunk `k` of the space-filling pass evaluated and flattened to rows, both
-/// on the worker threads (what the run stores and streams).
-pub fn space_filling_rows(
-    problem: &ScreenProblem,
-    search: &Search,
-    simplex: &Simplex,
-    k: usize,
-) -> Vec<Row> {
-    use rayon::prelude::*;
-    let start = k * search.chunk_size;
-    let count = search
-        .chunk_size
-        .min(search.first_pass_points.saturating_sub(start));
-    let pts = sobol_points(simplex.dims(), search.seed, start, count);
-    let polytope = Polytope::new(problem, simplex);
-    pts.par_iter()
-        .enumerate()
-        .map(|(j, u)| {
-            let y = polytope.map_unit(u).unwrap_or_else(|| simplex.from_unit(u));
-            let x = simplex.compose(&y);
-            let c = evaluate_candidate(problem, (start + j) as u64, Pass::SpaceFilling, x);
-            Row::new(&c, problem)
+            keep(evaluate_candidate(
+                problem,
+                (start + j) as u64,
+                Pass::SpaceFilling,
+                x,
+            ))
         })
         .collect()
 }

@@ -391,10 +391,7 @@ fn filled(r: &Row, p: &Propagation) -> Row {
     r.band_vouched = Some(p.band_vouched() && point_vouched);
     let mut beyond = p.beyond_vouching();
     if !point_vouched && p.critical_rate_p05_vouched {
-        beyond.push(format!(
-            "a 5 % quantile of R_c of {:.1e} K/s, on the glassy side of a point estimate the model cannot vouch for",
-            p.critical_rate_p05_k_per_s
-        ));
+        beyond.push(glassy_side_of_unvouched(p.critical_rate_p05_k_per_s));
     }
     if !beyond.is_empty() {
         if !r.warnings.is_empty() {
@@ -406,6 +403,14 @@ fn filled(r: &Row, p: &Propagation) -> Row {
         ));
     }
     r
+}
+
+/// Why a band's 5 % end is beyond vouching when its point estimate is: it
+/// lies on the glassy side of it (R_c monotone in every drawn input).
+pub(crate) fn glassy_side_of_unvouched(p05_k_per_s: f64) -> String {
+    format!(
+        "a 5 % quantile of R_c of {p05_k_per_s:.1e} K/s, on the glassy side of a point estimate the model cannot vouch for"
+    )
 }
 
 fn probability(p: &Propagation) -> f64 {

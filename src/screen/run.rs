@@ -365,7 +365,8 @@ pub fn run(
             if band_note.is_none() && r.band_vouched == Some(true) && !point_vouched {
                 band_note = r.critical_rate_p05_k_per_s.map(|lo| {
                     format!(
-                        "band beyond what the model can vouch for: a 5 % quantile of R_c of {lo:.1e} K/s, on the glassy side of a point estimate the model cannot vouch for"
+                        "band beyond what the model can vouch for: {}",
+                        super::probability::glassy_side_of_unvouched(lo)
                     )
                 });
             }
