@@ -105,6 +105,21 @@ fn the_liquidus_is_given_once_and_a_bad_unit_or_form_key_names_its_line() {
         err.contains(&format!("card.toml:{line}: give the liquidus once")),
         "{err}"
     );
+    // A liquidus in °C is judged in °C on its own line (absolute zero is
+    // −273.15 °C: ISO 80000-5).
+    for (bad, said) in [
+        ("nan", "liquidus_c must be a finite number of °C"),
+        ("-400", "liquidus_c must lie above absolute zero"),
+    ] {
+        let text = kelvin_card().replace("liquidus_k = 1300.0", &format!("liquidus_c = {bad}"));
+        let err = card(&text).unwrap_err();
+        let line = text
+            .lines()
+            .position(|l| l.starts_with("liquidus_c"))
+            .unwrap()
+            + 1;
+        assert!(err.contains(&format!("card.toml:{line}: {said}")), "{err}");
+    }
     let neither = kelvin_card().replace("liquidus_k = 1300.0\n", "");
     let err = card(&neither).unwrap_err();
     assert!(

@@ -470,6 +470,14 @@ impl CardCrystal {
     fn liquidus_k(&self) -> Result<f64, (Range<usize>, &'static str)> {
         match (&self.liquidus_k, &self.liquidus_c) {
             (Some(k), None) => Ok(*k.get_ref()),
+            // Judged in °C, as written (the core's checks speak of liquidus_k in K).
+            (None, Some(c)) if !c.get_ref().is_finite() => {
+                Err((c.span(), "liquidus_c must be a finite number of °C"))
+            }
+            (None, Some(c)) if *c.get_ref() <= -273.15 => Err((
+                c.span(),
+                "liquidus_c must lie above absolute zero (-273.15 °C)",
+            )),
             (None, Some(c)) => Ok(Celsius(*c.get_ref()).to_kelvin().0),
             (Some(_), Some(c)) => Err((
                 c.span(),
