@@ -43,6 +43,26 @@ fn benches(c: &mut Criterion) {
                 .unwrap()
         })
     });
+    // The thickest glassy slab beside the summary (what `eval` reports for a
+    // melt card): afresh, and from the constant-rate panels.
+    let (ts, kappa) = (quenchwise::units::Kelvin(298.15), 5e-7);
+    g.bench_function("nose_critical_rate_and_slab_afresh", |b| {
+        b.iter(|| {
+            let k = Kinetics::new(black_box(&m), &opts).unwrap();
+            (
+                k.analyse().unwrap(),
+                k.max_glassy_half_thickness_m(ts, kappa).unwrap(),
+            )
+        })
+    });
+    g.bench_function("nose_critical_rate_and_slab_from_its_panels", |b| {
+        b.iter(|| {
+            Kinetics::new(black_box(&m), &opts)
+                .unwrap()
+                .analyse_with_slab(ts, kappa)
+                .unwrap()
+        })
+    });
     g.finish();
 
     let models = parse_model_set(&Source::new("demo", DEMO_MODELS)).unwrap();

@@ -237,7 +237,14 @@ fn kinetic_part(
     slab: Option<SlabQuench>,
 ) -> Result<(KineticSummary, Option<f64>, Vec<String>), KineticsError> {
     let k = Kinetics::new(melt, opts)?;
-    let s = k.analyse()?;
+    // With a slab, its quadrature starts from the constant-rate panels.
+    let (s, slab_half) = match slab {
+        Some(q) => {
+            let (s, h) = k.analyse_with_slab(q.surface, q.diffusivity_m2_per_s)?;
+            (s, Some(h))
+        }
+        None => (k.analyse()?, None),
+    };
     let mut warnings: Vec<String> = melt
         .implausible()
         .into_iter()
@@ -252,14 +259,12 @@ fn kinetic_part(
         }))
         .map(|i| i.to_string())
         .collect();
-    let thickness = match slab {
-        Some(q) => match k.max_glassy_half_thickness_m(q.surface, q.diffusivity_m2_per_s) {
-            Ok(h) => Some(2.0 * h * 1e3),
-            Err(e) => {
-                warnings.push(format!("glassy thickness not computed: {e}"));
-                None
-            }
-        },
+    let thickness = match slab_half {
+        Some(Ok(h)) => Some(2.0 * h * 1e3),
+        Some(Err(e)) => {
+            warnings.push(format!("glassy thickness not computed: {e}"));
+            None
+        }
         None => None,
     };
     for ps in &s.phases {

@@ -408,6 +408,56 @@ fn thickest_glassy_slab_reaches_exactly_the_detectable_fraction() {
 }
 
 #[test]
+fn the_slab_from_the_constant_rate_panels_equals_the_slab_computed_afresh() {
+    // Source: docs/science.md, "The adaptive Gauss–Legendre quadrature": the
+    // slab's quadrature may start from the panels the constant-rate one ended
+    // with (the same rule then refines it further), which must change neither
+    // the summary nor the slab beyond the quadrature's own error, over the
+    // 48-melt family of `default_quadrature_meets_the_target_over_a_family_of_melts`,
+    // with and without pre-existing nuclei. (What it saves is measured in
+    // benches/kinetics.rs, not here.)
+    let (ts, kappa) = (Kelvin(298.15), 5e-7);
+    let (mut worst, mut compared) = (0.0_f64, 0usize);
+    for dh in [30e3, 60e3, 120e3] {
+        for alpha in [0.25, 0.4] {
+            for growth in [GrowthMode::Normal, GrowthMode::Screw] {
+                for nuclei in [0.0, 1e9] {
+                    for (a, b, c, tl) in
+                        [(-2.8, 4500.0, 480.0, 1300.0), (-2.0, 2000.0, 700.0, 1400.0)]
+                    {
+                        let m = Melt::new(
+                            ViscosityCurve::vft(a, b, c).unwrap(),
+                            Kelvin(tl),
+                            dh,
+                            5e-5,
+                            Interface::TurnbullAlpha(alpha),
+                            growth,
+                        )
+                        .unwrap();
+                        let o = KineticOptions {
+                            heterogeneous_nuclei_per_m3: nuclei,
+                            ..KineticOptions::default()
+                        };
+                        let k = Kinetics::new(&m, &o).unwrap();
+                        let Ok(alone) = k.analyse() else { continue };
+                        let h_alone = k.max_glassy_half_thickness_m(ts, kappa).unwrap();
+                        let (both, h_both) = k.analyse_with_slab(ts, kappa).unwrap();
+                        let h_both = h_both.unwrap();
+                        assert_eq!(both.critical_rate, alone.critical_rate);
+                        assert_eq!(both.nose_temperature, alone.nose_temperature);
+                        worst = worst.max(rel(h_both, h_alone));
+                        compared += 1;
+                    }
+                }
+            }
+        }
+    }
+    // h ∝ J^(−1/8): both answers are within a few 1e-5 of the converged slab.
+    assert!(worst < ORACLE_RTOL, "worst relative difference {worst:.2e}");
+    assert!(compared >= 40, "only {compared} of 48 melts had a summary");
+}
+
+#[test]
 fn calibrated_alpha_reproduces_its_target() {
     let target = KelvinPerSecond(0.5);
     let c = Kinetics::calibrate_to_critical_rate(&card(), &KineticOptions::default(), target, None)

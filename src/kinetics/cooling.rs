@@ -6,9 +6,11 @@
 //! See docs/science.md, "Continuous cooling" and "Several phases".
 
 use super::melt::DEFAULT_DETECTABLE_FRACTION;
-use super::quadrature::{self, Cooling, CoolingIntegrals, Quadrature, QuadratureSettings, NODES};
+use super::quadrature::{
+    self, Cooling, CoolingIntegrals, Layout, Quadrature, QuadratureSettings, NODES,
+};
 use super::rates::{log_add, Kinetics, PhaseRates, Rates};
-use super::ttt::{representable, solve_quartic_cubic};
+use super::ttt::{representable, solve_quartic_cubic, KineticSummary};
 use super::KineticsError;
 use crate::error::{finite, positive};
 use crate::units::{Kelvin, KelvinPerSecond};
@@ -78,9 +80,29 @@ impl Kinetics {
         &self,
         cooling: Cooling,
     ) -> Result<Vec<PhaseIntegrals>, KineticsError> {
+        self.phase_integrals_seeded(cooling, None, None)
+    }
+
+    /// As [`Kinetics::phase_integrals`], each phase's quadrature starting from
+    /// its layout in `seeds` when given (one per phase, in order), and leaving
+    /// its final layout in `keep` when given.
+    pub(super) fn phase_integrals_seeded(
+        &self,
+        cooling: Cooling,
+        seeds: Option<&[Layout]>,
+        mut keep: Option<&mut Vec<Layout>>,
+    ) -> Result<Vec<PhaseIntegrals>, KineticsError> {
         let mut out = Vec::with_capacity(self.phases.len());
-        for (i, p) in &self.phases {
-            let ci = self.integrals_of(p, cooling)?;
+        if let Some(k) = keep.as_deref_mut() {
+            k.clear();
+        }
+        for (n, (i, p)) in self.phases.iter().enumerate() {
+            let seed = seeds.and_then(|s| s.get(n));
+            let mut layout = keep.is_some().then(Layout::default);
+            let ci = self.integrals_of(p, cooling, seed, layout.as_mut())?;
+            if let (Some(k), Some(l)) = (keep.as_deref_mut(), layout) {
+                k.push(l);
+            }
             out.push(PhaseIntegrals {
                 phase: *i,
                 integrals: ci,
@@ -94,18 +116,22 @@ impl Kinetics {
         &self,
         p: &PhaseRates,
         cooling: Cooling,
+        seed: Option<&Layout>,
+        keep: Option<&mut Layout>,
     ) -> Result<CoolingIntegrals, KineticsError> {
         let ln_nuclei = if p.nuclei > 0.0 {
             ln_4pi_3() + p.nuclei.ln()
         } else {
             f64::NEG_INFINITY
         };
-        Quadrature::cooling_integrals_with(
+        Quadrature::cooling_integrals_seeded(
             &|t| self.rates_of(p, t),
             (self.freeze, p.tl),
             cooling,
             &self.quad,
             (ln_nuclei, self.opts.detectable_fraction.ln()),
+            seed,
+            keep,
         )
     }
 
@@ -157,6 +183,35 @@ impl Kinetics {
         surface: Kelvin,
         thermal_diffusivity_m2_per_s: f64,
     ) -> Result<f64, KineticsError> {
+        self.glassy_half_thickness_from(surface, thermal_diffusivity_m2_per_s, None)
+    }
+
+    /// [`Kinetics::analyse`] and [`Kinetics::max_glassy_half_thickness_m`] at
+    /// once: the slab's quadrature starts from the panels the constant-rate one
+    /// ended with, so the rates are evaluated about once instead of twice.
+    /// The slab's own failure is returned beside a good summary.
+    ///
+    /// # Errors
+    /// As [`Kinetics::analyse`].
+    pub fn analyse_with_slab(
+        &self,
+        surface: Kelvin,
+        thermal_diffusivity_m2_per_s: f64,
+    ) -> Result<(KineticSummary, Result<f64, KineticsError>), KineticsError> {
+        let mut layouts = Vec::with_capacity(self.phases.len());
+        let integrals = self.phase_integrals_seeded(Cooling::Constant, None, Some(&mut layouts))?;
+        let summary = self.summary_of(&integrals)?;
+        let h =
+            self.glassy_half_thickness_from(surface, thermal_diffusivity_m2_per_s, Some(&layouts));
+        Ok((summary, h))
+    }
+
+    fn glassy_half_thickness_from(
+        &self,
+        surface: Kelvin,
+        thermal_diffusivity_m2_per_s: f64,
+        seeds: Option<&[Layout]>,
+    ) -> Result<f64, KineticsError> {
         positive("thermal diffusivity", thermal_diffusivity_m2_per_s, "m2/s")?;
         finite("quench surface temperature", surface.0)?;
         if surface.0 >= self.freeze {
@@ -165,7 +220,11 @@ impl Kinetics {
                 freeze: self.freeze,
             });
         }
-        let total = total_extent(&self.phase_integrals(Cooling::Newtonian { surface: surface.0 })?);
+        let total = total_extent(&self.phase_integrals_seeded(
+            Cooling::Newtonian { surface: surface.0 },
+            seeds,
+            None,
+        )?);
         let k = total.critical_scale(self.opts.detectable_fraction);
         let h = 0.5 * PI * (thermal_diffusivity_m2_per_s / k).sqrt();
         representable("thickest glassy slab", 2e3 * h, "mm")?;

@@ -128,6 +128,35 @@ pub(super) struct CoolingIntegrals {
     pub(super) evaluations: usize,
 }
 
+/// Where a finished quadrature left its panels, with ln I and ln U at their
+/// nodes before any rate-shape factor, so that the integrals along a second
+/// cooling law start from them instead of from two bare panels: the rates,
+/// which cost most, are not evaluated again, and refinement goes on from
+/// there with the same rule (docs/science.md, "The adaptive Gauss–Legendre
+/// quadrature").
+#[derive(Debug, Clone, Default)]
+pub(super) struct Layout {
+    panels: Vec<RawPanel>,
+}
+
+#[derive(Debug, Clone)]
+struct RawPanel {
+    lo: f64,
+    hi: f64,
+    ln_i: [f64; NODES],
+    ln_u: [f64; NODES],
+}
+
+impl Cooling {
+    /// ln of the rate-shape factor at temperature t.
+    fn ln_shape(self, t: f64) -> f64 {
+        match self {
+            Cooling::Constant => 0.0,
+            Cooling::Newtonian { surface } => -(t - surface).ln(),
+        }
+    }
+}
+
 /// Largest number of panels the adaptive quadrature may use.
 const MAX_PANELS: usize = 512;
 
@@ -206,13 +235,15 @@ impl Quadrature {
         let mut ln_u = [0.0; NODES];
         for k in 0..NODES {
             let r = rates(ts[k]);
-            let shape = match cooling {
-                Cooling::Constant => 0.0,
-                Cooling::Newtonian { surface } => -(ts[k] - surface).ln(),
-            };
+            let shape = cooling.ln_shape(ts[k]);
             ln_i[k] = r.ln_nucleation + shape;
             ln_u[k] = r.ln_growth + shape;
         }
+        Quadrature::panel_of(lo, hi, ln_i, ln_u)
+    }
+
+    /// A panel from its log values at the nodes.
+    fn panel_of(lo: f64, hi: f64, ln_i: [f64; NODES], ln_u: [f64; NODES]) -> Panel {
         let (mn, mx) = ln_u
             .iter()
             .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
@@ -245,21 +276,70 @@ impl Quadrature {
     /// `ttt` = (ln((4π/3) N_h), ln X_c) locates the TTT nose among the nodes.
     pub(super) fn cooling_integrals_with<R: Fn(f64) -> Rates>(
         rates: &R,
-        (a, b): (f64, f64),
+        window: (f64, f64),
         cooling: Cooling,
         q: &QuadratureSettings,
         ttt: (f64, f64),
     ) -> Result<CoolingIntegrals, KineticsError> {
+        Quadrature::cooling_integrals_seeded(rates, window, cooling, q, ttt, None, None)
+    }
+
+    /// As [`Quadrature::cooling_integrals_with`], starting from the panels of
+    /// `seed` (a layout over the same window) when given, and leaving the final
+    /// panels in `keep` when given.
+    pub(super) fn cooling_integrals_seeded<R: Fn(f64) -> Rates>(
+        rates: &R,
+        (a, b): (f64, f64),
+        cooling: Cooling,
+        q: &QuadratureSettings,
+        ttt: (f64, f64),
+        seed: Option<&Layout>,
+        keep: Option<&mut Layout>,
+    ) -> Result<CoolingIntegrals, KineticsError> {
         let rule = rule();
         let n0 = q.initial_panels.max(1);
-        let mut panels: Vec<Panel> = (0..n0)
-            .map(|k| {
-                let lo = a + (b - a) * k as f64 / n0 as f64;
-                let hi = a + (b - a) * (k + 1) as f64 / n0 as f64;
-                Quadrature::panel(rates, rule, lo, hi, cooling)
-            })
-            .collect();
-        let mut evaluations = n0 * NODES;
+        let (mut panels, mut evaluations): (Vec<Panel>, usize) = match seed {
+            Some(l) if !l.panels.is_empty() => (
+                l.panels
+                    .iter()
+                    .map(|r| {
+                        let ts = rule.nodes_on(r.lo, r.hi);
+                        let sh: [f64; NODES] = std::array::from_fn(|k| cooling.ln_shape(ts[k]));
+                        Quadrature::panel_of(
+                            r.lo,
+                            r.hi,
+                            std::array::from_fn(|k| r.ln_i[k] + sh[k]),
+                            std::array::from_fn(|k| r.ln_u[k] + sh[k]),
+                        )
+                    })
+                    .collect(),
+                0,
+            ),
+            _ => (
+                (0..n0)
+                    .map(|k| {
+                        let lo = a + (b - a) * k as f64 / n0 as f64;
+                        let hi = a + (b - a) * (k + 1) as f64 / n0 as f64;
+                        Quadrature::panel(rates, rule, lo, hi, cooling)
+                    })
+                    .collect(),
+                n0 * NODES,
+            ),
+        };
+        let keep_layout = |panels: &[Panel], keep: Option<&mut Layout>| {
+            if let Some(k) = keep {
+                k.panels.clear();
+                k.panels.extend(panels.iter().map(|p| {
+                    let ts = rule.nodes_on(p.lo, p.hi);
+                    RawPanel {
+                        lo: p.lo,
+                        hi: p.hi,
+                        ln_i: std::array::from_fn(|j| p.ln_i[j] - cooling.ln_shape(ts[j])),
+                        ln_u: std::array::from_fn(|j| p.ln_u[j] - cooling.ln_shape(ts[j])),
+                    }
+                }));
+            }
+        };
         let min_width = (b - a) * 1e-9;
         let max_of = |panels: &[Panel], f: fn(&Panel) -> &[f64; NODES]| {
             panels
@@ -283,6 +363,7 @@ impl Quadrature {
                 Quadrature::scale_panel(rule, p, sh);
             }
             let g: f64 = panels.iter().map(|p| 0.5 * (p.hi - p.lo) * p.g_tot).sum();
+            keep_layout(&panels, keep);
             return Ok(CoolingIntegrals {
                 ln_j: f64::NEG_INFINITY,
                 ln_g_total: sh.u + g.ln(),
@@ -377,6 +458,7 @@ impl Quadrature {
                         }
                     }
                 }
+                keep_layout(&panels, keep);
                 return Ok(CoolingIntegrals {
                     ln_j: sh.i + 3.0 * sh.u + total.ln(),
                     ln_g_total: sh.u + g_start.ln(),

@@ -182,10 +182,18 @@ impl Kinetics {
     /// melt lies outside what the kinetics can represent).
     pub fn analyse(&self) -> Result<KineticSummary, KineticsError> {
         let integrals = self.phase_integrals(Cooling::Constant)?;
-        let total = total_extent(&integrals);
+        self.summary_of(&integrals)
+    }
+
+    /// The summary from the constant-rate integrals of every phase.
+    pub(super) fn summary_of(
+        &self,
+        integrals: &[PhaseIntegrals],
+    ) -> Result<KineticSummary, KineticsError> {
+        let total = total_extent(integrals);
         let xc = self.opts.detectable_fraction;
         let critical = total.critical_scale(xc);
-        let nose_t = self.nose(&integrals)?;
+        let nose_t = self.nose(integrals)?;
         let nose_time = self.ln_ttt_time(nose_t).exp();
         if nose_t < self.tg {
             return Err(KineticsError::NoseBelowGlassTransition {
