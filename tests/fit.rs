@@ -912,3 +912,187 @@ fn myega_recovers_its_coefficients_from_exact_points() {
         assert!(rel(*v, t) < EXACT_DATA_RTOL, "{c}: {v} vs {t}");
     }
 }
+
+/// The counts a correct coverage p gives in n trials with probability at
+/// least 1 − `tail`: from the Binomial(n, p) distribution (statrs), cutting
+/// at most tail/2 from each side.
+fn binomial_acceptance(p: f64, n: u64, tail: f64) -> (u64, u64) {
+    use statrs::distribution::{Binomial, DiscreteCDF};
+    let b = Binomial::new(p, n).unwrap();
+    // P(X < lo) < tail/2 and P(X > hi) ≤ tail/2.
+    let lo = (0..=n).find(|&k| b.cdf(k) >= tail / 2.0).unwrap();
+    let hi = (0..=n).find(|&k| b.cdf(k) >= 1.0 - tail / 2.0).unwrap();
+    (lo, hi)
+}
+
+#[test]
+fn a_prediction_from_the_written_covariance_covers_the_truth_at_the_nominal_rate() {
+    // The liquidus surface of the coefficient check above (five oxides, 20
+    // glasses, σ = 5 K), now a prediction at a glass not in the data, from
+    // the fit record a model set stores (coefficients by name and their
+    // covariance, what `eval --uncertainty` draws). 1000 seeded repetitions.
+    // Source: for ordinary least squares with normal errors and n − p = 15
+    // degrees of freedom, ŷ0 ± t(0.95, 15)·√(x0ᵀ Cov x0) is an exact 90 %
+    // confidence interval for the mean response x0ᵀβ, and
+    // ŷ0 ± t(0.95, 15)·√(s² + x0ᵀ Cov x0) an exact 90 % prediction interval
+    // for a new measurement at x0 (N. R. Draper, H. Smith, Applied
+    // Regression Analysis, 3rd ed., Wiley 1998, ch. 3; from memory); t from
+    // statrs. A band drawn from N(β̂, Cov) uses the normal, not t: its 5–95 %
+    // quantiles are ŷ0 ± z(0.95)·√(x0ᵀ Cov x0), which cover the mean response
+    // with probability P(|t_15| ≤ z(0.95)) (the same pivot), not 0.90.
+    // Each count must lie in the central 1 − 10⁻⁴ of its Binomial(1000, p)
+    // (statrs), so a correct interval fails by chance with probability below
+    // 10⁻⁴ per check.
+    use quenchwise::uncertainty::{propagate, Distribution, Settings, UncertainInput};
+    use statrs::distribution::Normal;
+    let oxides = [
+        Oxide::SiO2,
+        Oxide::Al2O3,
+        Oxide::Na2O,
+        Oxide::MgO,
+        Oxide::CaO,
+    ];
+    let truth = [1280.0, 400.0, 650.0, 1050.0, 1850.0];
+    let mut r = Rng(2027);
+    let glasses: Vec<[f64; N_OXIDES]> = (0..20)
+        .map(|_| {
+            let na = 11.0 + 6.0 * r.uniform();
+            let ca = 6.0 + 7.0 * r.uniform();
+            let mg = 5.0 * r.uniform();
+            let al = 0.5 + 2.5 * r.uniform();
+            mol(&[
+                (Oxide::SiO2, 100.0 - na - ca - mg - al),
+                (Oxide::Na2O, na),
+                (Oxide::CaO, ca),
+                (Oxide::MgO, mg),
+                (Oxide::Al2O3, al),
+            ])
+        })
+        .collect();
+    let x0 = mol(&[
+        (Oxide::SiO2, 72.0),
+        (Oxide::Na2O, 14.0),
+        (Oxide::CaO, 9.0),
+        (Oxide::MgO, 3.0),
+        (Oxide::Al2O3, 2.0),
+    ]);
+    let set = demo_set();
+    let devitrite = set
+        .phases
+        .iter()
+        .position(|p| p.name == "devitrite")
+        .unwrap();
+    let true_t = |x: &[f64; N_OXIDES]| -> f64 {
+        oxides
+            .iter()
+            .zip(truth)
+            .map(|(o, a)| a * x[o.index()])
+            .sum()
+    };
+    let reps = 1000u64;
+    let t90 = interval_factor(0.90, Some(15));
+    let z90 = Normal::standard().inverse_cdf(0.95);
+    let (mut conf, mut pred, mut band, mut diag) = (0u64, 0u64, 0u64, 0u64);
+    for rep in 0..reps {
+        let pts: Vec<LiquidusPoint> = glasses
+            .iter()
+            .enumerate()
+            .map(|(i, x)| LiquidusPoint {
+                row: i + 1,
+                x: *x,
+                liquidus: Kelvin(true_t(x) + 5.0 * r.normal()),
+                phase: devitrite,
+            })
+            .collect();
+        let fit = fit_liquidus(&set, &pts, &[], &Provenance::default()).unwrap();
+        let record = fit.set.phases[devitrite].liquidus_fit.clone().unwrap();
+        let f = &fit.phases[0];
+        // The written record: coefficient names, their covariance; the
+        // estimates by the same names.
+        let x: Vec<f64> = record
+            .coefficients
+            .iter()
+            .map(|n| x0[n.parse::<Oxide>().unwrap().index()])
+            .collect();
+        let beta: Vec<f64> = record
+            .coefficients
+            .iter()
+            .map(|n| {
+                let k = f.terms.iter().position(|t| t.to_string() == *n).unwrap();
+                f.solution.coefficients[k]
+            })
+            .collect();
+        let c = &record.covariance;
+        let y0: f64 = x.iter().zip(&beta).map(|(a, b)| a * b).sum();
+        let var: f64 = (0..x.len())
+            .flat_map(|i| (0..x.len()).map(move |j| (i, j)))
+            .map(|(i, j)| x[i] * c[i][j] * x[j])
+            .sum();
+        let var_diag: f64 = (0..x.len()).map(|i| x[i] * x[i] * c[i][i]).sum();
+        let s2 = record.residual_sd.powi(2);
+        let mean = true_t(&x0);
+        let new = mean + 5.0 * r.normal();
+        conf += u64::from((y0 - mean).abs() <= t90 * var.sqrt());
+        pred += u64::from((y0 - new).abs() <= t90 * (s2 + var).sqrt());
+        diag += u64::from((y0 - mean).abs() <= t90 * var_diag.sqrt());
+        // The drawn band: T_L(x0) for θ ~ N(β̂, Cov), through the library's
+        // Monte Carlo (it summarises log10 of a positive output, so the
+        // model returns 10^(T_L/1000 K)).
+        let input = UncertainInput {
+            name: "liquidus surface".into(),
+            distribution: Distribution::MultiNormal {
+                mean: beta.clone(),
+                covariance: c.clone(),
+            },
+        };
+        let p = propagate(
+            &[input],
+            Settings {
+                draws: 400,
+                seed: rep,
+            },
+            None,
+            |v| Ok(10f64.powf(v[0].iter().zip(&x).map(|(a, b)| a * b).sum::<f64>() / 1000.0)),
+        )
+        .unwrap();
+        let (lo, hi) = (
+            1000.0 * p.critical_rate_p05_k_per_s.log10(),
+            1000.0 * p.critical_rate_p95_k_per_s.log10(),
+        );
+        band += u64::from(lo <= mean && mean <= hi);
+    }
+    let p_band = {
+        let t = StudentsT::new(0.0, 1.0, 15.0).unwrap();
+        t.cdf(z90) - t.cdf(-z90)
+    };
+    eprintln!(
+        "coverage over {reps}: confidence {:.3}, prediction {:.3} (nominal 0.90), drawn 5–95 % band {:.3} (exact {p_band:.4}), variances alone {:.3}",
+        conf as f64 / reps as f64,
+        pred as f64 / reps as f64,
+        band as f64 / reps as f64,
+        diag as f64 / reps as f64
+    );
+    let (lo90, hi90) = binomial_acceptance(0.90, reps, 1e-4);
+    eprintln!(
+        "accepted counts: {lo90}–{hi90} at 0.90, {:?} for the band",
+        binomial_acceptance(p_band, reps, 1e-4)
+    );
+    for (what, k) in [("confidence", conf), ("prediction", pred)] {
+        assert!(
+            (lo90..=hi90).contains(&k),
+            "{what} intervals cover in {k} of {reps}, expected {lo90}–{hi90}"
+        );
+    }
+    let (lob, hib) = binomial_acceptance(p_band, reps, 1e-4);
+    assert!(
+        (lob..=hib).contains(&band),
+        "the drawn band covers in {band} of {reps}, expected {lob}–{hib} (P(|t_15| ≤ z) = {p_band:.4})"
+    );
+    // The check bites: the same intervals from the variances alone (the
+    // covariances of a mixture surface's coefficients dropped) miss the
+    // nominal rate.
+    assert!(
+        !(lo90..=hi90).contains(&diag),
+        "variances alone cover in {diag} of {reps}"
+    );
+}

@@ -596,3 +596,251 @@ fn a_spread_that_reaches_impossible_values_is_refused() {
         other => panic!("expected a refusal, got {other:?}"),
     }
 }
+
+/// A number column of a result table (empty cells as None).
+fn table_column(path: &std::path::Path, col: &str) -> Vec<Option<f64>> {
+    let df = quenchwise::files::table::read_frame(path).unwrap();
+    df.column(col)
+        .unwrap_or_else(|_| panic!("no column {col}"))
+        .cast(&polars::prelude::DataType::Float64)
+        .unwrap()
+        .f64()
+        .unwrap()
+        .iter()
+        .collect()
+}
+
+fn text_column(path: &std::path::Path, col: &str) -> Vec<Option<String>> {
+    let df = quenchwise::files::table::read_frame(path).unwrap();
+    df.column(col)
+        .unwrap_or_else(|_| panic!("no column {col}"))
+        .str()
+        .unwrap()
+        .iter()
+        .map(|v| v.map(str::to_string))
+        .collect()
+}
+
+#[test]
+fn a_melt_card_table_draws_every_row_with_its_own_seed_and_matches_the_closed_form() {
+    use quenchwise::uncertainty::sampling::row_seed;
+    let d = temp_dir("eval-uncertainty-table");
+    // The demo melt (invented numbers) with two α spreads, a row with no
+    // spread (point estimate only), a nuclei range, and a row whose range
+    // lacks its upper end (that row's error).
+    let head = "name,a,b_k,c_k,liquidus_k,enthalpy_of_fusion_j_per_mol,molar_volume_m3_per_mol,turnbull_alpha,growth,turnbull_alpha_sd,heterogeneous_nuclei_lo_per_m3,heterogeneous_nuclei_hi_per_m3";
+    let card = "-2.8,4500.0,480.0,1300.0,60000.0,6.0e-5";
+    let rows = [
+        format!("narrow,{card},0.33,normal,0.01,,"),
+        format!("wide,{card},0.34,normal,0.015,,"),
+        format!("none,{card},0.33,normal,,,"),
+        format!("nuclei,{card},0.33,normal,,1e6,1e12"),
+        format!("half,{card},0.33,normal,,1e6,"),
+    ];
+    std::fs::write(
+        d.join("cards.csv"),
+        format!("{head}\n{}\n", rows.join("\n")),
+    )
+    .unwrap();
+    let (n, seed) = (1000usize, 11u64);
+    let quench = rc(MU, 0.0) / 3.0;
+    let q = format!("{quench:e}");
+    let ns = n.to_string();
+    let args = |threads: &'static str, batch: &'static str, out: &'static str| {
+        vec![
+            "eval",
+            "--melt-cards",
+            "cards.csv",
+            "--uncertainty",
+            ns.as_str(),
+            "--seed",
+            "11",
+            "--quench-rate",
+            q.as_str(),
+            "--threads",
+            threads,
+            "--batch-rows",
+            batch,
+            "--out",
+            out,
+        ]
+        .into_iter()
+        .map(str::to_string)
+        .collect::<Vec<_>>()
+    };
+    let call = |a: Vec<String>| {
+        let a: Vec<&str> = a.iter().map(String::as_str).collect();
+        run_in(&d, &a)
+    };
+    call(args("1", "1", "one.csv")).code(0);
+    call(args("2", "3", "two.csv")).code(0);
+    // Source (determinism): the draws depend only on the seed and the row's
+    // place, not on the thread count or the batch size (docs/science.md,
+    // "Seeded Latin hypercube draws").
+    assert_eq!(
+        std::fs::read_to_string(d.join("one.csv")).unwrap(),
+        std::fs::read_to_string(d.join("two.csv")).unwrap()
+    );
+    let out = d.join("one.csv");
+    let p = table_column(&out, "probability_glassy");
+    let se = table_column(&out, "probability_glassy_se");
+    let p50 = table_column(&out, "critical_rate_p50_k_per_s");
+    let note = text_column(&out, "band_note");
+    let error = text_column(&out, "error");
+    // Source: P = 1 − Φ((α* − μ)/s) for R_c decreasing in α (standard
+    // probability; α* by bisection, Φ from statrs), as in
+    // alpha_alone_gives_the_closed_form_probability_and_quantiles; α* is
+    // the same for both rows (same melt, same quench).
+    let alpha_star = bisect(|a| rc(a, 0.0).log10() - quench.log10(), 0.2, 0.45);
+    let normal = Normal::standard();
+    for (row, mu, s) in [(0usize, 0.33, 0.01), (1, 0.34, 0.015)] {
+        let exact = 1.0 - normal.cdf((alpha_star - mu) / s);
+        let got = p[row].unwrap();
+        let bse = (exact * (1.0 - exact) / n as f64).sqrt();
+        assert!(
+            (got - exact).abs() <= MONTE_CARLO_STANDARD_ERRORS * bse,
+            "row {row}: {got} vs closed form {exact} (SE {bse})"
+        );
+        assert!((se[row].unwrap() - (got * (1.0 - got) / n as f64).sqrt()).abs() < 1e-12);
+        // Row i is drawn with seed row_seed(seed, i): the library's
+        // propagation with that seed gives the same band (to the digits a
+        // CSV keeps).
+        let m = melt(mu);
+        let opts = KineticOptions::default();
+        let inputs = melt_inputs(&m, &alpha_spread(s)).unwrap();
+        let lib = propagate(
+            &inputs_of(&inputs),
+            Settings {
+                draws: n,
+                seed: row_seed(seed, row),
+            },
+            Some(quench),
+            |v| melt_critical_rate(&m, &opts, &inputs, v),
+        )
+        .unwrap();
+        assert_eq!(lib.probability_glassy, p[row]);
+        assert!((lib.critical_rate_p50_k_per_s / p50[row].unwrap() - 1.0).abs() < 1e-12);
+    }
+    // Different seeds per row: two rows of the same melt and spread would
+    // not share draws; here the two rows differ and so do their bands.
+    assert_ne!(p50[0], p50[1]);
+    // No spread: the point estimate, no band, and a note saying why.
+    assert!(p[2].is_none() && error[2].is_none());
+    assert!(
+        note[2].as_deref().unwrap().contains("no spread"),
+        "{note:?}"
+    );
+    // A nuclei range: the point estimate uses its geometric mean, 10⁹ m⁻³
+    // (the median of a log-uniform range; standard probability), and with
+    // R_c increasing in N_h the band straddles it.
+    let point = table_column(&out, "critical_rate_k_per_s");
+    assert!((point[3].unwrap() / rc(MU, 1e9) - 1.0).abs() < 1e-9);
+    let (lo, hi) = (
+        table_column(&out, "critical_rate_p05_k_per_s")[3].unwrap(),
+        table_column(&out, "critical_rate_p95_k_per_s")[3].unwrap(),
+    );
+    assert!(
+        lo < point[3].unwrap() && point[3].unwrap() < hi,
+        "{lo} {hi}"
+    );
+    // Half a range is that row's error, named.
+    assert!(
+        error[4]
+            .as_deref()
+            .unwrap()
+            .contains("heterogeneous_nuclei_hi_per_m3"),
+        "{error:?}"
+    );
+}
+
+#[test]
+fn a_composition_table_draws_the_model_sets_spreads_per_row() {
+    use quenchwise::composition::{Basis, Composition};
+    use quenchwise::files::model_set::load_model_set;
+    use quenchwise::files::model_writer::{model_set_toml, Notes};
+    use quenchwise::uncertainty::melt::{composition_critical_rate, model_set_inputs};
+    use quenchwise::uncertainty::sampling::row_seed;
+    let d = temp_dir("eval-uncertainty-compositions");
+    // The built-in demo set (invented numbers) with a standard error of α
+    // on every phase.
+    let mut set = load_model_set(None).unwrap();
+    for p in &mut set.phases {
+        p.turnbull_alpha_sd = Some(0.05 * p.turnbull_alpha);
+    }
+    std::fs::write(
+        d.join("set.toml"),
+        model_set_toml(&set, &Notes::default(), &[]),
+    )
+    .unwrap();
+    let glasses = ["72,14,10,4", "74,13,10,3", "70,16,12,2"];
+    std::fs::write(
+        d.join("comps.csv"),
+        format!("SiO2,Na2O,CaO,Al2O3\n{}\n", glasses.join("\n")),
+    )
+    .unwrap();
+    let base = [
+        "eval",
+        "--compositions",
+        "comps.csv",
+        "--models",
+        "set.toml",
+        "--uncertainty",
+        "60",
+        "--quench-rate",
+        "1",
+    ];
+    let mut one = base.to_vec();
+    one.extend([
+        "--threads",
+        "1",
+        "--batch-rows",
+        "1",
+        "--out",
+        "one.parquet",
+    ]);
+    run_in(&d, &one).code(0);
+    let mut two = base.to_vec();
+    two.extend(["--threads", "2", "--out", "two.parquet"]);
+    run_in(&d, &two).code(0);
+    let (a, b) = (d.join("one.parquet"), d.join("two.parquet"));
+    for col in [
+        "critical_rate_p05_k_per_s",
+        "critical_rate_p50_k_per_s",
+        "critical_rate_p95_k_per_s",
+        "log10_critical_rate_sd",
+        "probability_glassy",
+    ] {
+        assert_eq!(table_column(&a, col), table_column(&b, col), "{col}");
+    }
+    // Source (per-row seed): each row equals the library's propagation with
+    // seed row_seed(default seed, i); the spread is non-zero, so the check
+    // can fail.
+    let file_set = load_model_set(Some(&d.join("set.toml"))).unwrap();
+    let opts = KineticOptions::default();
+    let (inputs, _) = model_set_inputs(&file_set, &opts, None).unwrap();
+    let sd = table_column(&a, "log10_critical_rate_sd");
+    let p50 = table_column(&a, "critical_rate_p50_k_per_s");
+    for (i, g) in glasses.iter().enumerate() {
+        let v: Vec<&str> = g.split(',').collect();
+        let text = format!("SiO2={} Na2O={} CaO={} Al2O3={}", v[0], v[1], v[2], v[3]);
+        let comp = Composition::parse(&text, Basis::MolPercent, 0.0).unwrap();
+        let lib = propagate(
+            &inputs_of(&inputs),
+            Settings {
+                draws: 60,
+                seed: row_seed(quenchwise::uncertainty::DEFAULT_SEED, i),
+            },
+            Some(1.0),
+            |x| composition_critical_rate(&file_set, &comp, &opts, &inputs, x),
+        )
+        .unwrap();
+        assert!(sd[i].unwrap() > 0.0);
+        assert!((lib.log10_critical_rate_sd - sd[i].unwrap()).abs() < 1e-12);
+        assert!((lib.critical_rate_p50_k_per_s / p50[i].unwrap() - 1.0).abs() < 1e-12);
+    }
+    // --json belongs to one input; a table needs --out.
+    let mut json = base.to_vec();
+    json.extend(["--json", "--out", "x.csv"]);
+    run_in(&d, &json).code(2).stderr_has("--json");
+    run_in(&d, &base).code(2).stderr_has("--out");
+}

@@ -17,8 +17,8 @@ use quenchwise::files::melt_card::MeltValues;
 use quenchwise::files::source::{read_text, Source};
 use quenchwise::files::table::OxideAmounts;
 use quenchwise::files::table_stream::{
-    stream_table, table_column_names, BatchDone, CompositionRows, Event, MeltRows, ResultPlan,
-    RowReader, StreamSettings, DEFAULT_BATCH_ROWS,
+    stream_table_with, table_column_names, BatchDone, CompositionRows, Event, ExtraCells,
+    ExtraColumns, MeltRows, ResultPlan, RowReader, StreamSettings, DEFAULT_BATCH_ROWS,
 };
 use quenchwise::kinetics::{DrivingForce, KineticOptions, KineticOverrides, Kinetics, Transport};
 use quenchwise::report::{plot, sig, text::evaluation_text, CAUTION};
@@ -206,13 +206,7 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
             .as_deref()
             .ok_or_else(|| Error::bad_input("a table input needs --out FILE (.csv or .parquet)"))
     };
-    let settings = StreamSettings {
-        batch_rows: match a.batch_rows {
-            Some(0) => return Err(Error::bad_input("--batch-rows must be at least 1")),
-            Some(n) => n,
-            None => DEFAULT_BATCH_ROWS,
-        },
-    };
+    let settings = stream_settings(&a)?;
     if let Some(p) = &a.melt_cards {
         if a.json || a.ttt.is_some() || a.plot.is_some() {
             return Err(Error::bad_input(
@@ -343,6 +337,17 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
     Ok(Outcome::Finished)
 }
 
+/// How `--batch-rows` cuts a streamed table.
+pub(super) fn stream_settings(a: &EvalArgs) -> Result<StreamSettings, Error> {
+    Ok(StreamSettings {
+        batch_rows: match a.batch_rows {
+            Some(0) => return Err(Error::bad_input("--batch-rows must be at least 1")),
+            Some(n) => n,
+            None => DEFAULT_BATCH_ROWS,
+        },
+    })
+}
+
 /// Stream a table: read, evaluate (rows in parallel, output order = input
 /// order) and write it batch by batch (`files::table_stream`), then print
 /// a summary of the first rows.
@@ -354,16 +359,39 @@ fn evaluate_table<R: RowReader>(
     settings: StreamSettings,
     evaluate: impl Fn(&R::Row) -> Result<Evaluation, String> + Sync,
 ) -> Result<Outcome, Error> {
-    let progress: std::sync::OnceLock<Progress> = std::sync::OnceLock::new();
-    let mut summary = Summary::default();
-    let streamed = stream_table(
+    evaluate_table_with(
         input,
         out,
         reader,
         plan,
+        &ExtraColumns::default(),
         settings,
-        |row| {
-            let r = evaluate(row);
+        |_, row| evaluate(row).map(|e| (e, ExtraCells::default())),
+    )
+}
+
+/// As `evaluate_table`, with `extra` columns and each row's index in the
+/// file (`files::table_stream::stream_table_with`).
+pub(super) fn evaluate_table_with<R: RowReader>(
+    input: &Path,
+    out: &Path,
+    reader: &R,
+    plan: &ResultPlan,
+    extra: &ExtraColumns,
+    settings: StreamSettings,
+    evaluate: impl Fn(usize, &R::Row) -> Result<(Evaluation, ExtraCells), String> + Sync,
+) -> Result<Outcome, Error> {
+    let progress: std::sync::OnceLock<Progress> = std::sync::OnceLock::new();
+    let mut summary = Summary::default();
+    let streamed = stream_table_with(
+        input,
+        out,
+        reader,
+        plan,
+        extra,
+        settings,
+        |i, row| {
+            let r = evaluate(i, row);
             if let Some(p) = progress.get() {
                 p.inc();
             }
@@ -393,7 +421,7 @@ fn evaluate_table<R: RowReader>(
 
 /// The columns of a composition table that are not oxides (read from its
 /// header only).
-fn composition_columns_passed(p: &Path) -> Result<Vec<String>, Error> {
+pub(super) fn composition_columns_passed(p: &Path) -> Result<Vec<String>, Error> {
     let names = table_column_names(p)?;
     Ok(names
         .into_iter()

@@ -1,30 +1,48 @@
 //! `quenchwise eval --uncertainty N`: the point evaluation of one melt card
 //! or composition, then N Monte Carlo draws of its uncertain inputs (the
-//! library's `uncertainty`), printed under it or added to its JSON.
+//! library's `uncertainty`), printed under it or added to its JSON; or, for
+//! a table (`--melt-cards`, `--compositions`), every row drawn with its own
+//! seed and its band written in columns beside its point estimate.
 
+use super::eval::evaluate_table_with;
 use super::input;
 use super::models::{base_options, load_models};
 use super::Outcome;
 use crate::cli::EvalArgs;
 use quenchwise::assess::{evaluate_composition, evaluate_melt, Calibration, SlabQuench};
+use quenchwise::composition::{Basis, Composition};
 use quenchwise::error::{Error, ResultExt};
 use quenchwise::files::melt_card::parse_melt_card_spreads;
+use quenchwise::files::melt_card::MeltValues;
 use quenchwise::files::source::{read_text, Source};
+use quenchwise::files::table::OxideAmounts;
+use quenchwise::files::table_stream::{
+    CompositionRows, ExtraCells, ExtraColumns, MeltSpreadRows, ResultPlan,
+};
 use quenchwise::kinetics::KineticOptions;
 use quenchwise::report::text::evaluation_text;
 use quenchwise::report::uncertainty::propagation_text;
 use quenchwise::uncertainty::melt::{
     composition_critical_rate, inputs_of, melt_critical_rate, melt_inputs, model_set_inputs,
 };
+use quenchwise::uncertainty::melt::{MeltSpreads, Target};
+use quenchwise::uncertainty::sampling::row_seed;
+use quenchwise::uncertainty::Propagation;
 use quenchwise::uncertainty::{propagate, Settings, DEFAULT_SEED, MAX_DRAWS, MIN_DRAWS};
 use quenchwise::units::{Celsius, RateUnit};
 use std::io::Write;
 
 /// Run `eval` with `--uncertainty` (the caller checked there is one input).
 pub fn eval_uncertainty(a: &EvalArgs, draws: usize) -> Result<Outcome, Error> {
-    if a.melt_cards.is_some() || a.compositions.is_some() || a.out.is_some() {
+    let table = a.melt_cards.is_some() || a.compositions.is_some();
+    if a.out.is_some() && !table {
         return Err(Error::bad_input(
-            "--uncertainty applies to one melt card or composition (--melt, --mol, --wt, --recipe), not to tables",
+            "--out writes tables: use it with --melt-cards or --compositions",
+        ));
+    }
+    if a.against.is_some() {
+        return Err(Error::bad_input(
+            "--against draws with the screen config's own [uncertainty]: run it without --uncertainty",
         ));
     }
     if a.ttt.is_some() || a.plot.is_some() {
@@ -63,6 +81,14 @@ pub fn eval_uncertainty(a: &EvalArgs, draws: usize) -> Result<Outcome, Error> {
         seed: a.uncertainty.seed.unwrap_or(DEFAULT_SEED),
     };
     let cli = super::eval::overrides(&a.kinetics);
+    if table {
+        if a.json {
+            return Err(Error::bad_input(
+                "--json applies to one melt or composition, not to tables: the band goes into the --out table",
+            ));
+        }
+        return eval_uncertainty_table(a, settings, quench, slab);
+    }
     let (evaluation, propagation) = if let Some(p) = &a.melt {
         let text = read_text(p)?;
         let (melt, card_opts, spreads) = parse_melt_card_spreads(
@@ -136,4 +162,182 @@ pub fn eval_uncertainty(a: &EvalArgs, draws: usize) -> Result<Outcome, Error> {
         .write_all(out.as_bytes())
         .map_err(|e| Error::internal(format!("writing to stdout: {e}")))?;
     Ok(Outcome::Finished)
+}
+
+/// The band columns a table gains with `--uncertainty` (all K/s but the sd,
+/// in decades; the probability and its standard error with `--quench-rate`).
+fn band_columns(quench: Option<f64>) -> ExtraColumns {
+    let mut numbers: Vec<String> = [
+        "critical_rate_p05_k_per_s",
+        "critical_rate_p50_k_per_s",
+        "critical_rate_p95_k_per_s",
+        "log10_critical_rate_sd",
+        "failed_draws",
+    ]
+    .map(String::from)
+    .to_vec();
+    if quench.is_some() {
+        numbers.push("probability_glassy".into());
+        numbers.push("probability_glassy_se".into());
+    }
+    ExtraColumns {
+        numbers,
+        text: Some("band_note".into()),
+    }
+}
+
+/// One row's band cells from its propagation (or why it has none).
+fn band_cells(result: Result<Propagation, String>, quench: Option<f64>) -> ExtraCells {
+    match result {
+        Ok(p) => {
+            let mut numbers = vec![
+                Some(p.critical_rate_p05_k_per_s),
+                Some(p.critical_rate_p50_k_per_s),
+                Some(p.critical_rate_p95_k_per_s),
+                Some(p.log10_critical_rate_sd),
+                Some(p.failed_draws as f64),
+            ];
+            if quench.is_some() {
+                numbers.push(p.probability_glassy);
+                numbers.push(p.probability_glassy_se);
+            }
+            let mut notes = Vec::new();
+            let beyond = p.beyond_vouching();
+            if !beyond.is_empty() {
+                notes.push(format!(
+                    "band beyond what the model can vouch for: {}",
+                    beyond.join(", ")
+                ));
+            }
+            if let Some(f) = p.first_failure.as_ref().filter(|_| p.failed_draws > 0) {
+                notes.push(format!(
+                    "{} of {} draws failed (counted as not glassy), the first: {f}",
+                    p.failed_draws, p.draws
+                ));
+            }
+            ExtraCells {
+                numbers,
+                text: (!notes.is_empty()).then(|| notes.join("; ")),
+            }
+        }
+        Err(why) => ExtraCells {
+            numbers: Vec::new(),
+            text: Some(format!("no band: {why}")),
+        },
+    }
+}
+
+/// `eval --melt-cards FILE` or `--compositions FILE` with `--uncertainty N`:
+/// every row evaluated at its point estimate and drawn N times, with the
+/// seed of row i derived from the seed and i (`sampling::row_seed`), so the
+/// table does not depend on the thread count or the batch size; streamed in
+/// batches like every table (memory holds one batch and, per running row,
+/// its N draws).
+fn eval_uncertainty_table(
+    a: &EvalArgs,
+    settings: Settings,
+    quench: Option<f64>,
+    slab: Option<SlabQuench>,
+) -> Result<Outcome, Error> {
+    let out = a
+        .out
+        .as_deref()
+        .ok_or_else(|| Error::bad_input("a table input needs --out FILE (.csv or .parquet)"))?;
+    let stream = super::eval::stream_settings(a)?;
+    let cli = super::eval::overrides(&a.kinetics);
+    let extra = band_columns(quench);
+    let row_settings = |i: usize| Settings {
+        draws: settings.draws,
+        seed: row_seed(settings.seed, i),
+    };
+    eprintln!(
+        "quenchwise: {} draws per row, each row with its own seed derived from seed {} and its place in the file (the same numbers at any thread count)",
+        settings.draws, settings.seed
+    );
+    if let Some(p) = &a.melt_cards {
+        let base = cli.apply(KineticOptions::default());
+        let nuclei_given = cli.heterogeneous_nuclei_per_m3.is_some();
+        return evaluate_table_with(
+            p,
+            out,
+            &MeltSpreadRows,
+            &ResultPlan::melt_cards(),
+            &extra,
+            stream,
+            |i, (values, spreads): &(MeltValues, MeltSpreads)| {
+                let (melt, opts) = values.build(&base).map_err(|e| e.to_string())?;
+                let e = evaluate_melt(&melt, &opts, slab, &Calibration::None)
+                    .map_err(|e| e.to_string())?;
+                let band = melt_inputs(&melt, spreads)
+                    .map_err(|e| e.to_string())
+                    .and_then(|mut inputs| {
+                        if nuclei_given {
+                            // A number on the command line replaces the row's range.
+                            inputs.retain(|u| u.target != Target::Nuclei);
+                        }
+                        if inputs.is_empty() {
+                            return Err("this row gives no spread (turnbull_alpha_sd, interface_energy_sd_j_per_m2, or heterogeneous_nuclei_lo_per_m3 with _hi_per_m3)".into());
+                        }
+                        propagate(&inputs_of(&inputs), row_settings(i), quench, |v| {
+                            melt_critical_rate(&melt, &opts, &inputs, v)
+                        })
+                        .map_err(|e| e.to_string())
+                    });
+                Ok((e, band_cells(band, quench)))
+            },
+        );
+    }
+    let Some(p) = &a.compositions else {
+        return Err(Error::internal("a table without a table input"));
+    };
+    let models = load_models(a.models.as_deref(), a.viscosity_model.as_deref())?;
+    let opts = cli.apply(base_options(&models));
+    let (inputs, notes) = model_set_inputs(&models, &opts, None)?;
+    for n in &notes {
+        eprintln!("quenchwise: {n}");
+    }
+    if inputs.is_empty() {
+        return Err(Error::bad_input(format!(
+            "model set '{}' has no fit records and no standard error of α to draw from",
+            models.about.name
+        ))
+        .with_hint("fit the models to your measurements with `quenchwise fit` (it writes the covariances), or use melt-card tables with a turnbull_alpha_sd column"));
+    }
+    let basis = if a.wt_text.as_deref() == Some("") {
+        Basis::WtPercent
+    } else {
+        Basis::MolPercent
+    };
+    let other = super::eval::composition_columns_passed(p)?;
+    if !other.is_empty() {
+        eprintln!(
+            "quenchwise: columns not read as oxides (passed through): {}",
+            other.join(", ")
+        );
+    }
+    let plan = ResultPlan {
+        with_models: true,
+        calibrated: models.phases.iter().any(|p| p.calibrated_against.is_some()),
+        phases: models.phases.iter().map(|p| p.name.clone()).collect(),
+    };
+    let drawn = inputs_of(&inputs);
+    let tolerance = a.sum_tolerance;
+    evaluate_table_with(
+        p,
+        out,
+        &CompositionRows,
+        &plan,
+        &extra,
+        stream,
+        |i, pairs: &OxideAmounts| {
+            let comp = Composition::new(pairs, basis, tolerance).map_err(|e| e.to_string())?;
+            let e = evaluate_composition(&models, &comp, &opts, slab, &Calibration::None)
+                .map_err(|e| e.to_string())?;
+            let band = propagate(&drawn, row_settings(i), quench, |v| {
+                composition_critical_rate(&models, &comp, &opts, &inputs, v)
+            })
+            .map_err(|e| e.to_string());
+            Ok((e, band_cells(band, quench)))
+        },
+    )
 }

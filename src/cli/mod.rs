@@ -800,7 +800,14 @@ pub struct UncertaintyArgs {
     /// [kinetics]; in a model set the covariance `quenchwise fit` wrote for
     /// viscosity, liquidus and α. Prints the 5, 50 and 95 % critical rates,
     /// the sd of log10 R_c, P(R_c ≤ --quench-rate) and each input's share of
-    /// the variance (--json writes them too). One melt card or composition.
+    /// the variance (--json writes them too). With a table (--melt-cards,
+    /// --compositions) every row is drawn with its own seed (derived from
+    /// --seed and the row's place) and --out gains the columns
+    /// critical_rate_p05/p50/p95_k_per_s, log10_critical_rate_sd,
+    /// failed_draws, probability_glassy(_se) with --quench-rate, and
+    /// band_note; a melt-card table gives its spreads in the columns
+    /// turnbull_alpha_sd (or interface_energy_sd_j_per_m2) and
+    /// heterogeneous_nuclei_lo_per_m3 with heterogeneous_nuclei_hi_per_m3.
     /// Example: --uncertainty 4000 --quench-rate 1
     #[arg(
         long = "uncertainty",

@@ -27,11 +27,14 @@
 //! [`super::table::append_results`] keeps only columns some row fills.)
 
 use super::melt_card::MeltValues;
-use super::table::{check_writable, composition_rows, melt_rows, OxideAmounts, Places, TableError};
+use super::table::{
+    check_writable, composition_rows, melt_rows, number_column, OxideAmounts, Places, TableError,
+};
 use crate::assess::Evaluation;
 use crate::report::records::{
     Carried, CellKind, EvalCell, EvalField, PhaseField, EVALUATION_FIELDS, PHASE_FIELDS,
 };
+use crate::uncertainty::melt::MeltSpreads;
 use polars::prelude::*;
 use rayon::prelude::*;
 use std::io::{BufRead, BufReader};
@@ -92,6 +95,82 @@ impl RowReader for CompositionRows {
     }
 }
 
+/// Rows of melt cards with the spreads `eval --uncertainty` draws from, in
+/// optional columns: `turnbull_alpha_sd` (or `interface_energy_sd_j_per_m2`,
+/// J/m²) and the log-uniform range of pre-existing nuclei
+/// `heterogeneous_nuclei_lo_per_m3`, `heterogeneous_nuclei_hi_per_m3` (both
+/// or neither in a row; the point estimate then uses their geometric mean,
+/// as a card's `heterogeneous_nuclei_per_m3 = [lo, hi]` does).
+pub struct MeltSpreadRows;
+
+/// The spread columns [`MeltSpreadRows`] reads.
+pub const MELT_SPREAD_COLUMNS: [&str; 4] = [
+    "turnbull_alpha_sd",
+    "interface_energy_sd_j_per_m2",
+    "heterogeneous_nuclei_lo_per_m3",
+    "heterogeneous_nuclei_hi_per_m3",
+];
+
+impl RowReader for MeltSpreadRows {
+    type Row = (MeltValues, MeltSpreads);
+    fn rows(
+        &self,
+        df: &DataFrame,
+        places: &Places,
+        bad: &mut Vec<String>,
+    ) -> Result<Vec<Result<(MeltValues, MeltSpreads), String>>, TableError> {
+        let melts = melt_rows(df, places, bad)?;
+        let [a_sd, s_sd, lo, hi] = MELT_SPREAD_COLUMNS.map(|c| number_column(df, places, c, bad));
+        let pick = |v: &Option<Vec<Option<f64>>>, i: usize| {
+            v.as_ref().and_then(|v| v.get(i).copied().flatten())
+        };
+        Ok(melts
+            .into_iter()
+            .enumerate()
+            .map(|(i, m)| {
+                let mut m = m?;
+                let mut spreads = MeltSpreads {
+                    turnbull_alpha_sd: vec![pick(&a_sd, i)],
+                    interface_energy_sd_j_per_m2: vec![pick(&s_sd, i)],
+                    nuclei_range_per_m3: None,
+                };
+                for (name, sd) in [
+                    ("turnbull_alpha_sd", spreads.turnbull_alpha_sd[0]),
+                    (
+                        "interface_energy_sd_j_per_m2",
+                        spreads.interface_energy_sd_j_per_m2[0],
+                    ),
+                ] {
+                    if let Some(v) = sd.filter(|v| !(v.is_finite() && *v >= 0.0)) {
+                        return Err(format!(
+                            "{name} must be a standard deviation ≥ 0, got {v}"
+                        ));
+                    }
+                }
+                match (pick(&lo, i), pick(&hi, i)) {
+                    (None, None) => {}
+                    (Some(l), Some(h)) if l.is_finite() && h.is_finite() && l > 0.0 && l <= h => {
+                        if m.kinetics.heterogeneous_nuclei_per_m3.is_some() {
+                            return Err("give heterogeneous_nuclei_per_m3 or the range heterogeneous_nuclei_lo_per_m3/_hi_per_m3, not both".into());
+                        }
+                        spreads.nuclei_range_per_m3 = Some((l, h));
+                        m.kinetics.heterogeneous_nuclei_per_m3 = Some((l * h).sqrt());
+                    }
+                    (Some(l), Some(h)) => {
+                        return Err(format!(
+                            "the nuclei range needs 0 < heterogeneous_nuclei_lo_per_m3 ≤ heterogeneous_nuclei_hi_per_m3 (per m³, log-uniform), got [{l}, {h}]"
+                        ))
+                    }
+                    _ => {
+                        return Err("give both heterogeneous_nuclei_lo_per_m3 and heterogeneous_nuclei_hi_per_m3 (a log-uniform range), or neither".into())
+                    }
+                }
+                Ok((m, spreads))
+            })
+            .collect())
+    }
+}
+
 /// What the result columns of a table are: which fields its evaluations
 /// carry and the phases of its per-phase columns.
 #[derive(Debug, Clone, PartialEq)]
@@ -112,6 +191,59 @@ impl ResultPlan {
             calibrated: false,
             phases: vec!["crystal".into()],
         }
+    }
+}
+
+/// Columns a caller appends to every row after the evaluation's (e.g. a
+/// Monte Carlo band): numbers, then at most one text column.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct ExtraColumns {
+    pub numbers: Vec<String>,
+    pub text: Option<String>,
+}
+
+/// One row's cells of the [`ExtraColumns`] (empty where `None`; a row
+/// whose evaluation failed has them all empty).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct ExtraCells {
+    /// One per number column (missing ones are empty).
+    pub numbers: Vec<Option<f64>>,
+    pub text: Option<String>,
+}
+
+impl ExtraColumns {
+    /// The columns of a batch, named as given (`_out` appended where an
+    /// input column already has the name).
+    fn build(&self, input: &[String], cells: &[ExtraCells]) -> Vec<Column> {
+        let name = |n: &str| {
+            if input.iter().any(|c| c == n) {
+                format!("{n}_out")
+            } else {
+                n.to_string()
+            }
+        };
+        let mut out: Vec<Column> = self
+            .numbers
+            .iter()
+            .enumerate()
+            .map(|(k, n)| {
+                Float64Chunked::from_iter_options(
+                    name(n).as_str().into(),
+                    cells.iter().map(|c| c.numbers.get(k).copied().flatten()),
+                )
+                .into_column()
+            })
+            .collect();
+        if let Some(t) = &self.text {
+            out.push(
+                StringChunked::from_iter_options(
+                    name(t).as_str().into(),
+                    cells.iter().map(|c| c.text.as_deref()),
+                )
+                .into_column(),
+            );
+        }
+        out
     }
 }
 
@@ -731,6 +863,8 @@ pub struct BatchDone<'a> {
     pub first_row: usize,
     /// Each row's evaluation or why it failed, in input order.
     pub results: &'a [Result<Evaluation, String>],
+    /// Each row's extra cells (see [`stream_table_with`]), in input order.
+    pub extra: &'a [ExtraCells],
 }
 
 /// What a streamed table reports as it goes.
@@ -765,6 +899,36 @@ pub fn stream_table<R: RowReader>(
     plan: &ResultPlan,
     settings: StreamSettings,
     evaluate: impl Fn(&R::Row) -> Result<Evaluation, String> + Sync,
+    on: impl FnMut(Event<'_>),
+) -> Result<Streamed, TableError> {
+    stream_table_with(
+        input,
+        out,
+        reader,
+        plan,
+        &ExtraColumns::default(),
+        settings,
+        |_, row| evaluate(row).map(|e| (e, ExtraCells::default())),
+        on,
+    )
+}
+
+/// As [`stream_table`], with `extra` columns after the evaluation's (before
+/// `error`) and `evaluate` told each row's index in the file (from 0), so a
+/// row's result can depend on its place (a seed per row) but never on the
+/// batch size or the thread count.
+///
+/// # Errors
+/// As [`stream_table`].
+#[allow(clippy::too_many_arguments)]
+pub fn stream_table_with<R: RowReader>(
+    input: &Path,
+    out: &Path,
+    reader: &R,
+    plan: &ResultPlan,
+    extra: &ExtraColumns,
+    settings: StreamSettings,
+    evaluate: impl Fn(usize, &R::Row) -> Result<(Evaluation, ExtraCells), String> + Sync,
     mut on: impl FnMut(Event<'_>),
 ) -> Result<Streamed, TableError> {
     let pass = check_table(input, out, reader, settings.batch_rows)?;
@@ -792,10 +956,30 @@ pub fn stream_table<R: RowReader>(
                 });
             }
         }
-        let results: Vec<Result<Evaluation, String>> = rows
+        let first = places.first_row();
+        let both: Vec<Result<(Evaluation, ExtraCells), String>> = rows
             .par_iter()
-            .map(|r| r.as_ref().map_err(Clone::clone).and_then(&evaluate))
+            .enumerate()
+            .map(|(i, r)| {
+                r.as_ref()
+                    .map_err(Clone::clone)
+                    .and_then(|r| evaluate(first + i, r))
+            })
             .collect();
+        let mut results: Vec<Result<Evaluation, String>> = Vec::with_capacity(both.len());
+        let mut cells: Vec<ExtraCells> = Vec::with_capacity(both.len());
+        for r in both {
+            match r {
+                Ok((e, c)) => {
+                    results.push(Ok(e));
+                    cells.push(c);
+                }
+                Err(m) => {
+                    results.push(Err(m));
+                    cells.push(ExtraCells::default());
+                }
+            }
+        }
         failed += results.iter().filter(|r| r.is_err()).count();
         let cols = columns.get_or_insert_with(|| {
             let names: Vec<String> = df
@@ -806,7 +990,19 @@ pub fn stream_table<R: RowReader>(
             ResultColumns::new(plan, &names)
         });
         let mut frame = df.clone();
-        for c in cols.build(&results) {
+        let mut built = cols.build(&results);
+        if extra.text.is_some() || !extra.numbers.is_empty() {
+            let names: Vec<String> = df
+                .get_column_names()
+                .iter()
+                .map(|s| s.to_string())
+                .collect();
+            // Before the `error` column, which stays last.
+            let error = built.pop();
+            built.extend(extra.build(&names, &cells));
+            built.extend(error);
+        }
+        for c in built {
             frame.with_column(c).map_err(|e| TableError::Write {
                 path: out.display().to_string(),
                 message: format!("assembling the results: {e}"),
@@ -822,6 +1018,7 @@ pub fn stream_table<R: RowReader>(
             input: &df,
             first_row: places.first_row(),
             results: &results,
+            extra: &cells,
         }));
         rows_seen += results.len();
     }

@@ -101,7 +101,7 @@ pub const RESULT_FIELDS: [Field; 15] = [
 /// `[uncertainty]`), after the result columns in the shortlist and in the
 /// table of the recipes drawn; the candidates table, written before the
 /// draws, does not carry them.
-pub const PROBABILITY_FIELDS: [Field; 4] = [
+pub const PROBABILITY_FIELDS: [Field; 5] = [
     Field {
         name: "probability_glassy",
         get: |r| Cell::Num(r.probability_glassy),
@@ -117,6 +117,10 @@ pub const PROBABILITY_FIELDS: [Field; 4] = [
     Field {
         name: "band_vouched",
         get: |r| Cell::Bool(r.band_vouched),
+    },
+    Field {
+        name: "probability_from",
+        get: |r| Cell::Text(r.probability_from.as_deref()),
     },
 ];
 

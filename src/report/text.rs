@@ -491,6 +491,18 @@ pub fn probability_stage_text(problem: &ScreenProblem, o: &ProbabilityOutcome) -
             count(o.below_min, "recipe", "recipes")
         ));
     }
+    match (o.pool_exact, o.let_go_bound) {
+        (Some(false), Some(b)) => t.push_str(&format!(
+            "\n  caution: the search let go a feasible recipe whose probability may reach {b:.3}, not bounded off the shortlist: a recipe the full Monte Carlo would shortlist may be missing (a larger [shortlist] size or refine_from keeps more)"
+        )),
+        (Some(true), Some(b)) if b >= 1.0 => t.push_str(
+            "\n  every feasible recipe the search let go is bounded off the shortlist: those that may be glassy in every draw rank after the last pick by cost (then melting temperature)",
+        ),
+        (Some(true), Some(b)) => t.push_str(&format!(
+            "\n  every feasible recipe the search let go is bounded off the shortlist (P ≤ {b:.3}, by a corner of the draws)"
+        )),
+        _ => {}
+    }
     if let Some(f) = o.failures.first() {
         t.push_str(&format!(
             "\n  {} could not be drawn (counted as not glassy enough); the first: {f}",

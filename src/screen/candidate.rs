@@ -490,6 +490,11 @@ pub struct Row {
     /// (`assess::VOUCH_CRITICAL_RATE_K_PER_S`).
     #[serde(default)]
     pub band_vouched: Option<bool>,
+    /// How the probability was obtained: "draws" (the Monte Carlo) or
+    /// "corner" (the least glass-friendly corner of the draws is glassy, so
+    /// every draw is: P = 1 without drawing).
+    #[serde(default)]
+    pub probability_from: Option<String>,
 }
 
 fn finite(x: f64) -> Option<f64> {
@@ -528,6 +533,7 @@ impl Row {
             critical_rate_p05_k_per_s: None,
             critical_rate_p95_k_per_s: None,
             band_vouched: None,
+            probability_from: None,
         }
     }
 

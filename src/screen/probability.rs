@@ -67,6 +67,103 @@ pub struct ProbabilityOutcome {
     /// Draws that failed, and the first reason (the recipe is then not glassy
     /// enough to count, see `uncertainty::MAX_FAILED_SHARE`).
     pub failures: Vec<String>,
+    /// Ranked by probability: the largest bound on the probability of a
+    /// feasible recipe the search let go before this stage (None: it let
+    /// none go).
+    pub let_go_bound: Option<f64>,
+    /// Ranked by probability: whether every recipe let go is bounded off
+    /// the shortlist, so that the shortlist is the one drawing every
+    /// feasible recipe of the screen gives (None for other rankings).
+    pub pool_exact: Option<bool>,
+}
+
+/// The bound that orders the pool the stage picks from when ranked by
+/// probability (docs/science.md, "Uncertainty in the screen"): the tightest
+/// diagonal-corner bound of each feasible recipe. R_c at corner j falls as
+/// j rises (each corner is more glass-friendly than the one before), so
+/// bisection over j finds the last corner whose R_c exceeds the equipment
+/// rate by [`CORNER_MARGIN_DECADES`] in about log2 N critical-rate solves;
+/// its 1 − W(j)/N bounds P. A recipe glassy at the least glass-friendly
+/// corner gets 1. Without monotone inputs every bound is 1 (the pool is
+/// then ordered by cost).
+pub(crate) struct PoolBound {
+    unc: Vec<Uncertain>,
+    corners: Option<Corners>,
+    centre: Vec<Vec<f64>>,
+}
+
+impl PoolBound {
+    /// The corners of a problem's draws.
+    ///
+    /// # Errors
+    /// No `[uncertainty]`, or inputs that are no distributions.
+    pub(crate) fn new(problem: &ScreenProblem) -> Result<PoolBound, Error> {
+        let u = problem
+            .uncertainty
+            .ok_or_else(|| Error::internal("a probability bound needs [uncertainty]"))?;
+        let (unc, _) = model_set_inputs(
+            &problem.models,
+            &problem.kinetic_options,
+            u.nuclei_range_per_m3,
+        )?;
+        let inputs = inputs_of(&unc);
+        let values = draw_values(
+            &inputs,
+            Settings {
+                draws: u.draws,
+                seed: u.seed,
+            },
+        )?;
+        let centre: Vec<Vec<f64>> = inputs.iter().map(|i| i.distribution.centre()).collect();
+        let corners = monotone_coordinates(&unc).map(|c| Corners::new(c, &values));
+        Ok(PoolBound {
+            unc,
+            corners,
+            centre,
+        })
+    }
+
+    /// The bound of every feasible row (None for the others), in parallel.
+    pub(crate) fn bounds(&self, problem: &ScreenProblem, rows: &[Row]) -> Vec<Option<f64>> {
+        rows.par_iter()
+            .map(|r| r.feasible.then(|| self.bound(problem, r)))
+            .collect()
+    }
+
+    fn bound(&self, problem: &ScreenProblem, r: &Row) -> f64 {
+        let Some(corners) = &self.corners else {
+            return 1.0;
+        };
+        let Ok(comp) = Composition::from_mol_percent_array(&r.composition(), 1e-6) else {
+            return 1.0;
+        };
+        let limit = problem.equipment.rate.0.log10() + CORNER_MARGIN_DECADES;
+        let above = |j: usize| {
+            composition_critical_rate(
+                &problem.models,
+                &comp,
+                &problem.kinetic_options,
+                &self.unc,
+                &corners.values(j, &self.centre),
+            )
+            .is_ok_and(|rc| rc.log10() > limit)
+        };
+        let n = corners.dominated.len();
+        if !above(0) {
+            return 1.0;
+        }
+        // above(lo) holds; above(hi) fails or hi is past the last corner.
+        let (mut lo, mut hi) = (0, n);
+        while hi - lo > 1 {
+            let mid = lo + (hi - lo) / 2;
+            if above(mid) {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        corners.bound(lo)
+    }
 }
 
 /// The draws' coordinates that move R_c one way: (input, coordinate, sign),
@@ -181,7 +278,16 @@ enum Known {
 ///
 /// # Errors
 /// The problem has no uncertainty, or its inputs are no distributions.
-pub fn select(problem: &ScreenProblem, pool: &[Row]) -> Result<ProbabilityOutcome, Error> {
+///
+/// `let_go` is, ranked by probability, the best-ranked feasible row the
+/// search let go (by [`crate::screen::select`]'s bound order) with its
+/// bound; the outcome says whether it, and so every row let go, is bounded
+/// off the shortlist.
+pub fn select(
+    problem: &ScreenProblem,
+    pool: &[Row],
+    let_go: Option<&(f64, Row)>,
+) -> Result<ProbabilityOutcome, Error> {
     let u = problem
         .uncertainty
         .ok_or_else(|| Error::internal("the Monte Carlo stage needs [uncertainty]"))?;
@@ -304,10 +410,32 @@ pub fn select(problem: &ScreenProblem, pool: &[Row]) -> Result<ProbabilityOutcom
         }
         picks
     };
+    let pool_exact = (problem.objective == ObjectiveKind::Probability).then(|| {
+        let Some((u_d, d)) = let_go else {
+            return true;
+        };
+        // Every row let go ranks at or after d: a bound below that of the
+        // last pick (or equal to it and after it in the tie order) keeps it
+        // after the last pick in the full walk; while fewer than K are
+        // picked, below min_probability keeps it off.
+        match picks.last() {
+            Some(&l) if picks.len() >= k => {
+                let tau = match &known[l] {
+                    Known::Drawn(Ok(p)) => probability(p),
+                    _ => 1.0,
+                };
+                *u_d < tau
+                    || (*u_d == tau && rank(d, &rows[l], |_| 0.0) == std::cmp::Ordering::Greater)
+            }
+            _ => u.min_probability.is_some_and(|m| *u_d < m),
+        }
+    });
     let mut out = ProbabilityOutcome {
         considered: rows.len(),
         corner_evaluations,
         monotone,
+        let_go_bound: let_go.map(|(b, _)| *b),
+        pool_exact,
         ..Default::default()
     };
     for (i, r) in rows.iter().enumerate() {
@@ -334,6 +462,7 @@ pub fn select(problem: &ScreenProblem, pool: &[Row]) -> Result<ProbabilityOutcom
                 out.certain += 1;
                 let mut r = r.clone();
                 r.probability_glassy = Some(1.0);
+                r.probability_from = Some("corner".into());
                 out.drawn.push(r);
             }
             Known::Unknown => {}
@@ -389,6 +518,7 @@ fn filled(r: &Row, p: &Propagation) -> Row {
     // above 100 mm, a nose after a day, a rate below the bound), so is that end.
     let point_vouched = r.vouched != Some(false);
     r.band_vouched = Some(p.band_vouched() && point_vouched);
+    r.probability_from = Some("draws".into());
     let mut beyond = p.beyond_vouching();
     if !point_vouched && p.critical_rate_p05_vouched {
         beyond.push(glassy_side_of_unvouched(p.critical_rate_p05_k_per_s));

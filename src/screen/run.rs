@@ -13,7 +13,7 @@ use super::candidate::{evaluate_candidate_with, Candidate, Pass, Row};
 use super::first_pass::{chunk_count, space_filling_rows};
 use super::limits::{Limit, LimitSummary};
 use super::polytope::ACTIVE_TOL_MOL_PCT;
-use super::probability::{select as select_by_probability, ProbabilityOutcome};
+use super::probability::{select as select_by_probability, PoolBound, ProbabilityOutcome};
 use super::problem::{ScreenProblem, Search};
 use super::refine::refine;
 use super::select::{objective_key, rank, Pools};
@@ -186,6 +186,27 @@ pub fn run(
     let chunks = chunk_count(search);
     let mut done = (0..chunks).filter(|&k| store.has_chunk(k)).count();
     let mut pools = Pools::new(problem, search);
+    // Ranked by probability, every feasible row also carries an upper bound
+    // on its probability, which orders the pool the Monte Carlo stage picks
+    // from (screen::probability::PoolBound).
+    let bound = if pools.wants_bounds() {
+        Some(PoolBound::new(problem)?)
+    } else {
+        None
+    };
+    let add = |pools: &mut Pools, rows: Vec<Row>| match &bound {
+        Some(b) => {
+            let bounds = b.bounds(problem, &rows);
+            for (r, u) in rows.into_iter().zip(bounds) {
+                pools.add_bounded(r, u);
+            }
+        }
+        None => {
+            for r in rows {
+                pools.add(r);
+            }
+        }
+    };
     for k in 0..chunks {
         // Stop between any two chunks, kept or not: reading back a long run's
         // chunks takes time too.
@@ -210,9 +231,7 @@ pub fn run(
             }
         };
         observer.rows(&rows)?;
-        for r in rows {
-            pools.add(r);
-        }
+        add(&mut pools, rows);
     }
     observer.first_pass_done();
     // Refinement of the best distinct seeds by penalised objective, dealt
@@ -260,9 +279,7 @@ pub fn run(
     if !refined.is_empty() {
         observer.rows(&refined)?;
     }
-    for r in refined {
-        pools.add(r);
-    }
+    add(&mut pools, refined);
     // The shortlist, one recipe at a time (docs/science.md, "The screen"):
     // the best feasible recipe; then, for each further place, a refinement
     // from the best seed at least the shortlist distance from every recipe
@@ -303,7 +320,7 @@ pub fn run(
                 }
             };
             observer.rows(std::slice::from_ref(&row))?;
-            pools.add(row);
+            add(&mut pools, vec![row]);
         }
         match pools.best_feasible_away(&away, d) {
             Some(next) => picks.push(next.clone()),
@@ -316,7 +333,8 @@ pub fn run(
     let mut summary = pools.tally().clone();
     let probability = match problem.uncertainty {
         Some(_) => {
-            let out = select_by_probability(problem, pools.feasible())?;
+            let (pool, let_go) = pools.probability_pool();
+            let out = select_by_probability(problem, &pool, let_go.as_ref())?;
             summary.reject_feasible(Limit::Probability, out.below_min);
             picks = out.picks.clone();
             Some(Box::new(out))
@@ -352,6 +370,7 @@ pub fn run(
             row.probability_glassy = r.probability_glassy;
             row.critical_rate_p05_k_per_s = r.critical_rate_p05_k_per_s;
             row.critical_rate_p95_k_per_s = r.critical_rate_p95_k_per_s;
+            row.probability_from = r.probability_from.clone();
             // Re-evaluated with the glassy slab, the point estimate knows
             // whether the model vouches for it; the band's 5 % end lies on
             // its glassy side (super::probability::filled).

@@ -84,7 +84,23 @@ pub(crate) struct Pools {
     keep: usize,
     by_objective: Vec<Row>,
     by_penalty: Vec<Row>,
+    /// Ranked by probability: the feasible rows by an upper bound on their
+    /// probability, highest first, then as every ranking breaks ties
+    /// (`probability::PoolBound`); every feasible row when the stage draws
+    /// them all.
+    by_bound: Option<Vec<(f64, Row)>>,
+    /// The best-ranked row `by_bound` let go, with its bound: every row
+    /// let go ranks at or after it.
+    first_dropped: Option<(f64, Row)>,
+    /// `by_bound` keeps every row (the full Monte Carlo).
+    keep_all: bool,
     tally: LimitSummary,
+}
+
+/// The order of the probability pool: the larger bound first, then as
+/// [`rank`] breaks ties (cost, melting temperature, pass, index).
+pub(crate) fn rank_by_bound(a: &(f64, Row), b: &(f64, Row)) -> Ordering {
+    b.0.total_cmp(&a.0).then_with(|| rank(&a.1, &b.1, |_| 0.0))
 }
 
 impl Pools {
@@ -94,12 +110,73 @@ impl Pools {
         // points sit close together; 200 per pick is ample for min distances of
         // a few mol%.
         let keep = 200 * (problem.shortlist_size.max(search.refine_from) + 1);
+        let by_probability = problem.objective == super::problem::ObjectiveKind::Probability
+            && problem.uncertainty.is_some();
         Pools {
             keep,
             by_objective: Vec::new(),
             by_penalty: Vec::new(),
+            by_bound: by_probability.then(Vec::new),
+            first_dropped: None,
+            keep_all: problem
+                .uncertainty
+                .is_some_and(|u| u.preselection == super::probability::Preselection::Full),
             tally: Default::default(),
         }
+    }
+
+    /// Whether rows need their probability bound ([`Pools::add_bounded`]).
+    pub(crate) fn wants_bounds(&self) -> bool {
+        self.by_bound.is_some()
+    }
+
+    /// [`Pools::add`], with the row's upper bound on its probability (for
+    /// the probability pool; feasible rows only).
+    pub(crate) fn add_bounded(&mut self, r: Row, bound: Option<f64>) {
+        if let (Some(v), Some(b), true) = (self.by_bound.as_mut(), bound, r.feasible) {
+            let mut kept = r.clone();
+            kept.warnings = String::new();
+            v.push((b, kept));
+            if !self.keep_all && v.len() > 2 * self.keep {
+                let d = truncate_by_bound(v, self.keep);
+                self.note_dropped(d);
+            }
+        }
+        self.add(r);
+    }
+
+    fn note_dropped(&mut self, d: Option<(f64, Row)>) {
+        if let Some(d) = d {
+            let better = self
+                .first_dropped
+                .as_ref()
+                .is_none_or(|f| rank_by_bound(&d, f) == Ordering::Less);
+            if better {
+                self.first_dropped = Some(d);
+            }
+        }
+    }
+
+    /// The feasible rows the Monte Carlo stage picks from: those kept by
+    /// objective and, ranked by probability, those kept by the bound; and
+    /// the best-ranked row the bound pool let go, with its bound (`None`
+    /// when it let none go).
+    pub(crate) fn probability_pool(&mut self) -> (Vec<Row>, Option<(f64, Row)>) {
+        let mut out: Vec<Row> = self.by_objective.clone();
+        if let Some(mut v) = self.by_bound.take() {
+            if !self.keep_all && v.len() > self.keep {
+                let d = truncate_by_bound(&mut v, self.keep);
+                self.note_dropped(d);
+            }
+            let mut seen: std::collections::HashSet<(bool, u64)> =
+                out.iter().map(|r| (r.refined, r.index)).collect();
+            for (_, r) in v {
+                if seen.insert((r.refined, r.index)) {
+                    out.push(r);
+                }
+            }
+        }
+        (out, self.first_dropped.clone())
     }
 
     /// Count a row and keep it if it may still be selected.
@@ -190,11 +267,6 @@ impl Pools {
     pub(crate) fn tally(&self) -> &LimitSummary {
         &self.tally
     }
-
-    /// The feasible rows kept (the best by objective, in no order).
-    pub(crate) fn feasible(&self) -> &[Row] {
-        &self.by_objective
-    }
 }
 
 /// Keep the `keep` best rows by key, in [`rank`] order.
@@ -204,4 +276,12 @@ fn push_bounded(v: &mut Vec<Row>, r: Row, keep: usize, key: impl Fn(&Row) -> f64
         v.sort_by(|a, b| rank(a, b, &key));
         v.truncate(keep);
     }
+}
+
+/// Keep the `keep` best rows by [`rank_by_bound`]; returns the best one let go.
+fn truncate_by_bound(v: &mut Vec<(f64, Row)>, keep: usize) -> Option<(f64, Row)> {
+    v.sort_by(rank_by_bound);
+    let first = v.get(keep).cloned();
+    v.truncate(keep);
+    first
 }

@@ -65,9 +65,35 @@ pub fn latin_hypercube(n: usize, dims: usize, seed: u64) -> Vec<Vec<f64>> {
     rows
 }
 
+/// The seed of row `row` (counted from 0) of a table evaluated with the
+/// seed `seed`: the (row + 1)-th number of the SplitMix64 stream started at
+/// `seed`, computed directly (the stream's n-th state is seed + n·γ). Each
+/// row gets its own draws, which depend only on the seed and the row's place
+/// in the file, never on the batch size or the thread count.
+pub fn row_seed(seed: u64, row: usize) -> u64 {
+    let mut r =
+        SplitMix64::new(seed.wrapping_add((row as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15)));
+    r.next_u64()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_row_seed_is_that_number_of_the_stream() {
+        // Source: SplitMix64's state advances by the constant γ per number
+        // (Steele, Lea & Flood 2014), so the n-th number is mix(seed + n·γ).
+        let mut r = SplitMix64::new(20_261_202);
+        let stream: Vec<u64> = (0..1000).map(|_| r.next_u64()).collect();
+        for (row, v) in stream.iter().enumerate() {
+            assert_eq!(row_seed(20_261_202, row), *v, "row {row}");
+        }
+        let mut seen: Vec<u64> = (0..1000).map(|i| row_seed(7, i)).collect();
+        seen.sort_unstable();
+        seen.dedup();
+        assert_eq!(seen.len(), 1000);
+    }
 
     #[test]
     fn every_stratum_holds_one_point_in_every_dimension() {
