@@ -534,3 +534,35 @@ fn eval_tables_write_each_column_once() {
     assert_eq!(floats(&df, "turnbull_alpha")[0], 0.33);
     assert!(head.contains(&"critical_rate_k_per_s"));
 }
+
+/// With `[uncertainty]` a snapped recipe's probability of a glass is drawn
+/// again and must still reach min_probability.
+#[test]
+fn a_snapped_probability_screen_keeps_the_least_probability() {
+    let d = temp_dir("snap-probability");
+    let demo =
+        std::fs::read_to_string(root().join("configs/demo-screen-probability.toml")).unwrap();
+    let text = demo
+        .replace("first_pass_points = 2048", "first_pass_points = 256")
+        .replace("refine_from = 6 ", "refine_from = 1 ")
+        .replace(
+            "[shortlist]\n",
+            "[shortlist]\nresolution_mol_pct = 0.5\nmin_amount_mol_pct = 0.2\n",
+        );
+    assert!(text.contains("resolution_mol_pct = 0.5") && text.contains("min_probability = 0.9"));
+    std::fs::write(d.join("p.toml"), &text).unwrap();
+    run_in(&d, &["screen", "p.toml", "--out", "out", "--no-report"])
+        .code(0)
+        .stdout_has("snapping to weighable amounts");
+    let short = parquet_rows(&d.join("out/shortlist.parquet"));
+    assert!(short.height() >= 1);
+    // Source: the config's own min_probability = 0.9 and grid.
+    for p in floats(&short, "probability_glassy") {
+        assert!(p >= 0.9, "P = {p}");
+    }
+    for o in ["Na2O", "CaO", "MgO", "K2O", "Al2O3", "B2O3"] {
+        for v in floats(&short, &format!("{o}_mol_pct")) {
+            assert!((v * 2.0 - (v * 2.0).round()).abs() < 1e-9, "{o} = {v}");
+        }
+    }
+}
