@@ -93,11 +93,19 @@ pub struct Evaluation {
     #[serde(skip_serializing_if = "Option::is_none")]
     pub melting_temperature_k: Option<f64>,
     #[serde(skip_serializing_if = "Option::is_none")]
+    pub melting_temperature_c: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub working_point_k: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub working_point_c: Option<f64>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub softening_point_k: Option<f64>,
     #[serde(skip_serializing_if = "Option::is_none")]
+    pub softening_point_c: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub strain_point_k: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub strain_point_c: Option<f64>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub reduced_glass_transition: Option<f64>,
     pub fragility: f64,
@@ -361,9 +369,13 @@ fn base(
         glass_transition_k: s.glass_transition.0,
         glass_transition_c: s.glass_transition.to_celsius().0,
         melting_temperature_k: None,
+        melting_temperature_c: None,
         working_point_k: None,
+        working_point_c: None,
         softening_point_k: None,
+        softening_point_c: None,
         strain_point_k: None,
+        strain_point_c: None,
         reduced_glass_transition: None,
         fragility: melt.viscosity.fragility().unwrap_or(f64::NAN),
         freeze_temperature_k: s.freeze_temperature.0,
@@ -486,9 +498,13 @@ impl Evaluation {
         .chain(
             [
                 opt("melting_temperature_k", self.melting_temperature_k),
+                opt("melting_temperature_c", self.melting_temperature_c),
                 opt("working_point_k", self.working_point_k),
+                opt("working_point_c", self.working_point_c),
                 opt("softening_point_k", self.softening_point_k),
+                opt("softening_point_c", self.softening_point_c),
                 opt("strain_point_k", self.strain_point_k),
+                opt("strain_point_c", self.strain_point_c),
                 opt("reduced_glass_transition", self.reduced_glass_transition),
                 opt("max_glassy_thickness_mm", self.max_glassy_thickness_mm),
             ]
@@ -610,6 +626,11 @@ pub fn evaluate_composition(
     e.working_point_k = Some(props.working_point.0);
     e.softening_point_k = Some(props.softening_point.0);
     e.strain_point_k = Some(props.strain_point.0);
+    // Every fixpoint in °C too (the config and the lab speak °C).
+    e.melting_temperature_c = Some(props.melting_temperature.to_celsius().0);
+    e.working_point_c = Some(props.working_point.to_celsius().0);
+    e.softening_point_c = Some(props.softening_point.to_celsius().0);
+    e.strain_point_c = Some(props.strain_point.to_celsius().0);
     e.reduced_glass_transition = Some(props.reduced_glass_transition);
     e.fragility = props.fragility;
     e.viscosity_extrapolated = !props.viscosity_flags.is_empty();

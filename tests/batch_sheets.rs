@@ -247,7 +247,7 @@ fn a_table_of_recipes_gives_one_sheet_each_and_names_the_row_without_one() {
         .stdout_has("=== window B (2 of 3) ===")
         .stdout_has("=== needs titania (3 of 3) ===")
         .stdout_has("no sheet: no raw material supplies TiO2")
-        .stderr_has("1 of 3 recipes have no batch sheet: needs titania");
+        .stderr_has("1 of 3 recipes has no batch sheet: needs titania");
     assert_eq!(
         r.stdout.matches("batch for 0.200 kg of glass").count(),
         2,

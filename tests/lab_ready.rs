@@ -105,3 +105,464 @@ fn screen_tables_give_each_temperature_in_celsius_beside_kelvin() {
         assert!(head.contains(&format!("{t}_k,{t}_c")), "{head}");
     }
 }
+
+/// `screen::SMALL` with recipes snapped to a 0.5 mol% grid, amounts below
+/// 0.2 mol% left out, and 200 g batch sheets.
+fn snapped_small() -> String {
+    crate::screen::SMALL.replace(
+        "min_distance_mol_pct = 1.5\n",
+        "min_distance_mol_pct = 1.5\nresolution_mol_pct = 0.5\nmin_amount_mol_pct = 0.2\n\n[batch]\nglass_kg = 0.2\n",
+    )
+}
+
+fn parquet_rows(path: &std::path::Path) -> polars::prelude::DataFrame {
+    quenchwise::files::table::read_frame(path).unwrap()
+}
+
+fn floats(df: &polars::prelude::DataFrame, c: &str) -> Vec<f64> {
+    df.column(c)
+        .unwrap()
+        .cast(&polars::prelude::DataType::Float64)
+        .unwrap()
+        .f64()
+        .unwrap()
+        .iter()
+        .map(|v| v.unwrap_or(f64::NAN))
+        .collect()
+}
+
+/// The snapping rule (docs/science.md, "Snapping the shortlist"): each oxide
+/// but the balance one to a neighbouring grid point, amounts below the
+/// minimum to zero, the balance oxide takes the rest; nearest first.
+#[test]
+fn snapping_rounds_to_the_grid_drops_traces_and_closes_the_sum() {
+    use quenchwise::composition::{Oxide, N_OXIDES};
+    use quenchwise::screen::snap::snapped_neighbours;
+    let d = temp_dir("snap-rule");
+    std::fs::write(d.join("s.toml"), snapped_small()).unwrap();
+    let plan = quenchwise::files::screen_config::load(&d.join("s.toml")).unwrap();
+    let mut x = [0.0; N_OXIDES];
+    x[Oxide::SiO2.index()] = 76.32;
+    x[Oxide::Na2O.index()] = 13.13;
+    x[Oxide::CaO.index()] = 10.4;
+    x[Oxide::Al2O3.index()] = 0.15;
+    let n = snapped_neighbours(&plan.problem, &x);
+    // Three free oxides (SiO2 has the widest range and is the balance), two
+    // grid points each; Al2O3's 0 and 0.5 (0.15 < 0.2 goes to 0 anyway).
+    assert_eq!(n.len(), 8, "{n:?}");
+    let first = n[0];
+    // Source: the rule itself, worked by hand: 13.13 → 13.0, 10.4 → 10.5,
+    // 0.15 → 0, SiO2 = 100 − 23.5 = 76.5.
+    assert_eq!(first[Oxide::Na2O.index()], 13.0);
+    assert_eq!(first[Oxide::CaO.index()], 10.5);
+    assert_eq!(first[Oxide::Al2O3.index()], 0.0);
+    assert_eq!(first[Oxide::SiO2.index()], 76.5);
+    for p in &n {
+        let sum: f64 = p.iter().sum();
+        assert!((sum - 100.0).abs() < 1e-9, "{p:?}");
+        for v in p {
+            assert!((v * 2.0 - (v * 2.0).round()).abs() < 1e-9, "{p:?}");
+        }
+    }
+    let d2 = |p: &[f64; N_OXIDES]| -> f64 { p.iter().zip(&x).map(|(a, b)| (a - b).powi(2)).sum() };
+    assert!(n.windows(2).all(|w| d2(&w[0]) <= d2(&w[1])));
+}
+
+/// A snapped screen: every shortlisted amount on the grid, no trace below
+/// the minimum, sums of 100 mol%, ranges kept, and every recipe meets every
+/// limit when evaluated again independently; summary.txt counts what was
+/// kept and dropped.
+#[test]
+fn a_snapped_shortlist_can_be_weighed_and_still_passes() {
+    use quenchwise::assess::{evaluate_composition, Calibration};
+    use quenchwise::composition::{Basis, Composition};
+    let d = temp_dir("snap-screen");
+    std::fs::write(d.join("s.toml"), snapped_small()).unwrap();
+    let r = run_in(&d, &["screen", "s.toml", "--out", "out", "--no-report"]);
+    r.code(0).stdout_has("snapping to weighable amounts");
+    let plan = quenchwise::files::screen_config::load(&d.join("s.toml")).unwrap();
+    let short = parquet_rows(&d.join("out/shortlist.parquet"));
+    assert!(short.height() >= 1);
+    let summary = std::fs::read_to_string(d.join("out/summary.txt")).unwrap();
+    let dropped = summary.matches("\n  dropped: place").count();
+    assert!(
+        summary.contains(&format!(
+            "{} of 4 shortlisted recipes kept, {dropped} dropped",
+            short.height()
+        )),
+        "{summary}"
+    );
+    let oxides = [
+        ("SiO2", 66.0, 78.0),
+        ("Na2O", 11.0, 17.0),
+        ("CaO", 7.0, 13.0),
+        ("Al2O3", 0.0, 3.0),
+    ];
+    for i in 0..short.height() {
+        let mut sum = 0.0;
+        let mut text = String::new();
+        for (o, lo, hi) in oxides {
+            let v = floats(&short, &format!("{o}_mol_pct"))[i];
+            // Source: the config's own grid, minimum and ranges.
+            assert!((v * 2.0 - (v * 2.0).round()).abs() < 1e-9, "{o} = {v}");
+            assert!(v == 0.0 || v >= 0.2, "{o} = {v}");
+            assert!(v >= lo - 1e-9 && v <= hi + 1e-9, "{o} = {v}");
+            sum += v;
+            text.push_str(&format!("{o}={v} "));
+        }
+        assert!((sum - 100.0).abs() < 1e-9, "{text}");
+        // Independent re-evaluation through the public chain: the limits of
+        // screen::SMALL worked by hand (R_c ≤ 2/10 K/s, melting temperature
+        // ≤ 1460 °C, liquidus ≤ 1480 − 465 = 1015 °C, cost ≤ 0.24).
+        let c = Composition::parse(text.trim(), Basis::MolPercent, 1e-6).unwrap();
+        let e = evaluate_composition(
+            &plan.problem.models,
+            &c,
+            &plan.problem.kinetic_options,
+            None,
+            &Calibration::None,
+        )
+        .unwrap();
+        assert!(e.critical_rate_k_per_s <= 0.2, "{text}");
+        assert!(
+            e.melting_temperature_k.unwrap() <= 1460.0 + 273.15,
+            "{text}"
+        );
+        assert!(e.liquidus_k <= 1015.0 + 273.15, "{text}");
+        let cost = plan.problem.cost.as_ref().unwrap();
+        assert!(cost.model.cost_per_kg_glass(&c).unwrap() <= 0.24, "{text}");
+        let na_ca = floats(&short, "Na2O_mol_pct")[i] + floats(&short, "CaO_mol_pct")[i];
+        assert!(na_ca <= 26.0 + 1e-9, "{text}");
+    }
+    // Without the keys the shortlist is what the optimiser found: off the grid.
+    std::fs::write(d.join("plain.toml"), crate::screen::SMALL).unwrap();
+    run_in(
+        &d,
+        &["screen", "plain.toml", "--out", "plain", "--no-report"],
+    )
+    .code(0);
+    let plain = parquet_rows(&d.join("plain/shortlist.parquet"));
+    let off_grid = (0..plain.height()).any(|i| {
+        let v = floats(&plain, "Na2O_mol_pct")[i];
+        (v * 2.0 - (v * 2.0).round()).abs() > 1e-6
+    });
+    assert!(
+        off_grid,
+        "the unsnapped shortlist happens to lie on the grid"
+    );
+    assert!(!std::fs::read_to_string(d.join("plain/summary.txt"))
+        .unwrap()
+        .contains("snapping"));
+}
+
+#[test]
+fn snapping_and_batch_keys_are_checked_with_their_line() {
+    let d = temp_dir("snap-config");
+    for (from, to, says) in [
+        (
+            "resolution_mol_pct = 0.5",
+            "resolution_mol_pct = 0.3",
+            "divide 100 mol% into whole steps",
+        ),
+        (
+            "resolution_mol_pct = 0.5",
+            "resolution_mol_pct = -1.0",
+            "resolution_mol_pct must lie in (0, 10]",
+        ),
+        (
+            "min_amount_mol_pct = 0.2",
+            "min_amount_mol_pct = 20.0",
+            "min_amount_mol_pct must lie in [0, 10]",
+        ),
+        (
+            "glass_kg = 0.2",
+            "glass_kg = 0.0",
+            "[batch] glass_kg must lie in (0, 1000]",
+        ),
+    ] {
+        let text = snapped_small().replace(from, to);
+        assert!(text.contains(to));
+        std::fs::write(d.join("bad.toml"), &text).unwrap();
+        let line = text.lines().position(|l| l.starts_with(to)).unwrap() + 1;
+        run_in(&d, &["check", "bad.toml"])
+            .code(2)
+            .stderr_has(&format!("bad.toml:{line}"))
+            .stderr_has(says);
+    }
+}
+
+/// `[batch] glass_kg` sets the mass of the screen's batch sheets and of
+/// `eval --against` sheets; the same recipe's `batch --glass-kg` sheet is
+/// the reference.
+#[test]
+fn batch_sheets_weigh_out_the_configured_glass_mass() {
+    let d = temp_dir("snap-batch");
+    std::fs::write(d.join("s.toml"), snapped_small()).unwrap();
+    run_in(&d, &["screen", "s.toml", "--out", "out", "--no-report"]).code(0);
+    let sheet = std::fs::read_to_string(d.join("out/batch-sheets/rank-01.txt")).unwrap();
+    assert!(sheet.contains("batch for 0.200 kg of glass"), "{sheet}");
+    let csv = std::fs::read_to_string(d.join("out/batch-sheets/rank-01.csv")).unwrap();
+    assert!(csv.starts_with("raw_material,mass_kg,cost\n"), "{csv}");
+    let total: f64 = csv
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').nth(1).unwrap().parse::<f64>().unwrap())
+        .sum();
+    // The same recipe through `batch` for 0.2 kg (Source: conservation of
+    // mass; the batch command's own sheet, written to 1e-6 kg).
+    let short = parquet_rows(&d.join("out/shortlist.parquet"));
+    let mol: Vec<String> = ["SiO2", "Na2O", "CaO", "Al2O3"]
+        .iter()
+        .map(|o| format!("{o}={}", floats(&short, &format!("{o}_mol_pct"))[0]))
+        .collect();
+    let b = run_in(
+        &d,
+        &[
+            "batch",
+            "--mol",
+            &mol.join(" "),
+            "--glass-kg",
+            "0.2",
+            "--csv",
+        ],
+    );
+    b.code(0);
+    let reference: f64 = b
+        .stdout
+        .lines()
+        .skip(1)
+        .filter_map(|l| l.split(',').nth(1)?.parse::<f64>().ok())
+        .sum();
+    assert!((total - reference).abs() < 1e-5, "{total} vs {reference}");
+    assert!(
+        total > 0.2 && total < 0.3,
+        "{total} kg of batch for 0.2 kg of glass"
+    );
+    // eval --against writes its sheets for the same mass.
+    std::fs::write(
+        d.join("mine.csv"),
+        format!(
+            "name,SiO2,Na2O,CaO,Al2O3\nmine,{}\n",
+            ["SiO2", "Na2O", "CaO", "Al2O3"]
+                .iter()
+                .map(|o| floats(&short, &format!("{o}_mol_pct"))[0].to_string())
+                .collect::<Vec<_>>()
+                .join(",")
+        ),
+    )
+    .unwrap();
+    run_in(
+        &d,
+        &[
+            "eval",
+            "--compositions",
+            "mine.csv",
+            "--against",
+            "s.toml",
+            "--out",
+            "checked.csv",
+        ],
+    )
+    .code(0)
+    .stdout_has("0.2 kg of glass each");
+    let sheets = std::fs::read_to_string(d.join("checked-batch-sheets.txt")).unwrap();
+    assert!(sheets.contains("batch for 0.200 kg of glass"), "{sheets}");
+}
+
+/// shortlist.csv: identity, composition (mol% then wt%), the decisive
+/// numbers, the rest, warnings last; numbers rounded to meaningful digits
+/// (Parquet keeps every digit); a warning on every row stated once in
+/// summary.txt with a code per row.
+#[test]
+fn the_shortlist_csv_reads_well_and_parquet_keeps_every_digit() {
+    let d = temp_dir("csv-digits");
+    std::fs::write(d.join("small.toml"), crate::screen::SMALL).unwrap();
+    run_in(&d, &["screen", "small.toml", "--out", "out", "--no-report"]).code(0);
+    let full = parquet_rows(&d.join("out/shortlist.parquet"));
+    let csv = quenchwise::files::table::read_frame(&d.join("out/shortlist.csv")).unwrap();
+    let names: Vec<String> = csv
+        .get_column_names()
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
+    let at = |n: &str| {
+        names
+            .iter()
+            .position(|c| c == n)
+            .unwrap_or_else(|| panic!("{n}: {names:?}"))
+    };
+    assert_eq!(at("rank"), 0);
+    assert!(at("Al2O3_mol_pct") < at("SiO2_wt_pct"));
+    assert!(at("Al2O3_wt_pct") < at("margin_decades"));
+    assert!(at("margin_decades") < at("critical_rate_k_per_s"));
+    assert!(at("cost_per_kg") < at("melting_temperature_k"));
+    assert_eq!(at("warnings"), names.len() - 1);
+    // Source: common practice for rounding: half a unit of the last digit.
+    let close = |c: &str, half: f64| {
+        for (a, b) in floats(&csv, c).iter().zip(floats(&full, c)) {
+            assert!((a - b).abs() <= half * (1.0 + 1e-9), "{c}: {a} vs {b}");
+        }
+    };
+    close("SiO2_mol_pct", 0.005);
+    close("Na2O_wt_pct", 0.005);
+    close("liquidus_c", 0.05);
+    close("melting_temperature_k", 0.05);
+    for (a, b) in floats(&csv, "critical_rate_k_per_s")
+        .iter()
+        .zip(floats(&full, "critical_rate_k_per_s"))
+    {
+        assert!(
+            (a - b).abs() <= 0.5e-3 * b.abs(),
+            "{a} vs {b}: 4 significant figures"
+        );
+        assert_eq!(format!("{a:.3e}").parse::<f64>().unwrap(), *a);
+    }
+    // The Parquet file is not rounded (the optimiser's amounts are not on a
+    // 0.01 grid).
+    assert!(floats(&full, "SiO2_mol_pct")
+        .iter()
+        .any(|v| (v * 100.0 - (v * 100.0).round()).abs() > 1e-6));
+    // wt% from mol% with molar masses (Source: IUPAC standard atomic weights,
+    // from memory: SiO2 60.08, Na2O 61.98, CaO 56.08, Al2O3 101.96 g/mol).
+    let m = [
+        ("SiO2", 60.08),
+        ("Na2O", 61.98),
+        ("CaO", 56.08),
+        ("Al2O3", 101.96),
+    ];
+    for i in 0..full.height() {
+        let mass: f64 = m
+            .iter()
+            .map(|(o, mm)| floats(&full, &format!("{o}_mol_pct"))[i] * mm)
+            .sum();
+        for (o, mm) in m {
+            let wt = floats(&full, &format!("{o}_mol_pct"))[i] * mm / mass * 100.0;
+            let got = floats(&full, &format!("{o}_wt_pct"))[i];
+            assert!((wt - got).abs() < 0.01, "{o}: {wt} vs {got}");
+        }
+    }
+    // The demo set's two warnings sit on every row: once in summary.txt, a
+    // code in the CSV, the full text in Parquet.
+    let summary = std::fs::read_to_string(d.join("out/summary.txt")).unwrap();
+    assert!(
+        summary.contains("warnings on every shortlisted recipe"),
+        "{summary}"
+    );
+    assert!(
+        summary.contains("  W1: model set 'demo-soda-lime' has invented coefficients"),
+        "{summary}"
+    );
+    let w: Vec<String> = csv
+        .column("warnings")
+        .unwrap()
+        .str()
+        .unwrap()
+        .iter()
+        .map(|s| s.unwrap_or("").to_string())
+        .collect();
+    assert!(w.iter().all(|w| w.starts_with("W1; W2")), "{w:?}");
+    let wf: Vec<String> = full
+        .column("warnings")
+        .unwrap()
+        .str()
+        .unwrap()
+        .iter()
+        .map(|s| s.unwrap_or("").to_string())
+        .collect();
+    assert!(wf.iter().all(|w| w.starts_with("model set")), "{wf:?}");
+}
+
+#[test]
+fn every_json_fixpoint_is_also_in_celsius() {
+    // Source: ISO 80000-5 / SI brochure (9th ed.): t/°C = T/K − 273.15.
+    let d = temp_dir("json-celsius");
+    let j = run_in(
+        &d,
+        &["eval", "--mol", "SiO2=72 Na2O=14 CaO=10 Al2O3=4", "--json"],
+    )
+    .code(0)
+    .json();
+    for t in [
+        "melting_temperature",
+        "working_point",
+        "softening_point",
+        "strain_point",
+        "glass_transition",
+        "liquidus",
+        "nose_temperature",
+    ] {
+        let k = j[format!("{t}_k")]
+            .as_f64()
+            .unwrap_or_else(|| panic!("{t}_k: {j}"));
+        let c = j[format!("{t}_c")]
+            .as_f64()
+            .unwrap_or_else(|| panic!("{t}_c: {j}"));
+        assert!((k - 273.15 - c).abs() < 1e-9, "{t}: {k} K, {c} °C");
+    }
+}
+
+/// An `eval` table repeats no input column with an `_out` twin: a result
+/// named like an input column (a melt card's liquidus_k, turnbull_alpha)
+/// takes its place with the value in force.
+#[test]
+fn eval_tables_write_each_column_once() {
+    let d = temp_dir("no-out-columns");
+    let cards = root().join("demo-datasets/melt-cards.csv");
+    run_in(
+        &d,
+        &[
+            "eval",
+            "--melt-cards",
+            cards.to_str().unwrap(),
+            "--out",
+            "m.csv",
+        ],
+    )
+    .code(0);
+    let text = std::fs::read_to_string(d.join("m.csv")).unwrap();
+    let head: Vec<&str> = text.lines().next().unwrap().split(',').collect();
+    assert!(!head.iter().any(|c| c.ends_with("_out")), "{head:?}");
+    let mut unique = head.clone();
+    unique.sort();
+    unique.dedup();
+    assert_eq!(unique.len(), head.len(), "{head:?}");
+    // Source: demo-datasets/melt-cards.csv (its own first row: liquidus_k
+    // 1300, turnbull_alpha 0.33); one crystal, so the liquidus in force is
+    // the card's.
+    let df = quenchwise::files::table::read_frame(&d.join("m.csv")).unwrap();
+    assert_eq!(floats(&df, "liquidus_k")[0], 1300.0);
+    assert_eq!(floats(&df, "turnbull_alpha")[0], 0.33);
+    assert!(head.contains(&"critical_rate_k_per_s"));
+}
+
+/// With `[uncertainty]` a snapped recipe's probability of a glass is drawn
+/// again and must still reach min_probability.
+#[test]
+fn a_snapped_probability_screen_keeps_the_least_probability() {
+    let d = temp_dir("snap-probability");
+    let demo =
+        std::fs::read_to_string(root().join("configs/demo-screen-probability.toml")).unwrap();
+    let text = demo
+        .replace("first_pass_points = 2048", "first_pass_points = 256")
+        .replace("refine_from = 6 ", "refine_from = 1 ")
+        .replace(
+            "[shortlist]\n",
+            "[shortlist]\nresolution_mol_pct = 0.5\nmin_amount_mol_pct = 0.2\n",
+        );
+    assert!(text.contains("resolution_mol_pct = 0.5") && text.contains("min_probability = 0.9"));
+    std::fs::write(d.join("p.toml"), &text).unwrap();
+    run_in(&d, &["screen", "p.toml", "--out", "out", "--no-report"])
+        .code(0)
+        .stdout_has("snapping to weighable amounts");
+    let short = parquet_rows(&d.join("out/shortlist.parquet"));
+    assert!(short.height() >= 1);
+    // Source: the config's own min_probability = 0.9 and grid.
+    for p in floats(&short, "probability_glassy") {
+        assert!(p >= 0.9, "P = {p}");
+    }
+    for o in ["Na2O", "CaO", "MgO", "K2O", "Al2O3", "B2O3"] {
+        for v in floats(&short, &format!("{o}_mol_pct")) {
+            assert!((v * 2.0 - (v * 2.0).round()).abs() < 1e-9, "{o} = {v}");
+        }
+    }
+}

@@ -77,24 +77,38 @@ fn the_readme_demo_screen_runs_and_ranks_by_cost() {
             "demo-screen-results",
         ],
     );
+    // The demo snaps its 8 recipes to a 0.5 mol% grid and keeps those that
+    // still pass: the summary says how many.
     r.code(0)
-        .stdout_has("8 shortlisted")
+        .stdout_has("of 8 shortlisted recipes kept")
         .stdout_has(
             "nucleation: in the volume (homogeneous) + 1.00e9 pre-existing nuclei/m³ of each phase",
         )
         .stdout_has("report:");
+    let kept: usize = r
+        .stdout
+        .split("replaces each one: ")
+        .nth(1)
+        .and_then(|t| t.split(' ').next())
+        .and_then(|n| n.parse().ok())
+        .expect("a count of the recipes snapping kept");
+    assert!(kept >= 1, "{}", r.stdout);
     let out = d.join("demo-screen-results");
     for f in [
         "shortlist.csv",
         "report.html",
-        "batch-sheets/rank-08.txt",
+        &format!("batch-sheets/rank-{kept:02}.txt"),
         "summary.txt",
     ] {
         assert!(out.join(f).exists(), "missing {f}");
     }
+    assert!(!out
+        .join(format!("batch-sheets/rank-{:02}.txt", kept + 1))
+        .exists());
     let rows: Vec<serde_json::Value> =
         serde_json::from_str(&std::fs::read_to_string(out.join("shortlist.json")).unwrap())
             .unwrap();
+    assert_eq!(rows.len(), kept);
     let cost = col(&rows, "cost_per_kg");
     assert!(non_decreasing(&cost), "{cost:?}");
     assert!(cost.iter().all(|c| *c <= 0.40), "{cost:?}");

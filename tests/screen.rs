@@ -595,7 +595,8 @@ fn each_place_is_refined_and_beats_the_first_pass_pick() {
             .iter()
             .map(|b| b.unwrap())
             .collect();
-        let short = read_frame(&out.join("shortlist.csv")).unwrap();
+        // Every digit: the Parquet file (the CSV file is rounded).
+        let short = read_frame(&out.join("shortlist.parquet")).unwrap();
         let sx = xs(&short);
         let binding: Vec<String> = short
             .column("binding")

@@ -11,6 +11,7 @@ use quenchwise::assess::SlabQuench;
 use quenchwise::batch::least_cost_batch;
 use quenchwise::composition::Basis;
 use quenchwise::error::Error;
+use quenchwise::files::results::csv_frame;
 use quenchwise::files::screen_config::load;
 use quenchwise::files::table::write_frame;
 use quenchwise::report::sig;
@@ -51,14 +52,23 @@ pub fn against(
     progress.finish();
     let mut df = frame(&glasses, &checks)
         .map_err(|e| Error::internal(format!("assembling the results table: {e}")))?;
+    if out
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("csv"))
+    {
+        // A CSV file shows meaningful digits; Parquet keeps every one.
+        df = csv_frame(&df, &[])
+            .map_err(|e| Error::internal(format!("rounding the results table: {e}")))?;
+    }
     write_frame(out, &mut df)?;
-    // Batch sheets, for 1 kg of glass, where the config prices glasses.
+    // Batch sheets, for the config's [batch] glass_kg, where it prices glasses.
+    let glass_kg = plan.batch_glass_kg;
     let sheets_path = plan.batch_model.as_ref().map(|model| {
         let mut text = String::new();
         for (i, g) in glasses.iter().enumerate() {
             text.push_str(&format!("=== {} ===\n", glass_label(g, i)));
             match &g.composition {
-                Ok(c) => match least_cost_batch(&model.raws, c, 1.0, &model.settings) {
+                Ok(c) => match least_cost_batch(&model.raws, c, glass_kg, &model.settings) {
                     Ok(b) => {
                         let label = problem.cost.as_ref().map_or("", |c| c.label.as_str());
                         text.push_str(&batch_text(&b, c, label));
@@ -79,7 +89,7 @@ pub fn against(
         &checks,
         config,
         out,
-        sheets_path.as_ref().map(|s| &s.0),
+        sheets_path.as_ref().map(|s| (&s.0, glass_kg)),
     );
     std::io::stdout()
         .lock()
@@ -218,7 +228,7 @@ fn summary(
     checks: &[Result<RecipeCheck, String>],
     config: &Path,
     out: &Path,
-    sheets: Option<&PathBuf>,
+    sheets: Option<(&PathBuf, f64)>,
 ) -> String {
     let mut s = format!(
         "recipes checked against the limits of {}\n\n{:<28} {:<6} {}\n",
@@ -256,9 +266,9 @@ fn summary(
         if passed == 1 { "passes" } else { "pass" },
         out.display()
     ));
-    if let Some(p) = sheets {
+    if let Some((p, kg)) = sheets {
         s.push_str(&format!(
-            "batch sheets (1 kg of glass each): {}\n",
+            "batch sheets ({kg} kg of glass each, [batch] glass_kg): {}\n",
             p.display()
         ));
     }

@@ -14,7 +14,7 @@ use quenchwise::files::raw_materials::read_raw_materials;
 use quenchwise::files::recipe::parse_named_recipe;
 use quenchwise::files::source::{read_text, Source};
 use quenchwise::files::table::read_composition_table;
-use quenchwise::report::text::{batch_csv, batch_text, DEMO_SHELF_LABEL};
+use quenchwise::report::text::{batch_csv, batch_text, count, DEMO_SHELF_LABEL};
 use std::io::Write;
 
 /// One glass to batch: its name (where it has one) and composition, or why
@@ -167,9 +167,10 @@ pub fn batch(a: BatchArgs) -> Result<Outcome, Error> {
         Ok(Outcome::Finished)
     } else {
         Err(Error::bad_input(format!(
-            "{} of {} recipes have no batch sheet: {} (the reason is on each sheet)",
+            "{} of {} {} no batch sheet: {} (the reason is on each sheet)",
             failed.len(),
-            sheets.len(),
+            count(sheets.len(), "recipe", "recipes"),
+            if failed.len() == 1 { "has" } else { "have" },
             failed.join(", ")
         )))
     }

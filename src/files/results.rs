@@ -10,7 +10,9 @@ use crate::composition::{Composition, Oxide, N_OXIDES};
 use crate::error::{Error, ResultExt};
 use crate::report::html::{ReportRecipe, ScreenReport};
 use crate::report::plot::{ProbabilityPoint, TradePoint};
-use crate::report::records::{fields, oxide_column, oxide_of_column, Cell};
+use crate::report::records::{
+    csv_digits, fields, oxide_column, oxide_of_column, oxide_wt_column, Cell, Digits,
+};
 use crate::report::text::{batch_csv, batch_text, evaluation_text};
 use crate::screen::{evaluate_candidate_with, Pass, Row, ScreenProblem, Shortlisted};
 use crate::units::kelvin_to_celsius;
@@ -19,6 +21,9 @@ use std::path::{Path, PathBuf};
 
 /// The table of every recipe a screen's Monte Carlo stage drew.
 pub const DRAWN_TABLE: &str = "drawn-recipes.csv";
+/// The shortlist with every digit (what `report` reads back; the CSV file
+/// is rounded to meaningful digits).
+pub const SHORTLIST_FULL: &str = "shortlist.parquet";
 
 /// The screen's table of rows: `rank` and the result columns for the
 /// shortlist; index, pass, feasibility, broken limits, objective, the result
@@ -82,6 +87,18 @@ pub(crate) fn rows_frame_with(
                 .collect::<Vec<_>>(),
         ));
     }
+    if with_rank {
+        // What a person weighs: the same recipe in wt%.
+        let wt: Vec<Option<[f64; N_OXIDES]>> = rows.iter().map(|r| wt_percent(r)).collect();
+        for (o, ..) in &problem.oxides {
+            cols.push(Column::new(
+                oxide_wt_column(*o).into(),
+                wt.iter()
+                    .map(|w| w.map(|w| w[o.index()]))
+                    .collect::<Vec<_>>(),
+            ));
+        }
+    }
     for f in fields(probability) {
         let cells: Vec<Cell> = rows.iter().map(|r| (f.get)(r)).collect();
         let col = if cells.iter().all(|c| matches!(c, Cell::Num(_))) {
@@ -130,6 +147,104 @@ pub(crate) fn rows_frame_with(
     DataFrame::new_infer_height(cols)
 }
 
+/// A row's composition in wt% (None if it is not a composition).
+fn wt_percent(r: &Row) -> Option<[f64; N_OXIDES]> {
+    Composition::from_mol_percent_array(&r.composition(), 1e-3)
+        .ok()
+        .map(|c| c.wt_percent())
+}
+
+/// A number rounded to the digits a CSV column shows ([`csv_digits`]);
+/// Parquet and JSON keep every digit.
+fn rounded(x: f64, d: Digits) -> f64 {
+    if !x.is_finite() || x == 0.0 {
+        return x;
+    }
+    match d {
+        Digits::Decimals(n) => {
+            let f = 10f64.powi(n);
+            let r = (x * f).round() / f;
+            // No "-0" in a table.
+            if r == 0.0 {
+                0.0
+            } else {
+                r
+            }
+        }
+        Digits::Significant(n) => format!("{:.*e}", n.saturating_sub(1), x)
+            .parse()
+            .unwrap_or(x),
+    }
+}
+
+/// The frame as a CSV file shows it: every number column rounded to its
+/// meaningful digits ([`csv_digits`]), and the warnings every row carries
+/// replaced by their codes (`codes`: text → code; the legend goes to
+/// summary.txt).
+///
+/// # Errors
+/// Polars refuses a column.
+pub fn csv_frame(df: &DataFrame, codes: &[(String, String)]) -> PolarsResult<DataFrame> {
+    let mut cols: Vec<Column> = Vec::with_capacity(df.width());
+    for c in df.columns() {
+        let name = c.name().to_string();
+        let col = match (csv_digits(&name), c.dtype()) {
+            (Some(d), DataType::Float64) => {
+                let v: Vec<Option<f64>> =
+                    c.f64()?.iter().map(|x| x.map(|x| rounded(x, d))).collect();
+                Column::new(name.as_str().into(), v)
+            }
+            (_, DataType::String) if name == "warnings" && !codes.is_empty() => {
+                let v: Vec<Option<String>> = c
+                    .str()?
+                    .iter()
+                    .map(|w| w.map(|w| coded_warnings(w, codes)))
+                    .collect();
+                Column::new(name.as_str().into(), v)
+            }
+            _ => c.clone(),
+        };
+        cols.push(col);
+    }
+    DataFrame::new_infer_height(cols)
+}
+
+/// The warnings every one of several rows carries, each with its code
+/// (`W1`, `W2`, ... in the order of the first row): stated once in the
+/// summary, written as the code in each row of the CSV file.
+pub(crate) fn common_warnings(rows: &[&Row]) -> Vec<(String, String)> {
+    if rows.len() < 2 {
+        return Vec::new();
+    }
+    let split = |w: &str| -> Vec<String> {
+        w.split("; ")
+            .filter(|p| !p.is_empty())
+            .map(str::to_string)
+            .collect()
+    };
+    let first = split(&rows[0].warnings);
+    first
+        .into_iter()
+        .filter(|w| rows.iter().all(|r| split(&r.warnings).contains(w)))
+        .enumerate()
+        .map(|(i, w)| (w, format!("W{}", i + 1)))
+        .collect()
+}
+
+/// A row's warnings with the common ones replaced by their codes.
+fn coded_warnings(w: &str, codes: &[(String, String)]) -> String {
+    w.split("; ")
+        .filter(|p| !p.is_empty())
+        .map(|p| {
+            codes
+                .iter()
+                .find(|(t, _)| t == p)
+                .map_or(p, |(_, c)| c.as_str())
+        })
+        .collect::<Vec<_>>()
+        .join("; ")
+}
+
 /// The shortlist as JSON: one object per recipe with its rank, the oxide
 /// columns and the result columns.
 pub(crate) fn shortlist_json(problem: &ScreenProblem, rows: &[&Row]) -> String {
@@ -141,6 +256,11 @@ pub(crate) fn shortlist_json(problem: &ScreenProblem, rows: &[&Row]) -> String {
             m.insert("rank".into(), (i + 1).into());
             for (o, ..) in &problem.oxides {
                 m.insert(oxide_column(*o), r.mol_pct[o.index()].into());
+            }
+            if let Some(wt) = wt_percent(r) {
+                for (o, ..) in &problem.oxides {
+                    m.insert(oxide_wt_column(*o), wt[o.index()].into());
+                }
             }
             for f in fields(problem.uncertainty.is_some()) {
                 let v = match (f.get)(r) {
@@ -161,9 +281,9 @@ fn batch_sheet(plan: &RunPlan, comp: &Composition) -> Result<Option<(String, Str
     let (Some(model), Some(limit)) = (&plan.batch_model, &plan.problem.cost) else {
         return Ok(None);
     };
-    let b = least_cost_batch(&model.raws, comp, 1.0, &model.settings)?;
+    let b = least_cost_batch(&model.raws, comp, plan.batch_glass_kg, &model.settings)?;
     let text = batch_text(&b, comp, &limit.label);
-    let csv = batch_csv(&b, "mass_kg_per_kg_glass");
+    let csv = batch_csv(&b, "mass_kg");
     Ok(Some((text, csv)))
 }
 
@@ -216,7 +336,7 @@ fn number_column(
 /// The Monte Carlo columns of shortlist.csv, put back on the re-evaluated
 /// rows (a screen without `[uncertainty]` has none).
 fn restore_probability(dir: &Path, rows: &mut [&mut Row]) -> Result<(), Error> {
-    let file = "shortlist.csv";
+    let file = SHORTLIST_FULL;
     let df = read_frame(&dir.join(file))?;
     let p = number_column(&df, "probability_glassy", file)?;
     let lo = number_column(&df, "critical_rate_p05_k_per_s", file)?;
@@ -284,19 +404,20 @@ fn probability_points(
     Ok(out)
 }
 
-/// The shortlisted compositions as written to shortlist.csv, in rank order.
+/// The shortlisted compositions as written to shortlist.parquet (every
+/// digit; the CSV file is rounded), in rank order.
 fn read_shortlist(dir: &Path) -> Result<Vec<Vec<(Oxide, f64)>>, Error> {
-    let df = read_frame(&dir.join("shortlist.csv"))?;
+    let df = read_frame(&dir.join(SHORTLIST_FULL))?;
     let mut cols = Vec::new();
     for name in df.get_column_names() {
         if let Some(o) = oxide_of_column(name.as_str()) {
             let v = df
                 .column(name.as_str())
                 .and_then(|c| c.cast(&DataType::Float64))
-                .map_err(|e| Error::bad_input(format!("shortlist.csv: {e}")))?;
+                .map_err(|e| Error::bad_input(format!("{SHORTLIST_FULL}: {e}")))?;
             let v = v
                 .f64()
-                .map_err(|e| Error::bad_input(format!("shortlist.csv: {e}")))?
+                .map_err(|e| Error::bad_input(format!("{SHORTLIST_FULL}: {e}")))?
                 .iter()
                 .map(|x| x.unwrap_or(0.0))
                 .collect::<Vec<_>>();
@@ -406,7 +527,7 @@ pub(crate) fn read_finished_run(dir: &Path) -> Result<(RunPlan, Vec<ReportRecipe
             x[o.index()] = v;
         }
         let comp = Composition::from_mol_percent_array(&x, 1e-3)
-            .with_context(|| format!("shortlist.csv, rank {}", i + 1))?;
+            .with_context(|| format!("{SHORTLIST_FULL}, rank {}", i + 1))?;
         let c = evaluate_candidate_with(
             problem,
             i as u64,

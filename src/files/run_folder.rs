@@ -23,13 +23,17 @@
 //! task), each keeping its share of the first pass, and merged
 //! ([`merge`]) into exactly the result one process gives.
 use super::results::{
-    rows_frame, rows_frame_with, shortlist_json, write_batch_sheets, write_report, DRAWN_TABLE,
+    common_warnings, csv_frame, rows_frame, rows_frame_with, shortlist_json, write_batch_sheets,
+    write_report, DRAWN_TABLE, SHORTLIST_FULL,
 };
 use super::screen_config::{self, RunPlan};
 use super::table::write_frame;
 use crate::error::Error;
-use crate::report::text::{binding_text, probability_stage_text, screen_summary_text};
+use crate::report::text::{
+    binding_text, probability_stage_text, screen_summary_text, snapping_text,
+};
 use crate::screen::probability::ProbabilityOutcome;
+use crate::screen::snap::SnapOutcome;
 use crate::screen::{
     self, chunk_count, Row, ScreenEnd, ScreenObserver, ScreenStore, Stage, Unobserved,
 };
@@ -803,7 +807,7 @@ fn finish(
 ) -> Result<Outcome, Error> {
     let mut observer = observer(plan, folder, o, watcher);
     let end = pool.install(|| screen::run(&plan.problem, &plan.search, store, &mut observer))?;
-    let (shortlist, summary, probability) = match end {
+    let (shortlist, summary, probability, snapping) = match end {
         ScreenEnd::Interrupted { stage, done, total } => {
             return Ok(Outcome::Interrupted { stage, done, total })
         }
@@ -814,7 +818,8 @@ fn finish(
             shortlist,
             summary,
             probability,
-        } => (shortlist, summary, probability),
+            snapping,
+        } => (shortlist, summary, probability, snapping),
     };
     if let Some(w) = observer.writer.take() {
         w.finish()
@@ -829,7 +834,10 @@ fn finish(
         folder,
         &shortlist,
         &summary,
-        probability.as_deref(),
+        Stages {
+            probability: probability.as_deref(),
+            snapping: snapping.as_ref(),
+        },
         o.report,
         &mut || observer.stop_now(),
     )?;
@@ -854,9 +862,11 @@ fn finish(
         remove_checkpoints(folder)?;
     }
     if shortlist.is_empty() {
-        return Ok(Outcome::NothingFeasible {
-            limits: binding_text(&summary, true),
-        });
+        let limits = match &snapping {
+            Some(sn) if sn.before > 0 => snapping_text(&plan.problem, sn),
+            _ => binding_text(&summary, true),
+        };
+        return Ok(Outcome::NothingFeasible { limits });
     }
     Ok(Outcome::Finished {
         shortlisted: shortlist.len(),
@@ -1049,6 +1059,15 @@ fn shards_plan(dirs: &[PathBuf]) -> Result<(RunPlan, Vec<PathBuf>, Vec<RunFolder
     Ok((plan, held, locks))
 }
 
+/// What the stages after the search did, for the outputs to say.
+#[derive(Clone, Copy)]
+struct Stages<'a> {
+    /// The Monte Carlo stage, when the problem has one.
+    probability: Option<&'a ProbabilityOutcome>,
+    /// Snapping to weighable amounts, when the problem asks for it.
+    snapping: Option<&'a SnapOutcome>,
+}
+
 /// Write every output file; between any two, `stop` may ask to stop: then
 /// `(written, of)` is returned and a resumed run writes them all again.
 fn write_outputs(
@@ -1056,26 +1075,37 @@ fn write_outputs(
     folder: &RunFolder,
     shortlist: &[screen::Shortlisted],
     summary: &screen::LimitSummary,
-    probability: Option<&ProbabilityOutcome>,
+    stages: Stages<'_>,
     report: bool,
     stop: &mut dyn FnMut() -> bool,
 ) -> Result<Option<(usize, usize)>, Error> {
+    let Stages {
+        probability,
+        snapping,
+    } = stages;
     let problem = &plan.problem;
     let rows: Vec<&Row> = shortlist.iter().map(|s| &s.row).collect();
+    // Warnings every shortlisted recipe carries: stated once in summary.txt,
+    // a code in each row of shortlist.csv.
+    let codes = common_warnings(&rows);
     let mut steps: Vec<Box<dyn FnOnce() -> Result<(), Error> + '_>> = Vec::new();
     steps.push(Box::new(|| {
         let with_p = problem.uncertainty.is_some();
         let mut df = rows_frame_with(problem, &rows, true, with_p)
             .map_err(|e| Error::internal(format!("building the shortlist table: {e}")))?;
-        write_frame(&folder.own("shortlist.csv")?, &mut df)?;
-        write_frame(&folder.own("shortlist.parquet")?, &mut df)?;
+        let mut csv = csv_frame(&df, &codes)
+            .map_err(|e| Error::internal(format!("rounding the shortlist table: {e}")))?;
+        write_frame(&folder.own("shortlist.csv")?, &mut csv)?;
+        write_frame(&folder.own(SHORTLIST_FULL)?, &mut df)?;
         folder.write("shortlist.json", shortlist_json(problem, &rows).as_bytes())?;
         if let Some(p) = probability {
             // Every recipe the Monte Carlo stage drew (the report's
             // probability-against-cost picture reads it).
             let drawn: Vec<&Row> = p.drawn.iter().collect();
-            let mut df = rows_frame_with(problem, &drawn, false, true)
+            let df = rows_frame_with(problem, &drawn, false, true)
                 .map_err(|e| Error::internal(format!("building the drawn-recipes table: {e}")))?;
+            let mut df = csv_frame(&df, &[])
+                .map_err(|e| Error::internal(format!("rounding the drawn-recipes table: {e}")))?;
             write_frame(&folder.own(DRAWN_TABLE)?, &mut df)?;
         }
         Ok(())
@@ -1122,13 +1152,26 @@ fn write_outputs(
             summary,
             shortlist.len(),
         );
+        // Before the closing caution.
+        let mut extra = String::new();
         if let Some(p) = probability {
-            // Before the closing caution.
-            let stage = probability_stage_text(problem, p);
-            match text.find("caution:") {
-                Some(i) => text.insert_str(i, &stage),
-                None => text.push_str(&stage),
+            extra.push_str(&probability_stage_text(problem, p));
+        }
+        if let Some(sn) = snapping {
+            extra.push_str(&snapping_text(problem, sn));
+            extra.push('\n');
+        }
+        if !codes.is_empty() {
+            extra.push_str(
+                "warnings on every shortlisted recipe (shortlist.csv writes the code):\n",
+            );
+            for (text, code) in &codes {
+                extra.push_str(&format!("  {code}: {text}\n"));
             }
+        }
+        match text.find("caution:") {
+            Some(i) => text.insert_str(i, &extra),
+            None => text.push_str(&extra),
         }
         folder.write("summary.txt", text.as_bytes())?;
         Ok(())

@@ -15,7 +15,7 @@ use crate::kinetics::KineticOptions;
 use crate::report::text::DEMO_SHELF_LABEL;
 use crate::screen::{
     CostLimit, Equipment, LinearConstraint, ObjectiveKind, ScreenProblem, ScreenUncertainty,
-    Search, Weights, DEFAULT_MARGIN_CAP_DECADES,
+    Search, Snapping, Weights, DEFAULT_MARGIN_CAP_DECADES,
 };
 use crate::uncertainty::melt::model_set_inputs;
 use crate::uncertainty::MIN_DRAWS;
@@ -49,7 +49,24 @@ struct RawConfig {
     kinetics: Option<KineticsTable>,
     #[serde(default)]
     uncertainty: Option<Spanned<RawUncertainty>>,
+    #[serde(default)]
+    batch: Option<RawBatch>,
 }
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawBatch {
+    glass_kg: Spanned<f64>,
+}
+
+/// The glass a batch sheet makes when `[batch] glass_kg` does not say, kg.
+pub const DEFAULT_BATCH_GLASS_KG: f64 = 1.0;
+/// The largest `[batch] glass_kg` (a larger one is a typing accident).
+pub const MAX_BATCH_GLASS_KG: f64 = 1000.0;
+/// The coarsest `[shortlist] resolution_mol_pct`.
+pub const MAX_RESOLUTION_MOL_PCT: f64 = 10.0;
+/// The largest `[shortlist] min_amount_mol_pct`.
+pub const MAX_MIN_AMOUNT_MOL_PCT: f64 = 10.0;
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -187,6 +204,10 @@ struct RawShortlist {
     size: Spanned<usize>,
     #[serde(default = "default_distance")]
     min_distance_mol_pct: Spanned<f64>,
+    #[serde(default)]
+    resolution_mol_pct: Option<Spanned<f64>>,
+    #[serde(default)]
+    min_amount_mol_pct: Option<Spanned<f64>>,
 }
 
 fn default_size() -> Spanned<usize> {
@@ -224,6 +245,8 @@ pub struct RunPlan {
     /// What the loader changed and the user should hear about (a capped
     /// thread count), one sentence each.
     pub notes: Vec<String>,
+    /// The glass each batch sheet makes, kg (`[batch] glass_kg`).
+    pub batch_glass_kg: f64,
 }
 
 /// The largest `first_pass_points`.
@@ -328,6 +351,8 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
     let shortlist = raw.shortlist.unwrap_or(RawShortlist {
         size: default_size(),
         min_distance_mol_pct: default_distance(),
+        resolution_mol_pct: None,
+        min_amount_mol_pct: None,
     });
     let size = count("[shortlist] size", &shortlist.size, 1, MAX_SHORTLIST_SIZE);
     let threads = raw
@@ -752,6 +777,49 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
             ),
         );
     }
+    let resolution = shortlist.resolution_mol_pct.as_ref().map(|r| {
+        let v = *r.get_ref();
+        let steps = 100.0 / v;
+        if !(v.is_finite() && v > 0.0 && v <= MAX_RESOLUTION_MOL_PCT) {
+            push(
+                r.span(),
+                format!("[shortlist] resolution_mol_pct must lie in (0, {MAX_RESOLUTION_MOL_PCT}] mol%, got {v}"),
+            );
+        } else if (steps - steps.round()).abs() > 1e-6 * steps {
+            push(
+                r.span(),
+                format!("[shortlist] resolution_mol_pct must divide 100 mol% into whole steps (so that the balance oxide lands on the grid too), e.g. 0.1, 0.25, 0.5 or 1; got {v}"),
+            );
+        }
+        v
+    });
+    let min_amount = shortlist.min_amount_mol_pct.as_ref().map(|m| {
+        let v = *m.get_ref();
+        if !(v.is_finite() && (0.0..=MAX_MIN_AMOUNT_MOL_PCT).contains(&v)) {
+            push(
+                m.span(),
+                format!("[shortlist] min_amount_mol_pct must lie in [0, {MAX_MIN_AMOUNT_MOL_PCT}] mol%, got {v}"),
+            );
+        }
+        v
+    });
+    let snapping = (resolution.is_some() || min_amount.is_some()).then(|| Snapping {
+        resolution_mol_pct: resolution.unwrap_or(0.0),
+        min_amount_mol_pct: min_amount.unwrap_or(0.0),
+    });
+    let batch_glass_kg = match &raw.batch {
+        None => DEFAULT_BATCH_GLASS_KG,
+        Some(b) => {
+            let v = *b.glass_kg.get_ref();
+            if !(v.is_finite() && v > 0.0 && v <= MAX_BATCH_GLASS_KG) {
+                push(
+                    b.glass_kg.span(),
+                    format!("[batch] glass_kg must lie in (0, {MAX_BATCH_GLASS_KG}] kg of glass, got {v}"),
+                );
+            }
+            v
+        }
+    };
     if !problems.is_empty() {
         return Err(src_error(&src, problems, hint).into());
     }
@@ -846,6 +914,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
             shortlist_size: size,
             min_distance_mol_pct: distance,
             uncertainty,
+            snapping,
         },
         search: Search {
             seed: raw.search.seed,
@@ -861,6 +930,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         config_text: text.clone(),
         config_hash,
         notes,
+        batch_glass_kg,
     })
 }
 

@@ -855,7 +855,9 @@ fn flatten_by_phase(
 /// some row has, so a column no row fills is missing.
 ///
 /// # Errors
-/// Polars refuses the columns (a name clash is avoided by suffixing `_out`).
+/// Polars refuses the columns. A result named like an input column (a melt
+/// card's `liquidus_k`) takes that column's place with the value in force,
+/// so no column is written twice.
 pub fn append_results(
     mut df: DataFrame,
     results: &[Result<Evaluation, String>],
@@ -878,17 +880,8 @@ pub fn append_results(
             }
         }
     }
-    let existing: Vec<String> = df
-        .get_column_names()
-        .iter()
-        .map(|s| s.to_string())
-        .collect();
     for k in keys {
-        let name = if existing.contains(&k) {
-            format!("{k}_out")
-        } else {
-            k.clone()
-        };
+        let name = k.clone();
         let vals: Vec<Option<&serde_json::Value>> = rows
             .iter()
             .map(|m| m.as_ref().and_then(|m| m.get(&k)))

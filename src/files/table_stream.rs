@@ -259,8 +259,10 @@ struct ResultColumns {
 
 impl ResultColumns {
     /// The columns sorted by their key (as the whole-table path writes
-    /// them); a key that an input column already uses gets `_out`.
-    fn new(plan: &ResultPlan, input: &[String]) -> Self {
+    /// them). A key that an input column already uses (a melt card's
+    /// `liquidus_k`, `turnbull_alpha`) takes that column's place with the
+    /// value in force, so no column is written twice.
+    fn new(plan: &ResultPlan, _input: &[String]) -> Self {
         let mut keyed: Vec<(String, Source)> = EVALUATION_FIELDS
             .iter()
             .filter(|f| match f.carried {
@@ -279,17 +281,9 @@ impl ResultColumns {
             }
         }
         keyed.sort_by(|a, b| a.0.cmp(&b.0));
-        let columns = keyed
-            .into_iter()
-            .map(|(k, s)| {
-                if input.contains(&k) {
-                    (format!("{k}_out"), s)
-                } else {
-                    (k, s)
-                }
-            })
-            .collect();
-        ResultColumns { columns }
+        // Appended with `with_column`, a result named like an input column
+        // replaces it where it stands.
+        ResultColumns { columns: keyed }
     }
 
     /// The result columns of a batch, typed, then the `error` column.

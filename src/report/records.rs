@@ -32,21 +32,26 @@ fn celsius(k: f64) -> f64 {
     crate::units::Kelvin(k).to_celsius().0
 }
 
-/// The result columns every screen table carries after the composition,
-/// in this order (each temperature in K with its °C beside it).
-pub const RESULT_FIELDS: [Field; 15] = [
+/// The decisive numbers of a screen's tables, right after the composition:
+/// how far inside the quench a recipe is, its critical rate and its cost.
+pub const DECISIVE_FIELDS: [Field; 3] = [
+    Field {
+        name: "margin_decades",
+        get: |r| Cell::Num(r.margin_decades),
+    },
     Field {
         name: "critical_rate_k_per_s",
         get: |r| Cell::Num(r.critical_rate_k_per_s),
     },
     Field {
-        name: "nose_rate_k_per_s",
-        get: |r| Cell::Num(r.nose_rate_k_per_s),
+        name: "cost_per_kg",
+        get: |r| Cell::Num(r.cost_per_kg),
     },
-    Field {
-        name: "margin_decades",
-        get: |r| Cell::Num(r.margin_decades),
-    },
+];
+
+/// The rest of the results, after the decisive numbers (and the Monte Carlo
+/// columns): each temperature in K with its °C beside it.
+pub const DETAIL_FIELDS: [Field; 10] = [
     Field {
         name: "melting_temperature_k",
         get: |r| Cell::Num(r.melting_temperature_k),
@@ -72,10 +77,6 @@ pub const RESULT_FIELDS: [Field; 15] = [
         get: |r| Cell::Text(r.limiting_phase.as_deref()),
     },
     Field {
-        name: "vouched",
-        get: |r| Cell::Bool(r.vouched),
-    },
-    Field {
         name: "glass_transition_k",
         get: |r| Cell::Num(r.glass_transition_k),
     },
@@ -84,9 +85,17 @@ pub const RESULT_FIELDS: [Field; 15] = [
         get: |r| Cell::Num(r.glass_transition_k.map(celsius)),
     },
     Field {
-        name: "cost_per_kg",
-        get: |r| Cell::Num(r.cost_per_kg),
+        name: "nose_rate_k_per_s",
+        get: |r| Cell::Num(r.nose_rate_k_per_s),
     },
+    Field {
+        name: "vouched",
+        get: |r| Cell::Bool(r.vouched),
+    },
+];
+
+/// The last columns: the limits a recipe sits on, then its warnings.
+pub const NOTE_FIELDS: [Field; 2] = [
     Field {
         name: "binding",
         get: |r| Cell::Text(Some(&r.binding)),
@@ -98,7 +107,7 @@ pub const RESULT_FIELDS: [Field; 15] = [
 ];
 
 /// The columns of a screen's Monte Carlo stage (a config with
-/// `[uncertainty]`), after the result columns in the shortlist and in the
+/// `[uncertainty]`), after the decisive numbers in the shortlist and in the
 /// table of the recipes drawn; the candidates table, written before the
 /// draws, does not carry them.
 pub const PROBABILITY_FIELDS: [Field; 5] = [
@@ -124,19 +133,60 @@ pub const PROBABILITY_FIELDS: [Field; 5] = [
     },
 ];
 
-/// The result columns of a table, with the Monte Carlo columns when asked.
+/// The result columns of a table in their order (identity and composition
+/// come before them): the decisive numbers, the Monte Carlo columns when
+/// asked, the other results, then binding limits and warnings last.
 pub fn fields(with_probability: bool) -> impl Iterator<Item = &'static Field> {
     let extra: &'static [Field] = if with_probability {
         &PROBABILITY_FIELDS
     } else {
         &[]
     };
-    RESULT_FIELDS.iter().chain(extra)
+    DECISIVE_FIELDS
+        .iter()
+        .chain(extra)
+        .chain(DETAIL_FIELDS.iter())
+        .chain(NOTE_FIELDS.iter())
+}
+
+/// How a CSV column rounds its numbers.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Digits {
+    /// This many digits after the decimal point.
+    Decimals(i32),
+    /// This many significant figures.
+    Significant(usize),
+}
+
+/// The digits a screen's CSV column shows (None: as they are, e.g. whole
+/// numbers): amounts in mol% and wt% to 0.01, temperatures to 0.1 K or °C,
+/// margins (decades) and probabilities to 0.001, rates and costs to 4
+/// significant figures, anything else to 6. A weighing to 0.01 wt% of a
+/// 200 g batch is 20 mg; the models' own errors are kelvins, not tenths.
+pub fn csv_digits(name: &str) -> Option<Digits> {
+    if name.ends_with("_mol_pct") || name.ends_with("_wt_pct") {
+        Some(Digits::Decimals(2))
+    } else if name.ends_with("_k") || name.ends_with("_c") {
+        Some(Digits::Decimals(1))
+    } else if name.ends_with("_decades") || name.starts_with("probability") {
+        Some(Digits::Decimals(3))
+    } else if name.contains("_per_s") || name.contains("_per_min") || name.starts_with("cost") {
+        Some(Digits::Significant(4))
+    } else if matches!(name, "rank" | "index" | "evaluations") {
+        None
+    } else {
+        Some(Digits::Significant(6))
+    }
 }
 
 /// The column of an oxide's amount.
 pub fn oxide_column(o: Oxide) -> String {
     format!("{o}_mol_pct")
+}
+
+/// The column of an oxide's amount in wt%.
+pub fn oxide_wt_column(o: Oxide) -> String {
+    format!("{o}_wt_pct")
 }
 
 /// The oxide a column name holds, if it is an oxide column.
@@ -224,9 +274,13 @@ pub const EVALUATION_FIELDS: &[EvalField] = eval_fields![
     glass_transition_k: Always Num |e| Some(e.glass_transition_k);
     glass_transition_c: Always Num |e| Some(e.glass_transition_c);
     melting_temperature_k: WithModels Num |e| e.melting_temperature_k;
+    melting_temperature_c: WithModels Num |e| e.melting_temperature_c;
     working_point_k: WithModels Num |e| e.working_point_k;
+    working_point_c: WithModels Num |e| e.working_point_c;
     softening_point_k: WithModels Num |e| e.softening_point_k;
+    softening_point_c: WithModels Num |e| e.softening_point_c;
     strain_point_k: WithModels Num |e| e.strain_point_k;
+    strain_point_c: WithModels Num |e| e.strain_point_c;
     reduced_glass_transition: WithModels Num |e| e.reduced_glass_transition;
     fragility: Always Num |e| Some(e.fragility);
     freeze_temperature_k: Always Num |e| Some(e.freeze_temperature_k);

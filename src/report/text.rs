@@ -7,6 +7,7 @@ use crate::batch::Batch;
 use crate::composition::{Composition, Oxide};
 use crate::kinetics::{DrivingForce, KineticOptions, Transport};
 use crate::screen::probability::ProbabilityOutcome;
+use crate::screen::snap::SnapOutcome;
 use crate::screen::{LimitSummary, ScreenProblem};
 use crate::units::kelvin_to_celsius as c;
 use std::fmt::Write;
@@ -16,7 +17,6 @@ pub const CAUTION: &str = "caution: melts at 1000-1600 °C and quenching (steam 
 (crystalline silica, boric acid, Ba/Pb compounds, Li2CO3) are health hazards. These are model estimates to shortlist \
 experiments: confirm glassiness by XRD/DSC and follow your lab's safety rules and licensed practice.";
 
-/// A number in a compact form that keeps 3 significant figures across decades.
 /// "1 glass", "3 glasses": a count with its noun in the right number
 /// (`plural` is the noun's plural form).
 pub fn count(n: usize, singular: &str, plural: &str) -> String {
@@ -27,6 +27,7 @@ pub fn count(n: usize, singular: &str, plural: &str) -> String {
     }
 }
 
+/// A number in a compact form that keeps 3 significant figures across decades.
 pub fn sig(x: f64) -> String {
     if !x.is_finite() {
         return format!("{x}");
@@ -538,6 +539,53 @@ pub fn screen_summary_text(
         binding_text(s, false),
         CAUTION
     )
+}
+
+/// What snapping the shortlist to weighable amounts did (summary.txt):
+/// the rule, how many recipes it kept and dropped, and why each was dropped.
+pub fn snapping_text(problem: &ScreenProblem, o: &SnapOutcome) -> String {
+    let Some(sn) = problem.snapping else {
+        return String::new();
+    };
+    let balance = crate::screen::Simplex::new(problem).balance.0;
+    let mut rule = Vec::new();
+    if sn.resolution_mol_pct > 0.0 {
+        rule.push(format!(
+            "every amount but {balance}'s to a {} mol% grid",
+            sn.resolution_mol_pct
+        ));
+    }
+    if sn.min_amount_mol_pct > 0.0 {
+        rule.push(format!(
+            "amounts below {} mol% to zero",
+            sn.min_amount_mol_pct
+        ));
+    }
+    let kept = o.before - o.dropped.len();
+    let mut t = format!(
+        "snapping to weighable amounts: {}; {balance} (the balance oxide) takes the rest, so each recipe sums to 100 mol%; the nearest snapped recipe that meets every limit again (same models) replaces each one: {} of {} kept, {} dropped ({} evaluated)",
+        rule.join(", "),
+        kept,
+        count(o.before, "shortlisted recipe", "shortlisted recipes"),
+        o.dropped.len(),
+        count(o.evaluations, "snapped recipe", "snapped recipes"),
+    );
+    for d in &o.dropped {
+        let amounts: Vec<String> = problem
+            .oxides
+            .iter()
+            .filter(|(ox, ..)| d.mol_pct[ox.index()] > 0.0)
+            .map(|(ox, ..)| format!("{ox} {:.2}", d.mol_pct[ox.index()]))
+            .collect();
+        let _ = write!(
+            t,
+            "\n  dropped: place {} before snapping ({} mol%): {}",
+            d.place,
+            amounts.join(", "),
+            d.reason
+        );
+    }
+    t
 }
 
 #[cfg(test)]

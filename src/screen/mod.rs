@@ -35,6 +35,7 @@ pub mod refine;
 pub mod run;
 pub(crate) mod select;
 pub mod simplex;
+pub mod snap;
 pub mod sqp;
 
 pub use candidate::{
@@ -45,7 +46,7 @@ pub use limits::{Limit, LimitSet, LimitSummary};
 pub use polytope::Polytope;
 pub use problem::{
     CostLimit, Equipment, LinearConstraint, ObjectiveKind, ScreenProblem, ScreenUncertainty,
-    Search, Weights, DEFAULT_MARGIN_CAP_DECADES,
+    Search, Snapping, Weights, DEFAULT_MARGIN_CAP_DECADES,
 };
 pub use refine::{refine, RefineError, ScreenModel};
 pub use run::{

@@ -508,7 +508,7 @@ pub fn recipe_propagation(
 }
 
 /// The row with the probability columns of its draws.
-fn filled(r: &Row, p: &Propagation) -> Row {
+pub(crate) fn filled(r: &Row, p: &Propagation) -> Row {
     let mut r = r.clone();
     r.probability_glassy = p.probability_glassy;
     r.critical_rate_p05_k_per_s = Some(p.critical_rate_p05_k_per_s);

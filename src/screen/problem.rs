@@ -133,6 +133,21 @@ pub struct ScreenProblem {
     pub min_distance_mol_pct: f64,
     /// The Monte Carlo stage, when the config asks for one.
     pub uncertainty: Option<ScreenUncertainty>,
+    /// Shortlisted recipes snapped to amounts a person can weigh
+    /// ([`super::snap`]); None keeps them as the optimiser found them.
+    pub snapping: Option<Snapping>,
+}
+
+/// How shortlisted recipes are snapped to amounts a person can weigh
+/// (docs/science.md, "Snapping the shortlist").
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Snapping {
+    /// The grid every amount but the balance oxide's lands on, mol%; 0: no
+    /// grid (only the minimum applies). 100 is a whole multiple of it, so
+    /// the balance oxide, which takes the rest, lands on it too.
+    pub resolution_mol_pct: f64,
+    /// Amounts below this become zero, mol% (0: none).
+    pub min_amount_mol_pct: f64,
 }
 
 impl ScreenProblem {

@@ -18,6 +18,7 @@ use super::problem::{ScreenProblem, Search};
 use super::refine::refine;
 use super::select::{objective_key, rank, Pools};
 use super::simplex::Simplex;
+use super::snap::{snap_shortlist, SnapOutcome};
 use crate::assess::SlabQuench;
 use crate::error::Error;
 
@@ -115,6 +116,9 @@ pub enum ScreenEnd {
         summary: LimitSummary,
         /// The Monte Carlo stage, when the problem has one.
         probability: Option<Box<ProbabilityOutcome>>,
+        /// What snapping to weighable amounts did, when the problem asks
+        /// for it ([`super::snap`]).
+        snapping: Option<SnapOutcome>,
     },
     /// Stopped on request during `stage` with `done` of `total` of its units
     /// kept; everything kept so far resumes.
@@ -409,9 +413,17 @@ pub fn run(
             Shortlisted { row, candidate }
         })
         .collect();
+    let (shortlist, snapping) = match problem.snapping {
+        Some(_) => {
+            let (kept, outcome) = snap_shortlist(problem, shortlist)?;
+            (kept, Some(outcome))
+        }
+        None => (shortlist, None),
+    };
     Ok(ScreenEnd::Finished {
         shortlist,
         summary,
         probability,
+        snapping,
     })
 }

@@ -1,0 +1,277 @@
+//! Snapping the shortlist to amounts a person can weigh (docs/science.md,
+//! "Snapping the shortlist"). The optimiser's recipes carry amounts like
+//! 70.01610741597935 mol% and trace oxides of 0.006 mol%; a lab weighs a
+//! batch to a grid and leaves out what is too little to matter.
+//!
+//! The rule, for each shortlisted recipe:
+//! 1. every varying oxide but the balance one goes to a neighbouring point
+//!    of the grid (`resolution_mol_pct`; the one below or the one above its
+//!    amount), and an amount below `min_amount_mol_pct` to zero; an oxide
+//!    with a fixed amount (min = max) keeps it;
+//! 2. the balance oxide takes the rest, so the sum stays 100 mol% (100 is a
+//!    whole multiple of the grid, so it lands on the grid too);
+//! 3. of these neighbours, nearest first (Euclidean, mol%), the first that
+//!    meets every limit of the screen again (oxide ranges and linear
+//!    constraints included), evaluated with the same models, replaces the
+//!    recipe; with `[uncertainty]` its probability of a glass is drawn again
+//!    and must reach the least probability asked for; with a margin
+//!    objective a recipe the model vouched for must stay vouched;
+//! 4. a recipe none of whose neighbours passes, or whose passing neighbour
+//!    is a recipe already kept, is dropped, with the reason.
+//!
+//! No I/O here.
+
+use super::candidate::{evaluate_candidate_with, uses_margin, Pass, Row};
+use super::probability::{filled, recipe_propagation};
+use super::problem::ScreenProblem;
+use super::run::Shortlisted;
+use super::select::{objective_key, rank};
+use super::simplex::{dist2, Simplex};
+use crate::assess::SlabQuench;
+use crate::composition::{Composition, N_OXIDES};
+use crate::error::Error;
+
+/// The most grid neighbours tried per recipe (two per free oxide: 2^12);
+/// a screen with more free oxides tries the nearest grid point only.
+const MAX_NEIGHBOURS: usize = 4096;
+
+/// A shortlisted recipe that snapping dropped.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SnapDrop {
+    /// Its place in the shortlist before snapping (1 = best).
+    pub place: usize,
+    /// Its composition before snapping, mol%.
+    pub mol_pct: [f64; N_OXIDES],
+    /// Why, in words.
+    pub reason: String,
+}
+
+/// What snapping did.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SnapOutcome {
+    /// Recipes in the shortlist before snapping.
+    pub before: usize,
+    /// Those dropped, in shortlist order.
+    pub dropped: Vec<SnapDrop>,
+    /// Snapped recipes evaluated.
+    pub evaluations: usize,
+}
+
+/// The grid of a resolution: 100 mol% in `n` steps (None: no grid).
+fn grid_steps(resolution: f64) -> Option<i64> {
+    (resolution > 0.0).then(|| (100.0 / resolution).round() as i64)
+}
+
+/// `k` steps of a grid of `n` steps to 100 mol%, as the double nearest to
+/// the exact value (0.5 mol% steps give 71.5, not 71.49999999999999).
+fn on_grid(k: i64, n: i64) -> f64 {
+    (k * 100) as f64 / n as f64
+}
+
+/// The snapped neighbours of a composition, nearest first (ties: in the
+/// order the free oxides' choices are generated, lower first). Each sums to
+/// 100 mol%; whether it is inside the screen's limits is for the caller.
+pub fn snapped_neighbours(problem: &ScreenProblem, x: &[f64; N_OXIDES]) -> Vec<[f64; N_OXIDES]> {
+    let Some(snap) = problem.snapping else {
+        return vec![*x];
+    };
+    let simplex = Simplex::new(problem);
+    let grid = grid_steps(snap.resolution_mol_pct);
+    let min = snap.min_amount_mol_pct;
+    let choices: Vec<Vec<f64>> = simplex
+        .free
+        .iter()
+        .map(|&(o, lo, hi)| {
+            let v = x[o.index()];
+            if lo == hi {
+                return vec![v];
+            }
+            let mut out: Vec<f64> = match grid {
+                Some(n) => {
+                    let f = v * n as f64 / 100.0;
+                    let near = f.round();
+                    let ks: Vec<i64> = if (f - near).abs() < 1e-9 {
+                        vec![near as i64]
+                    } else {
+                        vec![f.floor() as i64, f.ceil() as i64]
+                    };
+                    ks.into_iter().map(|k| on_grid(k, n)).collect()
+                }
+                None => vec![v],
+            };
+            for a in &mut out {
+                if *a < min {
+                    *a = 0.0;
+                }
+            }
+            out.dedup();
+            out
+        })
+        .collect();
+    let total: usize = choices
+        .iter()
+        .map(Vec::len)
+        .try_fold(1usize, |a, n| a.checked_mul(n))
+        .unwrap_or(usize::MAX);
+    let combos: Vec<Vec<f64>> = if total > MAX_NEIGHBOURS {
+        // The nearest choice of each oxide alone.
+        vec![choices
+            .iter()
+            .zip(&simplex.free)
+            .map(|(c, (o, ..))| {
+                let v = x[o.index()];
+                *c.iter()
+                    .min_by(|a, b| (*a - v).abs().total_cmp(&(*b - v).abs()))
+                    .unwrap_or(&v)
+            })
+            .collect()]
+    } else {
+        let mut all: Vec<Vec<f64>> = vec![Vec::new()];
+        for c in &choices {
+            all = all
+                .into_iter()
+                .flat_map(|p| {
+                    c.iter().map(move |v| {
+                        let mut q = p.clone();
+                        q.push(*v);
+                        q
+                    })
+                })
+                .collect();
+        }
+        all
+    };
+    let mut points: Vec<[f64; N_OXIDES]> = combos
+        .iter()
+        .map(|free| {
+            let mut p = simplex.compose(free);
+            let b = simplex.balance.0.index();
+            if let Some(n) = grid {
+                // The free amounts are on the grid, so the rest is too: put
+                // it exactly there.
+                let k = (p[b] * n as f64 / 100.0).round() as i64;
+                if (on_grid(k, n) - p[b]).abs() < 1e-6 {
+                    p[b] = on_grid(k, n);
+                }
+            }
+            p
+        })
+        .collect();
+    // A stable sort: equally near points keep the order they were made in.
+    points.sort_by(|a, b| dist2(a, x).total_cmp(&dist2(b, x)));
+    points
+}
+
+/// Snap every shortlisted recipe (see the module's rule) and keep those that
+/// still pass; without `[uncertainty]` the kept recipes are ranked again by
+/// the objective.
+///
+/// # Errors
+/// A snapped recipe is not a composition (cannot happen for a recipe that
+/// met the composition limits).
+pub fn snap_shortlist(
+    problem: &ScreenProblem,
+    shortlist: Vec<Shortlisted>,
+) -> Result<(Vec<Shortlisted>, SnapOutcome), Error> {
+    let before = shortlist.len();
+    let mut kept: Vec<(usize, Shortlisted)> = Vec::new();
+    let mut dropped = Vec::new();
+    let mut evaluations = 0;
+    let min_p = problem.uncertainty.and_then(|u| u.min_probability);
+    for (place, s) in shortlist.into_iter().enumerate() {
+        let x = s.row.composition();
+        let points = snapped_neighbours(problem, &x);
+        let tried = points.len();
+        let mut nearest_reason: Option<String> = None;
+        let mut found: Option<Shortlisted> = None;
+        for p in points {
+            if let Some((k, _)) = kept.iter().find(|(_, k)| k.row.composition() == p) {
+                nearest_reason
+                    .get_or_insert_with(|| format!("snaps onto the recipe of place {}", k + 1));
+                continue;
+            }
+            evaluations += 1;
+            let pass = if s.row.refined {
+                Pass::Refinement
+            } else {
+                Pass::SpaceFilling
+            };
+            let candidate =
+                evaluate_candidate_with(problem, s.row.index, pass, p, Some(SlabQuench::default()));
+            let mut row = Row::new(&candidate, problem);
+            row.evaluations = s.row.evaluations;
+            if !candidate.feasible() {
+                nearest_reason.get_or_insert_with(|| {
+                    let broken: Vec<&str> = candidate
+                        .violations
+                        .iter()
+                        .map(|(l, _)| l.label())
+                        .collect();
+                    format!("the nearest snapped recipe breaks: {}", broken.join(", "))
+                });
+                continue;
+            }
+            // A margin objective ranks what the model cannot vouch for last:
+            // a vouched recipe must stay vouched.
+            if uses_margin(problem) && s.row.vouched == Some(true) && row.vouched != Some(true) {
+                nearest_reason.get_or_insert_with(|| {
+                    "the nearest snapped recipe is beyond what the model can vouch for".to_string()
+                });
+                continue;
+            }
+            if problem.uncertainty.is_some() {
+                let comp = Composition::from_mol_percent_array(&p, 1e-6)?;
+                match recipe_propagation(problem, &comp) {
+                    Ok(prop) => row = filled(&row, &prop),
+                    Err(e) => {
+                        nearest_reason.get_or_insert_with(|| {
+                            format!("the nearest snapped recipe could not be drawn: {e}")
+                        });
+                        continue;
+                    }
+                }
+                if let Some(m) = min_p {
+                    let got = row.probability_glassy.unwrap_or(0.0);
+                    if got < m {
+                        nearest_reason.get_or_insert_with(|| {
+                            format!(
+                                "the nearest snapped recipe has P(glassy) = {got:.3}, below {m}"
+                            )
+                        });
+                        continue;
+                    }
+                }
+            }
+            found = Some(Shortlisted { row, candidate });
+            break;
+        }
+        match found {
+            Some(f) => kept.push((place, f)),
+            None => dropped.push(SnapDrop {
+                place: place + 1,
+                mol_pct: x,
+                reason: format!(
+                    "{} ({})",
+                    if tried == 1 {
+                        "its snapped recipe does not pass".to_string()
+                    } else {
+                        format!("none of the {tried} snapped recipes around it passes")
+                    },
+                    nearest_reason.unwrap_or_else(|| "no recipe tried".into())
+                ),
+            }),
+        }
+    }
+    let mut kept: Vec<Shortlisted> = kept.into_iter().map(|(_, s)| s).collect();
+    if problem.uncertainty.is_none() {
+        kept.sort_by(|a, b| rank(&a.row, &b.row, objective_key));
+    }
+    Ok((
+        kept,
+        SnapOutcome {
+            before,
+            dropped,
+            evaluations,
+        },
+    ))
+}
