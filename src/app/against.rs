@@ -13,9 +13,11 @@ use quenchwise::composition::Basis;
 use quenchwise::error::Error;
 use quenchwise::files::screen_config::load;
 use quenchwise::files::table::write_frame;
+use quenchwise::report::records::{equipment_fields, Cell};
 use quenchwise::report::sig;
 use quenchwise::report::text::batch_text;
 use quenchwise::screen::check::{check_recipe, RecipeCheck};
+use quenchwise::screen::ScreenProblem;
 use quenchwise::units::Kelvin;
 use rayon::prelude::*;
 use std::io::Write;
@@ -49,7 +51,7 @@ pub fn against(
         })
         .collect();
     progress.finish();
-    let mut df = frame(&glasses, &checks)
+    let mut df = frame(problem, &glasses, &checks)
         .map_err(|e| Error::internal(format!("assembling the results table: {e}")))?;
     write_frame(out, &mut df)?;
     // Batch sheets, for 1 kg of glass, where the config prices glasses.
@@ -75,6 +77,7 @@ pub fn against(
         std::fs::write(p, text).map_err(|e| Error::io("writing", p, e))?;
     }
     let summary = summary(
+        problem,
         &glasses,
         &checks,
         config,
@@ -116,6 +119,7 @@ fn keys(checks: &[Result<RecipeCheck, String>]) -> Vec<(&'static str, &'static s
 /// One row per recipe: its name, whether it passes every limit, which it
 /// fails, a pass and a margin column per limit, then the decisive numbers.
 fn frame(
+    problem: &ScreenProblem,
     glasses: &[Glass],
     checks: &[Result<RecipeCheck, String>],
 ) -> polars::prelude::PolarsResult<DataFrame> {
@@ -168,6 +172,35 @@ fn frame(
             ));
         }
     }
+    // A verdict and a margin per quench option, when the config lists several.
+    for f in equipment_fields(problem) {
+        let cells = checks.iter().map(|c| {
+            f.cell(
+                c.as_ref()
+                    .ok()
+                    .and_then(|c| c.candidate.evaluation.as_ref())
+                    .map(|e| e.critical_rate_k_per_s),
+            )
+        });
+        let col = if f.margin {
+            let v: Vec<Option<f64>> = cells
+                .map(|c| match c {
+                    Cell::Num(v) => v,
+                    _ => None,
+                })
+                .collect();
+            Column::new(f.name.as_str().into(), v)
+        } else {
+            let v: Vec<Option<bool>> = cells
+                .map(|c| match c {
+                    Cell::Bool(v) => v,
+                    _ => None,
+                })
+                .collect();
+            Column::new(f.name.as_str().into(), v)
+        };
+        cols.push(col);
+    }
     let eval = |f: &dyn Fn(&quenchwise::assess::Evaluation) -> Option<f64>| {
         checks
             .iter()
@@ -214,6 +247,7 @@ fn frame(
 
 /// The terminal summary: one line per recipe, then the count.
 fn summary(
+    problem: &ScreenProblem,
     glasses: &[Glass],
     checks: &[Result<RecipeCheck, String>],
     config: &Path,
@@ -249,6 +283,15 @@ fn summary(
             }
             Err(e) => s.push_str(&format!("{name:<28} {:<6} {e}\n", "error")),
         }
+        if let Some(rc) = c
+            .as_ref()
+            .ok()
+            .and_then(|c| c.candidate.evaluation.as_ref())
+            .map(|e| e.critical_rate_k_per_s)
+            .filter(|_| !problem.more_equipment.is_empty())
+        {
+            s.push_str(&format!("{:<28} {}\n", "", quench_verdicts(problem, rc)));
+        }
     }
     let n = checks.len();
     s.push_str(&format!(
@@ -263,6 +306,25 @@ fn summary(
         ));
     }
     s
+}
+
+/// "glassy with roller quench (+2.1 decades); not with crucible in air
+/// (−0.9 decades)": every quench option's verdict on one critical rate.
+fn quench_verdicts(problem: &ScreenProblem, critical_rate: f64) -> String {
+    let parts: Vec<String> = problem
+        .equipment_options()
+        .filter_map(|q| {
+            q.verdict(critical_rate).map(|v| {
+                format!(
+                    "{} with {} ({:+.2} decades)",
+                    if v.glassy { "glassy" } else { "NOT glassy" },
+                    q.name,
+                    v.margin_decades
+                )
+            })
+        })
+        .collect();
+    parts.join("; ")
 }
 
 fn unit_text(unit: &str) -> &str {

@@ -10,7 +10,9 @@ use crate::composition::{Composition, Oxide, N_OXIDES};
 use crate::error::{Error, ResultExt};
 use crate::report::html::{ReportRecipe, ScreenReport};
 use crate::report::plot::{ProbabilityPoint, TradePoint};
-use crate::report::records::{fields, oxide_column, oxide_of_column, Cell};
+use crate::report::records::{
+    equipment_fields, fields, oxide_column, oxide_of_column, Cell, EQUIPMENT_FIELDS_AFTER,
+};
 use crate::report::text::{batch_csv, batch_text, evaluation_text};
 use crate::screen::{evaluate_candidate_with, Pass, Row, ScreenProblem, Shortlisted};
 use crate::units::kelvin_to_celsius;
@@ -121,6 +123,34 @@ pub(crate) fn rows_frame_with(
         };
         cols.push(col);
     }
+    // One verdict per quench option, after the deciding option's margin.
+    let mut at = cols
+        .iter()
+        .position(|c| c.name().as_str() == EQUIPMENT_FIELDS_AFTER)
+        .map_or(cols.len(), |i| i + 1);
+    for f in equipment_fields(problem) {
+        let col = if f.margin {
+            let v: Vec<Option<f64>> = rows
+                .iter()
+                .map(|r| match f.get(r) {
+                    Cell::Num(v) => v,
+                    _ => None,
+                })
+                .collect();
+            Column::new(f.name.as_str().into(), v)
+        } else {
+            let v: Vec<Option<bool>> = rows
+                .iter()
+                .map(|r| match f.get(r) {
+                    Cell::Bool(v) => v,
+                    _ => None,
+                })
+                .collect();
+            Column::new(f.name.as_str().into(), v)
+        };
+        cols.insert(at, col);
+        at += 1;
+    }
     if !with_rank {
         cols.push(Column::new(
             "error".into(),
@@ -149,6 +179,14 @@ pub(crate) fn shortlist_json(problem: &ScreenProblem, rows: &[&Row]) -> String {
                     Cell::Bool(v) => v.map(serde_json::Value::from).unwrap_or_default(),
                 };
                 m.insert(f.name.into(), v);
+            }
+            for f in equipment_fields(problem) {
+                let v = match f.get(r) {
+                    Cell::Num(v) => v.map(serde_json::Value::from).unwrap_or_default(),
+                    Cell::Bool(v) => v.map(serde_json::Value::from).unwrap_or_default(),
+                    Cell::Text(v) => v.map(serde_json::Value::from).unwrap_or_default(),
+                };
+                m.insert(f.name, v);
             }
             serde_json::Value::Object(m)
         })
@@ -183,6 +221,7 @@ pub(crate) fn write_batch_sheets(
         };
         let comp = Composition::from_mol_percent_array(&s.row.composition(), 1e-6)?;
         let mut text = evaluation_text(e);
+        text.push_str(&format!("\n{}\n", crate::report::CAUTION));
         if let Some((sheet, csv)) = batch_sheet(plan, &comp)? {
             text.push('\n');
             text.push_str(&sheet);
