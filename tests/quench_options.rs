@@ -56,7 +56,7 @@ fn the_deciding_option_ranks_and_every_option_gets_its_verdict() {
         let margin = r["margin_decades"].as_f64().unwrap();
         // Source: the margin in decades is log10(R_equipment / R_c) and a
         // quench makes a glass when R_c ≤ R / safety factor (docs/science.md,
-        // "Screen limits"; common practice for a critical cooling rate).
+        // "Limits" and "Objectives"; common practice for a critical cooling rate).
         let air = r["margin_with_crucible_in_air_decades"].as_f64().unwrap();
         assert!((air - (2.0 / rc).log10()).abs() < 1e-9, "{air}");
         assert!(

@@ -124,11 +124,11 @@ pub(crate) fn rows_frame_with(
         cols.push(col);
     }
     // One verdict per quench option, after the deciding option's margin.
-    let mut at = cols
+    let at = cols
         .iter()
         .position(|c| c.name().as_str() == EQUIPMENT_FIELDS_AFTER)
         .map_or(cols.len(), |i| i + 1);
-    for f in equipment_fields(problem) {
+    for (k, f) in equipment_fields(problem).into_iter().enumerate() {
         let col = if f.margin {
             let v: Vec<Option<f64>> = rows
                 .iter()
@@ -148,8 +148,7 @@ pub(crate) fn rows_frame_with(
                 .collect();
             Column::new(f.name.as_str().into(), v)
         };
-        cols.insert(at, col);
-        at += 1;
+        cols.insert(at + k, col);
     }
     if !with_rank {
         cols.push(Column::new(
