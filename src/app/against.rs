@@ -308,18 +308,20 @@ fn summary(
     s
 }
 
-/// "glassy with roller quench (+2.1 decades); not with crucible in air
-/// (−0.9 decades)": every quench option's verdict on one critical rate.
+/// "glassy with roller quench (+3.62 decades, needs 1.00); NOT glassy with
+/// crucible in air (+0.92 decades, needs 1.00)": every quench option's
+/// verdict on one critical rate (the need is log10 of its safety factor).
 fn quench_verdicts(problem: &ScreenProblem, critical_rate: f64) -> String {
     let parts: Vec<String> = problem
         .equipment_options()
         .filter_map(|q| {
             q.verdict(critical_rate).map(|v| {
                 format!(
-                    "{} with {} ({:+.2} decades)",
+                    "{} with {} ({:+.2} decades, needs {:.2})",
                     if v.glassy { "glassy" } else { "NOT glassy" },
                     q.name,
-                    v.margin_decades
+                    v.margin_decades,
+                    q.safety_factor.log10()
                 )
             })
         })

@@ -70,8 +70,9 @@ pub struct Cli {
     #[command(subcommand)]
     pub command: Command,
 
-    /// Leave the safety caution out of stderr (for scripts). eval, batch
-    /// and screen otherwise print it once, at the end of the run.
+    /// Leave the safety caution out of stderr (for scripts).
+    ///
+    /// eval, batch and screen otherwise print it once, at the end of the run.
     #[arg(long, global = true)]
     pub quiet: bool,
 }
@@ -727,8 +728,12 @@ pub struct EvalArgs {
     #[arg(long, value_name = "FILE.svg", help_heading = "Output")]
     pub plot: Option<PathBuf>,
 
-    /// Draw the viscosity–temperature curve (SVG) with its fixpoints
-    /// (melting 10 Pa·s, working point, softening point, T_g, strain point).
+    /// Draw the viscosity–temperature curve (SVG) with its fixpoints.
+    ///
+    /// The fixpoints: melting (10 Pa·s), working point (10³), softening
+    /// point (10^6.6), T_g (10¹²) and strain point (10^13.5 Pa·s), each at
+    /// the temperature where the curve reaches it. Example:
+    /// --viscosity-plot eta.svg
     #[arg(long, value_name = "FILE.svg", help_heading = "Output")]
     pub viscosity_plot: Option<PathBuf>,
 

@@ -176,11 +176,12 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
             .filter_map(|q| {
                 q.verdict(e.critical_rate_k_per_s).map(|v| {
                     format!(
-                        "{}: {} ({:+.2} decades at {} K/s)",
+                        "{}: {} ({:+.2} decades at {} K/s; the safety factor asks for {:.2})",
                         esc(&q.name),
                         if v.glassy { "glassy" } else { "not glassy" },
                         v.margin_decades,
-                        sig(q.rate.0)
+                        sig(q.rate.0),
+                        q.safety_factor.log10()
                     )
                 })
             })
