@@ -10,7 +10,13 @@ use std::process::ExitCode;
 
 fn main() -> ExitCode {
     let cli = cli::Cli::parse_args();
-    match app::run(cli) {
+    // The safety caution: once per run, on stderr, unless --quiet.
+    let caution = !cli.quiet && cli.command.leads_to_a_melt();
+    let outcome = app::run(cli);
+    if caution && outcome.is_ok() {
+        eprintln!("{}", quenchwise::report::CAUTION);
+    }
+    match outcome {
         Ok(app::Outcome::Finished) => ExitCode::SUCCESS,
         Ok(app::Outcome::Interrupted) => ExitCode::from(130),
         Ok(app::Outcome::NothingFeasible) => ExitCode::from(2),

@@ -24,7 +24,7 @@ fn composition_table_has_units_flags_and_caution() {
         .stdout_has("limited by ")
         .stdout_has("liquidus of each phase")
         .stdout_has("NOT calibrated")
-        .stdout_has("caution:");
+        .stderr_has("caution:");
 }
 
 #[test]

@@ -91,7 +91,8 @@ fn report_renders_in_a_headless_browser() {
         );
     }
     // Well-formed XML (the DOCTYPE aside), with one picture per trade-off and
-    // four per shortlisted recipe (TTT, fraction vs rate, composition, I and U).
+    // five per shortlisted recipe (TTT, fraction vs rate, composition,
+    // viscosity with its fixpoints, I and U).
     let body = html.trim_start_matches("<!DOCTYPE html>");
     crate::util::check_xml(body).unwrap_or_else(|e| panic!("report.html is not well-formed: {e}"));
     let recipes = std::fs::read_to_string(d.join("out/shortlist.csv"))
@@ -100,7 +101,7 @@ fn report_renders_in_a_headless_browser() {
         .count()
         - 1;
     assert!(recipes > 0);
-    assert_eq!(html.matches("<svg").count(), 2 + 4 * recipes);
+    assert_eq!(html.matches("<svg").count(), 2 + 5 * recipes);
     for needle in [
         "Shortlist",
         "The job",

@@ -14,9 +14,11 @@ use quenchwise::error::Error;
 use quenchwise::files::results::csv_frame;
 use quenchwise::files::screen_config::load;
 use quenchwise::files::table::write_frame;
+use quenchwise::report::records::{equipment_fields, Cell};
 use quenchwise::report::sig;
 use quenchwise::report::text::batch_text;
 use quenchwise::screen::check::{check_recipe, RecipeCheck};
+use quenchwise::screen::ScreenProblem;
 use quenchwise::units::Kelvin;
 use rayon::prelude::*;
 use std::io::Write;
@@ -50,7 +52,7 @@ pub fn against(
         })
         .collect();
     progress.finish();
-    let mut df = frame(&glasses, &checks)
+    let mut df = frame(problem, &glasses, &checks)
         .map_err(|e| Error::internal(format!("assembling the results table: {e}")))?;
     if out
         .extension()
@@ -85,6 +87,7 @@ pub fn against(
         std::fs::write(p, text).map_err(|e| Error::io("writing", p, e))?;
     }
     let summary = summary(
+        problem,
         &glasses,
         &checks,
         config,
@@ -126,6 +129,7 @@ fn keys(checks: &[Result<RecipeCheck, String>]) -> Vec<(&'static str, &'static s
 /// One row per recipe: its name, whether it passes every limit, which it
 /// fails, a pass and a margin column per limit, then the decisive numbers.
 fn frame(
+    problem: &ScreenProblem,
     glasses: &[Glass],
     checks: &[Result<RecipeCheck, String>],
 ) -> polars::prelude::PolarsResult<DataFrame> {
@@ -178,6 +182,35 @@ fn frame(
             ));
         }
     }
+    // A verdict and a margin per quench option, when the config lists several.
+    for f in equipment_fields(problem) {
+        let cells = checks.iter().map(|c| {
+            f.cell(
+                c.as_ref()
+                    .ok()
+                    .and_then(|c| c.candidate.evaluation.as_ref())
+                    .map(|e| e.critical_rate_k_per_s),
+            )
+        });
+        let col = if f.margin {
+            let v: Vec<Option<f64>> = cells
+                .map(|c| match c {
+                    Cell::Num(v) => v,
+                    _ => None,
+                })
+                .collect();
+            Column::new(f.name.as_str().into(), v)
+        } else {
+            let v: Vec<Option<bool>> = cells
+                .map(|c| match c {
+                    Cell::Bool(v) => v,
+                    _ => None,
+                })
+                .collect();
+            Column::new(f.name.as_str().into(), v)
+        };
+        cols.push(col);
+    }
     let eval = |f: &dyn Fn(&quenchwise::assess::Evaluation) -> Option<f64>| {
         checks
             .iter()
@@ -224,6 +257,7 @@ fn frame(
 
 /// The terminal summary: one line per recipe, then the count.
 fn summary(
+    problem: &ScreenProblem,
     glasses: &[Glass],
     checks: &[Result<RecipeCheck, String>],
     config: &Path,
@@ -259,6 +293,15 @@ fn summary(
             }
             Err(e) => s.push_str(&format!("{name:<28} {:<6} {e}\n", "error")),
         }
+        if let Some(rc) = c
+            .as_ref()
+            .ok()
+            .and_then(|c| c.candidate.evaluation.as_ref())
+            .map(|e| e.critical_rate_k_per_s)
+            .filter(|_| !problem.more_equipment.is_empty())
+        {
+            s.push_str(&format!("{:<28} {}\n", "", quench_verdicts(problem, rc)));
+        }
     }
     let n = checks.len();
     s.push_str(&format!(
@@ -273,6 +316,27 @@ fn summary(
         ));
     }
     s
+}
+
+/// "glassy with roller quench (+3.62 decades, needs 1.00); NOT glassy with
+/// crucible in air (+0.92 decades, needs 1.00)": every quench option's
+/// verdict on one critical rate (the need is log10 of its safety factor).
+fn quench_verdicts(problem: &ScreenProblem, critical_rate: f64) -> String {
+    let parts: Vec<String> = problem
+        .equipment_options()
+        .filter_map(|q| {
+            q.verdict(critical_rate).map(|v| {
+                format!(
+                    "{} with {} ({:+.2} decades, needs {:.2})",
+                    if v.glassy { "glassy" } else { "NOT glassy" },
+                    q.name,
+                    v.margin_decades,
+                    q.safety_factor.log10()
+                )
+            })
+        })
+        .collect();
+    parts.join("; ")
 }
 
 fn unit_text(unit: &str) -> &str {

@@ -21,7 +21,7 @@ use quenchwise::files::table_stream::{
     ExtraColumns, MeltRows, ResultPlan, RowReader, StreamSettings, DEFAULT_BATCH_ROWS,
 };
 use quenchwise::kinetics::{DrivingForce, KineticOptions, KineticOverrides, Kinetics, Transport};
-use quenchwise::report::{plot, sig, text::evaluation_text, CAUTION};
+use quenchwise::report::{plot, sig, text::evaluation_text};
 use quenchwise::units::{Celsius, RateUnit, CELSIUS_OFFSET};
 use std::io::Write;
 use std::path::Path;
@@ -303,8 +303,24 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
     if let Some(p) = &a.ttt {
         write_ttt(p, &kinetics)?;
     }
+    let glass = glass_title(&evaluation, a.melt.as_deref());
     if let Some(p) = &a.plot {
-        let svg = plot::ttt_svg(&kinetics, &evaluation.kinetic_summary, None, "TTT diagram");
+        let svg = plot::ttt_svg(
+            &kinetics,
+            &evaluation.kinetic_summary,
+            &[],
+            &format!("TTT diagram of {glass}"),
+        );
+        write_file(p, svg.as_bytes())?;
+    }
+    if let Some(p) = &a.viscosity_plot {
+        let curve = &evaluation.melt.viscosity;
+        let svg = plot::viscosity_svg(
+            curve,
+            &plot::viscosity_fixpoints(curve),
+            &[],
+            &format!("Viscosity of {glass}"),
+        );
         write_file(p, svg.as_bytes())?;
     }
     if a.json {
@@ -415,8 +431,30 @@ pub(super) fn evaluate_table_with<R: RowReader>(
         streamed.failed,
         out.display()
     );
-    eprintln!("{CAUTION}");
     Ok(Outcome::Finished)
+}
+
+/// Which glass a standalone picture shows: its composition in mol%, or the
+/// melt card's file.
+fn glass_title(e: &quenchwise::assess::Evaluation, card: Option<&Path>) -> String {
+    match &e.composition_mol_pct {
+        Some(comp) => {
+            let parts: Vec<String> = quenchwise::composition::Oxide::ALL
+                .iter()
+                .filter_map(|o| {
+                    comp.get(o.formula())
+                        .filter(|v| **v > 0.0)
+                        .map(|v| format!("{} {o}", plot::plain(*v)))
+                })
+                .collect();
+            format!("{} (mol%)", parts.join(" · "))
+        }
+        None => format!(
+            "melt card {}",
+            card.and_then(Path::file_name)
+                .map_or("(unnamed)".into(), |n| n.to_string_lossy().into_owned())
+        ),
+    }
 }
 
 /// The columns of a composition table that are not oxides (read from its

@@ -79,6 +79,9 @@ pub fn check(a: CheckArgs) -> Result<Outcome, Error> {
             None => format!("R_c must be ≤ {:.4} K/s", problem.allowed_rate().0),
         }
     );
+    if let Some(line) = quenchwise::report::text::quench_options_text(problem) {
+        println!("{line}");
+    }
     Ok(Outcome::Finished)
 }
 
@@ -137,6 +140,15 @@ pub fn merge(a: MergeArgs) -> Result<Outcome, Error> {
 }
 
 /// Say how a run ended.
+/// summary.txt without its closing caution (the run prints the caution
+/// once, on stderr, unless --quiet).
+fn without_caution(text: &str) -> String {
+    match text.find("\ncaution:") {
+        Some(i) => format!("{}\n", &text[..i]),
+        None => text.to_string(),
+    }
+}
+
 fn tell(end: run_folder::Outcome, out: &std::path::Path, again: &str) -> Result<Outcome, Error> {
     match end {
         run_folder::Outcome::Finished {
@@ -146,7 +158,7 @@ fn tell(end: run_folder::Outcome, out: &std::path::Path, again: &str) -> Result<
             ..
         } => {
             let text = std::fs::read_to_string(out.join("summary.txt")).unwrap_or_default();
-            print!("{text}");
+            print!("{}", without_caution(&text));
             if out.join("report.html").exists() {
                 println!("report: {}", out.join("report.html").display());
             }
@@ -176,7 +188,7 @@ fn tell(end: run_folder::Outcome, out: &std::path::Path, again: &str) -> Result<
         }
         run_folder::Outcome::AlreadyFinished => {
             let text = std::fs::read_to_string(out.join("summary.txt")).unwrap_or_default();
-            print!("{text}");
+            print!("{}", without_caution(&text));
             println!(
                 "\n{} holds a finished run; nothing to resume (shortlist: {})",
                 out.display(),

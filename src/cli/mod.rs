@@ -69,6 +69,23 @@ impl From<RateUnitArg> for RateUnit {
 pub struct Cli {
     #[command(subcommand)]
     pub command: Command,
+
+    /// Leave the safety caution out of stderr (for scripts).
+    ///
+    /// eval, batch and screen otherwise print it once, at the end of the run.
+    #[arg(long, global = true)]
+    pub quiet: bool,
+}
+
+impl Command {
+    /// Whether this command's answers lead to a melt, so that the safety
+    /// caution is printed once at the end of the run.
+    pub fn leads_to_a_melt(&self) -> bool {
+        matches!(
+            self,
+            Command::Eval(_) | Command::Batch(_) | Command::Screen(_)
+        )
+    }
 }
 
 // EvalArgs is large, but the command line is parsed once per run.
@@ -488,13 +505,19 @@ pub struct BatchArgs {
     )]
     pub compositions: Option<PathBuf>,
     /// Mass of glass to make, kg [default: 1].
-    #[arg(long, value_name = "KG", default_value_t = 1.0, help_heading = "Glass")]
+    #[arg(
+        hide_default_value = true,
+        long,
+        value_name = "KG",
+        default_value_t = 1.0,
+        help_heading = "Glass"
+    )]
     pub glass_kg: f64,
     /// How far (percentage points) amounts may sum from 100 [default: 2].
     ///
     /// From 0 to 10. Amounts that sum within it of 100 are normalised (and a
     /// note says so); further off is an error. Example: --sum-tolerance 0.5
-    #[arg(long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Glass")]
+    #[arg(hide_default_value = true, long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Glass")]
     pub sum_tolerance: f64,
     /// Raw-materials table (CSV or Parquet) [default: the built-in demo shelf].
     ///
@@ -516,6 +539,7 @@ pub struct BatchArgs {
     /// multi-oxide mineral that would force an oxide beyond this is
     /// reported, naming the oxide.
     #[arg(
+        hide_default_value = true,
         long,
         value_name = "WT_PCT",
         default_value_t = 0.001,
@@ -704,6 +728,15 @@ pub struct EvalArgs {
     #[arg(long, value_name = "FILE.svg", help_heading = "Output")]
     pub plot: Option<PathBuf>,
 
+    /// Draw the viscosity–temperature curve (SVG) with its fixpoints.
+    ///
+    /// The fixpoints: melting (10 Pa·s), working point (10³), softening
+    /// point (10^6.6), T_g (10¹²) and strain point (10^13.5 Pa·s), each at
+    /// the temperature where the curve reaches it. Example:
+    /// --viscosity-plot eta.svg
+    #[arg(long, value_name = "FILE.svg", help_heading = "Output")]
+    pub viscosity_plot: Option<PathBuf>,
+
     /// Write the TTT curve (T, time to X_c, I, U) to this CSV file.
     #[arg(long, value_name = "FILE", help_heading = "Output")]
     pub ttt: Option<PathBuf>,
@@ -724,7 +757,7 @@ pub struct EvalArgs {
     ///
     /// From 0 to 10. Amounts that sum within it of 100 are normalised (and a
     /// note says so); further off is an error. Example: --sum-tolerance 0.5
-    #[arg(long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Models")]
+    #[arg(hide_default_value = true, long, value_name = "POINTS", default_value_t = DEFAULT_SUM_TOLERANCE, help_heading = "Models")]
     pub sum_tolerance: f64,
 
     #[command(flatten)]
@@ -761,6 +794,7 @@ pub struct EvalArgs {
     /// Above absolute zero (−273.15 °C); a plate too hot to freeze the melt
     /// gets a note instead of a thickness. Example: --quench-surface-c -196
     #[arg(
+        hide_default_value = true,
         long,
         value_name = "DEG_C",
         default_value_t = 25.0,
@@ -771,7 +805,7 @@ pub struct EvalArgs {
     /// Thermal diffusivity of the melt, m²/s [default: 5e-7].
     ///
     /// Positive. Values outside 1e-7 to 5e-6 m²/s get a plausibility note.
-    #[arg(long, value_name = "M2_PER_S", default_value_t = DEFAULT_MELT_DIFFUSIVITY_M2_PER_S, help_heading = "Quench")]
+    #[arg(hide_default_value = true, long, value_name = "M2_PER_S", default_value_t = DEFAULT_MELT_DIFFUSIVITY_M2_PER_S, help_heading = "Quench")]
     pub melt_diffusivity: f64,
 
     /// Worker threads for tables and --uncertainty draws [default: all cores].

@@ -11,7 +11,8 @@ use crate::error::{Error, ResultExt};
 use crate::report::html::{ReportRecipe, ScreenReport};
 use crate::report::plot::{ProbabilityPoint, TradePoint};
 use crate::report::records::{
-    csv_digits, fields, oxide_column, oxide_of_column, oxide_wt_column, Cell, Digits,
+    csv_digits, equipment_fields, fields, oxide_column, oxide_of_column, oxide_wt_column, Cell,
+    Digits, EQUIPMENT_FIELDS_AFTER,
 };
 use crate::report::text::{batch_csv, batch_text, evaluation_text};
 use crate::screen::{evaluate_candidate_with, Pass, Row, ScreenProblem, Shortlisted};
@@ -137,6 +138,33 @@ pub(crate) fn rows_frame_with(
             )
         };
         cols.push(col);
+    }
+    // One verdict per quench option, after the deciding option's margin.
+    let at = cols
+        .iter()
+        .position(|c| c.name().as_str() == EQUIPMENT_FIELDS_AFTER)
+        .map_or(cols.len(), |i| i + 1);
+    for (k, f) in equipment_fields(problem).into_iter().enumerate() {
+        let col = if f.margin {
+            let v: Vec<Option<f64>> = rows
+                .iter()
+                .map(|r| match f.get(r) {
+                    Cell::Num(v) => v,
+                    _ => None,
+                })
+                .collect();
+            Column::new(f.name.as_str().into(), v)
+        } else {
+            let v: Vec<Option<bool>> = rows
+                .iter()
+                .map(|r| match f.get(r) {
+                    Cell::Bool(v) => v,
+                    _ => None,
+                })
+                .collect();
+            Column::new(f.name.as_str().into(), v)
+        };
+        cols.insert(at + k, col);
     }
     if !with_rank {
         cols.push(Column::new(
@@ -270,6 +298,14 @@ pub(crate) fn shortlist_json(problem: &ScreenProblem, rows: &[&Row]) -> String {
                 };
                 m.insert(f.name.into(), v);
             }
+            for f in equipment_fields(problem) {
+                let v = match f.get(r) {
+                    Cell::Num(v) => v.map(serde_json::Value::from).unwrap_or_default(),
+                    Cell::Bool(v) => v.map(serde_json::Value::from).unwrap_or_default(),
+                    Cell::Text(v) => v.map(serde_json::Value::from).unwrap_or_default(),
+                };
+                m.insert(f.name, v);
+            }
             serde_json::Value::Object(m)
         })
         .collect();
@@ -303,6 +339,7 @@ pub(crate) fn write_batch_sheets(
         };
         let comp = Composition::from_mol_percent_array(&s.row.composition(), 1e-6)?;
         let mut text = evaluation_text(e);
+        text.push_str(&format!("\n{}\n", crate::report::CAUTION));
         if let Some((sheet, csv)) = batch_sheet(plan, &comp)? {
             text.push('\n');
             text.push_str(&sheet);

@@ -12,6 +12,7 @@ use crate::composition::expr::parse_linear;
 use crate::composition::Oxide;
 use crate::error::Error;
 use crate::kinetics::KineticOptions;
+use crate::report::records::equipment_column_name;
 use crate::report::text::DEMO_SHELF_LABEL;
 use crate::screen::{
     CostLimit, Equipment, LinearConstraint, ObjectiveKind, ScreenProblem, ScreenUncertainty,
@@ -33,7 +34,7 @@ struct RawConfig {
     oxides: BTreeMap<Spanned<String>, Spanned<[f64; 2]>>,
     #[serde(default)]
     constraint: Vec<RawConstraint>,
-    equipment: RawEquipment,
+    equipment: Spanned<RawEquipments>,
     furnace: RawFurnace,
     #[serde(default)]
     cost: Option<RawCost>,
@@ -129,13 +130,49 @@ struct RawConstraint {
 #[serde(deny_unknown_fields)]
 struct RawEquipment {
     #[serde(default)]
-    name: Option<String>,
+    name: Option<Spanned<String>>,
     cooling_rate: Spanned<f64>,
     #[serde(default = "default_unit")]
     unit: RateUnit,
     #[serde(default = "one")]
     safety_factor: Spanned<f64>,
+    #[serde(default)]
+    decides: Option<Spanned<bool>>,
 }
+
+/// `[equipment]` (one table) or `[[equipment]]` (one or more): read through
+/// the TOML reader's own tables, so every key keeps its line.
+struct RawEquipments(Vec<RawEquipment>);
+
+impl<'de> Deserialize<'de> for RawEquipments {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct Visit;
+        impl<'de> serde::de::Visitor<'de> for Visit {
+            type Value = RawEquipments;
+            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                f.write_str("an [equipment] table or one or more [[equipment]] tables")
+            }
+            fn visit_map<A: serde::de::MapAccess<'de>>(
+                self,
+                m: A,
+            ) -> Result<Self::Value, A::Error> {
+                RawEquipment::deserialize(serde::de::value::MapAccessDeserializer::new(m))
+                    .map(|e| RawEquipments(vec![e]))
+            }
+            fn visit_seq<A: serde::de::SeqAccess<'de>>(
+                self,
+                s: A,
+            ) -> Result<Self::Value, A::Error> {
+                Vec::<RawEquipment>::deserialize(serde::de::value::SeqAccessDeserializer::new(s))
+                    .map(RawEquipments)
+            }
+        }
+        d.deserialize_any(Visit)
+    }
+}
+
+/// The name of an `[[equipment]]` without one.
+pub const DEFAULT_EQUIPMENT_NAME: &str = "quench equipment";
 
 fn default_unit() -> RateUnit {
     RateUnit::PerSecond
@@ -248,6 +285,11 @@ pub struct RunPlan {
     /// The glass each batch sheet makes, kg (`[batch] glass_kg`).
     pub batch_glass_kg: f64,
 }
+
+/// The fastest quench a config may name, K/s: a larger rate is a unit slip
+/// (splat cooling and melt spinning, the fastest common quenches, reach
+/// about 1e6 K/s; common practice).
+pub const MAX_EQUIPMENT_RATE_K_PER_S: f64 = 1e9;
 
 /// The largest `first_pass_points`.
 pub const MAX_FIRST_PASS_POINTS: usize = 50_000_000;
@@ -487,23 +529,112 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
             Err(m) => push(c.expr.span(), m.to_string()),
         }
     }
-    let rate = *raw.equipment.cooling_rate.get_ref();
-    if !(rate.is_finite() && rate > 0.0) {
+    // The quench options: each rate and safety factor checked, names
+    // distinct, at most one marked `decides = true` (else the first decides).
+    let listed = raw.equipment.get_ref().0.len();
+    if listed == 0 {
         push(
-            raw.equipment.cooling_rate.span(),
-            format!(
-                "cooling_rate must be positive, got {rate} {}",
-                raw.equipment.unit.symbol()
-            ),
+            raw.equipment.span(),
+            "equipment = [] lists no quench: give at least one [[equipment]] with cooling_rate"
+                .into(),
         );
     }
-    let safety = *raw.equipment.safety_factor.get_ref();
-    if !(safety.is_finite() && safety >= 1.0) {
-        push(
-            raw.equipment.safety_factor.span(),
-            format!("safety_factor must be at least 1, got {safety}"),
-        );
+    let mut options: Vec<Equipment> = Vec::new();
+    let mut deciding: Option<usize> = None;
+    let mut seen: Vec<(String, usize)> = Vec::new();
+    for (i, q) in raw.equipment.get_ref().0.iter().enumerate() {
+        let name = match &q.name {
+            Some(n) => {
+                let t = n.get_ref().trim().to_string();
+                if t.is_empty() {
+                    push(n.span(), "equipment name must not be empty".into());
+                } else if let Some((first, line)) = seen
+                    .iter()
+                    .find(|(s, _)| equipment_column_name(s) == equipment_column_name(&t))
+                {
+                    let why = if first.eq_ignore_ascii_case(&t) {
+                        String::new()
+                    } else {
+                        format!(
+                            " ('{first}' and '{t}' give the same column, glassy_with_{})",
+                            equipment_column_name(&t)
+                        )
+                    };
+                    push(
+                        n.span(),
+                        format!("equipment name '{t}' is used twice (first on line {line}){why}; each quench option needs its own name (names ignore case, and spaces and signs count as '_')"),
+                    );
+                } else {
+                    seen.push((t.clone(), src.problem(n.span(), "").line));
+                }
+                t
+            }
+            None if listed > 1 => {
+                push(
+                    q.cooling_rate.span(),
+                    "with more than one [[equipment]], each needs a name = \"...\" (it heads its column in the shortlist and its line in the plots)".into(),
+                );
+                DEFAULT_EQUIPMENT_NAME.to_string()
+            }
+            None => DEFAULT_EQUIPMENT_NAME.to_string(),
+        };
+        let which = if listed > 1 {
+            format!("[[equipment]] '{name}': ")
+        } else {
+            String::new()
+        };
+        let rate = *q.cooling_rate.get_ref();
+        if !(rate.is_finite() && rate > 0.0) {
+            push(
+                q.cooling_rate.span(),
+                format!(
+                    "{which}cooling_rate must be a positive number of {}, got {rate}",
+                    q.unit.symbol()
+                ),
+            );
+        } else if q.unit.to_si(rate).0 > MAX_EQUIPMENT_RATE_K_PER_S {
+            push(
+                q.cooling_rate.span(),
+                format!(
+                    "{which}cooling_rate {rate} {} is above {MAX_EQUIPMENT_RATE_K_PER_S:e} K/s, faster than any bulk quench (splat and melt spinning reach about 1e6 K/s); check the unit",
+                    q.unit.symbol()
+                ),
+            );
+        }
+        let safety = *q.safety_factor.get_ref();
+        if !(safety.is_finite() && safety >= 1.0) {
+            push(
+                q.safety_factor.span(),
+                format!("{which}safety_factor must be at least 1, got {safety}"),
+            );
+        }
+        if let Some(d) = &q.decides {
+            if *d.get_ref() {
+                match deciding {
+                    Some(first) => push(
+                        d.span(),
+                        format!(
+                            "decides = true is given twice ('{}' already decides): one quench option decides feasibility and ranking",
+                            options[first].name
+                        ),
+                    ),
+                    None => deciding = Some(i),
+                }
+            }
+        }
+        options.push(Equipment {
+            name,
+            rate: q.unit.to_si(rate),
+            safety_factor: safety,
+        });
     }
+    let first = deciding.unwrap_or(0).min(options.len().saturating_sub(1));
+    let (equipment, more_equipment) = if options.is_empty() {
+        (None, Vec::new())
+    } else {
+        let e = options.remove(first);
+        (Some(e), options)
+    };
     let fmax = *raw.furnace.max_temperature_c.get_ref();
     if !(fmax.is_finite() && fmax > 0.0 && fmax < 3000.0) {
         push(
@@ -891,14 +1022,8 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         problem: ScreenProblem {
             oxides,
             constraints,
-            equipment: Equipment {
-                name: raw
-                    .equipment
-                    .name
-                    .unwrap_or_else(|| "quench equipment".into()),
-                rate: raw.equipment.unit.to_si(rate),
-                safety_factor: safety,
-            },
+            equipment: equipment.ok_or_else(|| Error::internal("no quench option was read"))?,
+            more_equipment,
             furnace_max: Celsius(fmax).to_kelvin(),
             melting_max: Celsius(fmax - melting_margin).to_kelvin(),
             liquidus_max: Celsius(fmax - margin).to_kelvin(),

@@ -170,6 +170,24 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
         margin,
         problem.equipment.safety_factor.log10()
     );
+    if !problem.more_equipment.is_empty() {
+        let each: Vec<String> = problem
+            .equipment_options()
+            .filter_map(|q| {
+                q.verdict(e.critical_rate_k_per_s).map(|v| {
+                    format!(
+                        "{}: {} ({:+.2} decades at {} K/s; the safety factor asks for {:.2})",
+                        esc(&q.name),
+                        if v.glassy { "glassy" } else { "not glassy" },
+                        v.margin_decades,
+                        sig(q.rate.0),
+                        q.safety_factor.log10()
+                    )
+                })
+            })
+            .collect();
+        let _ = write!(h, "<p>Each quench option: {}.</p>", each.join("; "));
+    }
     let band = match (
         l.row.critical_rate_p05_k_per_s,
         l.row.critical_rate_p95_k_per_s,
@@ -192,6 +210,10 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
         );
     }
     h.push_str(&property_table(e));
+    let quenches: Vec<plot::QuenchLine<'_>> = problem
+        .equipment_options()
+        .map(|q| (q.rate, q.name.as_str()))
+        .collect();
     match e.kinetics() {
         Ok(k) => {
             let s = &e.kinetic_summary;
@@ -199,13 +221,7 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
             let _ = write!(
                 h,
                 "<figure>{}</figure>",
-                inline(&plot::ttt_band_svg(
-                    &k,
-                    s,
-                    Some((problem.equipment.rate, &problem.equipment.name)),
-                    band,
-                    &title
-                ))
+                inline(&plot::ttt_band_svg(&k, s, &quenches, band, &title))
             );
             let _ = write!(
                 h,
@@ -214,6 +230,7 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
                     &k,
                     s,
                     band,
+                    &quenches,
                     &format!("Continuous cooling, rank {}", l.rank)
                 ))
             );
@@ -228,6 +245,16 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
                 inline(&plot::composition_svg(
                     &bars,
                     &format!("Composition, rank {}", l.rank)
+                ))
+            );
+            let _ = write!(
+                h,
+                "<figure>{}</figure>",
+                inline(&plot::viscosity_svg(
+                    &e.melt.viscosity,
+                    &plot::viscosity_fixpoints(&e.melt.viscosity),
+                    &[],
+                    &format!("Viscosity, rank {}", l.rank)
                 ))
             );
             let _ = write!(
@@ -295,12 +322,29 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
         &mut h,
         "equipment",
         format!(
-            "{}: {} K/s, safety factor {}",
+            "{}: {} K/s, safety factor {}{}",
             plan.equipment.name,
             sig(plan.equipment.rate.0),
-            plan.equipment.safety_factor
+            plan.equipment.safety_factor,
+            if plan.more_equipment.is_empty() {
+                ""
+            } else {
+                " (decides feasibility and ranking)"
+            }
         ),
     );
+    for q in &plan.more_equipment {
+        row(
+            &mut h,
+            "also reported",
+            format!(
+                "{}: {} K/s, safety factor {} (a verdict per recipe; decides nothing)",
+                q.name,
+                sig(q.rate.0),
+                q.safety_factor
+            ),
+        );
+    }
     if let Some(u) = plan.uncertainty.filter(|u| u.min_probability.is_some()) {
         row(
             &mut h,

@@ -6,7 +6,7 @@
 use crate::assess::Evaluation;
 use crate::composition::Oxide;
 use crate::kinetics::DrivingForce;
-use crate::screen::Row;
+use crate::screen::{Equipment, Row, ScreenProblem};
 use std::collections::BTreeMap;
 
 /// One value of a row, typed.
@@ -198,6 +198,71 @@ pub fn oxide_of_column(name: &str) -> Option<Oxide> {
 pub fn field(name: &str) -> Option<&'static Field> {
     fields(true).find(|f| f.name == name)
 }
+
+/// A column per quench option, when a screen config lists more than one
+/// `[[equipment]]`: `glassy_with_<name>` (R_c ≤ rate / safety factor) and
+/// `margin_with_<name>_decades` (log10(rate / R_c)). They follow
+/// `margin_decades`, the deciding option's margin, in every table.
+#[derive(Debug, Clone)]
+pub struct EquipmentField {
+    pub name: String,
+    pub equipment: Equipment,
+    /// The margin column (else the pass/fail column).
+    pub margin: bool,
+}
+
+impl EquipmentField {
+    /// The value of this column for a glass of critical rate `critical_rate`, K/s.
+    pub fn cell(&self, critical_rate: Option<f64>) -> Cell<'static> {
+        let v = critical_rate.and_then(|r| self.equipment.verdict(r));
+        if self.margin {
+            Cell::Num(v.map(|v| v.margin_decades))
+        } else {
+            Cell::Bool(v.map(|v| v.glassy))
+        }
+    }
+
+    /// The value of this column in a screen's row.
+    pub fn get(&self, r: &Row) -> Cell<'static> {
+        self.cell(r.critical_rate_k_per_s)
+    }
+}
+
+/// The name of an equipment option as it stands in column names: lower
+/// case, letters, digits and underscores.
+pub fn equipment_column_name(name: &str) -> String {
+    column_safe(&name.trim().to_lowercase())
+}
+
+/// The per-option columns of a problem: none with a single quench option
+/// (its verdict is `margin_decades` and the cooling-rate limit), else two
+/// per option, the deciding one first.
+pub fn equipment_fields(problem: &ScreenProblem) -> Vec<EquipmentField> {
+    if problem.more_equipment.is_empty() {
+        return Vec::new();
+    }
+    problem
+        .equipment_options()
+        .flat_map(|q| {
+            let n = equipment_column_name(&q.name);
+            [
+                EquipmentField {
+                    name: format!("glassy_with_{n}"),
+                    equipment: q.clone(),
+                    margin: false,
+                },
+                EquipmentField {
+                    name: format!("margin_with_{n}_decades"),
+                    equipment: q.clone(),
+                    margin: true,
+                },
+            ]
+        })
+        .collect()
+}
+
+/// The column the per-option columns follow.
+pub const EQUIPMENT_FIELDS_AFTER: &str = "margin_decades";
 
 /// One value of an evaluation's row, typed.
 #[derive(Debug, Clone, PartialEq)]

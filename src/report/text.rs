@@ -12,7 +12,9 @@ use crate::screen::{LimitSummary, ScreenProblem};
 use crate::units::kelvin_to_celsius as c;
 use std::fmt::Write;
 
-/// One short caution line (docs/science.md, "Cautions"), printed under every evaluation.
+/// One short caution line (docs/science.md, "Cautions"): printed once per
+/// run on stderr by the commands that lead to a melt (not with `--quiet`),
+/// and in the report and the batch sheets a screen writes.
 pub const CAUTION: &str = "caution: melts at 1000-1600 °C and quenching (steam bursts, ejected glass) burn; batch dusts \
 (crystalline silica, boric acid, Ba/Pb compounds, Li2CO3) are health hazards. These are model estimates to shortlist \
 experiments: confirm glassiness by XRD/DSC and follow your lab's safety rules and licensed practice.";
@@ -254,7 +256,6 @@ pub fn evaluation_text(e: &Evaluation) -> String {
             );
         }
     }
-    let _ = writeln!(o, "\n{CAUTION}");
     o
 }
 
@@ -465,6 +466,31 @@ pub fn feasibility_text(problem: &ScreenProblem) -> String {
     }
 }
 
+/// With several `[[equipment]]`: which one decides and which are only
+/// reported, in one line (None with a single quench option).
+pub fn quench_options_text(problem: &ScreenProblem) -> Option<String> {
+    if problem.more_equipment.is_empty() {
+        return None;
+    }
+    let others: Vec<String> = problem
+        .more_equipment
+        .iter()
+        .map(|q| {
+            format!(
+                "{} ({} K/s, safety factor {})",
+                q.name,
+                sig(q.rate.0),
+                q.safety_factor
+            )
+        })
+        .collect();
+    Some(format!(
+        "quench options: {} decides feasibility and ranking; also reported per recipe (glassy_with_… columns): {}",
+        problem.equipment.name,
+        others.join(", ")
+    ))
+}
+
 /// The Monte Carlo stage of a screen in a few lines: how many recipes were
 /// drawn of those the search kept, how many the bound left out, and why.
 pub fn probability_stage_text(problem: &ScreenProblem, o: &ProbabilityOutcome) -> String {
@@ -531,7 +557,10 @@ pub fn screen_summary_text(
         s.evaluations,
         s.feasible,
         shortlisted,
-        feasibility_text(problem),
+        match quench_options_text(problem) {
+            Some(q) => format!("{}\n{q}", feasibility_text(problem)),
+            None => feasibility_text(problem),
+        },
         problem.furnace_max.to_celsius().0,
         problem.melting_max.to_celsius().0,
         problem.liquidus_max.to_celsius().0,

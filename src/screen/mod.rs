@@ -45,8 +45,8 @@ pub use first_pass::{chunk_count, sobol_points, space_filling_chunk, space_filli
 pub use limits::{Limit, LimitSet, LimitSummary};
 pub use polytope::Polytope;
 pub use problem::{
-    CostLimit, Equipment, LinearConstraint, ObjectiveKind, ScreenProblem, ScreenUncertainty,
-    Search, Snapping, Weights, DEFAULT_MARGIN_CAP_DECADES,
+    CostLimit, Equipment, EquipmentVerdict, LinearConstraint, ObjectiveKind, ScreenProblem,
+    ScreenUncertainty, Search, Snapping, Weights, DEFAULT_MARGIN_CAP_DECADES,
 };
 pub use refine::{refine, RefineError, ScreenModel};
 pub use run::{

@@ -70,6 +70,31 @@ pub struct Equipment {
     pub safety_factor: f64,
 }
 
+impl Equipment {
+    /// The verdict of this quench on a glass with critical rate `critical_rate`
+    /// (K/s): glassy when R_c ≤ rate / safety factor; the margin is
+    /// log10(rate / R_c), decades (as the screen's `margin_decades`).
+    /// None when the critical rate is not a positive number.
+    pub fn verdict(&self, critical_rate: f64) -> Option<EquipmentVerdict> {
+        if !(critical_rate.is_finite() && critical_rate > 0.0) {
+            return None;
+        }
+        Some(EquipmentVerdict {
+            glassy: critical_rate <= self.rate.0 / self.safety_factor,
+            margin_decades: (self.rate.0 / critical_rate).log10(),
+        })
+    }
+}
+
+/// Whether one quench option makes a glass of a recipe, and by how much.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct EquipmentVerdict {
+    /// R_c ≤ rate / safety factor.
+    pub glassy: bool,
+    /// log10(rate / R_c), decades (negative: the quench is too slow).
+    pub margin_decades: f64,
+}
+
 /// The Monte Carlo stage of a screen (docs/science.md, "Uncertainty in the
 /// screen"): how many draws of the model set's uncertain inputs, from which
 /// seed, and the least probability of a glass a recipe must reach.
@@ -106,7 +131,12 @@ pub struct ScreenProblem {
     /// The oxides that vary, with [min, max] mol%, in [`Oxide::ALL`] order.
     pub oxides: Vec<(Oxide, f64, f64)>,
     pub constraints: Vec<LinearConstraint>,
+    /// The quench that decides feasibility and ranking (the `[[equipment]]`
+    /// marked `decides = true`, else the first listed).
     pub equipment: Equipment,
+    /// Further quench options of the config, in the order listed: each is
+    /// reported (a verdict per recipe, a line per plot) but decides nothing.
+    pub more_equipment: Vec<Equipment>,
     /// The furnace's maximum temperature.
     pub furnace_max: Kelvin,
     /// The melting temperature (10 Pa·s) must stay below this (furnace maximum
@@ -154,6 +184,11 @@ impl ScreenProblem {
     /// The largest critical rate allowed: R_equipment / safety factor.
     pub fn allowed_rate(&self) -> KelvinPerSecond {
         KelvinPerSecond(self.equipment.rate.0 / self.equipment.safety_factor)
+    }
+
+    /// Every quench option: the deciding one first, then the others as listed.
+    pub fn equipment_options(&self) -> impl Iterator<Item = &Equipment> {
+        std::iter::once(&self.equipment).chain(&self.more_equipment)
     }
 
     /// Whether the probability of a glass (not the safety factor) decides
