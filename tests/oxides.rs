@@ -75,8 +75,21 @@ fn sulfate_retention_scales_the_sodium_sulfate() {
     };
     let lossy = mass(&sheet("SO3=0.25"), "sodium sulfate");
     assert!((lossy - 0.0143346).abs() < LP_KG_TOL, "{lossy}");
-    let full = mass(&sheet("SO3=1"), "sodium sulfate");
+    let full_sheet = sheet("SO3=1");
+    let full = mass(&full_sheet, "sodium sulfate");
     assert!((full - 0.0143346 / 4.0).abs() < LP_KG_TOL, "{full}");
+    // Keeping all the SO3 is flagged on the sheet (common practice: sulfate
+    // largely volatilises); with a retention below 1 there is no such note.
+    assert!(
+        full_sheet["notes"]
+            .to_string()
+            .contains("SO3 retention is 1"),
+        "{full_sheet}"
+    );
+    assert!(sheet("SO3=0.25").get("notes").is_none());
+    run_in(&d, &["batch", "--wt", glass])
+        .code(0)
+        .stdout_has("note           SO3 retention is 1");
     // Without SO3 in the glass, sodium sulfate stays on the shelf even though
     // it is the cheapest Na2O source there (invented prices).
     let j = run_in(&d, &["batch", "--wt", "SiO2=74 Na2O=16 CaO=10", "--json"])
