@@ -134,3 +134,36 @@ fn models_that_do_not_cover_the_agents_flag_them() {
         );
     }
 }
+
+#[test]
+fn strontium_zirconium_and_phosphorus_glasses_get_a_batch() {
+    // Source: usual raw materials and their yields from the IUPAC 2021
+    // standard atomic weights (hand computation): SrCO3 147.628 g/mol gives
+    // 1.42472 kg per kg SrO; NH4H2PO4 115.0248 g/mol gives 1.62072 kg per kg
+    // P2O5; zircon ZrSiO4 183.305 g/mol yields 0.67222 kg ZrO2 per kg. At the
+    // demo shelf's purities (98.0, 98.5 and 98.5 %, invented), 1 kg of a glass
+    // with 4 wt% SrO, 2 wt% ZrO2 and 2 wt% P2O5 needs 0.04 × 1.42472 / 0.98,
+    // 0.02 / (0.67222 × 0.985) and 0.02 × 1.62072 / 0.985 kg of them.
+    let d = temp_dir("oxides-sr-zr-p");
+    let j = run_in(
+        &d,
+        &[
+            "batch",
+            "--wt",
+            "SiO2=70 Na2O=14 CaO=8 SrO=4 ZrO2=2 P2O5=2",
+            "--glass-kg",
+            "1",
+            "--json",
+        ],
+    )
+    .code(0)
+    .json();
+    for (name, want) in [
+        ("strontium carbonate", 0.04 * 1.42472 / 0.98),
+        ("zircon", 0.02 / (0.67222 * 0.985)),
+        ("ammonium dihydrogen phosphate", 0.02 * 1.62072 / 0.985),
+    ] {
+        let got = mass(&j, name);
+        assert!((got - want).abs() < LP_KG_TOL, "{name}: {got} vs {want}");
+    }
+}
