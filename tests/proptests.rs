@@ -109,7 +109,7 @@ fn assert_composition_finite(c: &Composition) {
 }
 
 const OXIDE_NAMES: [&str; 14] = [
-    "SiO2", "Na2O", "CaO", "Al2O3", "MgO", "K2O", "B2O3", "sio2", "MGO", "Fe2O3", "TiO2", "SO3",
+    "SiO2", "Na2O", "CaO", "Al2O3", "MgO", "K2O", "B2O3", "sio2", "MGO", "Fe2O3", "TiO2", "Cr2O3",
     "", "Na₂O",
 ];
 

@@ -5,6 +5,7 @@ mod tolerances;
 mod util;
 
 mod batch_sheets;
+mod borosilicate;
 mod cli_batch;
 mod cli_errors;
 mod cli_eval;
@@ -22,6 +23,7 @@ mod layers;
 mod main_job;
 mod melt_card_units;
 mod model_files;
+mod oxides;
 mod plots;
 mod proptests;
 mod quench_options;

@@ -15,7 +15,7 @@ use quenchwise::error::{Error, ResultExt};
 use quenchwise::files::fit_data::{
     read_kinetic_data, read_liquidus_data, read_viscosity_data, sha256_hex, CompositionColumns,
 };
-use quenchwise::files::model_set::{is_built_in, load_model_set_text, DEFAULT_MODEL_SET};
+use quenchwise::files::model_set::{is_built_in, load_model_set_text};
 use quenchwise::files::model_writer::{model_set_toml, viscosity_toml, write_text, Notes};
 use quenchwise::kinetics::fit::{constrained_phases, fit_kinetics, KineticFitSpec, KineticPoint};
 use quenchwise::kinetics::KineticOptions;
@@ -104,7 +104,8 @@ fn base(models: &Path, name: Option<&str>) -> Result<(ModelSet, Notes, String), 
         Some(n) => n.trim().to_string(),
         None if is_built_in(Some(models)) => {
             return Err(Error::bad_input(format!(
-                "--name is required when the base set is the built-in {DEFAULT_MODEL_SET}"
+                "--name is required when the base set is the built-in {}",
+                set.about.name
             ))
             .with_hint(
                 "name the fitted set, e.g. --name lab-glasses, so it never passes for the demo",

@@ -174,7 +174,15 @@ pub struct Batch {
     /// carries the rest extra).
     #[serde(skip_serializing_if = "Vec::is_empty")]
     pub retention: Vec<(String, f64)>,
+    /// Cautions about the sheet a person should read before weighing.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub notes: Vec<String>,
 }
+
+/// The caution for a batch that brings SO3 and keeps all of it: sulfate fines
+/// by decomposing, so most of it leaves the melt (common practice;
+/// docs/science.md, "Fining and colouring agents").
+pub const SULFATE_RETENTION_NOTE: &str = "SO3 retention is 1, but most of the SO3 that sulfate brings leaves the melt as gas (common practice): the glass will hold less than the target unless you give a retention from your own melts, e.g. --retention \"SO3=0.3\"";
 
 /// Least-cost batch for `glass_kg` of glass of composition `glass`.
 ///
@@ -234,6 +242,13 @@ pub fn least_cost_batch(
             .filter(|o| settings.retention[o.index()] < 1.0)
             .map(|o| (o.formula().to_string(), settings.retention[o.index()]))
             .collect(),
+        notes: if delivered[Oxide::SO3.index()] > 0.0
+            && settings.retention[Oxide::SO3.index()] >= 1.0
+        {
+            vec![SULFATE_RETENTION_NOTE.to_string()]
+        } else {
+            Vec::new()
+        },
     })
 }
 

@@ -114,6 +114,9 @@ impl RawMaterial {
         let f = self.formula.as_deref().unwrap_or("");
         if y(Oxide::BaO) {
             Some("barium compound: toxic if swallowed or inhaled")
+        } else if y(Oxide::Sb2O3) {
+            // Diantimony trioxide is classed as a suspected carcinogen (GHS H351; from memory).
+            Some("antimony compound: suspected of causing cancer; avoid dust")
         } else if y(Oxide::B2O3) {
             Some("borate: reproductive-toxicant dust")
         } else if y(Oxide::Li2O) {

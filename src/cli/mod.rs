@@ -529,8 +529,9 @@ pub struct BatchArgs {
     pub raw_materials: Option<PathBuf>,
     /// Fraction of an oxide kept in the melt, e.g. "B2O3=0.95 Na2O=0.98".
     ///
-    /// Volatile oxides (B2O3, alkalis, P2O5) partly evaporate; the batch then
-    /// carries more of them. Values in (0, 1]; unlisted oxides keep 1.
+    /// Volatile oxides (B2O3, alkalis, P2O5) partly evaporate, and most of the
+    /// SO3 that sodium sulfate brings leaves as gas: the batch then carries
+    /// more of them. Values in (0, 1]; unlisted oxides keep 1.
     #[arg(long, value_name = "OXIDE=FRACTION", help_heading = "Raw materials")]
     pub retention: Option<String>,
     /// Allowed deviation of each delivered oxide, wt% of glass [default: 0.001].
@@ -559,7 +560,10 @@ pub struct BatchArgs {
 
 #[derive(Debug, Args)]
 pub struct ModelArgs {
-    /// Model set: a TOML file, or the built-in "demo-soda-lime" (default).
+    /// Model set: a TOML file, "demo-soda-lime" (default) or "demo-borosilicate".
+    ///
+    /// The two built-in sets are invented. docs/model-set-template.toml
+    /// explains every key of a model-set file.
     #[arg(value_name = "FILE", conflicts_with = "models")]
     pub file: Option<PathBuf>,
     /// The same as FILE.
@@ -741,7 +745,10 @@ pub struct EvalArgs {
     #[arg(long, value_name = "FILE", help_heading = "Output")]
     pub ttt: Option<PathBuf>,
 
-    /// Model set: a TOML file, or the built-in "demo-soda-lime" (default).
+    /// Model set: a TOML file, "demo-soda-lime" (default) or "demo-borosilicate".
+    ///
+    /// The two built-in sets are invented; docs/model-set-template.toml
+    /// explains every key of a model-set file.
     #[arg(long, value_name = "FILE", help_heading = "Models")]
     pub models: Option<PathBuf>,
 

@@ -353,6 +353,36 @@ mod tests {
     }
 
     #[test]
+    fn fining_and_colouring_oxides_have_iupac_molar_masses() {
+        // Source: IUPAC 2021 standard atomic weights (Prohaska et al. 2022,
+        // Table 1): S abridged 32.06, O abridged 15.999, Sb 121.760(1),
+        // Ce 140.116(1) (Sb and Ce as printed in the IUPAC 1997 table, unchanged
+        // in 2021 from memory). By hand: SO3 = 32.06 + 3 × 15.999 = 80.057;
+        // Sb2O3 = 2 × 121.760 + 3 × 15.999 = 291.517; CeO2 = 140.116 + 2 × 15.999
+        // = 172.114 g/mol.
+        for (o, m) in [
+            (Oxide::SO3, 80.057),
+            (Oxide::Sb2O3, 291.517),
+            (Oxide::CeO2, 172.114),
+        ] {
+            assert!(
+                close(o.molar_mass(), m, MOLAR_MASS_RTOL),
+                "{o}: {} vs {m}",
+                o.molar_mass()
+            );
+        }
+        // Source: IUPAC 2021 standard atomic weights (as above).
+        assert_eq!(atomic_weight(Element::Sb), 121.760);
+        assert_eq!(atomic_weight(Element::Ce), 140.116);
+        // The other oxides a glass lab uses are all known, by their usual formula.
+        for f in [
+            "SrO", "BaO", "ZnO", "Li2O", "ZrO2", "P2O5", "SO3", "Sb2O3", "CeO2",
+        ] {
+            assert_eq!(f.parse::<Oxide>().unwrap().formula(), f);
+        }
+    }
+
+    #[test]
     fn single_standard_values_are_used_in_full() {
         // Source: IUPAC 2021 Table 1 (Prohaska et al. 2022, doi:10.1515/pac-2019-0603).
         assert_eq!(atomic_weight(Element::Na), 22.98976928);
@@ -445,8 +475,8 @@ mod tests {
                 "{t}"
             );
         }
-        let e = "SO3".parse::<Oxide>().unwrap_err();
-        assert!(e.to_string().contains("unknown oxide 'SO3'"), "{e}");
+        let e = "Cr2O3".parse::<Oxide>().unwrap_err();
+        assert!(e.to_string().contains("unknown oxide 'Cr2O3'"), "{e}");
         assert!(e.hint().unwrap().contains("Na2O"), "{e}");
     }
 

@@ -34,7 +34,9 @@ pub enum Element {
     Zn,
     Sr,
     Zr,
+    Sb,
     Ba,
+    Ce,
 }
 
 /// Standard atomic weight Ar(E), IUPAC 2021 (CIAAW), Table 1 of Prohaska et al. (2022).
@@ -67,7 +69,9 @@ pub fn atomic_weight(e: Element) -> f64 {
         Zn => 65.38,       // 65.38(2)
         Sr => 87.62,       // 87.62(1)
         Zr => 91.224,      // 91.224(2), 2021 value
+        Sb => 121.760,     // 121.760(1); unchanged since the 1997 table, from memory of Table 1
         Ba => 137.327,     // 137.327(7)
+        Ce => 140.116,     // 140.116(1); unchanged since the 1997 table, from memory of Table 1
     }
 }
 
@@ -124,6 +128,12 @@ oxides! {
     Fe2O3 => [(Fe, 2), (O, 3)],
     FeO => [(Fe, 1), (O, 1)],
     MnO => [(Mn, 1), (O, 1)],
+    // Fining and colouring agents, reported as analyses usually report them:
+    // sulfur as SO3, antimony as Sb2O3, cerium as CeO2 (whatever the redox state
+    // in the melt; docs/science.md, "Fining and colouring agents").
+    SO3 => [(S, 1), (O, 3)],
+    Sb2O3 => [(Sb, 2), (O, 3)],
+    CeO2 => [(Ce, 1), (O, 2)],
 }
 
 /// Number of oxides known to the program.

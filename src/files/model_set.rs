@@ -24,6 +24,24 @@ pub const GIORDANO2008_VISCOSITY: &str =
     include_str!("../../configs/models/giordano2008-viscosity.toml");
 /// Name of the default model set.
 pub const DEFAULT_MODEL_SET: &str = "demo-soda-lime";
+/// The invented alkali-borosilicate model set (borosilicate 3.3 family), embedded.
+pub const BOROSILICATE_MODELS: &str = include_str!("../../configs/models/demo-borosilicate.toml");
+/// Name of the built-in alkali-borosilicate model set.
+pub const BOROSILICATE_MODEL_SET: &str = "demo-borosilicate";
+
+/// The built-in model sets: name and TOML text.
+pub const BUILT_IN_MODEL_SETS: [(&str, &str); 2] = [
+    (DEFAULT_MODEL_SET, DEMO_MODELS),
+    (BOROSILICATE_MODEL_SET, BOROSILICATE_MODELS),
+];
+
+/// The text of the built-in model set called `name`, if there is one.
+pub fn built_in_model_set(name: &str) -> Option<&'static str> {
+    BUILT_IN_MODEL_SETS
+        .iter()
+        .find(|(n, _)| *n == name)
+        .map(|(_, text)| *text)
+}
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -593,22 +611,25 @@ pub fn load_model_set(spec: Option<&Path>) -> Result<ModelSet, DataError> {
 /// # Errors
 /// As [`load_model_set`].
 pub fn load_model_set_text(spec: Option<&Path>) -> Result<(ModelSet, String), DataError> {
-    match spec {
-        Some(p) if p.as_os_str() != DEFAULT_MODEL_SET => {
+    let name = spec.map_or(Some(DEFAULT_MODEL_SET), |p| p.to_str());
+    match name.and_then(|n| built_in_model_set(n).map(|t| (n, t))) {
+        Some((n, text)) => {
+            let set = parse_model_set(&Source::new(format!("<built-in {n}>"), text))?;
+            Ok((set, text.to_string()))
+        }
+        None => {
+            // `spec` is Some here: None names the default, which is built in.
+            let p = spec.unwrap_or(Path::new(DEFAULT_MODEL_SET));
             let text = read_text(p)?;
             let set = parse_model_set(&Source::new(p.display().to_string(), &text))?;
             Ok((set, text))
         }
-        _ => {
-            let set = parse_model_set(&Source::new("<built-in demo-soda-lime>", DEMO_MODELS))?;
-            Ok((set, DEMO_MODELS.to_string()))
-        }
     }
 }
 
-/// Whether a model-set argument names the built-in set.
+/// Whether a model-set argument names a built-in set.
 pub fn is_built_in(spec: Option<&Path>) -> bool {
-    spec.is_none_or(|p| p.as_os_str() == DEFAULT_MODEL_SET)
+    spec.is_none_or(|p| p.to_str().and_then(built_in_model_set).is_some())
 }
 
 /// A viscosity model by built-in name (`giordano2008`, `demo-soda-lime`) or file path.
@@ -621,8 +642,9 @@ pub fn load_viscosity_model(spec: &Path) -> Result<ViscosityModel, DataError> {
             "<built-in giordano2008>",
             GIORDANO2008_VISCOSITY,
         )),
-        Some(DEFAULT_MODEL_SET) => {
-            parse_viscosity_model(&Source::new("<built-in demo-soda-lime>", DEMO_MODELS))
+        Some(n) if built_in_model_set(n).is_some() => {
+            let text = built_in_model_set(n).unwrap_or_default();
+            parse_viscosity_model(&Source::new(format!("<built-in {n}>"), text))
         }
         _ => {
             let text = read_text(spec)?;

@@ -4,7 +4,7 @@
 //! hash). Errors name the file, the line and the key, all at once.
 
 use super::melt_card::KineticsTable;
-use super::model_set::{load_model_set, load_viscosity_model};
+use super::model_set::{built_in_model_set, load_model_set, load_viscosity_model};
 use super::raw_materials::read_raw_materials;
 use super::source::{read_text, DataError, Problem, Source};
 use crate::batch::{BatchSettings, CostModel, MAX_BATCH_TOLERANCE_WT_PCT};
@@ -698,7 +698,8 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
     };
     let models_spec = raw.models.as_ref().and_then(|m| m.set.as_ref());
     let models = match models_spec.map(|s| s.get_ref().as_str()) {
-        None | Some("demo-soda-lime") => load_model_set(None).ok(),
+        None => load_model_set(None).ok(),
+        Some(n) if built_in_model_set(n).is_some() => load_model_set(Some(Path::new(n))).ok(),
         Some(p) => match load_model_set(Some(&dir.join(p))) {
             Ok(m) => Some(m),
             Err(e) => {
@@ -714,7 +715,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         None => None,
         Some(v) => {
             let spec = v.get_ref().as_str();
-            let loaded = if spec == "giordano2008" || spec == "demo-soda-lime" {
+            let loaded = if spec == "giordano2008" || built_in_model_set(spec).is_some() {
                 load_viscosity_model(Path::new(spec))
             } else {
                 load_viscosity_model(&dir.join(spec))

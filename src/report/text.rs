@@ -284,6 +284,9 @@ pub fn batch_text(b: &Batch, glass: &Composition, shelf: &str) -> String {
             kept.join(", ")
         );
     }
+    for n in &b.notes {
+        let _ = writeln!(o, "note           {n}");
+    }
     let _ = writeln!(
         o,
         "\n  {:<26} {:>12} {:>10} {:>10}",
