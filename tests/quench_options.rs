@@ -202,5 +202,7 @@ fn eval_against_reports_every_quench_option() {
     assert_eq!(cell("glassy_with_roller_quench"), (rc <= 100.0).to_string());
     assert_eq!(cell("glassy_with_crucible_in_air"), (rc <= 0.2).to_string());
     let m: f64 = cell("margin_with_roller_quench_decades").parse().unwrap();
-    assert!((m - (1000.0 / rc).log10()).abs() < 1e-6, "{m} {rc}");
+    // The CSV rounds decades to 0.001 and rates to 4 significant figures
+    // (half a last digit each: 5e-4 decades plus 2.2e-4 from R_c).
+    assert!((m - (1000.0 / rc).log10()).abs() < 8e-4, "{m} {rc}");
 }
