@@ -267,7 +267,14 @@ fn snapping_and_batch_keys_are_checked_with_their_line() {
         (
             "resolution_mol_pct = 0.5",
             "resolution_mol_pct = -1.0",
-            "resolution_mol_pct must lie in (0, 10]",
+            "resolution_mol_pct must lie in [0.001, 10]",
+        ),
+        // Smaller than anyone weighs; it once passed the whole-steps test
+        // (any f64 above 2^53 is whole) and overflowed the grid arithmetic.
+        (
+            "resolution_mol_pct = 0.5",
+            "resolution_mol_pct = 1e-18",
+            "resolution_mol_pct must lie in [0.001, 10]",
         ),
         (
             "min_amount_mol_pct = 0.2",
@@ -277,7 +284,12 @@ fn snapping_and_batch_keys_are_checked_with_their_line() {
         (
             "glass_kg = 0.2",
             "glass_kg = 0.0",
-            "[batch] glass_kg must lie in (0, 1000]",
+            "[batch] glass_kg must lie in [0.001, 1000]",
+        ),
+        (
+            "glass_kg = 0.2",
+            "glass_kg = 1e-9",
+            "[batch] glass_kg must lie in [0.001, 1000]",
         ),
     ] {
         let text = snapped_small().replace(from, to);
@@ -565,4 +577,110 @@ fn a_snapped_probability_screen_keeps_the_least_probability() {
             assert!((v * 2.0 - (v * 2.0).round()).abs() < 1e-9, "{o} = {v}");
         }
     }
+}
+
+/// A composition table that carries the user's own measurements under the
+/// names of result columns keeps them: the model's values go beside them as
+/// `<name>_model`. (Only the inputs a melt card's evaluation reads, such as
+/// its liquidus_k, are replaced by the value in force.)
+#[test]
+fn eval_tables_keep_the_users_own_columns_named_like_results() {
+    let d = temp_dir("own-columns");
+    // The numbers in the measured columns are invented for this test; the
+    // check is only that they come back unchanged.
+    std::fs::write(
+        d.join("meas.csv"),
+        "name,SiO2,Na2O,CaO,Al2O3,critical_rate_k_per_s,liquidus_c,warnings\n\
+         plate-A,72,14,10,4,0.05,999,my own note\n",
+    )
+    .unwrap();
+    run_in(
+        &d,
+        &["eval", "--compositions", "meas.csv", "--out", "out.csv"],
+    )
+    .code(0);
+    let df = quenchwise::files::table::read_frame(&d.join("out.csv")).unwrap();
+    assert_eq!(floats(&df, "critical_rate_k_per_s")[0], 0.05);
+    assert_eq!(floats(&df, "liquidus_c")[0], 999.0);
+    let model = floats(&df, "critical_rate_k_per_s_model")[0];
+    assert!(model > 0.0 && model != 0.05, "{model}");
+    assert!(floats(&df, "liquidus_c_model")[0] > 500.0);
+    let text = std::fs::read_to_string(d.join("out.csv")).unwrap();
+    assert!(text.contains("my own note"), "{text}");
+}
+
+/// `--nuclei-per-m3` on the command line wins over a melt-card table's
+/// column, as it does over a single card's key, with and without
+/// `--uncertainty`.
+#[test]
+fn the_command_line_nuclei_density_wins_over_a_table_row() {
+    let d = temp_dir("cli-wins");
+    let cards = root().join("demo-datasets/melt-cards.csv");
+    for extra in [&[][..], &["--uncertainty", "20"][..]] {
+        let mut args = vec![
+            "eval",
+            "--melt-cards",
+            cards.to_str().unwrap(),
+            "--out",
+            "m.csv",
+            "--nuclei-per-m3",
+            "1e10",
+        ];
+        args.extend_from_slice(extra);
+        // With --uncertainty the demo cards give no spread: every row says
+        // why it has no band, and the point estimate is still written.
+        run_in(&d, &args).code(0);
+        let df = quenchwise::files::table::read_frame(&d.join("m.csv")).unwrap();
+        // Rows the demo file makes fail on purpose have no value.
+        let set: Vec<f64> = floats(&df, "heterogeneous_nuclei_per_m3")
+            .into_iter()
+            .filter(|v| !v.is_nan())
+            .collect();
+        assert!(!set.is_empty());
+        assert!(set.iter().all(|&v| v == 1e10), "{extra:?}: {set:?}");
+    }
+}
+
+/// The options that write one glass's outputs are refused for tables
+/// instead of being ignored.
+#[test]
+fn single_glass_outputs_are_refused_for_tables() {
+    let d = temp_dir("table-plots");
+    let cards = root().join("demo-datasets/melt-cards.csv");
+    let comps = root().join("demo-datasets/candidates.csv");
+    for (input, file) in [("--melt-cards", &cards), ("--compositions", &comps)] {
+        for flag in ["--viscosity-plot", "--plot", "--ttt"] {
+            run_in(
+                &d,
+                &[
+                    "eval",
+                    input,
+                    file.to_str().unwrap(),
+                    "--out",
+                    "t.csv",
+                    flag,
+                    "x.svg",
+                ],
+            )
+            .code(2)
+            .stderr_has(&format!("{flag} draws or prints one glass"));
+        }
+    }
+    run_in(
+        &d,
+        &[
+            "eval",
+            "--melt",
+            root()
+                .join("demo-datasets/melt-card.toml")
+                .to_str()
+                .unwrap(),
+            "--uncertainty",
+            "40",
+            "--viscosity-plot",
+            "v.svg",
+        ],
+    )
+    .code(2)
+    .stderr_has("--viscosity-plot draws the point estimate");
 }

@@ -250,7 +250,7 @@ size = 1
 #[test]
 fn infeasible_config_names_the_binding_limits() {
     let d = temp_dir("screen-infeasible");
-    let text = SMALL.replace("cooling_rate = 2.0", "cooling_rate = 1e-15");
+    let text = SMALL.replace("cooling_rate = 2.0", "cooling_rate = 1e-6");
     let cfg = write_config(&d, &text);
     let r = run_in(&d, &["screen", cfg.to_str().unwrap(), "--out", "out"]);
     r.code(2)
@@ -737,4 +737,20 @@ fn finds_the_grid_optimum_of_a_cost_screen_with_a_linear_constraint() {
         na_ca <= 26.0 + 1e-9,
         "the linear constraint is broken: {na_ca}"
     );
+}
+
+#[test]
+fn a_cooling_rate_slower_than_any_furnace_is_refused_with_its_line() {
+    let d = temp_dir("screen-slow-rate");
+    let text = SMALL.replace("cooling_rate = 2.0", "cooling_rate = 1e-15");
+    let cfg = write_config(&d, &text);
+    let line = text
+        .lines()
+        .position(|l| l.starts_with("cooling_rate = 1e-15"))
+        .unwrap()
+        + 1;
+    run_in(&d, &["check", cfg.to_str().unwrap()])
+        .code(2)
+        .stderr_has(&format!(":{line}"))
+        .stderr_has("slower than any furnace cools");
 }

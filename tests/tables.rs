@@ -61,6 +61,7 @@ fn composition_plan(m: &ModelSet) -> ResultPlan {
         with_models: true,
         calibrated: m.phases.iter().any(|p| p.calibrated_against.is_some()),
         phases: m.phases.iter().map(|p| p.name.clone()).collect(),
+        replaces: &[],
     }
 }
 

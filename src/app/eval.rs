@@ -156,6 +156,19 @@ pub fn overrides(a: &KineticArgs) -> KineticOverrides {
     }
 }
 
+/// The first option given that writes one glass's outputs (the JSON, the
+/// TTT table and the plots), for the paths that cannot write them.
+pub(super) fn single_glass_output(a: &EvalArgs) -> Option<&'static str> {
+    [
+        (a.json, "--json"),
+        (a.ttt.is_some(), "--ttt"),
+        (a.plot.is_some(), "--plot"),
+        (a.viscosity_plot.is_some(), "--viscosity-plot"),
+    ]
+    .into_iter()
+    .find_map(|(given, flag)| given.then_some(flag))
+}
+
 fn write_stdout(text: &str) -> Result<(), Error> {
     std::io::stdout()
         .lock()
@@ -198,6 +211,13 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
     if wt_table && a.compositions.is_none() {
         return Err(Error::bad_input("--wt without a value reads --compositions tables as wt%; give a composition or a table"));
     }
+    if a.melt_cards.is_some() || a.compositions.is_some() {
+        if let Some(flag) = single_glass_output(&a) {
+            return Err(Error::bad_input(format!(
+                "{flag} draws or prints one glass: it does not apply to a --melt-cards or --compositions table (use --mol, --wt, --recipe or --melt)"
+            )));
+        }
+    }
     if let Some(n) = a.uncertainty.draws {
         return super::uncertainty::eval_uncertainty(&a, n);
     }
@@ -208,13 +228,8 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
     };
     let settings = stream_settings(&a)?;
     if let Some(p) = &a.melt_cards {
-        if a.json || a.ttt.is_some() || a.plot.is_some() {
-            return Err(Error::bad_input(
-                "--json, --ttt and --plot apply to one melt or composition, not to --melt-cards",
-            ));
-        }
         let out = table_out()?;
-        let base = overrides(&a.kinetics).apply(KineticOptions::default());
+        let cli = overrides(&a.kinetics);
         return evaluate_table(
             p,
             out,
@@ -222,7 +237,12 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
             &ResultPlan::melt_cards(),
             settings,
             |values: &MeltValues| {
-                let (melt, opts) = values.build(&base).map_err(|e| e.to_string())?;
+                // The command line wins over the row, as over a single card.
+                let (melt, card_opts) = values
+                    .build(&KineticOptions::default())
+                    .map_err(|e| e.to_string())?;
+                let opts = cli.apply(card_opts);
+                opts.validate().map_err(|e| e.to_string())?;
                 evaluate_melt(&melt, &opts, slab, &Calibration::None).map_err(|e| e.to_string())
             },
         );
@@ -256,6 +276,7 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
             with_models: true,
             calibrated: models.phases.iter().any(|p| p.calibrated_against.is_some()),
             phases: models.phases.iter().map(|p| p.name.clone()).collect(),
+            replaces: &[],
         };
         return evaluate_table(
             p,

@@ -63,14 +63,14 @@ pub fn check(a: CheckArgs) -> Result<Outcome, Error> {
     let problem = &plan.problem;
     let simplex = Simplex::new(problem);
     println!(
-        "{}: valid. {} oxides vary ({} free, {} closes the sum); {} linear constraints; {} first-pass points in {} chunks; {}",
+        "{}: valid. {} oxides vary ({} free, {} closes the sum); {}; {} first-pass points in {}; {}",
         a.config.display(),
         problem.oxides.len(),
         simplex.dims(),
         simplex.balance.0,
-        problem.constraints.len(),
+        count(problem.constraints.len(), "linear constraint", "linear constraints"),
         plan.search.first_pass_points,
-        chunk_count(&plan.search),
+        count(chunk_count(&plan.search), "chunk", "chunks"),
         match problem.uncertainty.and_then(|u| u.min_probability) {
             Some(p) => format!(
                 "P(glassy at {:.4} K/s) must be ≥ {p} (the probability decides, not the safety factor)",
@@ -139,7 +139,6 @@ pub fn merge(a: MergeArgs) -> Result<Outcome, Error> {
     tell(end, &a.out, &again)
 }
 
-/// Say how a run ended.
 /// summary.txt without its closing caution (the run prints the caution
 /// once, on stderr, unless --quiet).
 fn without_caution(text: &str) -> String {
@@ -149,6 +148,7 @@ fn without_caution(text: &str) -> String {
     }
 }
 
+/// Say how a run ended.
 fn tell(end: run_folder::Outcome, out: &std::path::Path, again: &str) -> Result<Outcome, Error> {
     match end {
         run_folder::Outcome::Finished {

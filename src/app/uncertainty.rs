@@ -45,10 +45,10 @@ pub fn eval_uncertainty(a: &EvalArgs, draws: usize) -> Result<Outcome, Error> {
             "--against draws with the screen config's own [uncertainty]: run it without --uncertainty",
         ));
     }
-    if a.ttt.is_some() || a.plot.is_some() {
-        return Err(Error::bad_input(
-            "--ttt and --plot draw the point estimate: run them without --uncertainty",
-        ));
+    if let Some(flag) = super::eval::single_glass_output(a).filter(|&f| f != "--json") {
+        return Err(Error::bad_input(format!(
+            "{flag} draws the point estimate: run it without --uncertainty"
+        )));
     }
     if !(MIN_DRAWS..=MAX_DRAWS).contains(&draws) {
         return Err(Error::bad_input(format!(
@@ -82,11 +82,7 @@ pub fn eval_uncertainty(a: &EvalArgs, draws: usize) -> Result<Outcome, Error> {
     };
     let cli = super::eval::overrides(&a.kinetics);
     if table {
-        if a.json {
-            return Err(Error::bad_input(
-                "--json applies to one melt or composition, not to tables: the band goes into the --out table",
-            ));
-        }
+        // eval() has refused --json and the plots for tables already.
         return eval_uncertainty_table(a, settings, quench, slab);
     }
     let (evaluation, propagation) = if let Some(p) = &a.melt {
@@ -255,7 +251,6 @@ fn eval_uncertainty_table(
         settings.draws, settings.seed
     );
     if let Some(p) = &a.melt_cards {
-        let base = cli.apply(KineticOptions::default());
         let nuclei_given = cli.heterogeneous_nuclei_per_m3.is_some();
         return evaluate_table_with(
             p,
@@ -265,7 +260,12 @@ fn eval_uncertainty_table(
             &extra,
             stream,
             |i, (values, spreads): &(MeltValues, MeltSpreads)| {
-                let (melt, opts) = values.build(&base).map_err(|e| e.to_string())?;
+                // The command line wins over the row, as over a single card.
+                let (melt, card_opts) = values
+                    .build(&KineticOptions::default())
+                    .map_err(|e| e.to_string())?;
+                let opts = cli.apply(card_opts);
+                opts.validate().map_err(|e| e.to_string())?;
                 let e = evaluate_melt(&melt, &opts, slab, &Calibration::None)
                     .map_err(|e| e.to_string())?;
                 let band = melt_inputs(&melt, spreads)
@@ -319,6 +319,7 @@ fn eval_uncertainty_table(
         with_models: true,
         calibrated: models.phases.iter().any(|p| p.calibrated_against.is_some()),
         phases: models.phases.iter().map(|p| p.name.clone()).collect(),
+        replaces: &[],
     };
     let drawn = inputs_of(&inputs);
     let tolerance = a.sum_tolerance;

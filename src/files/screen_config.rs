@@ -64,8 +64,16 @@ struct RawBatch {
 pub const DEFAULT_BATCH_GLASS_KG: f64 = 1.0;
 /// The largest `[batch] glass_kg` (a larger one is a typing accident).
 pub const MAX_BATCH_GLASS_KG: f64 = 1000.0;
+/// The smallest `[batch] glass_kg`: one gram (a sheet for less reads as zeros).
+pub const MIN_BATCH_GLASS_KG: f64 = 0.001;
 /// The coarsest `[shortlist] resolution_mol_pct`.
 pub const MAX_RESOLUTION_MOL_PCT: f64 = 10.0;
+/// The finest `[shortlist] resolution_mol_pct`: nobody weighs a thousandth of
+/// a mol%, and the grid arithmetic stays exact far below its limits.
+pub const MIN_RESOLUTION_MOL_PCT: f64 = 0.001;
+/// The slowest equipment cooling rate, K/s (about 0.06 K/min, slower than any
+/// furnace cools).
+pub const MIN_EQUIPMENT_RATE_K_PER_S: f64 = 1e-6;
 /// The largest `[shortlist] min_amount_mol_pct`.
 pub const MAX_MIN_AMOUNT_MOL_PCT: f64 = 10.0;
 
@@ -592,6 +600,14 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
                     q.unit.symbol()
                 ),
             );
+        } else if q.unit.to_si(rate).0 < MIN_EQUIPMENT_RATE_K_PER_S {
+            push(
+                q.cooling_rate.span(),
+                format!(
+                    "{which}cooling_rate {rate} {} is below {MIN_EQUIPMENT_RATE_K_PER_S:e} K/s, slower than any furnace cools; check the unit",
+                    q.unit.symbol()
+                ),
+            );
         } else if q.unit.to_si(rate).0 > MAX_EQUIPMENT_RATE_K_PER_S {
             push(
                 q.cooling_rate.span(),
@@ -912,10 +928,10 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
     let resolution = shortlist.resolution_mol_pct.as_ref().map(|r| {
         let v = *r.get_ref();
         let steps = 100.0 / v;
-        if !(v.is_finite() && v > 0.0 && v <= MAX_RESOLUTION_MOL_PCT) {
+        if !(v.is_finite() && (MIN_RESOLUTION_MOL_PCT..=MAX_RESOLUTION_MOL_PCT).contains(&v)) {
             push(
                 r.span(),
-                format!("[shortlist] resolution_mol_pct must lie in (0, {MAX_RESOLUTION_MOL_PCT}] mol%, got {v}"),
+                format!("[shortlist] resolution_mol_pct must lie in [{MIN_RESOLUTION_MOL_PCT}, {MAX_RESOLUTION_MOL_PCT}] mol%, got {v}"),
             );
         } else if (steps - steps.round()).abs() > 1e-6 * steps {
             push(
@@ -943,10 +959,10 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         None => DEFAULT_BATCH_GLASS_KG,
         Some(b) => {
             let v = *b.glass_kg.get_ref();
-            if !(v.is_finite() && v > 0.0 && v <= MAX_BATCH_GLASS_KG) {
+            if !(v.is_finite() && (MIN_BATCH_GLASS_KG..=MAX_BATCH_GLASS_KG).contains(&v)) {
                 push(
                     b.glass_kg.span(),
-                    format!("[batch] glass_kg must lie in (0, {MAX_BATCH_GLASS_KG}] kg of glass, got {v}"),
+                    format!("[batch] glass_kg must lie in [{MIN_BATCH_GLASS_KG}, {MAX_BATCH_GLASS_KG}] kg of glass, got {v}"),
                 );
             }
             v

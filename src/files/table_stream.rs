@@ -181,6 +181,41 @@ pub struct ResultPlan {
     pub calibrated: bool,
     /// Every phase an evaluation may name, in any order.
     pub phases: Vec<String>,
+    /// Input columns the evaluation reads and carries in force (a melt
+    /// card's `liquidus_k`): a result of the same name takes their place.
+    /// A result named like any other input column (a measured
+    /// `critical_rate_k_per_s` passed through) is written as `<name>_model`,
+    /// so the user's own numbers are never overwritten.
+    pub replaces: &'static [&'static str],
+}
+
+/// The columns of a melt-card table the row reader reads
+/// (`files::table::melt_rows`).
+pub const MELT_CARD_COLUMNS: [&str; 15] = [
+    "a",
+    "b_k",
+    "c_k",
+    "liquidus_k",
+    "enthalpy_of_fusion_j_per_mol",
+    "molar_volume_m3_per_mol",
+    "turnbull_alpha",
+    "interface_energy_j_per_m2",
+    "growth",
+    "detectable_fraction",
+    "driving_force",
+    "heterogeneous_nuclei_per_m3",
+    "contact_angle_deg",
+    "sample_thickness_m",
+    "heat_capacity_change_j_per_mol_k",
+];
+
+/// The name a result column takes in a table with these input columns.
+fn result_name(name: &str, input: &[String], replaces: &[&str]) -> String {
+    if input.iter().any(|c| c == name) && !replaces.contains(&name) {
+        format!("{name}_model")
+    } else {
+        name.to_string()
+    }
 }
 
 impl ResultPlan {
@@ -190,6 +225,7 @@ impl ResultPlan {
             with_models: false,
             calibrated: false,
             phases: vec!["crystal".into()],
+            replaces: &MELT_CARD_COLUMNS,
         }
     }
 }
@@ -212,16 +248,10 @@ pub struct ExtraCells {
 }
 
 impl ExtraColumns {
-    /// The columns of a batch, named as given (`_out` appended where an
+    /// The columns of a batch, named as given (`_model` appended where an
     /// input column already has the name).
     fn build(&self, input: &[String], cells: &[ExtraCells]) -> Vec<Column> {
-        let name = |n: &str| {
-            if input.iter().any(|c| c == n) {
-                format!("{n}_out")
-            } else {
-                n.to_string()
-            }
-        };
+        let name = |n: &str| result_name(n, input, &[]);
         let mut out: Vec<Column> = self
             .numbers
             .iter()
@@ -259,10 +289,11 @@ struct ResultColumns {
 
 impl ResultColumns {
     /// The columns sorted by their key (as the whole-table path writes
-    /// them). A key that an input column already uses (a melt card's
-    /// `liquidus_k`, `turnbull_alpha`) takes that column's place with the
-    /// value in force, so no column is written twice.
-    fn new(plan: &ResultPlan, _input: &[String]) -> Self {
+    /// them). A key that an input column the evaluation read already uses
+    /// (a melt card's `liquidus_k`, `turnbull_alpha`) takes that column's
+    /// place with the value in force, so no column is written twice; a key
+    /// that a passed-through column uses is written as `<key>_model`.
+    fn new(plan: &ResultPlan, input: &[String]) -> Self {
         let mut keyed: Vec<(String, Source)> = EVALUATION_FIELDS
             .iter()
             .filter(|f| match f.carried {
@@ -282,7 +313,10 @@ impl ResultColumns {
         }
         keyed.sort_by(|a, b| a.0.cmp(&b.0));
         // Appended with `with_column`, a result named like an input column
-        // replaces it where it stands.
+        // replaces it where it stands: only the inputs the plan replaces.
+        for (name, _) in &mut keyed {
+            *name = result_name(name, input, plan.replaces);
+        }
         ResultColumns { columns: keyed }
     }
 

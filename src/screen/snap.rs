@@ -65,7 +65,9 @@ fn grid_steps(resolution: f64) -> Option<i64> {
 /// `k` steps of a grid of `n` steps to 100 mol%, as the double nearest to
 /// the exact value (0.5 mol% steps give 71.5, not 71.49999999999999).
 fn on_grid(k: i64, n: i64) -> f64 {
-    (k * 100) as f64 / n as f64
+    // k ≤ n ≤ 10⁵ (the config refuses resolutions below 0.001 mol%), so
+    // k·100 is far from overflowing; saturate rather than wrap regardless.
+    k.saturating_mul(100) as f64 / n as f64
 }
 
 /// The snapped neighbours of a composition, nearest first (ties: in the
