@@ -17,10 +17,10 @@
 //! No I/O.
 
 use super::candidate::Row;
-use super::problem::ScreenUncertainty;
-use super::problem::{ObjectiveKind, ScreenProblem};
+use super::problem::{ObjectiveKind, ScreenProblem, ScreenUncertainty};
 use super::select::{objective_key, rank};
 use super::simplex::dist2;
+use crate::assess::{evaluate_composition, Calibration, SlabQuench};
 use crate::composition::{Composition, N_OXIDES};
 use crate::error::Error;
 use crate::uncertainty::melt::{
@@ -483,6 +483,7 @@ pub(crate) fn select(
             Known::Unknown => {}
         }
     }
+    judge_slab(problem, &mut out.drawn);
     out.picks = picks
         .iter()
         .filter_map(|&i| match &known[i] {
@@ -535,6 +536,64 @@ pub(crate) fn filled(r: &Row, p: &Propagation) -> Row {
         ));
     }
     r
+}
+
+/// Judge the recipes of `drawn-recipes.csv` as the shortlist is judged:
+/// the search's point evaluation leaves out the glassy slab, so every row
+/// it vouched for is evaluated again with the slab of the shortlist
+/// (`SlabQuench::default()`, in parallel, rows in order). Where the slab
+/// puts the point estimate beyond vouching, `vouched` turns false, and so
+/// does `band_vouched` (its 5 % end lies on the glassy side), with the
+/// evaluation's note and, for a band, the note the shortlist gives. A row
+/// whose evaluation fails again keeps what the search found.
+fn judge_slab(problem: &ScreenProblem, rows: &mut [Row]) {
+    let beyond: Vec<Option<String>> = rows
+        .par_iter()
+        .map(|r| {
+            if r.vouched != Some(true) {
+                return None;
+            }
+            let comp = Composition::from_mol_percent_array(&r.composition(), 1e-6).ok()?;
+            let e = evaluate_composition(
+                &problem.models,
+                &comp,
+                &problem.kinetic_options,
+                Some(SlabQuench::default()),
+                &Calibration::None,
+            )
+            .ok()?;
+            if e.vouched {
+                return None;
+            }
+            Some(
+                e.warnings
+                    .iter()
+                    .find(|w| w.starts_with("beyond what the model can vouch for"))
+                    .cloned()
+                    .unwrap_or_else(|| "beyond what the model can vouch for".to_string()),
+            )
+        })
+        .collect();
+    for (r, note) in rows.iter_mut().zip(beyond) {
+        let Some(note) = note else { continue };
+        r.vouched = Some(false);
+        let mut notes = vec![note];
+        if r.band_vouched == Some(true) {
+            if let Some(lo) = r.critical_rate_p05_k_per_s {
+                notes.push(format!(
+                    "band beyond what the model can vouch for: {}",
+                    glassy_side_of_unvouched(lo)
+                ));
+            }
+        }
+        r.band_vouched = r.band_vouched.map(|_| false);
+        for n in notes {
+            if !r.warnings.is_empty() {
+                r.warnings.push_str("; ");
+            }
+            r.warnings.push_str(&n);
+        }
+    }
 }
 
 /// Why a band's 5 % end is beyond vouching when its point estimate is: it
