@@ -416,3 +416,56 @@ fn eval_uncertainty_table(
         },
     )
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn share_columns_follow_the_documented_naming_rule() {
+        // The rule of docs/science.md, "What is reported" (tables): lower
+        // case, every run of characters other than a–z and 0–9 one `_`, a
+        // repeated name numbered from 2.
+        let names = [
+            "turnbull_alpha of crystal",
+            "heterogeneous_nuclei_per_m3",
+            "viscosity coefficients of demo-soda-lime VFT",
+            "turnbull_alpha of Na2O·2SiO2",
+            "turnbull_alpha of Na2O 2SiO2",
+            "turnbull_alpha of Na2O--2SiO2",
+        ]
+        .map(String::from);
+        assert_eq!(
+            share_columns(&names),
+            [
+                "variance_share_turnbull_alpha_of_crystal",
+                "variance_share_heterogeneous_nuclei_per_m3",
+                "variance_share_viscosity_coefficients_of_demo_soda_lime_vft",
+                "variance_share_turnbull_alpha_of_na2o_2sio2",
+                "variance_share_turnbull_alpha_of_na2o_2sio2_2",
+                "variance_share_turnbull_alpha_of_na2o_2sio2_3",
+            ]
+        );
+        // A melt-card table: one column per spread column of its header, in
+        // the order the inputs are drawn; a nuclei number on the command
+        // line drops the range.
+        let header = [
+            "name",
+            "heterogeneous_nuclei_hi_per_m3",
+            "heterogeneous_nuclei_lo_per_m3",
+            "interface_energy_sd_j_per_m2",
+        ]
+        .map(String::from);
+        assert_eq!(
+            melt_table_share_inputs(&header, false),
+            [
+                "interface_energy_j_per_m2 of crystal",
+                "heterogeneous_nuclei_per_m3"
+            ]
+        );
+        assert_eq!(
+            melt_table_share_inputs(&header, true),
+            ["interface_energy_j_per_m2 of crystal"]
+        );
+    }
+}
