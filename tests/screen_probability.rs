@@ -291,6 +291,58 @@ fn the_probability_demo_runs_and_its_report_shows_bands() {
     for (v, b) in vouched.iter().zip(&band) {
         assert!(*v || !*b, "{vouched:?} {band:?}");
     }
+    // drawn-recipes.csv judges the glassy slab as the shortlist does: each
+    // shortlisted recipe has the same flags there (docs/science.md, "A band
+    // the model cannot vouch for"), and no row the model cannot vouch for
+    // has a band it can.
+    let oxides = ["SiO2", "B2O3", "Al2O3", "Na2O", "K2O", "MgO", "CaO"];
+    let mol = |file: &str| -> Vec<Vec<f64>> {
+        let cols: Vec<Vec<Option<f64>>> = oxides
+            .iter()
+            .map(|o| column(&out, file, &format!("{o}_mol_pct")))
+            .collect();
+        (0..cols[0].len())
+            .map(|i| cols.iter().map(|c| c[i].unwrap()).collect())
+            .collect()
+    };
+    let maybe_flags = |file: &str, col: &str| -> Vec<Option<bool>> {
+        let df = read_frame(&out.join(file)).unwrap();
+        df.column(col)
+            .unwrap()
+            .cast(&polars::prelude::DataType::Boolean)
+            .unwrap()
+            .bool()
+            .unwrap()
+            .iter()
+            .collect()
+    };
+    let (short, drawn) = (mol("shortlist.csv"), mol("drawn-recipes.csv"));
+    let drawn_vouched = maybe_flags("drawn-recipes.csv", "vouched");
+    let drawn_band = maybe_flags("drawn-recipes.csv", "band_vouched");
+    for (i, x) in short.iter().enumerate() {
+        let (j, dist) = drawn
+            .iter()
+            .map(|y| {
+                x.iter()
+                    .zip(y)
+                    .map(|(a, b)| (a - b).powi(2))
+                    .sum::<f64>()
+                    .sqrt()
+            })
+            .enumerate()
+            .min_by(|a, b| a.1.total_cmp(&b.1))
+            .unwrap();
+        assert!(
+            dist < 1e-3,
+            "shortlisted recipe {i} not among the drawn ({dist} mol%)"
+        );
+        assert_eq!(drawn_vouched[j], Some(vouched[i]), "recipe {i}");
+        assert_eq!(drawn_band[j], Some(band[i]), "recipe {i}");
+    }
+    assert!(drawn_vouched.contains(&Some(false)));
+    for (v, b) in drawn_vouched.iter().zip(&drawn_band) {
+        assert!(*v == Some(true) || *b != Some(true), "{v:?} {b:?}");
+    }
     let html = read(&out, "report.html");
     assert!(html.contains("R_c 5–95 % band") && html.contains("R_c 95 % quantile"));
 }

@@ -183,6 +183,124 @@ fn nuclei_range_alone_gives_the_log_uniform_probability() {
     );
 }
 
+/// Gauss quadrature nodes and weights (weights summing to 1) of the
+/// probability measure whose monic orthogonal polynomials have recurrence
+/// coefficients a_k = 0 and b_k = `offdiag(k)`² (k = 1..n−1), from the
+/// eigen-decomposition of the Jacobi matrix: the Golub–Welsch algorithm
+/// (G. H. Golub, J. H. Welsch, "Calculation of Gauss quadrature rules",
+/// Math. Comp. 23 (1969) 221–230, doi:10.2307/2004418).
+fn gauss_rule(n: usize, offdiag: impl Fn(usize) -> f64) -> Vec<(f64, f64)> {
+    let j = nalgebra::DMatrix::from_fn(n, n, |r, c| {
+        if r + 1 == c {
+            offdiag(c)
+        } else if c + 1 == r {
+            offdiag(r)
+        } else {
+            0.0
+        }
+    });
+    let e = j.symmetric_eigen();
+    (0..n)
+        .map(|k| (e.eigenvalues[k], e.eigenvectors[(0, k)].powi(2)))
+        .collect()
+}
+
+/// First-order shares of α (normal) and N_h (log-uniform) of the demo melt
+/// by tensor Gauss quadrature of the definition S_X = Var(E[Y | X]) / Var Y,
+/// Y = log10 R_c: Gauss–Hermite in α (probabilists' Hermite, b_k = k) and
+/// Gauss–Legendre in ln N_h (b_k = k²/(4k² − 1)), `n` nodes each.
+fn shares_by_quadrature(mu: f64, s: f64, lo: f64, hi: f64, n: usize) -> (f64, f64) {
+    let hermite = gauss_rule(n, |k| (k as f64).sqrt());
+    let legendre = gauss_rule(n, |k| {
+        let k = k as f64;
+        k / (4.0 * k * k - 1.0).sqrt()
+    });
+    let (la, lb) = (lo.ln(), hi.ln());
+    let y: Vec<Vec<f64>> = hermite
+        .iter()
+        .map(|&(z, _)| {
+            legendre
+                .iter()
+                .map(|&(x, _)| rc(mu + s * z, (la + (x + 1.0) / 2.0 * (lb - la)).exp()).log10())
+                .collect()
+        })
+        .collect();
+    let mean = |w: &[(f64, f64)], v: &dyn Fn(usize) -> f64| {
+        w.iter()
+            .enumerate()
+            .map(|(i, &(_, wi))| wi * v(i))
+            .sum::<f64>()
+    };
+    let total = mean(&hermite, &|i| mean(&legendre, &|j| y[i][j]));
+    let var = mean(&hermite, &|i| {
+        mean(&legendre, &|j| (y[i][j] - total).powi(2))
+    });
+    let by_alpha = mean(&hermite, &|i| {
+        (mean(&legendre, &|j| y[i][j]) - total).powi(2)
+    });
+    let by_nuclei = mean(&legendre, &|j| {
+        (mean(&hermite, &|i| y[i][j]) - total).powi(2)
+    });
+    (by_alpha / var, by_nuclei / var)
+}
+
+#[test]
+fn variance_shares_of_alpha_and_nuclei_match_the_definition_by_quadrature() {
+    // α = 0.29 ± 0.02 and N_h log-uniform on [10, 10⁵] m⁻³ on the demo melt
+    // (invented numbers): chosen so that the homogeneous nucleation (set by
+    // α) and the growth on pre-existing nuclei (set by N_h) both decide
+    // R_c, so both shares are large and R_c is not additive in them.
+    let (mu, s, lo, hi) = (0.29, 0.02, 1e1, 1e5);
+    // Source: the first-order index is S_X = Var(E[Y | X]) / Var Y (Sobol'
+    // 1993; Saltelli et al., "Global Sensitivity Analysis: The Primer",
+    // Wiley 2008), computed here by Gauss quadrature (Golub & Welsch 1969)
+    // instead of from draws. Two orders agree, so the quadrature has
+    // converged.
+    let (qa, qn) = shares_by_quadrature(mu, s, lo, hi, 24);
+    let (qa16, qn16) = shares_by_quadrature(mu, s, lo, hi, 16);
+    assert!(
+        (qa - qa16).abs() < 2e-3 && (qn - qn16).abs() < 2e-3,
+        "quadrature not converged: {qa} {qa16}, {qn} {qn16}"
+    );
+    assert!(qa > 0.2 && qn > 0.2 && qa + qn < 0.97, "{qa} {qn}");
+    let spreads = MeltSpreads {
+        turnbull_alpha_sd: vec![Some(s)],
+        interface_energy_sd_j_per_m2: vec![None],
+        nuclei_range_per_m3: Some((lo, hi)),
+    };
+    let m = melt(mu);
+    let opts = KineticOptions::default();
+    let inputs = melt_inputs(&m, &spreads).unwrap();
+    let p = propagate(
+        &inputs_of(&inputs),
+        Settings {
+            draws: 4000,
+            seed: quenchwise::uncertainty::DEFAULT_SEED,
+        },
+        None,
+        |v| melt_critical_rate(&m, &opts, &inputs, v),
+    )
+    .unwrap();
+    let names: Vec<&str> = p.variance_shares.iter().map(|s| s.input.as_str()).collect();
+    assert_eq!(
+        names,
+        ["turnbull_alpha of crystal", "heterogeneous_nuclei_per_m3"]
+    );
+    // The binned estimator from 4000 draws scatters by about 0.012 between
+    // seeds (measured on a linear model, src/uncertainty/mod.rs); four of
+    // those.
+    for (got, want) in [
+        (p.variance_shares[0].share, qa),
+        (p.variance_shares[1].share, qn),
+    ] {
+        assert!(
+            (got - want).abs() < 0.05,
+            "{:?} vs quadrature {qa:.4}, {qn:.4}",
+            p.variance_shares
+        );
+    }
+}
+
 #[test]
 fn zero_spread_gives_the_point_estimate_in_every_draw() {
     // Source: a normal with sd 0 is the constant μ (standard probability).
@@ -627,7 +745,8 @@ fn a_melt_card_table_draws_every_row_with_its_own_seed_and_matches_the_closed_fo
     let d = temp_dir("eval-uncertainty-table");
     // The demo melt (invented numbers) with two α spreads, a row with no
     // spread (point estimate only), a nuclei range, and a row whose range
-    // lacks its upper end (that row's error).
+    // lacks its upper end (that row's error), and a row with an α spread
+    // and a nuclei range.
     let head = "name,a,b_k,c_k,liquidus_k,enthalpy_of_fusion_j_per_mol,molar_volume_m3_per_mol,turnbull_alpha,growth,turnbull_alpha_sd,heterogeneous_nuclei_lo_per_m3,heterogeneous_nuclei_hi_per_m3";
     let card = "-2.8,4500.0,480.0,1300.0,60000.0,6.0e-5";
     let rows = [
@@ -636,6 +755,7 @@ fn a_melt_card_table_draws_every_row_with_its_own_seed_and_matches_the_closed_fo
         format!("none,{card},0.33,normal,,,"),
         format!("nuclei,{card},0.33,normal,,1e6,1e12"),
         format!("half,{card},0.33,normal,,1e6,"),
+        format!("both,{card},0.29,normal,0.02,1e1,1e5"),
     ];
     std::fs::write(
         d.join("cards.csv"),
@@ -751,6 +871,74 @@ fn a_melt_card_table_draws_every_row_with_its_own_seed_and_matches_the_closed_fo
             .contains("heterogeneous_nuclei_hi_per_m3"),
         "{error:?}"
     );
+    // One column of variance shares per input the header can give, in the
+    // order the inputs are drawn, after the band's numbers (no
+    // interface_energy_sd_j_per_m2 column, so no share of σ).
+    let header: Vec<String> = quenchwise::files::table::read_frame(&out)
+        .unwrap()
+        .get_column_names()
+        .iter()
+        .map(|c| c.to_string())
+        .collect();
+    let from = header
+        .iter()
+        .position(|c| c == "probability_glassy_se")
+        .unwrap();
+    assert_eq!(
+        header[from + 1..from + 4],
+        [
+            "variance_share_turnbull_alpha_of_crystal",
+            "variance_share_heterogeneous_nuclei_per_m3",
+            "band_note"
+        ]
+    );
+    let s_alpha = table_column(&out, "variance_share_turnbull_alpha_of_crystal");
+    let s_nuclei = table_column(&out, "variance_share_heterogeneous_nuclei_per_m3");
+    // Source: S_X = Var(E[Y | X]) / Var Y is 1 when Y depends on X alone
+    // (definition of the first-order index; Saltelli et al., "Global
+    // Sensitivity Analysis: The Primer", Wiley 2008); the binned estimate
+    // loses the within-bin variance, under 3 % here.
+    for (row, share, other) in [
+        (0, &s_alpha, &s_nuclei),
+        (1, &s_alpha, &s_nuclei),
+        (3, &s_nuclei, &s_alpha),
+    ] {
+        assert!(share[row].unwrap() > 0.97, "row {row}: {share:?}");
+        assert!(
+            other[row].is_none(),
+            "row {row} does not draw it: {other:?}"
+        );
+    }
+    // No band, no shares.
+    assert!(s_alpha[2].is_none() && s_nuclei[2].is_none() && s_alpha[4].is_none());
+    // Both drawn: each row's shares are the library's for its seed (the
+    // single-melt eval's estimator), to the digits a CSV keeps.
+    let m = melt(0.29);
+    let opts = KineticOptions::default();
+    let spreads = MeltSpreads {
+        turnbull_alpha_sd: vec![Some(0.02)],
+        interface_energy_sd_j_per_m2: vec![None],
+        nuclei_range_per_m3: Some((1e1, 1e5)),
+    };
+    let inputs = melt_inputs(&m, &spreads).unwrap();
+    let lib = propagate(
+        &inputs_of(&inputs),
+        Settings {
+            draws: n,
+            seed: row_seed(seed, 5),
+        },
+        Some(quench),
+        |v| melt_critical_rate(&m, &opts, &inputs, v),
+    )
+    .unwrap();
+    for (k, col) in [&s_alpha, &s_nuclei].into_iter().enumerate() {
+        let got = col[5].unwrap();
+        assert!(
+            (lib.variance_shares[k].share - got).abs() < 1e-12,
+            "{col:?} vs {lib:?}"
+        );
+        assert!(got > 0.2, "{col:?}");
+    }
 }
 
 #[test]
@@ -812,6 +1000,18 @@ fn a_composition_table_draws_the_model_sets_spreads_per_row() {
     ] {
         assert_eq!(table_column(&a, col), table_column(&b, col), "{col}");
     }
+    // The variance shares too, one column per phase's α (five phases).
+    let shares: Vec<String> = quenchwise::files::table::read_frame(&a)
+        .unwrap()
+        .get_column_names()
+        .iter()
+        .map(|c| c.to_string())
+        .filter(|c| c.starts_with("variance_share_"))
+        .collect();
+    assert_eq!(shares.len(), 5, "{shares:?}");
+    for col in &shares {
+        assert_eq!(table_column(&a, col), table_column(&b, col), "{col}");
+    }
     // Source (per-row seed): each row equals the library's propagation with
     // seed row_seed(default seed, i); the spread is non-zero, so the check
     // can fail.
@@ -836,6 +1036,13 @@ fn a_composition_table_draws_the_model_sets_spreads_per_row() {
         .unwrap();
         assert!(sd[i].unwrap() > 0.0);
         assert!((lib.log10_critical_rate_sd - sd[i].unwrap()).abs() < 1e-12);
+        // The shares, one column per input of the set in the order drawn,
+        // are the library's (the single-composition eval's estimator).
+        assert_eq!(lib.variance_shares.len(), file_set.phases.len());
+        for s in &lib.variance_shares {
+            let col = format!("variance_share_{}", s.input.replace(' ', "_"));
+            assert_eq!(table_column(&a, &col)[i], Some(s.share), "{col}");
+        }
         assert!((lib.critical_rate_p50_k_per_s / p50[i].unwrap() - 1.0).abs() < 1e-12);
     }
     // --json belongs to one input; a table needs --out.

@@ -2,7 +2,8 @@
 //! or composition, then N Monte Carlo draws of its uncertain inputs (the
 //! library's `uncertainty`), printed under it or added to its JSON; or, for
 //! a table (`--melt-cards`, `--compositions`), every row drawn with its own
-//! seed and its band written in columns beside its point estimate.
+//! seed and its band and variance shares written in columns beside its
+//! point estimate.
 
 use super::eval::evaluate_table_with;
 use super::input;
@@ -17,13 +18,15 @@ use quenchwise::files::melt_card::MeltValues;
 use quenchwise::files::source::{read_text, Source};
 use quenchwise::files::table::OxideAmounts;
 use quenchwise::files::table_stream::{
-    CompositionRows, ExtraCells, ExtraColumns, MeltSpreadRows, ResultPlan,
+    table_column_names, CompositionRows, ExtraCells, ExtraColumns, MeltSpreadRows, ResultPlan,
+    MELT_SPREAD_COLUMNS,
 };
 use quenchwise::kinetics::KineticOptions;
 use quenchwise::report::text::evaluation_text;
 use quenchwise::report::uncertainty::propagation_text;
 use quenchwise::uncertainty::melt::{
-    composition_critical_rate, inputs_of, melt_critical_rate, melt_inputs, model_set_inputs,
+    alpha_input_name, composition_critical_rate, inputs_of, interface_energy_input_name,
+    melt_critical_rate, melt_inputs, model_set_inputs, NUCLEI_INPUT_NAME,
 };
 use quenchwise::uncertainty::melt::{MeltSpreads, Target};
 use quenchwise::uncertainty::sampling::row_seed;
@@ -161,8 +164,10 @@ pub fn eval_uncertainty(a: &EvalArgs, draws: usize) -> Result<Outcome, Error> {
 }
 
 /// The band columns a table gains with `--uncertainty` (all K/s but the sd,
-/// in decades; the probability and its standard error with `--quench-rate`).
-fn band_columns(quench: Option<f64>) -> ExtraColumns {
+/// in decades; the probability and its standard error with `--quench-rate`),
+/// then one column of variance shares per input in `shares` (input names,
+/// in the order the inputs are drawn; see [`share_columns`]).
+fn band_columns(quench: Option<f64>, shares: &[String]) -> ExtraColumns {
     let mut numbers: Vec<String> = [
         "critical_rate_p05_k_per_s",
         "critical_rate_p50_k_per_s",
@@ -176,14 +181,53 @@ fn band_columns(quench: Option<f64>) -> ExtraColumns {
         numbers.push("probability_glassy".into());
         numbers.push("probability_glassy_se".into());
     }
+    numbers.extend(share_columns(shares));
     ExtraColumns {
         numbers,
         text: Some("band_note".into()),
     }
 }
 
-/// One row's band cells from its propagation (or why it has none).
-fn band_cells(result: Result<Propagation, String>, quench: Option<f64>) -> ExtraCells {
+/// The column of each input's first-order variance share in a table:
+/// `variance_share_` and the input's name as `eval --uncertainty` prints it,
+/// in lower case, every run of characters other than a–z and 0–9 made one
+/// `_` ("turnbull_alpha of crystal" → `variance_share_turnbull_alpha_of_crystal`);
+/// a name that repeats an earlier one gains `_2`, `_3`, ….
+fn share_columns(inputs: &[String]) -> Vec<String> {
+    let mut out: Vec<String> = Vec::with_capacity(inputs.len());
+    for name in inputs {
+        let mut slug = String::from("variance_share");
+        let mut gap = true;
+        for ch in name.chars().flat_map(char::to_lowercase) {
+            if ch.is_ascii_lowercase() || ch.is_ascii_digit() {
+                if gap {
+                    slug.push('_');
+                    gap = false;
+                }
+                slug.push(ch);
+            } else {
+                gap = true;
+            }
+        }
+        let mut column = slug.clone();
+        let mut k = 2;
+        while out.contains(&column) {
+            column = format!("{slug}_{k}");
+            k += 1;
+        }
+        out.push(column);
+    }
+    out
+}
+
+/// One row's band cells from its propagation (or why it has none); the
+/// shares in the order of `shares` (empty where the row does not draw that
+/// input, or its share cannot be estimated).
+fn band_cells(
+    result: Result<Propagation, String>,
+    quench: Option<f64>,
+    shares: &[String],
+) -> ExtraCells {
     match result {
         Ok(p) => {
             let mut numbers = vec![
@@ -197,6 +241,13 @@ fn band_cells(result: Result<Propagation, String>, quench: Option<f64>) -> Extra
                 numbers.push(p.probability_glassy);
                 numbers.push(p.probability_glassy_se);
             }
+            numbers.extend(shares.iter().map(|name| {
+                p.variance_shares
+                    .iter()
+                    .find(|s| &s.input == name)
+                    .map(|s| s.share)
+                    .filter(|s| s.is_finite())
+            }));
             let mut notes = Vec::new();
             let beyond = p.beyond_vouching();
             if !beyond.is_empty() {
@@ -223,6 +274,27 @@ fn band_cells(result: Result<Propagation, String>, quench: Option<f64>) -> Extra
     }
 }
 
+/// The inputs a melt-card table may draw, by the spread columns its header
+/// has (in the order `melt_inputs` draws them): α or σ of its one phase,
+/// then the nuclei range unless `--heterogeneous-nuclei-per-m3` replaces it.
+fn melt_table_share_inputs(header: &[String], nuclei_given: bool) -> Vec<String> {
+    let has = |c: &str| header.iter().any(|h| h == c);
+    let plan = ResultPlan::melt_cards();
+    let phase = plan.phases.first().map_or("crystal", String::as_str);
+    let [alpha_sd, sigma_sd, lo, hi] = MELT_SPREAD_COLUMNS;
+    let mut out = Vec::new();
+    if has(alpha_sd) {
+        out.push(alpha_input_name(phase));
+    }
+    if has(sigma_sd) {
+        out.push(interface_energy_input_name(phase));
+    }
+    if !nuclei_given && (has(lo) || has(hi)) {
+        out.push(NUCLEI_INPUT_NAME.to_string());
+    }
+    out
+}
+
 /// `eval --melt-cards FILE` or `--compositions FILE` with `--uncertainty N`:
 /// every row evaluated at its point estimate and drawn N times, with the
 /// seed of row i derived from the seed and i (`sampling::row_seed`), so the
@@ -241,7 +313,6 @@ fn eval_uncertainty_table(
         .ok_or_else(|| Error::bad_input("a table input needs --out FILE (.csv or .parquet)"))?;
     let stream = super::eval::stream_settings(a)?;
     let cli = super::eval::overrides(&a.kinetics);
-    let extra = band_columns(quench);
     let row_settings = |i: usize| Settings {
         draws: settings.draws,
         seed: row_seed(settings.seed, i),
@@ -252,6 +323,8 @@ fn eval_uncertainty_table(
     );
     if let Some(p) = &a.melt_cards {
         let nuclei_given = cli.heterogeneous_nuclei_per_m3.is_some();
+        let shares = melt_table_share_inputs(&table_column_names(p)?, nuclei_given);
+        let extra = band_columns(quench, &shares);
         return evaluate_table_with(
             p,
             out,
@@ -283,7 +356,7 @@ fn eval_uncertainty_table(
                         })
                         .map_err(|e| e.to_string())
                     });
-                Ok((e, band_cells(band, quench)))
+                Ok((e, band_cells(band, quench, &shares)))
             },
         );
     }
@@ -322,6 +395,8 @@ fn eval_uncertainty_table(
         replaces: &[],
     };
     let drawn = inputs_of(&inputs);
+    let shares: Vec<String> = drawn.iter().map(|i| i.name.clone()).collect();
+    let extra = band_columns(quench, &shares);
     let tolerance = a.sum_tolerance;
     evaluate_table_with(
         p,
@@ -338,7 +413,60 @@ fn eval_uncertainty_table(
                 composition_critical_rate(&models, &comp, &opts, &inputs, v)
             })
             .map_err(|e| e.to_string());
-            Ok((e, band_cells(band, quench)))
+            Ok((e, band_cells(band, quench, &shares)))
         },
     )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn share_columns_follow_the_documented_naming_rule() {
+        // The rule of docs/science.md, "What is reported" (tables): lower
+        // case, every run of characters other than a–z and 0–9 one `_`, a
+        // repeated name numbered from 2.
+        let names = [
+            "turnbull_alpha of crystal",
+            "heterogeneous_nuclei_per_m3",
+            "viscosity coefficients of demo-soda-lime VFT",
+            "turnbull_alpha of Na2O·2SiO2",
+            "turnbull_alpha of Na2O 2SiO2",
+            "turnbull_alpha of Na2O--2SiO2",
+        ]
+        .map(String::from);
+        assert_eq!(
+            share_columns(&names),
+            [
+                "variance_share_turnbull_alpha_of_crystal",
+                "variance_share_heterogeneous_nuclei_per_m3",
+                "variance_share_viscosity_coefficients_of_demo_soda_lime_vft",
+                "variance_share_turnbull_alpha_of_na2o_2sio2",
+                "variance_share_turnbull_alpha_of_na2o_2sio2_2",
+                "variance_share_turnbull_alpha_of_na2o_2sio2_3",
+            ]
+        );
+        // A melt-card table: one column per spread column of its header, in
+        // the order the inputs are drawn; a nuclei number on the command
+        // line drops the range.
+        let header = [
+            "name",
+            "heterogeneous_nuclei_hi_per_m3",
+            "heterogeneous_nuclei_lo_per_m3",
+            "interface_energy_sd_j_per_m2",
+        ]
+        .map(String::from);
+        assert_eq!(
+            melt_table_share_inputs(&header, false),
+            [
+                "interface_energy_j_per_m2 of crystal",
+                "heterogeneous_nuclei_per_m3"
+            ]
+        );
+        assert_eq!(
+            melt_table_share_inputs(&header, true),
+            ["interface_energy_j_per_m2 of crystal"]
+        );
+    }
 }

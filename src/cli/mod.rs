@@ -845,8 +845,10 @@ pub struct UncertaintyArgs {
     /// --compositions) every row is drawn with its own seed (derived from
     /// --seed and the row's place) and --out gains the columns
     /// critical_rate_p05/p50/p95_k_per_s, log10_critical_rate_sd,
-    /// failed_draws, probability_glassy(_se) with --quench-rate, and
-    /// band_note; a melt-card table gives its spreads in the columns
+    /// failed_draws, probability_glassy(_se) with --quench-rate, one
+    /// variance_share_<input> per uncertain input (e.g.
+    /// variance_share_turnbull_alpha_of_crystal; empty where a row does not
+    /// draw it) and band_note; a melt-card table gives its spreads in the columns
     /// turnbull_alpha_sd (or interface_energy_sd_j_per_m2) and
     /// heterogeneous_nuclei_lo_per_m3 with heterogeneous_nuclei_hi_per_m3.
     /// Example: --uncertainty 4000 --quench-rate 1

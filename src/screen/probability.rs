@@ -17,15 +17,16 @@
 //! No I/O.
 
 use super::candidate::Row;
-use super::problem::{ObjectiveKind, ScreenProblem};
+use super::problem::{ObjectiveKind, ScreenProblem, ScreenUncertainty};
 use super::select::{objective_key, rank};
 use super::simplex::dist2;
+use crate::assess::{evaluate_composition, Calibration, SlabQuench};
 use crate::composition::{Composition, N_OXIDES};
 use crate::error::Error;
 use crate::uncertainty::melt::{
     composition_critical_rate, inputs_of, model_set_inputs, Target, Uncertain,
 };
-use crate::uncertainty::{draw_values, propagate, Propagation, Settings, UncertainInput};
+use crate::uncertainty::{Drawn, Propagation, Settings, UncertaintyError};
 use rayon::prelude::*;
 
 /// A corner's R_c must exceed the equipment rate by this much (decades)
@@ -77,49 +78,59 @@ pub struct ProbabilityOutcome {
     pub pool_exact: Option<bool>,
 }
 
-/// The bound that orders the pool the stage picks from when ranked by
-/// probability (docs/science.md, "Uncertainty in the screen"): the tightest
-/// diagonal-corner bound of each feasible recipe. R_c at corner j falls as
-/// j rises (each corner is more glass-friendly than the one before), so
-/// bisection over j finds the last corner whose R_c exceeds the equipment
-/// rate by [`CORNER_MARGIN_DECADES`] in about log2 N critical-rate solves;
-/// its 1 − W(j)/N bounds P. A recipe glassy at the least glass-friendly
-/// corner gets 1. Without monotone inputs every bound is 1 (the pool is
-/// then ordered by cost).
-pub(crate) struct PoolBound {
+/// The screen's draws, made once for a run (docs/science.md, "Uncertainty
+/// in the screen"): the model set's uncertain inputs, their N seeded draws
+/// (the same for every recipe), the centre, and — where every input moves
+/// R_c one way — the diagonal corners of the draws. They serve both the
+/// bound that orders the pool the stage picks from when ranked by
+/// probability ([`ScreenDraws::bounds`]) and the stage itself ([`select`]),
+/// and every recipe drawn runs on them.
+///
+/// The bound of a feasible recipe is the tightest diagonal-corner bound:
+/// R_c at corner j falls as j rises (each corner is more glass-friendly
+/// than the one before), so bisection over j finds the last corner whose
+/// R_c exceeds the equipment rate by [`CORNER_MARGIN_DECADES`] in about
+/// log2 N critical-rate solves; its 1 − W(j)/N bounds P. A recipe glassy at
+/// the least glass-friendly corner gets 1. Without monotone inputs every
+/// bound is 1 (the pool is then ordered by cost).
+pub(crate) struct ScreenDraws {
+    uncertainty: ScreenUncertainty,
     unc: Vec<Uncertain>,
-    corners: Option<Corners>,
+    drawn: Drawn,
     centre: Vec<Vec<f64>>,
+    corners: Option<Corners>,
 }
 
-impl PoolBound {
-    /// The corners of a problem's draws.
+impl ScreenDraws {
+    /// The inputs, draws and corners of a problem's `[uncertainty]`.
     ///
     /// # Errors
     /// No `[uncertainty]`, or inputs that are no distributions.
-    pub(crate) fn new(problem: &ScreenProblem) -> Result<PoolBound, Error> {
-        let u = problem
-            .uncertainty
-            .ok_or_else(|| Error::internal("a probability bound needs [uncertainty]"))?;
+    pub(crate) fn new(problem: &ScreenProblem) -> Result<ScreenDraws, Error> {
+        let uncertainty = problem.uncertainty.ok_or_else(|| {
+            Error::internal("the screen's Monte Carlo needs the config's [uncertainty] table")
+        })?;
         let (unc, _) = model_set_inputs(
             &problem.models,
             &problem.kinetic_options,
-            u.nuclei_range_per_m3,
+            uncertainty.nuclei_range_per_m3,
         )?;
         let inputs = inputs_of(&unc);
-        let values = draw_values(
+        let drawn = Drawn::new(
             &inputs,
             Settings {
-                draws: u.draws,
-                seed: u.seed,
+                draws: uncertainty.draws,
+                seed: uncertainty.seed,
             },
         )?;
         let centre: Vec<Vec<f64>> = inputs.iter().map(|i| i.distribution.centre()).collect();
-        let corners = monotone_coordinates(&unc).map(|c| Corners::new(c, &values));
-        Ok(PoolBound {
+        let corners = monotone_coordinates(&unc).map(|c| Corners::new(c, drawn.values()));
+        Ok(ScreenDraws {
+            uncertainty,
             unc,
-            corners,
+            drawn,
             centre,
+            corners,
         })
     }
 
@@ -139,14 +150,8 @@ impl PoolBound {
         };
         let limit = problem.equipment.rate.0.log10() + CORNER_MARGIN_DECADES;
         let above = |j: usize| {
-            composition_critical_rate(
-                &problem.models,
-                &comp,
-                &problem.kinetic_options,
-                &self.unc,
-                &corners.values(j, &self.centre),
-            )
-            .is_ok_and(|rc| rc.log10() > limit)
+            self.corner_rate(problem, &comp, &corners.values(j, &self.centre))
+                .is_ok_and(|rc| rc.log10() > limit)
         };
         let n = corners.dominated.len();
         if !above(0) {
@@ -163,6 +168,40 @@ impl PoolBound {
             }
         }
         corners.bound(lo)
+    }
+
+    /// R_c (K/s) of a composition at the input values of a corner.
+    fn corner_rate(
+        &self,
+        problem: &ScreenProblem,
+        comp: &Composition,
+        corner: &[Vec<f64>],
+    ) -> Result<f64, String> {
+        composition_critical_rate(
+            &problem.models,
+            comp,
+            &problem.kinetic_options,
+            &self.unc,
+            corner,
+        )
+    }
+
+    /// The Monte Carlo of one composition on the screen's draws, P(R_c ≤
+    /// the equipment rate).
+    fn propagation(
+        &self,
+        problem: &ScreenProblem,
+        comp: &Composition,
+    ) -> Result<Propagation, UncertaintyError> {
+        self.drawn.propagate(Some(problem.equipment.rate.0), |v| {
+            composition_critical_rate(
+                &problem.models,
+                comp,
+                &problem.kinetic_options,
+                &self.unc,
+                v,
+            )
+        })
     }
 }
 
@@ -274,48 +313,24 @@ enum Known {
 /// The Monte Carlo stage over the feasible rows the point-estimate search
 /// kept: draw the recipes that could still make the shortlist, and pick the
 /// shortlist — by probability for `kind = "probability"`, else by the
-/// objective among the recipes that reach `min_probability`.
-///
-/// # Errors
-/// The problem has no uncertainty, or its inputs are no distributions.
+/// objective among the recipes that reach `min_probability`. Every recipe
+/// drawn runs on `draws` (made once for the run by [`ScreenDraws::new`]).
 ///
 /// `let_go` is, ranked by probability, the best-ranked feasible row the
 /// search let go (by [`crate::screen::select`]'s bound order) with its
 /// bound; the outcome says whether it, and so every row let go, is bounded
 /// off the shortlist.
-pub fn select(
+pub(crate) fn select(
     problem: &ScreenProblem,
+    draws: &ScreenDraws,
     pool: &[Row],
     let_go: Option<&(f64, Row)>,
-) -> Result<ProbabilityOutcome, Error> {
-    let u = problem
-        .uncertainty
-        .ok_or_else(|| Error::internal("the Monte Carlo stage needs [uncertainty]"))?;
-    let (unc, _) = model_set_inputs(
-        &problem.models,
-        &problem.kinetic_options,
-        u.nuclei_range_per_m3,
-    )?;
-    let inputs = inputs_of(&unc);
-    let settings = Settings {
-        draws: u.draws,
-        seed: u.seed,
-    };
-    let values = draw_values(&inputs, settings)?;
-    let centre: Vec<Vec<f64>> = inputs.iter().map(|i| i.distribution.centre()).collect();
-    let coordinates = monotone_coordinates(&unc);
-    let monotone = coordinates.is_some();
-    let corners = coordinates.map(|c| Corners::new(c, &values));
+) -> ProbabilityOutcome {
+    let u = draws.uncertainty;
+    let monotone = draws.corners.is_some();
     let mut rows: Vec<Row> = pool.iter().filter(|r| r.feasible).cloned().collect();
     rows.sort_by(|a, b| rank(a, b, objective_key));
-    let stage = Stage {
-        problem,
-        unc: &unc,
-        inputs: &inputs,
-        settings,
-        centre: &centre,
-        corners: corners.as_ref(),
-    };
+    let stage = Stage { problem, draws };
     let mut known = vec![Known::Unknown; rows.len()];
     let mut corner_evaluations = 0;
     let full = u.preselection == Preselection::Full;
@@ -328,7 +343,7 @@ pub fn select(
             // One evaluation at the least glass-friendly corner: below R,
             // every draw is glassy (P = 1 unless a draw fails, which only
             // drawing shows: a pick is always drawn); above R, P ≤ 1 − W/N.
-            if let Some(c) = stage.corners {
+            if let Some(c) = &draws.corners {
                 let all: Vec<usize> = (0..rows.len()).collect();
                 let rates = stage.corner_rates(&rows, &all, 0);
                 corner_evaluations += all.len();
@@ -468,6 +483,7 @@ pub fn select(
             Known::Unknown => {}
         }
     }
+    judge_slab(problem, &mut out.drawn);
     out.picks = picks
         .iter()
         .filter_map(|&i| match &known[i] {
@@ -475,11 +491,12 @@ pub fn select(
             _ => None,
         })
         .collect();
-    Ok(out)
+    out
 }
 
 /// The screen's Monte Carlo for one recipe outside a screen (`eval
-/// --against`): the same seeded draws of the same inputs as [`select`].
+/// --against`, a snapped recipe): the same seeded draws of the same inputs
+/// as [`select`] ([`ScreenDraws::new`]).
 ///
 /// # Errors
 /// No `[uncertainty]` in the problem, inputs that cannot be drawn, or too
@@ -488,23 +505,9 @@ pub fn recipe_propagation(
     problem: &ScreenProblem,
     comp: &Composition,
 ) -> Result<Propagation, Error> {
-    let u = problem
-        .uncertainty
-        .ok_or_else(|| Error::internal("a recipe's probability needs [uncertainty]"))?;
-    let (unc, _) = model_set_inputs(
-        &problem.models,
-        &problem.kinetic_options,
-        u.nuclei_range_per_m3,
-    )?;
-    let inputs = inputs_of(&unc);
-    let settings = Settings {
-        draws: u.draws,
-        seed: u.seed,
-    };
-    propagate(&inputs, settings, Some(problem.equipment.rate.0), |v| {
-        composition_critical_rate(&problem.models, comp, &problem.kinetic_options, &unc, v)
-    })
-    .map_err(|e| Error::bad_input(e.to_string()))
+    ScreenDraws::new(problem)?
+        .propagation(problem, comp)
+        .map_err(|e| Error::bad_input(e.to_string()))
 }
 
 /// The row with the probability columns of its draws.
@@ -533,6 +536,64 @@ pub(crate) fn filled(r: &Row, p: &Propagation) -> Row {
         ));
     }
     r
+}
+
+/// Judge the recipes of `drawn-recipes.csv` as the shortlist is judged:
+/// the search's point evaluation leaves out the glassy slab, so every row
+/// it vouched for is evaluated again with the slab of the shortlist
+/// (`SlabQuench::default()`, in parallel, rows in order). Where the slab
+/// puts the point estimate beyond vouching, `vouched` turns false, and so
+/// does `band_vouched` (its 5 % end lies on the glassy side), with the
+/// evaluation's note and, for a band, the note the shortlist gives. A row
+/// whose evaluation fails again keeps what the search found.
+fn judge_slab(problem: &ScreenProblem, rows: &mut [Row]) {
+    let beyond: Vec<Option<String>> = rows
+        .par_iter()
+        .map(|r| {
+            if r.vouched != Some(true) {
+                return None;
+            }
+            let comp = Composition::from_mol_percent_array(&r.composition(), 1e-6).ok()?;
+            let e = evaluate_composition(
+                &problem.models,
+                &comp,
+                &problem.kinetic_options,
+                Some(SlabQuench::default()),
+                &Calibration::None,
+            )
+            .ok()?;
+            if e.vouched {
+                return None;
+            }
+            Some(
+                e.warnings
+                    .iter()
+                    .find(|w| w.starts_with("beyond what the model can vouch for"))
+                    .cloned()
+                    .unwrap_or_else(|| "beyond what the model can vouch for".to_string()),
+            )
+        })
+        .collect();
+    for (r, note) in rows.iter_mut().zip(beyond) {
+        let Some(note) = note else { continue };
+        r.vouched = Some(false);
+        let mut notes = vec![note];
+        if r.band_vouched == Some(true) {
+            if let Some(lo) = r.critical_rate_p05_k_per_s {
+                notes.push(format!(
+                    "band beyond what the model can vouch for: {}",
+                    glassy_side_of_unvouched(lo)
+                ));
+            }
+        }
+        r.band_vouched = r.band_vouched.map(|_| false);
+        for n in notes {
+            if !r.warnings.is_empty() {
+                r.warnings.push_str("; ");
+            }
+            r.warnings.push_str(&n);
+        }
+    }
 }
 
 /// Why a band's 5 % end is beyond vouching when its point estimate is: it
@@ -622,11 +683,7 @@ fn greedy_by_probability(problem: &ScreenProblem, rows: &[Row], known: &[Known])
 /// What every draw and bound needs.
 struct Stage<'a> {
     problem: &'a ScreenProblem,
-    unc: &'a [Uncertain],
-    inputs: &'a [UncertainInput],
-    settings: Settings,
-    centre: &'a [Vec<f64>],
-    corners: Option<&'a Corners>,
+    draws: &'a ScreenDraws,
 }
 
 impl Stage<'_> {
@@ -637,22 +694,14 @@ impl Stage<'_> {
 
     /// Draw the rows `which` (each recipe's draws run in parallel; rows in order).
     fn draw(&self, rows: &[Row], which: &[usize], known: &mut [Known]) {
-        let rate = self.problem.equipment.rate.0;
         for &i in which {
             if matches!(known[i], Known::Drawn(_)) {
                 continue;
             }
             let result = self.composition(&rows[i]).and_then(|comp| {
-                propagate(self.inputs, self.settings, Some(rate), |v| {
-                    composition_critical_rate(
-                        &self.problem.models,
-                        &comp,
-                        &self.problem.kinetic_options,
-                        self.unc,
-                        v,
-                    )
-                })
-                .map_err(|e| e.to_string())
+                self.draws
+                    .propagation(self.problem, &comp)
+                    .map_err(|e| e.to_string())
             });
             known[i] = Known::Drawn(result);
         }
@@ -661,23 +710,15 @@ impl Stage<'_> {
     /// R_c (K/s) of the rows `which` at corner j (in parallel; None where
     /// the chain fails).
     fn corner_rates(&self, rows: &[Row], which: &[usize], j: usize) -> Vec<Option<f64>> {
-        let Some(corners) = self.corners else {
+        let Some(corners) = &self.draws.corners else {
             return vec![None; which.len()];
         };
-        let corner = corners.values(j, self.centre);
+        let corner = corners.values(j, &self.draws.centre);
         which
             .par_iter()
             .map(|&i| {
                 self.composition(&rows[i])
-                    .and_then(|comp| {
-                        composition_critical_rate(
-                            &self.problem.models,
-                            &comp,
-                            &self.problem.kinetic_options,
-                            self.unc,
-                            &corner,
-                        )
-                    })
+                    .and_then(|comp| self.draws.corner_rate(self.problem, &comp, &corner))
                     .ok()
             })
             .collect()
@@ -694,7 +735,7 @@ impl Stage<'_> {
         known: &mut [Known],
         spent: &mut usize,
     ) -> Vec<usize> {
-        let Some((j, bound)) = self.corners.and_then(|c| c.level_below(tau)) else {
+        let Some((j, bound)) = self.draws.corners.as_ref().and_then(|c| c.level_below(tau)) else {
             return which.to_vec();
         };
         let limit = self.problem.equipment.rate.0.log10() + CORNER_MARGIN_DECADES;

@@ -13,7 +13,7 @@ use super::candidate::{evaluate_candidate_with, Candidate, Pass, Row};
 use super::first_pass::{chunk_count, space_filling_rows};
 use super::limits::{Limit, LimitSummary};
 use super::polytope::ACTIVE_TOL_MOL_PCT;
-use super::probability::{select as select_by_probability, PoolBound, ProbabilityOutcome};
+use super::probability::{select as select_by_probability, ProbabilityOutcome, ScreenDraws};
 use super::problem::{ScreenProblem, Search};
 use super::refine::refine;
 use super::select::{objective_key, rank, Pools};
@@ -190,14 +190,15 @@ pub fn run(
     let chunks = chunk_count(search);
     let mut done = (0..chunks).filter(|&k| store.has_chunk(k)).count();
     let mut pools = Pools::new(problem, search);
-    // Ranked by probability, every feasible row also carries an upper bound
-    // on its probability, which orders the pool the Monte Carlo stage picks
-    // from (screen::probability::PoolBound).
-    let bound = if pools.wants_bounds() {
-        Some(PoolBound::new(problem)?)
-    } else {
-        None
+    // With [uncertainty], the draws of the Monte Carlo stage, made once:
+    // ranked by probability, every feasible row also carries an upper bound
+    // on its probability from them, which orders the pool the stage picks
+    // from (screen::probability::ScreenDraws).
+    let draws = match problem.uncertainty {
+        Some(_) => Some(ScreenDraws::new(problem)?),
+        None => None,
     };
+    let bound = draws.as_ref().filter(|_| pools.wants_bounds());
     let add = |pools: &mut Pools, rows: Vec<Row>| match &bound {
         Some(b) => {
             let bounds = b.bounds(problem, &rows);
@@ -335,10 +336,10 @@ pub fn run(
     // kept (screen::probability); the point-estimate picks above gave it the
     // refined recipes of each place.
     let mut summary = pools.tally().clone();
-    let probability = match problem.uncertainty {
-        Some(_) => {
+    let probability = match &draws {
+        Some(draws) => {
             let (pool, let_go) = pools.probability_pool();
-            let out = select_by_probability(problem, &pool, let_go.as_ref())?;
+            let out = select_by_probability(problem, draws, &pool, let_go.as_ref());
             summary.reject_feasible(Limit::Probability, out.below_min);
             picks = out.picks.clone();
             Some(Box::new(out))

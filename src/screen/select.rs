@@ -86,7 +86,7 @@ pub(crate) struct Pools {
     by_penalty: Vec<Row>,
     /// Ranked by probability: the feasible rows by an upper bound on their
     /// probability, highest first, then as every ranking breaks ties
-    /// (`probability::PoolBound`); every feasible row when the stage draws
+    /// (`probability::ScreenDraws`); every feasible row when the stage draws
     /// them all.
     by_bound: Option<Vec<(f64, Row)>>,
     /// The best-ranked row `by_bound` let go, with its bound: every row

@@ -71,6 +71,19 @@ fn refuse(name: &str, what: impl Into<String>) -> UncertaintyError {
     }
 }
 
+/// The name of the input that draws the Turnbull α of a phase.
+pub fn alpha_input_name(phase: &str) -> String {
+    format!("turnbull_alpha of {phase}")
+}
+
+/// The name of the input that draws the interface energy σ of a phase.
+pub fn interface_energy_input_name(phase: &str) -> String {
+    format!("interface_energy_j_per_m2 of {phase}")
+}
+
+/// The name of the log-uniform input of the pre-existing nuclei density.
+pub const NUCLEI_INPUT_NAME: &str = "heterogeneous_nuclei_per_m3";
+
 /// The uncertain inputs of a melt card.
 ///
 /// # Errors
@@ -94,14 +107,14 @@ pub fn melt_inputs(melt: &Melt, spreads: &MeltSpreads) -> Result<Vec<Uncertain>,
             }
             (Interface::TurnbullAlpha(a), Some(sd), None) => out.push(Uncertain {
                 input: UncertainInput {
-                    name: format!("turnbull_alpha of {}", p.name),
+                    name: alpha_input_name(&p.name),
                     distribution: Distribution::Normal { mean: a, sd },
                 },
                 target: Target::Alpha(k),
             }),
             (Interface::EnergyJPerM2(s), None, Some(sd)) => out.push(Uncertain {
                 input: UncertainInput {
-                    name: format!("interface_energy_j_per_m2 of {}", p.name),
+                    name: interface_energy_input_name(&p.name),
                     distribution: Distribution::Normal { mean: s, sd },
                 },
                 target: Target::InterfaceEnergy(k),
@@ -134,7 +147,7 @@ pub fn melt_inputs(melt: &Melt, spreads: &MeltSpreads) -> Result<Vec<Uncertain>,
 pub fn nuclei_input(lo: f64, hi: f64) -> Uncertain {
     Uncertain {
         input: UncertainInput {
-            name: "heterogeneous_nuclei_per_m3".into(),
+            name: NUCLEI_INPUT_NAME.into(),
             distribution: Distribution::LogUniform { lo, hi },
         },
         target: Target::Nuclei,
@@ -291,7 +304,7 @@ pub fn model_set_inputs(
         if let (false, Some(sd)) = (covered[k], p.turnbull_alpha_sd) {
             out.push(Uncertain {
                 input: UncertainInput {
-                    name: format!("turnbull_alpha of {}", p.name),
+                    name: alpha_input_name(&p.name),
                     distribution: Distribution::Normal {
                         mean: p.turnbull_alpha,
                         sd,
