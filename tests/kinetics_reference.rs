@@ -461,7 +461,10 @@ fn the_slab_from_the_constant_rate_panels_equals_the_slab_computed_afresh() {
     }
     // h ∝ J^(−1/8): both answers are within a few 1e-5 of the converged slab.
     assert!(worst < ORACLE_RTOL, "worst relative difference {worst:.2e}");
-    assert!(compared >= 120, "only {compared} of 144 cases had a summary");
+    assert!(
+        compared >= 120,
+        "only {compared} of 144 cases had a summary"
+    );
 }
 
 #[test]

@@ -360,7 +360,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         path: src.path.clone(),
         problems: vec![src.problem(
             e.span().unwrap_or(0..0),
-            e.message().trim().replace('\n', " "),
+            super::source::shape_message(e.message()),
         )],
         hint: Some(hint.into()),
     })?;

@@ -117,9 +117,47 @@ impl<'a> Source<'a> {
     pub fn parse<T: for<'de> Deserialize<'de>>(&self, hint: &str) -> Result<T, DataError> {
         toml::from_str(self.text).map_err(|e| {
             let span = e.span().unwrap_or(0..0);
-            let message = e.message().trim().replace('\n', " ");
-            self.error(vec![self.problem(span, message)], Some(hint.to_string()))
+            self.error(
+                vec![self.problem(span, shape_message(e.message()))],
+                Some(hint.to_string()),
+            )
         })
+    }
+}
+
+/// A TOML shape error in the file's words: serde names the program's own
+/// types ("expected struct RawEquipment"), which mean nothing to a user.
+pub fn shape_message(message: &str) -> String {
+    let one_line = message.trim().replace('\n', " ");
+    let mut out = String::with_capacity(one_line.len());
+    let mut rest = one_line.as_str();
+    while let Some(i) = rest.find("struct Raw") {
+        out.push_str(&rest[..i]);
+        let after = &rest[i + "struct Raw".len()..];
+        let name_end = after
+            .find(|c: char| !c.is_ascii_alphanumeric())
+            .unwrap_or(after.len());
+        out.push_str("a table (key = value lines or { ... })");
+        rest = &after[name_end..];
+    }
+    out.push_str(rest);
+    out
+}
+
+#[cfg(test)]
+mod shape_tests {
+    use super::shape_message;
+
+    #[test]
+    fn internal_type_names_are_not_shown() {
+        assert_eq!(
+            shape_message("invalid type: integer `1`, expected struct RawEquipment\n"),
+            "invalid type: integer `1`, expected a table (key = value lines or { ... })"
+        );
+        assert_eq!(
+            shape_message("missing field `rate`"),
+            "missing field `rate`"
+        );
     }
 }
 
