@@ -19,6 +19,11 @@ pub const CAUTION: &str = "caution: melts at 1000-1600 °C and quenching (steam 
 (crystalline silica, boric acid, Ba/Pb compounds, Li2CO3) are health hazards. These are model estimates to shortlist \
 experiments: confirm glassiness by XRD/DSC and follow your lab's safety rules and licensed practice.";
 
+/// A viscosity in Pa·s as outputs state it: "10 Pa·s", "316 Pa·s".
+pub fn pa_s(v: f64) -> String {
+    format!("{} Pa·s", crate::report::plot::plain(v))
+}
+
 /// "1 glass", "3 glasses": a count with its noun in the right number
 /// (`plural` is the noun's plural form).
 pub fn count(n: usize, singular: &str, plural: &str) -> String {
@@ -133,7 +138,15 @@ pub fn evaluation_text(e: &Evaluation) -> String {
     }
     let _ = writeln!(o, "\nviscosity");
     if let Some(v) = e.melting_temperature_k {
-        row(&mut o, "melting temperature (10 Pa·s)", t(v), mv);
+        row(
+            &mut o,
+            &format!(
+                "melting temperature ({})",
+                pa_s(e.melting_viscosity_pa_s.unwrap_or(10.0))
+            ),
+            t(v),
+            mv,
+        );
     }
     if let Some(v) = e.working_point_k {
         row(&mut o, "working point (10^3 Pa·s)", t(v), mv);
@@ -553,7 +566,7 @@ pub fn screen_summary_text(
     format!(
         "screen {}: {} candidates kept ({} evaluations with refinement), {} meet every limit, {} shortlisted\n\
          {}\n\
-         furnace: {:.0} °C; melting temperature ≤ {:.0} °C, liquidus ≤ {:.0} °C\n\
+         furnace: {:.0} °C; melting temperature (viscosity {}) ≤ {:.0} °C, liquidus ≤ {:.0} °C\n\
          nucleation: {}\n{}\n{}\n",
         config,
         s.evaluated,
@@ -565,6 +578,7 @@ pub fn screen_summary_text(
             None => feasibility_text(problem),
         },
         problem.furnace_max.to_celsius().0,
+        pa_s(problem.models.melting_viscosity_pa_s),
         problem.melting_max.to_celsius().0,
         problem.liquidus_max.to_celsius().0,
         screen_nucleation_text(problem),
