@@ -393,3 +393,99 @@ fn eval_table_csv_rounds_and_states_repeated_warnings_once() {
     // Two codes (the Parquet run, after the CSV one, left the legend alone).
     assert_eq!(legend.lines().count(), 3, "{legend}");
 }
+
+/// `screen::SMALL` with a 50 K/s quench, a 400 °C liquidus margin, a cost
+/// ceiling of 0.30 and a 2 mol% grid: snapping drops places of the
+/// optimiser's shortlist (a snapped recipe leaves the ranges or lands on
+/// another's), and the next-ranked candidates refill them.
+fn coarse_grid() -> String {
+    let t = crate::screen::SMALL
+        .replace(
+            "min_distance_mol_pct = 1.5\n",
+            "min_distance_mol_pct = 1.5\nresolution_mol_pct = 2.0\nmin_amount_mol_pct = 0.2\n",
+        )
+        .replace("cooling_rate = 2.0", "cooling_rate = 50.0")
+        .replace("liquidus_margin_c = 465.0", "liquidus_margin_c = 400.0")
+        .replace("max_per_kg_glass = 0.24", "max_per_kg_glass = 0.30");
+    assert!(t.contains("cooling_rate = 50.0") && t.contains("max_per_kg_glass = 0.30"));
+    t
+}
+
+/// Places snapping drops are refilled from the next-ranked candidates,
+/// snapped and checked the same way: the shortlist is full again, every
+/// recipe is on the grid and meets every limit when evaluated again through
+/// the public chain, and summary.txt says what was refilled.
+#[test]
+fn places_snapping_drops_are_refilled_from_the_next_candidates() {
+    use quenchwise::assess::{evaluate_composition, Calibration};
+    let d = temp_dir("snap-refill");
+    std::fs::write(d.join("s.toml"), coarse_grid()).unwrap();
+    run_in(&d, &["screen", "s.toml", "--out", "out", "--no-report"])
+        .code(0)
+        .stdout_has("refill:");
+    let summary = std::fs::read_to_string(d.join("out/summary.txt")).unwrap();
+    let dropped = summary.matches("\n  dropped: place").count();
+    let refilled = summary.matches("\n  refilled from (").count();
+    assert!(dropped >= 1 && refilled >= 1, "{summary}");
+    let short = frame(&d.join("out/shortlist.parquet"));
+    // Source: the config's own shortlist size.
+    assert_eq!(short.height(), 4, "{summary}");
+    assert!(
+        summary.contains(&format!(
+            "{} of 4 shortlisted recipes kept, {dropped} dropped",
+            4 - refilled
+        )),
+        "{summary}"
+    );
+    assert!(
+        summary.contains(&format!("refill: {refilled} of {dropped} dropped place")),
+        "{summary}"
+    );
+    assert!(summary.contains("the shortlist holds 4 of 4"), "{summary}");
+    let plan = quenchwise::files::screen_config::load(&d.join("s.toml")).unwrap();
+    let oxides = [
+        ("SiO2", 66.0, 78.0),
+        ("Na2O", 11.0, 17.0),
+        ("CaO", 7.0, 13.0),
+        ("Al2O3", 0.0, 3.0),
+    ];
+    let mut seen: Vec<String> = Vec::new();
+    for i in 0..short.height() {
+        let mut text = String::new();
+        let mut sum = 0.0;
+        for (o, lo, hi) in oxides {
+            let v = floats(&short, &format!("{o}_mol_pct"))[i];
+            // Source: the config's grid (2 mol%; SiO2 takes the rest of 100,
+            // a whole number of steps too) and ranges.
+            assert!((v / 2.0 - (v / 2.0).round()).abs() < 1e-9, "{o} = {v}");
+            assert!(v >= lo - 1e-9 && v <= hi + 1e-9, "{o} = {v}");
+            sum += v;
+            text.push_str(&format!("{o}={v} "));
+        }
+        assert!((sum - 100.0).abs() < 1e-9, "{text}");
+        assert!(!seen.contains(&text), "{text} twice");
+        seen.push(text.clone());
+        // The limits worked by hand from the config: R_c ≤ 50/10 K/s,
+        // melting temperature ≤ 1480 − 20 °C, liquidus ≤ 1480 − 400 °C,
+        // cost ≤ 0.30 per kg, Na2O + CaO ≤ 26 mol%.
+        let c = Composition::parse(text.trim(), Basis::MolPercent, 1e-6).unwrap();
+        let e = evaluate_composition(
+            &plan.problem.models,
+            &c,
+            &plan.problem.kinetic_options,
+            None,
+            &Calibration::None,
+        )
+        .unwrap();
+        assert!(e.critical_rate_k_per_s <= 5.0, "{text}");
+        assert!(
+            e.melting_temperature_k.unwrap() <= 1460.0 + 273.15,
+            "{text}"
+        );
+        assert!(e.liquidus_k <= 1080.0 + 273.15, "{text}");
+        let cost = plan.problem.cost.as_ref().unwrap();
+        assert!(cost.model.cost_per_kg_glass(&c).unwrap() <= 0.30, "{text}");
+        let na_ca = floats(&short, "Na2O_mol_pct")[i] + floats(&short, "CaO_mol_pct")[i];
+        assert!(na_ca <= 26.0 + 1e-9, "{text}");
+    }
+}

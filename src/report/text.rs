@@ -631,6 +631,48 @@ pub fn snapping_text(problem: &ScreenProblem, o: &SnapOutcome) -> String {
             d.reason
         );
     }
+    if !o.dropped.is_empty() {
+        let full = problem.shortlist_size.max(o.before);
+        let now = kept + o.refilled.len();
+        let _ = write!(
+            t,
+            "\n  refill: {} of {} taken by the next-ranked candidates, each snapped and checked the same way ({} tried); the shortlist holds {now} of {full}{}",
+            o.refilled.len(),
+            count(full - kept, "dropped place", "dropped places"),
+            o.refill_tried,
+            if now >= full {
+                String::new()
+            } else if o.refill_ran_out {
+                ": no further feasible candidate at least the shortlist distance from those kept".to_string()
+            } else {
+                format!(
+                    ": stopped after {} candidates",
+                    o.refill_tried
+                )
+            }
+        );
+        for r in &o.refilled {
+            let amounts: Vec<String> = problem
+                .oxides
+                .iter()
+                .filter(|(ox, ..)| r.mol_pct[ox.index()] > 0.0)
+                .map(|(ox, ..)| format!("{ox} {:.2}", r.mol_pct[ox.index()]))
+                .collect();
+            let _ = write!(
+                t,
+                "\n  refilled from ({} mol% before snapping){}",
+                amounts.join(", "),
+                if r.passed_over > 0 {
+                    format!(
+                        ", after {} whose snapped recipes did not pass",
+                        count(r.passed_over, "candidate", "candidates")
+                    )
+                } else {
+                    String::new()
+                }
+            );
+        }
+    }
     t
 }
 
