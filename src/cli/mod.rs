@@ -721,6 +721,13 @@ pub struct EvalArgs {
     /// below the glass transition of that row: that phase cannot crystallise
     /// from the melt, and its cell is empty. A row with an error has empty
     /// result cells.
+    ///
+    /// A .csv file shows meaningful digits (temperatures to 0.1 K or °C,
+    /// rates to 4 significant figures, others to 6; input columns as
+    /// given), and the warnings the first two evaluated rows share are
+    /// written as codes (W1, W2, ...) with their legend once in
+    /// NAME.warnings.txt and on stderr; other warnings stay in full. A
+    /// .parquet file keeps every digit and every text.
     #[arg(long, value_name = "FILE", help_heading = "Output")]
     pub out: Option<PathBuf>,
 
