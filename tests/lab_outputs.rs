@@ -438,7 +438,7 @@ fn places_snapping_drops_are_refilled_from_the_next_candidates() {
         "{summary}"
     );
     assert!(
-        summary.contains(&format!("refill: {refilled} of {dropped} dropped place")),
+        summary.contains(&format!("refill: {refilled} of {dropped} place")),
         "{summary}"
     );
     assert!(summary.contains("the shortlist holds 4 of 4"), "{summary}");
@@ -488,4 +488,63 @@ fn places_snapping_drops_are_refilled_from_the_next_candidates() {
         let na_ca = floats(&short, "Na2O_mol_pct")[i] + floats(&short, "CaO_mol_pct")[i];
         assert!(na_ca <= 26.0 + 1e-9, "{text}");
     }
+}
+
+/// `fit viscosity --viscosity-plots DIR`: one picture per glass of the
+/// table, its fitted curve with the glass's own measured points drawn as
+/// rings (one per row of the table), titled with the glass.
+#[test]
+fn a_viscosity_fit_draws_each_glass_with_its_measured_points() {
+    let d = temp_dir("fit-viscosity-plots");
+    let data = root().join("demo-datasets/fit-viscosity.csv");
+    let text = std::fs::read_to_string(&data).unwrap();
+    // Source: the table itself (its glass column and its rows).
+    let mut glasses: Vec<(String, usize)> = Vec::new();
+    for l in text.lines().skip(1).filter(|l| !l.trim().is_empty()) {
+        let g = l.split(',').next().unwrap().to_string();
+        match glasses.iter_mut().find(|(n, _)| *n == g) {
+            Some((_, k)) => *k += 1,
+            None => glasses.push((g, 1)),
+        }
+    }
+    assert!(glasses.len() >= 2);
+    run_in(
+        &d,
+        &[
+            "fit",
+            "viscosity",
+            data.to_str().unwrap(),
+            "--out",
+            "v.toml",
+            "--no-cv",
+            "--viscosity-plots",
+            "curves",
+        ],
+    )
+    .code(0)
+    .stderr_has(&format!("wrote {} viscosity plots", glasses.len()));
+    for (g, rows) in &glasses {
+        let svg = std::fs::read_to_string(d.join(format!("curves/{g}.svg")))
+            .unwrap_or_else(|e| panic!("{g}: {e}"));
+        crate::util::check_xml(&svg).unwrap();
+        assert!(
+            svg.contains(&format!("Viscosity of {g}: fitted VFT")),
+            "{g}"
+        );
+        assert!(svg.contains("measured points of the fit"), "{g}");
+        // The rings: one per measured row, plus the legend's own.
+        let rings = svg
+            .split("<circle")
+            .skip(1)
+            .filter(|c| {
+                let tag = c.split('>').next().unwrap_or("");
+                tag.to_ascii_uppercase().contains("#D68C1E") && tag.contains("fill=\"none\"")
+            })
+            .count();
+        assert_eq!(rings, rows + 1, "{g}");
+    }
+    assert_eq!(
+        std::fs::read_dir(d.join("curves")).unwrap().count(),
+        glasses.len()
+    );
 }

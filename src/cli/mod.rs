@@ -310,6 +310,15 @@ pub struct FitViscosityArgs {
     /// expect. Example: --no-cv
     #[arg(long, help_heading = "Model")]
     pub no_cv: bool,
+
+    /// Draw each glass's fitted viscosity curve with its measured points.
+    ///
+    /// One SVG per glass in this folder (created if missing), named after
+    /// the glass (letters, digits and '-'; other signs as '_'): the fitted curve at its composition, log10(η/Pa·s)
+    /// against °C, its fixpoints, and the measurements as rings. Not drawn
+    /// by default. Example: --viscosity-plots curves/
+    #[arg(long, value_name = "DIR", help_heading = "Output")]
+    pub viscosity_plots: Option<PathBuf>,
 }
 
 #[derive(Debug, Args)]

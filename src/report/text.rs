@@ -638,7 +638,7 @@ pub fn snapping_text(problem: &ScreenProblem, o: &SnapOutcome) -> String {
             t,
             "\n  refill: {} of {} taken by the next-ranked candidates, each snapped and checked the same way ({} tried); the shortlist holds {now} of {full}{}",
             o.refilled.len(),
-            count(full - kept, "dropped place", "dropped places"),
+            count(full - kept, "place left open", "places left open"),
             o.refill_tried,
             if now >= full {
                 String::new()
