@@ -159,13 +159,17 @@ pub enum Digits {
 }
 
 /// The digits a screen's CSV column shows (None: as they are, e.g. whole
-/// numbers): amounts in mol% and wt% to 0.01, temperatures to 0.1 K or °C,
+/// numbers): amounts in mol% and wt% to 0.01, standard errors (`_se`) to 3
+/// significant figures, temperatures to 0.1 K or °C,
 /// margins (decades) and probabilities to 0.001, rates and costs to 4
 /// significant figures, anything else to 6. A weighing to 0.01 wt% of a
 /// 200 g batch is 20 mg; the models' own errors are kelvins, not tenths.
 pub fn csv_digits(name: &str) -> Option<Digits> {
     if name.ends_with("_mol_pct") || name.ends_with("_wt_pct") {
         Some(Digits::Decimals(2))
+    } else if name.ends_with("_se") {
+        // A standard error: its leading figures, however small.
+        Some(Digits::Significant(3))
     } else if name.ends_with("_k") || name.ends_with("_c") {
         Some(Digits::Decimals(1))
     } else if name.ends_with("_decades") || name.starts_with("probability") {
