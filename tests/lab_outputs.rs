@@ -149,6 +149,17 @@ fn a_screen_states_its_melting_viscosity_and_its_json_follows_the_csv() {
         summary.contains("melting temperature (viscosity 31.6 Pa·s) ≤ 1460 °C"),
         "{summary}"
     );
+    // The report states it too (its limits, its tables and its axis).
+    run_in(&d, &["report", "out"]).code(0);
+    let html = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert!(
+        html.contains("melting temperature (31.6 Pa·s) ≤ 1460 °C"),
+        "the report's furnace line"
+    );
+    assert!(
+        !html.contains("(10 Pa·s)"),
+        "a 10 Pa·s label left in the report"
+    );
 
     // Item 6: the same rounding in the CSV file and in the batch sheet text.
     let csv = frame(&out.join("shortlist.csv"));
