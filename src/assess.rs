@@ -94,6 +94,10 @@ pub struct Evaluation {
     pub melting_temperature_k: Option<f64>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub melting_temperature_c: Option<f64>,
+    /// The viscosity that defines the melting temperature, Pa·s (10 Pa·s
+    /// unless a screen config sets `[furnace] melting_viscosity_pa_s`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub melting_viscosity_pa_s: Option<f64>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub working_point_k: Option<f64>,
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -370,6 +374,7 @@ fn base(
         glass_transition_c: s.glass_transition.to_celsius().0,
         melting_temperature_k: None,
         melting_temperature_c: None,
+        melting_viscosity_pa_s: None,
         working_point_k: None,
         working_point_c: None,
         softening_point_k: None,
@@ -499,6 +504,7 @@ impl Evaluation {
             [
                 opt("melting_temperature_k", self.melting_temperature_k),
                 opt("melting_temperature_c", self.melting_temperature_c),
+                opt("melting_viscosity_pa_s", self.melting_viscosity_pa_s),
                 opt("working_point_k", self.working_point_k),
                 opt("working_point_c", self.working_point_c),
                 opt("softening_point_k", self.softening_point_k),
@@ -628,6 +634,7 @@ pub fn evaluate_composition(
     e.strain_point_k = Some(props.strain_point.0);
     // Every fixpoint in °C too (the config and the lab speak °C).
     e.melting_temperature_c = Some(props.melting_temperature.to_celsius().0);
+    e.melting_viscosity_pa_s = Some(models.melting_viscosity_pa_s);
     e.working_point_c = Some(props.working_point.to_celsius().0);
     e.softening_point_c = Some(props.softening_point.to_celsius().0);
     e.strain_point_c = Some(props.strain_point.to_celsius().0);

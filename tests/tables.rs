@@ -123,7 +123,10 @@ fn streamed_demo_tables_equal_the_whole_table_path_at_any_batch_size_and_thread_
                 &out,
                 &MeltRows,
                 &ResultPlan::melt_cards(),
-                StreamSettings { batch_rows: batch },
+                StreamSettings {
+                    batch_rows: batch,
+                    ..Default::default()
+                },
                 melt_eval,
                 |_| {},
             )
@@ -157,7 +160,10 @@ fn streamed_demo_tables_equal_the_whole_table_path_at_any_batch_size_and_thread_
                 &out,
                 &CompositionRows,
                 &composition_plan(&m),
-                StreamSettings { batch_rows: batch },
+                StreamSettings {
+                    batch_rows: batch,
+                    ..Default::default()
+                },
                 |p| comp_eval(&m, p),
                 |_| {},
             )
@@ -175,7 +181,10 @@ fn streamed_demo_tables_equal_the_whole_table_path_at_any_batch_size_and_thread_
         &pq,
         &CompositionRows,
         &composition_plan(&m),
-        StreamSettings { batch_rows: 3 },
+        StreamSettings {
+            batch_rows: 3,
+            ..Default::default()
+        },
         |p| comp_eval(&m, p),
         |_| {},
     )
@@ -220,7 +229,10 @@ fn a_bad_cell_in_a_late_batch_is_found_before_any_row_runs() {
         &out,
         &MeltRows,
         &ResultPlan::melt_cards(),
-        StreamSettings { batch_rows: 2 },
+        StreamSettings {
+            batch_rows: 2,
+            ..Default::default()
+        },
         |v| {
             ran.fetch_add(1, Ordering::Relaxed);
             melt_eval(v)
@@ -252,7 +264,10 @@ fn a_failure_after_some_batches_are_written_leaves_no_complete_looking_file() {
         &out,
         &MeltRows,
         &ResultPlan::melt_cards(),
-        StreamSettings { batch_rows: 2 },
+        StreamSettings {
+            batch_rows: 2,
+            ..Default::default()
+        },
         melt_eval,
         |event| match event {
             Event::Checked(rows) => {

@@ -18,6 +18,7 @@ mod giordano2008;
 mod hostile;
 mod issue14;
 mod kinetics_reference;
+mod lab_outputs;
 mod lab_ready;
 mod layers;
 mod main_job;

@@ -794,6 +794,8 @@ fn a_melt_card_table_draws_every_row_with_its_own_seed_and_matches_the_closed_fo
     };
     call(args("1", "1", "one.csv")).code(0);
     call(args("2", "3", "two.csv")).code(0);
+    // Every digit (a CSV file shows meaningful digits only).
+    call(args("1", "1", "one.parquet")).code(0);
     // Source (determinism): the draws depend only on the seed and the row's
     // place, not on the thread count or the batch size (docs/science.md,
     // "Seeded Latin hypercube draws").
@@ -801,7 +803,7 @@ fn a_melt_card_table_draws_every_row_with_its_own_seed_and_matches_the_closed_fo
         std::fs::read_to_string(d.join("one.csv")).unwrap(),
         std::fs::read_to_string(d.join("two.csv")).unwrap()
     );
-    let out = d.join("one.csv");
+    let out = d.join("one.parquet");
     let p = table_column(&out, "probability_glassy");
     let se = table_column(&out, "probability_glassy_se");
     let p50 = table_column(&out, "critical_rate_p50_k_per_s");

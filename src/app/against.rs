@@ -235,6 +235,11 @@ fn frame(
         "melting_temperature_c".into(),
         eval(&|e| e.melting_temperature_k.map(|t| Kelvin(t).to_celsius().0)),
     ));
+    // The criterion beside it ([furnace] melting_viscosity_pa_s).
+    cols.push(Column::new(
+        "melting_viscosity_pa_s".into(),
+        eval(&|e| e.melting_viscosity_pa_s),
+    ));
     cols.push(Column::new(
         "cost_per_kg_glass".into(),
         checks
@@ -265,8 +270,9 @@ fn summary(
     sheets: Option<(&PathBuf, f64)>,
 ) -> String {
     let mut s = format!(
-        "recipes checked against the limits of {}\n\n{:<28} {:<6} {}\n",
+        "recipes checked against the limits of {} (melting temperature where the viscosity is {})\n\n{:<28} {:<6} {}\n",
         config.display(),
+        quenchwise::report::text::pa_s(problem.models.melting_viscosity_pa_s),
         "recipe",
         "verdict",
         "limits failed (margin; negative = outside)"

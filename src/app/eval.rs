@@ -24,7 +24,7 @@ use quenchwise::kinetics::{DrivingForce, KineticOptions, KineticOverrides, Kinet
 use quenchwise::report::{plot, sig, text::evaluation_text};
 use quenchwise::units::{Celsius, RateUnit, CELSIUS_OFFSET};
 use std::io::Write;
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 /// Every numeric option of `eval` checked against its range, naming the
 /// option (S3, N3): NaN, infinities, negative or inverted values are refused
@@ -382,6 +382,9 @@ pub(super) fn stream_settings(a: &EvalArgs) -> Result<StreamSettings, Error> {
             Some(n) => n,
             None => DEFAULT_BATCH_ROWS,
         },
+        // A CSV file a person reads: meaningful digits, repeated warnings as
+        // codes with their legend beside it (Parquet keeps everything).
+        readable_csv: true,
     })
 }
 
@@ -452,7 +455,53 @@ pub(super) fn evaluate_table_with<R: RowReader>(
         streamed.failed,
         out.display()
     );
+    let legend = warning_legend_file(out);
+    let csv = out
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("csv"));
+    if !csv {
+        // Parquet keeps every text: no legend.
+    } else if streamed.warning_codes.is_empty() {
+        // A legend left by an earlier run would now mislead.
+        if legend.exists() {
+            std::fs::remove_file(&legend).map_err(|e| Error::io("removing", &legend, e))?;
+        }
+    } else {
+        let text = warning_legend_text(out, streamed.rows, &streamed.warning_codes);
+        write_file(&legend, text.as_bytes())?;
+        eprint!("quenchwise: {}", text.replace('\n', "\n  "));
+        eprintln!("(this legend is also in {})", legend.display());
+    }
     Ok(Outcome::Finished)
+}
+
+/// `results.csv` → `results.warnings.txt`, beside it: the legend of the
+/// warning codes a CSV table writes.
+fn warning_legend_file(out: &Path) -> PathBuf {
+    out.with_extension("warnings.txt")
+}
+
+/// The legend of a table's warning codes, stated once: each code, the rows
+/// carrying it and its text.
+fn warning_legend_text(
+    out: &Path,
+    rows: usize,
+    codes: &[quenchwise::report::records::WarningCode],
+) -> String {
+    let name = out.file_name().map_or_else(
+        || out.display().to_string(),
+        |n| n.to_string_lossy().into_owned(),
+    );
+    let mut t = format!(
+        "warnings in {name}: the warnings column writes these as their codes (the other warnings in full)\n"
+    );
+    for c in codes {
+        t.push_str(&format!(
+            "{} (on {} of {rows} rows): {}\n",
+            c.code, c.rows, c.text
+        ));
+    }
+    t
 }
 
 /// Which glass a standalone picture shows: its composition in mol%, or the

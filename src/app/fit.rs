@@ -344,8 +344,70 @@ fn viscosity(a: FitViscosityArgs) -> Result<Outcome, Error> {
             )
         },
     )?;
+    if let Some(dir) = &a.viscosity_plots {
+        let n = write_viscosity_plots(dir, &fit.model, &data.points, &data.glasses, form_name)?;
+        eprintln!(
+            "quenchwise: wrote {} (fitted curve and measured points) to {}",
+            count(n, "viscosity plot", "viscosity plots"),
+            dir.display()
+        );
+    }
     print(&summary)?;
     Ok(Outcome::Finished)
+}
+
+/// One SVG per glass in `dir`: the fitted curve at the glass's composition,
+/// its fixpoints, and the glass's measured points. Returns how many.
+fn write_viscosity_plots(
+    dir: &Path,
+    model: &quenchwise::properties::ViscosityModel,
+    points: &[quenchwise::properties::fit::ViscosityPoint],
+    glasses: &[String],
+    form_name: &str,
+) -> Result<usize, Error> {
+    std::fs::create_dir_all(dir).map_err(|e| Error::io("creating", dir, e))?;
+    let mut names: Vec<String> = Vec::new();
+    for (k, glass) in glasses.iter().enumerate() {
+        let mine: Vec<&quenchwise::properties::fit::ViscosityPoint> =
+            points.iter().filter(|p| p.glass == k).collect();
+        let Some(first) = mine.first() else {
+            continue;
+        };
+        let comp = quenchwise::composition::Composition::from_fractions(&first.x)
+            .map_err(|e| Error::bad_input(format!("glass {glass}: {e}")))?;
+        let (curve, _) = model
+            .curve(&comp)
+            .map_err(|e| Error::bad_input(format!("glass {glass}: {e}")))?;
+        let measured: Vec<(f64, f64)> = mine
+            .iter()
+            .map(|p| (p.temperature.0, p.log10_viscosity.0))
+            .collect();
+        let svg = quenchwise::report::plot::viscosity_svg(
+            &curve,
+            &quenchwise::report::plot::viscosity_fixpoints(&curve),
+            &measured,
+            &format!("Viscosity of {glass}: fitted {form_name} and measured points"),
+        );
+        // A file name safe anywhere; two glasses never share one.
+        let mut name: String = glass
+            .trim()
+            .chars()
+            .map(|c| {
+                if c.is_ascii_alphanumeric() || c == '-' {
+                    c
+                } else {
+                    '_'
+                }
+            })
+            .collect();
+        if name.is_empty() || names.contains(&name) {
+            name = format!("{name}_{}", k + 1);
+        }
+        let path = dir.join(format!("{name}.svg"));
+        write_text(&path, &svg).map_err(Error::internal)?;
+        names.push(name);
+    }
+    Ok(names.len())
 }
 
 fn phase_index(set: &ModelSet, name: &str, option: &str) -> Result<usize, Error> {

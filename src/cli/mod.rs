@@ -310,6 +310,15 @@ pub struct FitViscosityArgs {
     /// expect. Example: --no-cv
     #[arg(long, help_heading = "Model")]
     pub no_cv: bool,
+
+    /// Draw each glass's fitted viscosity curve with its measured points.
+    ///
+    /// One SVG per glass in this folder (created if missing), named after
+    /// the glass (letters, digits and '-'; other signs as '_'): the fitted curve at its composition, log10(η/Pa·s)
+    /// against °C, its fixpoints, and the measurements as rings. Not drawn
+    /// by default. Example: --viscosity-plots curves/
+    #[arg(long, value_name = "DIR", help_heading = "Output")]
+    pub viscosity_plots: Option<PathBuf>,
 }
 
 #[derive(Debug, Args)]
@@ -721,6 +730,13 @@ pub struct EvalArgs {
     /// below the glass transition of that row: that phase cannot crystallise
     /// from the melt, and its cell is empty. A row with an error has empty
     /// result cells.
+    ///
+    /// A .csv file shows meaningful digits (temperatures to 0.1 K or °C,
+    /// rates to 4 significant figures, others to 6; input columns as
+    /// given), and the warnings the first two evaluated rows share are
+    /// written as codes (W1, W2, ...) with their legend once in
+    /// NAME.warnings.txt and on stderr; other warnings stay in full. A
+    /// .parquet file keeps every digit and every text.
     #[arg(long, value_name = "FILE", help_heading = "Output")]
     pub out: Option<PathBuf>,
 

@@ -412,6 +412,7 @@ pub fn parse_model_set(src: &Source) -> Result<ModelSet, DataError> {
         viscosity,
         phases,
         kinetics_fit,
+        melting_viscosity_pa_s: 10f64.powf(crate::properties::fixpoints::MELTING),
     })
 }
 

@@ -11,8 +11,8 @@ use crate::error::{Error, ResultExt};
 use crate::report::html::{ReportRecipe, ScreenReport};
 use crate::report::plot::{ProbabilityPoint, TradePoint};
 use crate::report::records::{
-    csv_digits, equipment_fields, fields, oxide_column, oxide_of_column, oxide_wt_column, Cell,
-    Digits, EQUIPMENT_FIELDS_AFTER,
+    csv_digits, equipment_fields, fields, oxide_column, oxide_of_column, oxide_wt_column, rounded,
+    Cell, EQUIPMENT_FIELDS_AFTER,
 };
 use crate::report::text::{batch_csv, batch_text, evaluation_text};
 use crate::screen::{evaluate_candidate_with, Pass, Row, ScreenProblem, Shortlisted};
@@ -166,6 +166,20 @@ pub(crate) fn rows_frame_with(
         };
         cols.insert(at + k, col);
     }
+    if with_rank {
+        // The melting criterion beside the melting temperature
+        // (`[furnace] melting_viscosity_pa_s`).
+        if let Some(at) = cols
+            .iter()
+            .position(|c| c.name().as_str() == "melting_temperature_c")
+        {
+            let v = problem.models.melting_viscosity_pa_s;
+            cols.insert(
+                at + 1,
+                Column::new("melting_viscosity_pa_s".into(), vec![Some(v); rows.len()]),
+            );
+        }
+    }
     if !with_rank {
         cols.push(Column::new(
             "error".into(),
@@ -180,29 +194,6 @@ fn wt_percent(r: &Row) -> Option<[f64; N_OXIDES]> {
     Composition::from_mol_percent_array(&r.composition(), 1e-3)
         .ok()
         .map(|c| c.wt_percent())
-}
-
-/// A number rounded to the digits a CSV column shows ([`csv_digits`]);
-/// Parquet and JSON keep every digit.
-fn rounded(x: f64, d: Digits) -> f64 {
-    if !x.is_finite() || x == 0.0 {
-        return x;
-    }
-    match d {
-        Digits::Decimals(n) => {
-            let f = 10f64.powi(n);
-            let r = (x * f).round() / f;
-            // No "-0" in a table.
-            if r == 0.0 {
-                0.0
-            } else {
-                r
-            }
-        }
-        Digits::Significant(n) => format!("{:.*e}", n.saturating_sub(1), x)
-            .parse()
-            .unwrap_or(x),
-    }
 }
 
 /// The frame as a CSV file shows it: every number column rounded to its
@@ -273,43 +264,60 @@ fn coded_warnings(w: &str, codes: &[(String, String)]) -> String {
         .join("; ")
 }
 
-/// The shortlist as JSON: one object per recipe with its rank, the oxide
-/// columns and the result columns.
-pub(crate) fn shortlist_json(problem: &ScreenProblem, rows: &[&Row]) -> String {
-    let json: Vec<serde_json::Value> = rows
-        .iter()
-        .enumerate()
-        .map(|(i, r)| {
-            let mut m = serde_json::Map::new();
-            m.insert("rank".into(), (i + 1).into());
-            for (o, ..) in &problem.oxides {
-                m.insert(oxide_column(*o), r.mol_pct[o.index()].into());
-            }
-            if let Some(wt) = wt_percent(r) {
-                for (o, ..) in &problem.oxides {
-                    m.insert(oxide_wt_column(*o), wt[o.index()].into());
-                }
-            }
-            for f in fields(problem.uncertainty.is_some()) {
-                let v = match (f.get)(r) {
-                    Cell::Num(v) => v.map(serde_json::Value::from).unwrap_or_default(),
-                    Cell::Text(v) => v.map(serde_json::Value::from).unwrap_or_default(),
-                    Cell::Bool(v) => v.map(serde_json::Value::from).unwrap_or_default(),
-                };
-                m.insert(f.name.into(), v);
-            }
-            for f in equipment_fields(problem) {
-                let v = match f.get(r) {
-                    Cell::Num(v) => v.map(serde_json::Value::from).unwrap_or_default(),
-                    Cell::Bool(v) => v.map(serde_json::Value::from).unwrap_or_default(),
-                    Cell::Text(v) => v.map(serde_json::Value::from).unwrap_or_default(),
-                };
-                m.insert(f.name, v);
-            }
-            serde_json::Value::Object(m)
+/// The shortlist as JSON: one object per recipe, its keys in the order of
+/// the shortlist's table (`df`, from [`rows_frame_with`], every digit):
+/// rank, composition in mol% then wt%, the decisive numbers, the rest,
+/// warnings last, as shortlist.csv has them.
+pub(crate) fn shortlist_json(df: &DataFrame) -> String {
+    let rows: Vec<OrderedObject> = (0..df.height())
+        .map(|i| {
+            OrderedObject(
+                df.columns()
+                    .iter()
+                    .map(|c| (c.name().to_string(), json_value(c.get(i).ok())))
+                    .collect(),
+            )
         })
         .collect();
-    serde_json::to_string_pretty(&json).unwrap_or_else(|_| "[]".into())
+    serde_json::to_string_pretty(&rows).unwrap_or_else(|_| "[]".into())
+}
+
+/// A JSON object that keeps its keys in the order given (serde_json's own
+/// map sorts them).
+struct OrderedObject(Vec<(String, serde_json::Value)>);
+
+impl serde::Serialize for OrderedObject {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeMap;
+        let mut m = s.serialize_map(Some(self.0.len()))?;
+        for (k, v) in &self.0 {
+            m.serialize_entry(k, v)?;
+        }
+        m.end()
+    }
+}
+
+/// One cell of a table as JSON (null where empty or not a number, text or
+/// yes/no).
+fn json_value(v: Option<AnyValue<'_>>) -> serde_json::Value {
+    let Some(v) = v else {
+        return serde_json::Value::Null;
+    };
+    match v {
+        AnyValue::Null => serde_json::Value::Null,
+        AnyValue::Boolean(b) => b.into(),
+        AnyValue::UInt32(n) => n.into(),
+        AnyValue::UInt64(n) => n.into(),
+        AnyValue::Int32(n) => n.into(),
+        AnyValue::Int64(n) => n.into(),
+        other => match other.get_str() {
+            Some(t) => t.into(),
+            None => other
+                .extract::<f64>()
+                .map(serde_json::Value::from)
+                .unwrap_or_default(),
+        },
+    }
 }
 
 /// The least-cost batch sheet of a glass (text and CSV), when the plan prices glasses.

@@ -1097,7 +1097,7 @@ fn write_outputs(
             .map_err(|e| Error::internal(format!("rounding the shortlist table: {e}")))?;
         write_frame(&folder.own("shortlist.csv")?, &mut csv)?;
         write_frame(&folder.own(SHORTLIST_FULL)?, &mut df)?;
-        folder.write("shortlist.json", shortlist_json(problem, &rows).as_bytes())?;
+        folder.write("shortlist.json", shortlist_json(&df).as_bytes())?;
         if let Some(p) = probability {
             // Every recipe the Monte Carlo stage drew (the report's
             // probability-against-cost picture reads it).

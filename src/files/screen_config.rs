@@ -197,7 +197,16 @@ struct RawFurnace {
     liquidus_margin_c: Option<Spanned<f64>>,
     #[serde(default)]
     melting_margin_c: Option<Spanned<f64>>,
+    #[serde(default)]
+    melting_viscosity_pa_s: Option<Spanned<f64>>,
 }
+
+/// The range a config's `[furnace] melting_viscosity_pa_s` may take, Pa·s:
+/// the melting temperature is where a melt is fluid enough to fine and
+/// homogenise, 10 Pa·s by common practice (some melt at 10^1.5 to
+/// 10^2.5 Pa·s); beyond these it is no melting criterion (10^3 Pa·s is the
+/// working point; below 0.1 Pa·s is a slip of units).
+pub const MELTING_VISCOSITY_RANGE_PA_S: (f64, f64) = (0.1, 1e4);
 
 /// How far below the furnace maximum the melting temperature must stay when
 /// the config does not say, °C (common practice: a furnace is not run at its
@@ -678,6 +687,24 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         &raw.furnace.melting_margin_c,
         DEFAULT_MELTING_MARGIN_C,
     );
+    let melting_viscosity = match &raw.furnace.melting_viscosity_pa_s {
+        None => None,
+        Some(v) => {
+            let x = *v.get_ref();
+            let (lo, hi) = MELTING_VISCOSITY_RANGE_PA_S;
+            if !(x.is_finite() && (lo..=hi).contains(&x)) {
+                push(
+                    v.span(),
+                    format!(
+                        "melting_viscosity_pa_s must lie between {lo} and {hi} Pa·s, got {x} (10 Pa·s, 100 poise, is the common melting criterion; a data sheet in dPa·s: divide by 10)"
+                    ),
+                );
+                None
+            } else {
+                Some(x)
+            }
+        }
+    };
     let cap = raw
         .objective
         .as_ref()
@@ -974,6 +1001,9 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
     let mut models = models.ok_or_else(|| Error::internal("the model set was not loaded"))?;
     if let Some(v) = viscosity {
         models = models.with_viscosity(v);
+    }
+    if let Some(v) = melting_viscosity {
+        models.melting_viscosity_pa_s = v;
     }
     // An oxide the models were not made for cannot be screened unless the user
     // allows extrapolation: its effect would be silently zero.

@@ -32,7 +32,8 @@ use super::table::{
 };
 use crate::assess::Evaluation;
 use crate::report::records::{
-    Carried, CellKind, EvalCell, EvalField, PhaseField, EVALUATION_FIELDS, PHASE_FIELDS,
+    csv_digits, rounded, Carried, CellKind, EvalCell, EvalField, PhaseField, WarningCode,
+    WarningLegend, EVALUATION_FIELDS, PHASE_FIELDS,
 };
 use crate::uncertainty::melt::MeltSpreads;
 use polars::prelude::*;
@@ -868,17 +869,25 @@ impl Drop for Sink {
     }
 }
 
-/// How a streamed table is cut.
+/// How a streamed table is cut, and how a CSV file shows it.
 #[derive(Debug, Clone, Copy)]
 pub struct StreamSettings {
     /// Rows per batch (at least 1).
     pub batch_rows: usize,
+    /// A CSV output shows meaningful digits: every result column rounded
+    /// as [`csv_digits`] says (input columns as read), and the warnings of
+    /// the first row that has any written as codes W1, W2, ... in every row
+    /// that carries them ([`Streamed::warning_codes`] is the legend). A
+    /// Parquet output keeps every digit and every text either way. Off by
+    /// default (every digit); `eval` turns it on.
+    pub readable_csv: bool,
 }
 
 impl Default for StreamSettings {
     fn default() -> Self {
         StreamSettings {
             batch_rows: DEFAULT_BATCH_ROWS,
+            readable_csv: false,
         }
     }
 }
@@ -908,6 +917,9 @@ pub enum Event<'a> {
 pub struct Streamed {
     pub rows: usize,
     pub failed: usize,
+    /// The warnings a readable CSV file writes as codes, with the rows
+    /// carrying each (empty for Parquet, or when no row has a warning).
+    pub warning_codes: Vec<WarningCode>,
 }
 
 /// Read the table `input` batch by batch, evaluate every row (in
@@ -966,6 +978,12 @@ pub fn stream_table_with<R: RowReader>(
     let mut columns: Option<ResultColumns> = None;
     let mut failed = 0;
     let mut rows_seen = 0;
+    let readable = settings.readable_csv
+        && out
+            .extension()
+            .is_some_and(|e| e.eq_ignore_ascii_case("csv"));
+    let mut legend = WarningLegend::new();
+    let mut pending: Vec<(DataFrame, Vec<Option<Vec<String>>>)> = Vec::new();
     while let Some((df, places)) = batches.next()? {
         let mut bad = Vec::new();
         let rows = reader.rows(&df, &places, &mut bad)?;
@@ -1030,17 +1048,31 @@ pub fn stream_table_with<R: RowReader>(
             built.extend(extra.build(&names, &cells));
             built.extend(error);
         }
+        if readable {
+            built = built.into_iter().map(rounded_column).collect();
+        }
         for c in built {
             frame.with_column(c).map_err(|e| TableError::Write {
                 path: out.display().to_string(),
                 message: format!("assembling the results: {e}"),
             })?;
         }
-        if sink.is_none() {
-            sink = Some(Sink::create(out, frame.schema())?);
-        }
-        if let Some(s) = sink.as_mut() {
-            s.write(&mut frame)?;
+        if readable {
+            // Rows wait (at most the legend's look-ahead) until the coded
+            // warnings are known.
+            let warnings: Vec<Option<Vec<String>>> = results
+                .iter()
+                .map(|r| r.as_ref().ok().map(|e| e.warnings.clone()))
+                .collect();
+            for w in &warnings {
+                legend.see(w.as_deref());
+            }
+            pending.push((frame, warnings));
+            if legend.is_fixed() {
+                flush(&mut pending, &mut legend, &mut sink, out)?;
+            }
+        } else {
+            write_batch(&mut sink, out, &mut frame)?;
         }
         on(Event::Batch(BatchDone {
             input: &df,
@@ -1049,6 +1081,10 @@ pub fn stream_table_with<R: RowReader>(
             extra: &cells,
         }));
         rows_seen += results.len();
+    }
+    if readable {
+        legend.finish();
+        flush(&mut pending, &mut legend, &mut sink, out)?;
     }
     match sink {
         Some(s) => s.finish()?,
@@ -1061,7 +1097,61 @@ pub fn stream_table_with<R: RowReader>(
     Ok(Streamed {
         rows: rows_seen,
         failed,
+        warning_codes: if readable { legend.codes() } else { Vec::new() },
     })
+}
+
+/// A result column as a readable CSV file shows it: numbers rounded to
+/// their meaningful digits ([`csv_digits`]).
+fn rounded_column(c: Column) -> Column {
+    let name = c.name().to_string();
+    match (csv_digits(&name), c.f64()) {
+        (Some(d), Ok(v)) => Float64Chunked::from_iter_options(
+            name.as_str().into(),
+            v.iter().map(|x| x.map(|x| rounded(x, d))),
+        )
+        .into_column(),
+        _ => c,
+    }
+}
+
+/// Write a batch, opening the file with its schema at the first.
+fn write_batch(
+    sink: &mut Option<Sink>,
+    out: &Path,
+    frame: &mut DataFrame,
+) -> Result<(), TableError> {
+    if sink.is_none() {
+        *sink = Some(Sink::create(out, frame.schema())?);
+    }
+    match sink.as_mut() {
+        Some(s) => s.write(frame),
+        None => Ok(()),
+    }
+}
+
+/// Write the batches that waited for the legend, their warnings coded.
+fn flush(
+    pending: &mut Vec<(DataFrame, Vec<Option<Vec<String>>>)>,
+    legend: &mut WarningLegend,
+    sink: &mut Option<Sink>,
+    out: &Path,
+) -> Result<(), TableError> {
+    for (mut frame, warnings) in pending.drain(..) {
+        let coded = StringChunked::from_iter_options(
+            "warnings".into(),
+            warnings
+                .iter()
+                .map(|w| w.as_deref().map(|w| legend.code_row(w))),
+        )
+        .into_column();
+        frame.with_column(coded).map_err(|e| TableError::Write {
+            path: out.display().to_string(),
+            message: format!("assembling the results: {e}"),
+        })?;
+        write_batch(sink, out, &mut frame)?;
+    }
+    Ok(())
 }
 
 #[cfg(test)]

@@ -76,6 +76,10 @@ pub struct ModelSet {
     pub phases: Vec<Phase>,
     /// The joint fit of the phases' α (their covariance), if there was one.
     pub kinetics_fit: Option<KineticsFitRecord>,
+    /// The viscosity that defines the melting temperature, Pa·s: 10 Pa·s
+    /// ([`fixpoints::MELTING`], common practice) unless a screen config's
+    /// `[furnace] melting_viscosity_pa_s` sets another.
+    pub melting_viscosity_pa_s: f64,
 }
 
 /// Why a composition has no properties.
@@ -170,7 +174,11 @@ impl ModelSet {
             viscosity,
             liquidus: Kelvin(tl),
             primary_phase: primary,
-            melting_temperature: isokom(&viscosity, fixpoints::MELTING, "melting temperature")?,
+            melting_temperature: isokom(
+                &viscosity,
+                self.melting_log_viscosity(),
+                "melting temperature",
+            )?,
             working_point: isokom(&viscosity, fixpoints::WORKING, "working point")?,
             softening_point: isokom(&viscosity, fixpoints::SOFTENING, "softening point")?,
             glass_transition: tg,
@@ -186,6 +194,11 @@ impl ModelSet {
     /// Whether every phase's kinetic factor was calibrated against a measurement.
     pub fn kinetics_calibrated(&self, primary: usize) -> bool {
         self.phases[primary].calibrated_against.is_some()
+    }
+
+    /// The viscosity that defines the melting temperature, log10(η / Pa·s).
+    pub fn melting_log_viscosity(&self) -> f64 {
+        self.melting_viscosity_pa_s.log10()
     }
 
     /// The same set with another viscosity model.

@@ -4,7 +4,7 @@
 //! job of `files::results`.
 
 use super::plot::{self, ProbabilityPoint, TradePoint};
-use super::text::{sig, CAUTION};
+use super::text::{pa_s, sig, CAUTION};
 use crate::assess::Evaluation;
 use crate::composition::Oxide;
 use crate::screen::{Row, ScreenProblem};
@@ -99,7 +99,10 @@ fn property_table(e: &Evaluation) -> String {
     );
     row(
         &mut t,
-        "melting temperature (10 Pa·s)",
+        &format!(
+            "melting temperature ({})",
+            pa_s(e.melting_viscosity_pa_s.unwrap_or(10.0))
+        ),
         e.melting_temperature_k,
     );
     row(&mut t, "working point (10³ Pa·s)", e.working_point_k);
@@ -252,7 +255,11 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
                 "<figure>{}</figure>",
                 inline(&plot::viscosity_svg(
                     &e.melt.viscosity,
-                    &plot::viscosity_fixpoints(&e.melt.viscosity),
+                    &plot::viscosity_fixpoints_with(
+                        &e.melt.viscosity,
+                        e.melting_viscosity_pa_s
+                            .map_or(crate::properties::fixpoints::MELTING, f64::log10)
+                    ),
                     &[],
                     &format!("Viscosity, rank {}", l.rank)
                 ))
@@ -295,6 +302,10 @@ fn describe(e: &Evaluation, listed: &[String]) -> String {
 /// The report of a finished screen as one HTML page.
 pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
     let plan = r.problem;
+    let melting_desc = format!(
+        "melting temperature ({}) / °C",
+        pa_s(plan.models.melting_viscosity_pa_s)
+    );
     let mut h = String::new();
     let _ = write!(
         h,
@@ -376,8 +387,9 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
         &mut h,
         "furnace",
         format!(
-            "{:.0} °C: melting temperature (10 Pa·s) ≤ {:.0} °C; liquidus ≤ {:.0} °C",
+            "{:.0} °C: melting temperature ({}) ≤ {:.0} °C; liquidus ≤ {:.0} °C",
             plan.furnace_max.to_celsius().0,
+            pa_s(plan.models.melting_viscosity_pa_s),
             plan.melting_max.to_celsius().0,
             plan.liquidus_max.to_celsius().0
         ),
@@ -532,7 +544,7 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
         "<figure>{}</figure>",
         inline(&plot::tradeoff_svg(
             &r.by_melting,
-            "melting temperature (10 Pa·s) / °C",
+            &melting_desc,
             plan.allowed_rate().0,
             "Critical rate against melting temperature"
         ))
@@ -541,7 +553,7 @@ pub(crate) fn screen_report_html(r: &ScreenReport) -> String {
         let x_desc = if plan.cost.is_some() {
             "cost per kg of glass"
         } else {
-            "melting temperature (10 Pa·s) / °C"
+            melting_desc.as_str()
         };
         let _ = write!(
             h,

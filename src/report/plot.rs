@@ -717,9 +717,19 @@ pub fn viscosity_svg(
 pub fn viscosity_fixpoints(
     curve: &crate::properties::ViscosityCurve,
 ) -> Vec<(&'static str, f64, f64)> {
+    viscosity_fixpoints_with(curve, crate::properties::fixpoints::MELTING)
+}
+
+/// As [`viscosity_fixpoints`], the melting temperature at
+/// log10(η / Pa·s) = `melting_level` (a screen config's
+/// `[furnace] melting_viscosity_pa_s`).
+pub fn viscosity_fixpoints_with(
+    curve: &crate::properties::ViscosityCurve,
+    melting_level: f64,
+) -> Vec<(&'static str, f64, f64)> {
     use crate::properties::fixpoints as f;
     [
-        ("melting", f::MELTING),
+        ("melting", melting_level),
         ("working point", f::WORKING),
         ("softening point", f::SOFTENING),
         ("glass transition", f::GLASS_TRANSITION),

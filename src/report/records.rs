@@ -159,13 +159,17 @@ pub enum Digits {
 }
 
 /// The digits a screen's CSV column shows (None: as they are, e.g. whole
-/// numbers): amounts in mol% and wt% to 0.01, temperatures to 0.1 K or °C,
+/// numbers): amounts in mol% and wt% to 0.01, standard errors (`_se`) to 3
+/// significant figures, temperatures to 0.1 K or °C,
 /// margins (decades) and probabilities to 0.001, rates and costs to 4
 /// significant figures, anything else to 6. A weighing to 0.01 wt% of a
 /// 200 g batch is 20 mg; the models' own errors are kelvins, not tenths.
 pub fn csv_digits(name: &str) -> Option<Digits> {
     if name.ends_with("_mol_pct") || name.ends_with("_wt_pct") {
         Some(Digits::Decimals(2))
+    } else if name.ends_with("_se") {
+        // A standard error: its leading figures, however small.
+        Some(Digits::Significant(3))
     } else if name.ends_with("_k") || name.ends_with("_c") {
         Some(Digits::Decimals(1))
     } else if name.ends_with("_decades") || name.starts_with("probability") {
@@ -176,6 +180,152 @@ pub fn csv_digits(name: &str) -> Option<Digits> {
         None
     } else {
         Some(Digits::Significant(6))
+    }
+}
+
+/// A number rounded to `decimals` digits after the point, as text: the one
+/// rounding rule of every output (CSV cells through [`rounded`], and the
+/// `{:.N}` of text outputs, which is what this is), so a value reads the
+/// same in shortlist.csv and in a batch sheet (1152.85 written as a double
+/// lies just below the tie and is 1152.8 in both).
+pub fn fixed(x: f64, decimals: usize) -> String {
+    format!("{x:.decimals$}")
+}
+
+/// A number rounded to the digits a CSV column shows ([`csv_digits`]):
+/// decimals by [`fixed`] (no "-0"), significant figures through the
+/// exponent form. Parquet and JSON keep every digit.
+pub fn rounded(x: f64, d: Digits) -> f64 {
+    if !x.is_finite() || x == 0.0 {
+        return x;
+    }
+    let r = match d {
+        Digits::Decimals(n) => fixed(x, n.max(0) as usize).parse().unwrap_or(x),
+        Digits::Significant(n) => format!("{:.*e}", n.saturating_sub(1), x)
+            .parse()
+            .unwrap_or(x),
+    };
+    // No "-0" in a table.
+    if r == 0.0 {
+        0.0
+    } else {
+        r
+    }
+}
+
+/// Warnings a table states once: each gets a code (`W1`, `W2`, ... in the
+/// order of the first row) that its rows carry instead of the text, and
+/// the legend (code, text, rows carrying it) is stated once beside the
+/// table. The coded texts are those the first two evaluated rows share (a
+/// text on every row is among them; a text tied to one row's numbers is
+/// not); when no second row is evaluated within [`LEGEND_LOOK_AHEAD_ROWS`]
+/// rows, the first row's own; a table with one evaluated row codes none.
+/// The rule counts rows, so a streamed table gives the same codes however
+/// it is cut into batches.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct WarningLegend {
+    /// (text, rows carrying it), in code order.
+    entries: Vec<(String, usize)>,
+    /// The coded texts are fixed.
+    fixed: bool,
+    /// The first evaluated row's warnings, until the texts are fixed.
+    first: Option<Vec<String>>,
+    /// Rows seen before the texts were fixed.
+    rows_seen: usize,
+}
+
+/// Rows a [`WarningLegend`] looks at, at most, before it fixes its codes.
+pub const LEGEND_LOOK_AHEAD_ROWS: usize = 4096;
+
+/// One entry of a [`WarningLegend`].
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct WarningCode {
+    pub code: String,
+    pub text: String,
+    /// Rows of the table carrying it.
+    pub rows: usize,
+}
+
+impl WarningLegend {
+    /// A legend that has seen no row.
+    pub fn new() -> Self {
+        WarningLegend::default()
+    }
+
+    /// Whether the coded texts are fixed (rows can be coded).
+    pub fn is_fixed(&self) -> bool {
+        self.fixed
+    }
+
+    fn fix(&mut self, texts: Vec<String>) {
+        for t in texts {
+            if !self.entries.iter().any(|(e, _)| *e == t) {
+                self.entries.push((t, 0));
+            }
+        }
+        self.fixed = true;
+        self.first = None;
+    }
+
+    /// See the next row of the table before it is coded: its warnings, or
+    /// None for a row that failed.
+    pub fn see(&mut self, warnings: Option<&[String]>) {
+        if self.fixed {
+            return;
+        }
+        self.rows_seen += 1;
+        if let Some(w) = warnings {
+            match self.first.take() {
+                None => self.first = Some(w.to_vec()),
+                Some(first) => {
+                    let shared = first.into_iter().filter(|t| w.contains(t)).collect();
+                    self.fix(shared);
+                    return;
+                }
+            }
+        }
+        if self.rows_seen >= LEGEND_LOOK_AHEAD_ROWS {
+            let first = self.first.take().unwrap_or_default();
+            self.fix(first);
+        }
+    }
+
+    /// The table ended: fix the codes if they are not (one evaluated row:
+    /// nothing repeats, nothing is coded).
+    pub fn finish(&mut self) {
+        if !self.fixed {
+            self.fix(Vec::new());
+        }
+    }
+
+    /// A row's warnings as the CSV file writes them: the coded ones as their
+    /// codes, the others in full, joined by "; ". Before the codes are fixed
+    /// every text is written in full.
+    pub fn code_row(&mut self, warnings: &[String]) -> String {
+        let mut out: Vec<String> = Vec::with_capacity(warnings.len());
+        for w in warnings {
+            match self.entries.iter().position(|(t, _)| t == w) {
+                Some(k) => {
+                    self.entries[k].1 += 1;
+                    out.push(format!("W{}", k + 1));
+                }
+                None => out.push(w.clone()),
+            }
+        }
+        out.join("; ")
+    }
+
+    /// The codes, their texts and how many rows carry each.
+    pub fn codes(&self) -> Vec<WarningCode> {
+        self.entries
+            .iter()
+            .enumerate()
+            .map(|(k, (t, n))| WarningCode {
+                code: format!("W{}", k + 1),
+                text: t.clone(),
+                rows: *n,
+            })
+            .collect()
     }
 }
 
@@ -340,6 +490,7 @@ pub const EVALUATION_FIELDS: &[EvalField] = eval_fields![
     glass_transition_c: Always Num |e| Some(e.glass_transition_c);
     melting_temperature_k: WithModels Num |e| e.melting_temperature_k;
     melting_temperature_c: WithModels Num |e| e.melting_temperature_c;
+    melting_viscosity_pa_s: WithModels Num |e| e.melting_viscosity_pa_s;
     working_point_k: WithModels Num |e| e.working_point_k;
     working_point_c: WithModels Num |e| e.working_point_c;
     softening_point_k: WithModels Num |e| e.softening_point_k;
@@ -427,5 +578,76 @@ mod tests {
         }
         assert_eq!(oxide_of_column("liquidus_k"), None);
         assert!(field("liquidus_k").is_some() && field("nope").is_none());
+    }
+
+    /// One rounding rule: a CSV cell rounded to n decimals reads as the
+    /// text outputs' `{:.n}` of the same value, ties included (1152.85 as a
+    /// double lies just below the tie: 1152.8 in both; multiplying by 10
+    /// first would round it up to 1152.9).
+    #[test]
+    fn csv_and_text_round_alike() {
+        assert_eq!(rounded(1152.85, Digits::Decimals(1)), 1152.8);
+        assert_eq!(fixed(1152.85, 1), "1152.8");
+        let mut x = 1000.0;
+        while x < 1300.0 {
+            for n in [1usize, 2, 3] {
+                assert_eq!(
+                    format!("{:.n$}", rounded(x, Digits::Decimals(n as i32))),
+                    fixed(x, n),
+                    "{x}"
+                );
+            }
+            x += 0.005;
+        }
+        assert_eq!(rounded(-0.04, Digits::Decimals(1)), 0.0);
+        assert!(rounded(-0.04, Digits::Decimals(1)).is_sign_positive());
+        assert_eq!(rounded(0.000123456, Digits::Significant(4)), 0.0001235);
+    }
+
+    fn w(t: &[&str]) -> Vec<String> {
+        t.iter().map(|s| s.to_string()).collect()
+    }
+
+    /// Codes for the warnings the first two evaluated rows share; a text
+    /// tied to one row stays in full; failed rows are skipped.
+    #[test]
+    fn a_legend_codes_what_the_first_two_rows_share() {
+        let rows = [
+            Some(w(&["invented", "nose at 914 K", "uncalibrated"])),
+            None,
+            Some(w(&["invented", "uncalibrated", "nose at 939 K"])),
+            Some(w(&["uncalibrated", "invented"])),
+        ];
+        let mut l = WarningLegend::new();
+        l.see(rows[0].as_deref());
+        assert!(!l.is_fixed());
+        l.see(rows[1].as_deref());
+        assert!(!l.is_fixed());
+        l.see(rows[2].as_deref());
+        assert!(l.is_fixed());
+        let coded: Vec<String> = rows.iter().flatten().map(|r| l.code_row(r)).collect();
+        assert_eq!(coded[0], "W1; nose at 914 K; W2");
+        assert_eq!(coded[1], "W1; W2; nose at 939 K");
+        assert_eq!(coded[2], "W2; W1");
+        let codes = l.codes();
+        assert_eq!(codes.len(), 2);
+        assert_eq!((codes[0].text.as_str(), codes[0].rows), ("invented", 3));
+        assert_eq!((codes[1].code.as_str(), codes[1].rows), ("W2", 3));
+        // One evaluated row: nothing repeats, nothing is coded.
+        let mut one = WarningLegend::new();
+        one.see(rows[0].as_deref());
+        one.finish();
+        assert_eq!(
+            one.code_row(rows[0].as_ref().unwrap()),
+            "invented; nose at 914 K; uncalibrated"
+        );
+        // No second evaluated row within the look-ahead: the first row's own.
+        let mut far = WarningLegend::new();
+        far.see(rows[0].as_deref());
+        for _ in 1..LEGEND_LOOK_AHEAD_ROWS {
+            far.see(None);
+        }
+        assert!(far.is_fixed());
+        assert_eq!(far.codes().len(), 3);
     }
 }

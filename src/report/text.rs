@@ -19,6 +19,11 @@ pub const CAUTION: &str = "caution: melts at 1000-1600 °C and quenching (steam 
 (crystalline silica, boric acid, Ba/Pb compounds, Li2CO3) are health hazards. These are model estimates to shortlist \
 experiments: confirm glassiness by XRD/DSC and follow your lab's safety rules and licensed practice.";
 
+/// A viscosity in Pa·s as outputs state it: "10 Pa·s", "316 Pa·s".
+pub fn pa_s(v: f64) -> String {
+    format!("{} Pa·s", crate::report::plot::plain(v))
+}
+
 /// "1 glass", "3 glasses": a count with its noun in the right number
 /// (`plural` is the noun's plural form).
 pub fn count(n: usize, singular: &str, plural: &str) -> String {
@@ -133,7 +138,15 @@ pub fn evaluation_text(e: &Evaluation) -> String {
     }
     let _ = writeln!(o, "\nviscosity");
     if let Some(v) = e.melting_temperature_k {
-        row(&mut o, "melting temperature (10 Pa·s)", t(v), mv);
+        row(
+            &mut o,
+            &format!(
+                "melting temperature ({})",
+                pa_s(e.melting_viscosity_pa_s.unwrap_or(10.0))
+            ),
+            t(v),
+            mv,
+        );
     }
     if let Some(v) = e.working_point_k {
         row(&mut o, "working point (10^3 Pa·s)", t(v), mv);
@@ -553,7 +566,7 @@ pub fn screen_summary_text(
     format!(
         "screen {}: {} candidates kept ({} evaluations with refinement), {} meet every limit, {} shortlisted\n\
          {}\n\
-         furnace: {:.0} °C; melting temperature ≤ {:.0} °C, liquidus ≤ {:.0} °C\n\
+         furnace: {:.0} °C; melting temperature (viscosity {}) ≤ {:.0} °C, liquidus ≤ {:.0} °C\n\
          nucleation: {}\n{}\n{}\n",
         config,
         s.evaluated,
@@ -565,6 +578,7 @@ pub fn screen_summary_text(
             None => feasibility_text(problem),
         },
         problem.furnace_max.to_celsius().0,
+        pa_s(problem.models.melting_viscosity_pa_s),
         problem.melting_max.to_celsius().0,
         problem.liquidus_max.to_celsius().0,
         screen_nucleation_text(problem),
@@ -616,6 +630,48 @@ pub fn snapping_text(problem: &ScreenProblem, o: &SnapOutcome) -> String {
             amounts.join(", "),
             d.reason
         );
+    }
+    if !o.dropped.is_empty() {
+        let full = problem.shortlist_size.max(o.before);
+        let now = kept + o.refilled.len();
+        let _ = write!(
+            t,
+            "\n  refill: {} of {} taken by the next-ranked candidates, each snapped and checked the same way ({} tried); the shortlist holds {now} of {full}{}",
+            o.refilled.len(),
+            count(full - kept, "place left open", "places left open"),
+            o.refill_tried,
+            if now >= full {
+                String::new()
+            } else if o.refill_ran_out {
+                ": no further feasible candidate at least the shortlist distance from those kept".to_string()
+            } else {
+                format!(
+                    ": stopped after {} candidates",
+                    o.refill_tried
+                )
+            }
+        );
+        for r in &o.refilled {
+            let amounts: Vec<String> = problem
+                .oxides
+                .iter()
+                .filter(|(ox, ..)| r.mol_pct[ox.index()] > 0.0)
+                .map(|(ox, ..)| format!("{ox} {:.2}", r.mol_pct[ox.index()]))
+                .collect();
+            let _ = write!(
+                t,
+                "\n  refilled from ({} mol% before snapping){}",
+                amounts.join(", "),
+                if r.passed_over > 0 {
+                    format!(
+                        ", after {} whose snapped recipes did not pass",
+                        count(r.passed_over, "candidate", "candidates")
+                    )
+                } else {
+                    String::new()
+                }
+            );
+        }
     }
     t
 }

@@ -416,7 +416,45 @@ pub fn run(
         .collect();
     let (shortlist, snapping) = match problem.snapping {
         Some(_) => {
-            let (kept, outcome) = snap_shortlist(problem, shortlist)?;
+            // The next-ranked candidates, for the places snapping drops:
+            // with the Monte Carlo stage, the recipes it drew that reach
+            // min_probability, in its ranking; else the feasible rows kept,
+            // by the objective.
+            let drawn: Option<Vec<Row>> = probability.as_ref().map(|p| {
+                let min_p = problem.uncertainty.and_then(|u| u.min_probability);
+                let mut v: Vec<Row> = p
+                    .drawn
+                    .iter()
+                    .filter(|r| min_p.is_none_or(|m| r.probability_glassy.unwrap_or(0.0) >= m))
+                    .cloned()
+                    .collect();
+                if problem.objective == super::problem::ObjectiveKind::Probability {
+                    v.sort_by(|a, b| {
+                        let pa = a.probability_glassy.unwrap_or(0.0);
+                        let pb = b.probability_glassy.unwrap_or(0.0);
+                        pb.total_cmp(&pa).then_with(|| rank(a, b, |_| 0.0))
+                    });
+                } else {
+                    v.sort_by(|a, b| rank(a, b, objective_key));
+                }
+                v
+            });
+            let d2 = d * d;
+            type Mol = [f64; crate::composition::N_OXIDES];
+            let mut next = |away: &[Mol], except: &[Mol]| -> Option<Row> {
+                match &drawn {
+                    Some(v) => v
+                        .iter()
+                        .find(|r| {
+                            let x = r.composition();
+                            !except.contains(&x)
+                                && away.iter().all(|p| super::simplex::dist2(p, &x) >= d2)
+                        })
+                        .cloned(),
+                    None => pools.best_feasible_away_except(away, d, except).cloned(),
+                }
+            };
+            let (kept, outcome) = snap_shortlist(problem, shortlist, &mut next)?;
             (kept, Some(outcome))
         }
         None => (shortlist, None),

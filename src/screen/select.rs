@@ -242,6 +242,23 @@ impl Pools {
         best_away(&self.by_objective, away, d, |r| r.feasible, objective_key)
     }
 
+    /// As [`Pools::best_feasible_away`], passing over the rows whose
+    /// composition is one of `except` (recipes already tried).
+    pub(crate) fn best_feasible_away_except(
+        &self,
+        away: &[[f64; crate::composition::N_OXIDES]],
+        d: f64,
+        except: &[[f64; crate::composition::N_OXIDES]],
+    ) -> Option<&Row> {
+        best_away(
+            &self.by_objective,
+            away,
+            d,
+            |r| r.feasible && !except.contains(&r.composition()),
+            objective_key,
+        )
+    }
+
     /// The best seed by penalised objective (inside the composition limits)
     /// at least `d` mol% from every composition in `away`.
     pub(crate) fn best_seed_away(

@@ -17,7 +17,11 @@
 //!    and must reach the least probability asked for; with a margin
 //!    objective a recipe the model vouched for must stay vouched;
 //! 4. a recipe none of whose neighbours passes, or whose passing neighbour
-//!    is a recipe already kept, is dropped, with the reason.
+//!    is a recipe already kept, is dropped, with the reason;
+//! 5. the places dropped are refilled from the next-ranked candidates (at
+//!    least the shortlist distance from every recipe already listed), each
+//!    snapped and checked by the same rule, until the shortlist is full or
+//!    the candidates run out.
 //!
 //! No I/O here.
 
@@ -53,8 +57,14 @@ pub struct SnapOutcome {
     pub before: usize,
     /// Those dropped, in shortlist order.
     pub dropped: Vec<SnapDrop>,
-    /// Snapped recipes evaluated.
+    /// Snapped recipes evaluated (refills included).
     pub evaluations: usize,
+    /// Next-ranked candidates that took dropped places, in the order found.
+    pub refilled: Vec<SnapRefill>,
+    /// Next-ranked candidates tried to refill dropped places.
+    pub refill_tried: usize,
+    /// The candidates ran out before the shortlist was full again.
+    pub refill_ran_out: bool,
 }
 
 /// The grid of a resolution: 100 mol% in `n` steps (None: no grid).
@@ -164,9 +174,138 @@ pub fn snapped_neighbours(problem: &ScreenProblem, x: &[f64; N_OXIDES]) -> Vec<[
     points
 }
 
+/// The most next-ranked candidates tried to refill the places snapping
+/// dropped, per place of the shortlist (each is snapped and checked like a
+/// shortlisted recipe, up to [`MAX_NEIGHBOURS`] evaluations each).
+const REFILL_TRIES_PER_PLACE: usize = 8;
+
+/// The next-ranked candidate for a place snapping dropped: given the
+/// compositions to keep the shortlist distance from and those to pass over
+/// (see [`snap_shortlist`]).
+pub type NextCandidate<'a> = dyn FnMut(&[[f64; N_OXIDES]], &[[f64; N_OXIDES]]) -> Option<Row> + 'a;
+
+/// A candidate that took a place snapping dropped.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SnapRefill {
+    /// Its composition before snapping, mol%.
+    pub mol_pct: [f64; N_OXIDES],
+    /// Next-ranked candidates tried before it (and after the last refill)
+    /// whose snapped recipes did not pass.
+    pub passed_over: usize,
+}
+
+/// Why a recipe's snapped neighbours did not give a recipe to keep.
+struct NoSnap {
+    tried: usize,
+    reason: String,
+}
+
+impl NoSnap {
+    fn text(&self) -> String {
+        format!(
+            "{} ({})",
+            if self.tried == 1 {
+                "its snapped recipe does not pass".to_string()
+            } else {
+                format!(
+                    "none of the {} snapped recipes around it passes",
+                    self.tried
+                )
+            },
+            self.reason
+        )
+    }
+}
+
+/// Snap one recipe: the nearest snapped neighbour that passes every check
+/// (see the module's rule), or why none does. `kept`: the recipes kept so
+/// far, with their places (a neighbour that is one of them is passed over).
+fn snap_one(
+    problem: &ScreenProblem,
+    from: &Row,
+    kept: &[(usize, Shortlisted)],
+    evaluations: &mut usize,
+) -> Result<Result<Shortlisted, NoSnap>, Error> {
+    let min_p = problem.uncertainty.and_then(|u| u.min_probability);
+    let x = from.composition();
+    let points = snapped_neighbours(problem, &x);
+    let tried = points.len();
+    let mut nearest_reason: Option<String> = None;
+    for p in points {
+        if let Some((k, _)) = kept.iter().find(|(_, k)| k.row.composition() == p) {
+            nearest_reason
+                .get_or_insert_with(|| format!("snaps onto the recipe of place {}", k + 1));
+            continue;
+        }
+        *evaluations += 1;
+        let pass = if from.refined {
+            Pass::Refinement
+        } else {
+            Pass::SpaceFilling
+        };
+        let candidate =
+            evaluate_candidate_with(problem, from.index, pass, p, Some(SlabQuench::default()));
+        let mut row = Row::new(&candidate, problem);
+        row.evaluations = from.evaluations;
+        if !candidate.feasible() {
+            nearest_reason.get_or_insert_with(|| {
+                let broken: Vec<&str> = candidate
+                    .violations
+                    .iter()
+                    .map(|(l, _)| l.label())
+                    .collect();
+                format!("the nearest snapped recipe breaks: {}", broken.join(", "))
+            });
+            continue;
+        }
+        // A margin objective ranks what the model cannot vouch for last:
+        // a vouched recipe must stay vouched.
+        if uses_margin(problem) && from.vouched == Some(true) && row.vouched != Some(true) {
+            nearest_reason.get_or_insert_with(|| {
+                "the nearest snapped recipe is beyond what the model can vouch for".to_string()
+            });
+            continue;
+        }
+        if problem.uncertainty.is_some() {
+            let comp = Composition::from_mol_percent_array(&p, 1e-6)?;
+            match recipe_propagation(problem, &comp) {
+                Ok(prop) => row = filled(&row, &prop),
+                Err(e) => {
+                    nearest_reason.get_or_insert_with(|| {
+                        format!("the nearest snapped recipe could not be drawn: {e}")
+                    });
+                    continue;
+                }
+            }
+            if let Some(m) = min_p {
+                let got = row.probability_glassy.unwrap_or(0.0);
+                if got < m {
+                    nearest_reason.get_or_insert_with(|| {
+                        format!("the nearest snapped recipe has P(glassy) = {got:.3}, below {m}")
+                    });
+                    continue;
+                }
+            }
+        }
+        return Ok(Ok(Shortlisted { row, candidate }));
+    }
+    Ok(Err(NoSnap {
+        tried,
+        reason: nearest_reason.unwrap_or_else(|| "no recipe tried".into()),
+    }))
+}
+
 /// Snap every shortlisted recipe (see the module's rule) and keep those that
-/// still pass; without `[uncertainty]` the kept recipes are ranked again by
-/// the objective.
+/// still pass; then, when some were dropped, refill their places from the
+/// next-ranked candidates: `next(away, except)` gives the best candidate at
+/// least the shortlist distance from every composition in `away` (the
+/// recipes kept, as snapped) that is none of `except` (the recipes
+/// shortlisted before snapping and the candidates tried), and each is
+/// snapped and checked the same way, until the
+/// shortlist holds `shortlist_size` recipes, the candidates run out, or
+/// [`REFILL_TRIES_PER_PLACE`] per place were tried. Without
+/// `[uncertainty]` the kept recipes are ranked again by the objective; with
+/// it the refills follow the recipes kept, in the order they were found.
 ///
 /// # Errors
 /// A snapped recipe is not a composition (cannot happen for a recipe that
@@ -174,94 +313,54 @@ pub fn snapped_neighbours(problem: &ScreenProblem, x: &[f64; N_OXIDES]) -> Vec<[
 pub fn snap_shortlist(
     problem: &ScreenProblem,
     shortlist: Vec<Shortlisted>,
+    next: &mut NextCandidate<'_>,
 ) -> Result<(Vec<Shortlisted>, SnapOutcome), Error> {
     let before = shortlist.len();
     let mut kept: Vec<(usize, Shortlisted)> = Vec::new();
     let mut dropped = Vec::new();
     let mut evaluations = 0;
-    let min_p = problem.uncertainty.and_then(|u| u.min_probability);
+    let mut except: Vec<[f64; N_OXIDES]> = shortlist.iter().map(|s| s.row.composition()).collect();
     for (place, s) in shortlist.into_iter().enumerate() {
-        let x = s.row.composition();
-        let points = snapped_neighbours(problem, &x);
-        let tried = points.len();
-        let mut nearest_reason: Option<String> = None;
-        let mut found: Option<Shortlisted> = None;
-        for p in points {
-            if let Some((k, _)) = kept.iter().find(|(_, k)| k.row.composition() == p) {
-                nearest_reason
-                    .get_or_insert_with(|| format!("snaps onto the recipe of place {}", k + 1));
-                continue;
-            }
-            evaluations += 1;
-            let pass = if s.row.refined {
-                Pass::Refinement
-            } else {
-                Pass::SpaceFilling
-            };
-            let candidate =
-                evaluate_candidate_with(problem, s.row.index, pass, p, Some(SlabQuench::default()));
-            let mut row = Row::new(&candidate, problem);
-            row.evaluations = s.row.evaluations;
-            if !candidate.feasible() {
-                nearest_reason.get_or_insert_with(|| {
-                    let broken: Vec<&str> = candidate
-                        .violations
-                        .iter()
-                        .map(|(l, _)| l.label())
-                        .collect();
-                    format!("the nearest snapped recipe breaks: {}", broken.join(", "))
-                });
-                continue;
-            }
-            // A margin objective ranks what the model cannot vouch for last:
-            // a vouched recipe must stay vouched.
-            if uses_margin(problem) && s.row.vouched == Some(true) && row.vouched != Some(true) {
-                nearest_reason.get_or_insert_with(|| {
-                    "the nearest snapped recipe is beyond what the model can vouch for".to_string()
-                });
-                continue;
-            }
-            if problem.uncertainty.is_some() {
-                let comp = Composition::from_mol_percent_array(&p, 1e-6)?;
-                match recipe_propagation(problem, &comp) {
-                    Ok(prop) => row = filled(&row, &prop),
-                    Err(e) => {
-                        nearest_reason.get_or_insert_with(|| {
-                            format!("the nearest snapped recipe could not be drawn: {e}")
-                        });
-                        continue;
-                    }
-                }
-                if let Some(m) = min_p {
-                    let got = row.probability_glassy.unwrap_or(0.0);
-                    if got < m {
-                        nearest_reason.get_or_insert_with(|| {
-                            format!(
-                                "the nearest snapped recipe has P(glassy) = {got:.3}, below {m}"
-                            )
-                        });
-                        continue;
-                    }
-                }
-            }
-            found = Some(Shortlisted { row, candidate });
-            break;
-        }
-        match found {
-            Some(f) => kept.push((place, f)),
-            None => dropped.push(SnapDrop {
+        match snap_one(problem, &s.row, &kept, &mut evaluations)? {
+            Ok(f) => kept.push((place, f)),
+            Err(no) => dropped.push(SnapDrop {
                 place: place + 1,
-                mol_pct: x,
-                reason: format!(
-                    "{} ({})",
-                    if tried == 1 {
-                        "its snapped recipe does not pass".to_string()
-                    } else {
-                        format!("none of the {tried} snapped recipes around it passes")
-                    },
-                    nearest_reason.unwrap_or_else(|| "no recipe tried".into())
-                ),
+                mol_pct: s.row.composition(),
+                reason: no.text(),
             }),
+        }
+    }
+    let mut refilled = Vec::new();
+    let mut refill_tried = 0;
+    let mut ran_out = false;
+    if !dropped.is_empty() {
+        let target = problem.shortlist_size.max(before);
+        let max_tries = REFILL_TRIES_PER_PLACE * target;
+        let mut passed_over = 0;
+        let mut away: Vec<[f64; N_OXIDES]> =
+            kept.iter().map(|(_, k)| k.row.composition()).collect();
+        while kept.len() < target {
+            if refill_tried >= max_tries {
+                break;
+            }
+            let Some(r) = next(&away, &except) else {
+                ran_out = true;
+                break;
+            };
+            refill_tried += 1;
+            except.push(r.composition());
+            match snap_one(problem, &r, &kept, &mut evaluations)? {
+                Ok(f) => {
+                    away.push(f.row.composition());
+                    refilled.push(SnapRefill {
+                        mol_pct: r.composition(),
+                        passed_over,
+                    });
+                    passed_over = 0;
+                    kept.push((before + refilled.len() - 1, f));
+                }
+                Err(_) => passed_over += 1,
+            }
         }
     }
     let mut kept: Vec<Shortlisted> = kept.into_iter().map(|(_, s)| s).collect();
@@ -274,6 +373,9 @@ pub fn snap_shortlist(
             before,
             dropped,
             evaluations,
+            refilled,
+            refill_tried,
+            refill_ran_out: ran_out,
         },
     ))
 }
