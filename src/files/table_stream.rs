@@ -321,6 +321,14 @@ impl ResultColumns {
         ResultColumns { columns: keyed }
     }
 
+    /// The name the result of `key` is written under.
+    fn name_of(&self, key: &str) -> Option<&str> {
+        self.columns.iter().find_map(|(name, source)| match source {
+            Source::Field(f) if f.name == key => Some(name.as_str()),
+            _ => None,
+        })
+    }
+
     /// The result columns of a batch, typed, then the `error` column.
     fn build(&self, results: &[Result<Evaluation, String>]) -> Vec<Column> {
         let mut out: Vec<Column> = self
@@ -984,6 +992,9 @@ pub fn stream_table_with<R: RowReader>(
             .is_some_and(|e| e.eq_ignore_ascii_case("csv"));
     let mut legend = WarningLegend::new();
     let mut pending: Vec<(DataFrame, Vec<Option<Vec<String>>>)> = Vec::new();
+    // The name the evaluation's warnings column took (`warnings_model` when
+    // the input has a column of its own called `warnings`).
+    let mut warnings_column = String::from("warnings");
     while let Some((df, places)) = batches.next()? {
         let mut bad = Vec::new();
         let rows = reader.rows(&df, &places, &mut bad)?;
@@ -1035,6 +1046,9 @@ pub fn stream_table_with<R: RowReader>(
                 .collect();
             ResultColumns::new(plan, &names)
         });
+        if let Some(name) = cols.name_of("warnings") {
+            warnings_column = name.to_string();
+        }
         let mut frame = df.clone();
         let mut built = cols.build(&results);
         if extra.text.is_some() || !extra.numbers.is_empty() {
@@ -1069,7 +1083,7 @@ pub fn stream_table_with<R: RowReader>(
             }
             pending.push((frame, warnings));
             if legend.is_fixed() {
-                flush(&mut pending, &mut legend, &mut sink, out)?;
+                flush(&mut pending, &mut legend, &warnings_column, &mut sink, out)?;
             }
         } else {
             write_batch(&mut sink, out, &mut frame)?;
@@ -1084,7 +1098,7 @@ pub fn stream_table_with<R: RowReader>(
     }
     if readable {
         legend.finish();
-        flush(&mut pending, &mut legend, &mut sink, out)?;
+        flush(&mut pending, &mut legend, &warnings_column, &mut sink, out)?;
     }
     match sink {
         Some(s) => s.finish()?,
@@ -1105,7 +1119,9 @@ pub fn stream_table_with<R: RowReader>(
 /// their meaningful digits ([`csv_digits`]).
 fn rounded_column(c: Column) -> Column {
     let name = c.name().to_string();
-    match (csv_digits(&name), c.f64()) {
+    // A result renamed beside the user's own column keeps its digits.
+    let key = name.strip_suffix("_model").unwrap_or(&name);
+    match (csv_digits(key), c.f64()) {
         (Some(d), Ok(v)) => Float64Chunked::from_iter_options(
             name.as_str().into(),
             v.iter().map(|x| x.map(|x| rounded(x, d))),
@@ -1134,12 +1150,13 @@ fn write_batch(
 fn flush(
     pending: &mut Vec<(DataFrame, Vec<Option<Vec<String>>>)>,
     legend: &mut WarningLegend,
+    column: &str,
     sink: &mut Option<Sink>,
     out: &Path,
 ) -> Result<(), TableError> {
     for (mut frame, warnings) in pending.drain(..) {
         let coded = StringChunked::from_iter_options(
-            "warnings".into(),
+            column.into(),
             warnings
                 .iter()
                 .map(|w| w.as_deref().map(|w| legend.code_row(w))),
