@@ -556,14 +556,7 @@ fn a_snapped_probability_screen_keeps_the_least_probability() {
     let d = temp_dir("snap-probability");
     let demo =
         std::fs::read_to_string(root().join("configs/demo-screen-probability.toml")).unwrap();
-    let text = demo
-        .replace("first_pass_points = 2048", "first_pass_points = 256")
-        .replace("refine_from = 6 ", "refine_from = 1 ")
-        .replace(
-            "[shortlist]\n",
-            "[shortlist]\nresolution_mol_pct = 0.5\nmin_amount_mol_pct = 0.2\n",
-        );
-    assert!(text.contains("resolution_mol_pct = 0.5") && text.contains("min_probability = 0.9"));
+    let text = snapped_probability_demo(&demo);
     std::fs::write(d.join("p.toml"), &text).unwrap();
     run_in(&d, &["screen", "p.toml", "--out", "out", "--no-report"])
         .code(0)
@@ -579,6 +572,84 @@ fn a_snapped_probability_screen_keeps_the_least_probability() {
             assert!((v * 2.0 - (v * 2.0).round()).abs() < 1e-9, "{o} = {v}");
         }
     }
+    snapped_shortlist_is_ranked_and_apart(&short, &text);
+}
+
+/// The same with the cost ranking: snapping changes costs, and the snapped
+/// recipes are ranked again by cost.
+#[test]
+fn a_snapped_screen_with_draws_ranked_by_cost_stays_in_cost_order() {
+    let d = temp_dir("snap-probability-cost");
+    let demo =
+        std::fs::read_to_string(root().join("configs/demo-screen-probability.toml")).unwrap();
+    let text = snapped_probability_demo(&demo).replace("kind = \"probability\"", "kind = \"cost\"");
+    assert!(text.contains("kind = \"cost\""));
+    std::fs::write(d.join("c.toml"), &text).unwrap();
+    run_in(&d, &["screen", "c.toml", "--out", "out", "--no-report"]).code(0);
+    let short = parquet_rows(&d.join("out/shortlist.parquet"));
+    assert!(short.height() >= 2, "{}", short.height());
+    snapped_shortlist_is_ranked_and_apart(&short, &text);
+}
+
+/// Ranks follow the objective of the config (cost ascending, or P
+/// descending then cost), and no two recipes lie closer than the config's
+/// min_distance_mol_pct. Source: the config's own ranking rule and distance.
+fn snapped_shortlist_is_ranked_and_apart(short: &polars::prelude::DataFrame, config: &str) {
+    let cost = floats(short, "cost_per_kg");
+    if config.contains("kind = \"probability\"") {
+        let p = floats(short, "probability_glassy");
+        for i in 1..p.len() {
+            assert!(
+                p[i - 1] > p[i] || (p[i - 1] == p[i] && cost[i - 1] <= cost[i]),
+                "rank {i} before rank {}: P {} / {}, cost {} / {}",
+                i + 1,
+                p[i - 1],
+                p[i],
+                cost[i - 1],
+                cost[i]
+            );
+        }
+    } else {
+        assert!(cost.windows(2).all(|w| w[0] <= w[1]), "{cost:?}");
+    }
+    let min: f64 = config
+        .lines()
+        .find_map(|l| l.trim().strip_prefix("min_distance_mol_pct"))
+        .and_then(|r| r.trim_start_matches([' ', '=']).split_whitespace().next())
+        .and_then(|v| v.parse().ok())
+        .expect("the config gives min_distance_mol_pct");
+    let oxides = ["SiO2", "Na2O", "CaO", "MgO", "K2O", "Al2O3", "B2O3"];
+    let cols: Vec<Vec<f64>> = oxides
+        .iter()
+        .map(|o| floats(short, &format!("{o}_mol_pct")))
+        .collect();
+    for i in 0..short.height() {
+        for j in 0..i {
+            let dist = cols
+                .iter()
+                .map(|c| (c[i] - c[j]).powi(2))
+                .sum::<f64>()
+                .sqrt();
+            assert!(
+                dist >= min - 1e-9,
+                "ranks {} and {} lie {dist} mol% apart",
+                j + 1,
+                i + 1
+            );
+        }
+    }
+}
+
+fn snapped_probability_demo(demo: &str) -> String {
+    let text = demo
+        .replace("first_pass_points = 2048", "first_pass_points = 256")
+        .replace("refine_from = 6 ", "refine_from = 1 ")
+        .replace(
+            "[shortlist]\n",
+            "[shortlist]\nresolution_mol_pct = 0.5\nmin_amount_mol_pct = 0.2\n",
+        );
+    assert!(text.contains("resolution_mol_pct = 0.5") && text.contains("min_probability = 0.9"));
+    text
 }
 
 /// A composition table that carries the user's own measurements under the

@@ -27,7 +27,7 @@
 
 use super::candidate::{evaluate_candidate_with, uses_margin, Pass, Row};
 use super::probability::{filled, recipe_propagation};
-use super::problem::ScreenProblem;
+use super::problem::{ObjectiveKind, ScreenProblem};
 use super::run::Shortlisted;
 use super::select::{objective_key, rank};
 use super::simplex::{dist2, Simplex};
@@ -231,10 +231,25 @@ fn snap_one(
     let points = snapped_neighbours(problem, &x);
     let tried = points.len();
     let mut nearest_reason: Option<String> = None;
+    let d2 = problem.min_distance_mol_pct.powi(2);
     for p in points {
         if let Some((k, _)) = kept.iter().find(|(_, k)| k.row.composition() == p) {
             nearest_reason
                 .get_or_insert_with(|| format!("snaps onto the recipe of place {}", k + 1));
+            continue;
+        }
+        // The shortlist distance holds between snapped recipes too.
+        if let Some((k, _)) = kept
+            .iter()
+            .find(|(_, k)| dist2(&k.row.composition(), &p) < d2)
+        {
+            nearest_reason.get_or_insert_with(|| {
+                format!(
+                    "its nearest snapped recipe lies within {} mol% of the recipe of place {}",
+                    problem.min_distance_mol_pct,
+                    k + 1
+                )
+            });
             continue;
         }
         *evaluations += 1;
@@ -303,9 +318,10 @@ fn snap_one(
 /// shortlisted before snapping and the candidates tried), and each is
 /// snapped and checked the same way, until the
 /// shortlist holds `shortlist_size` recipes, the candidates run out, or
-/// [`REFILL_TRIES_PER_PLACE`] per place were tried. Without
-/// `[uncertainty]` the kept recipes are ranked again by the objective; with
-/// it the refills follow the recipes kept, in the order they were found.
+/// [`REFILL_TRIES_PER_PLACE`] per place were tried. The recipes kept are
+/// then ranked again in the stage's order: by the objective, or with
+/// `kind = "probability"` by P(glassy) (ties as `select::rank`). No snapped
+/// recipe lies closer than the shortlist distance to one kept before it.
 ///
 /// # Errors
 /// A snapped recipe is not a composition (cannot happen for a recipe that
@@ -364,7 +380,15 @@ pub fn snap_shortlist(
         }
     }
     let mut kept: Vec<Shortlisted> = kept.into_iter().map(|(_, s)| s).collect();
-    if problem.uncertainty.is_none() {
+    // Snapping moves costs, margins and (drawn again) probabilities: rank
+    // again in the stage's own order.
+    if problem.objective == ObjectiveKind::Probability {
+        let p = |s: &Shortlisted| s.row.probability_glassy.unwrap_or(f64::NEG_INFINITY);
+        kept.sort_by(|a, b| {
+            p(b).total_cmp(&p(a))
+                .then_with(|| rank(&a.row, &b.row, |_| 0.0))
+        });
+    } else {
         kept.sort_by(|a, b| rank(&a.row, &b.row, objective_key));
     }
     Ok((
