@@ -293,6 +293,12 @@ fn snapping_and_batch_keys_are_checked_with_their_line() {
             "glass_kg = 1e-9",
             "[batch] glass_kg must lie in [0.001, 1000]",
         ),
+        // Snapping gives Al2O3 0 or 0.5 mol%: neither lies in [0.05, 0.15].
+        (
+            "Al2O3 = [0.0, 3.0]",
+            "Al2O3 = [0.05, 0.15]",
+            "Al2O3 range [0.05, 0.15] mol% holds no amount snapping can give",
+        ),
     ] {
         let text = snapped_small().replace(from, to);
         assert!(text.contains(to));

@@ -66,6 +66,33 @@ pub const DEFAULT_BATCH_GLASS_KG: f64 = 1.0;
 pub const MAX_BATCH_GLASS_KG: f64 = 1000.0;
 /// The smallest `[batch] glass_kg`: one gram (a sheet for less reads as zeros).
 pub const MIN_BATCH_GLASS_KG: f64 = 0.001;
+/// Whether snapping can give an amount in [lo, hi] mol%: 0 (when lo is 0)
+/// or a grid multiple at least the minimum amount; else what it can give.
+fn snapped_amount_in(snap: Snapping, lo: f64, hi: f64) -> Result<f64, String> {
+    if lo <= 0.0 {
+        return Ok(0.0);
+    }
+    let from = lo.max(snap.min_amount_mol_pct);
+    let r = snap.resolution_mol_pct;
+    let m = if r > 0.0 {
+        // The smallest grid multiple at or above `from` (1e-9: 0.1·3 is
+        // not quite 0.3 in doubles).
+        (from / r - 1e-9).ceil() * r
+    } else {
+        from
+    };
+    if m <= hi + 1e-9 {
+        Ok(m)
+    } else if r > 0.0 {
+        Err(format!(
+            "0, or multiples of {r} mol% from {} mol% up",
+            snap.min_amount_mol_pct
+        ))
+    } else {
+        Err(format!("0, or {} mol% and up", snap.min_amount_mol_pct))
+    }
+}
+
 /// The coarsest `[shortlist] resolution_mol_pct`.
 pub const MAX_RESOLUTION_MOL_PCT: f64 = 10.0;
 /// The finest `[shortlist] resolution_mol_pct`: nobody weighs a thousandth of
@@ -982,6 +1009,37 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         resolution_mol_pct: resolution.unwrap_or(0.0),
         min_amount_mol_pct: min_amount.unwrap_or(0.0),
     });
+    // Snapping can only give a free oxide 0 or a grid multiple from the
+    // minimum amount up: a range holding neither could never be met, and
+    // every snapped recipe would be dropped (the balance oxide, widest
+    // range, takes the rest and is not snapped on its own).
+    if let Some(snap) = snapping {
+        let balance = oxides
+            .iter()
+            .enumerate()
+            .fold((usize::MAX, f64::NEG_INFINITY), |(bi, bw), (i, o)| {
+                if o.2 - o.1 > bw {
+                    (i, o.2 - o.1)
+                } else {
+                    (bi, bw)
+                }
+            })
+            .0;
+        for (i, &(o, lo, hi)) in oxides.iter().enumerate() {
+            if i == balance || lo >= hi {
+                continue;
+            }
+            if let Some(v) = snapped_amount_in(snap, lo, hi).err() {
+                let span = named
+                    .iter()
+                    .find(|(q, _)| *q == o)
+                    .and_then(|(_, k)| raw.oxides.get(*k))
+                    .map(|v| v.span())
+                    .unwrap_or(0..0);
+                push(span, format!("{o} range [{lo}, {hi}] mol% holds no amount snapping can give ({v}); widen the range or change [shortlist] resolution_mol_pct / min_amount_mol_pct"));
+            }
+        }
+    }
     let batch_glass_kg = match &raw.batch {
         None => DEFAULT_BATCH_GLASS_KG,
         Some(b) => {
