@@ -144,22 +144,6 @@ pub fn shape_message(message: &str) -> String {
     out
 }
 
-#[cfg(test)]
-mod shape_tests {
-    use super::shape_message;
-
-    #[test]
-    fn internal_type_names_are_not_shown() {
-        assert_eq!(
-            shape_message("invalid type: integer `1`, expected struct RawEquipment\n"),
-            "invalid type: integer `1`, expected a table (key = value lines or { ... })"
-        );
-        assert_eq!(
-            shape_message("missing field `rate`"),
-            "missing field `rate`"
-        );
-    }
-}
 
 /// Read a text file, naming it in the error.
 ///
@@ -300,5 +284,22 @@ impl<'s, 'a> Collector<'s, 'a> {
 impl fmt::Display for Problem {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         write!(f, "{}: {}", self.line, self.message)
+    }
+}
+
+#[cfg(test)]
+mod shape_tests {
+    use super::shape_message;
+
+    #[test]
+    fn internal_type_names_are_not_shown() {
+        assert_eq!(
+            shape_message("invalid type: integer `1`, expected struct RawEquipment\n"),
+            "invalid type: integer `1`, expected a table (key = value lines or { ... })"
+        );
+        assert_eq!(
+            shape_message("missing field `rate`"),
+            "missing field `rate`"
+        );
     }
 }
