@@ -144,7 +144,6 @@ pub fn shape_message(message: &str) -> String {
     out
 }
 
-
 /// Read a text file, naming it in the error.
 ///
 /// # Errors

@@ -210,6 +210,29 @@ pub const MELT_CARD_COLUMNS: [&str; 15] = [
     "heat_capacity_change_j_per_mol_k",
 ];
 
+/// The result columns an `eval` table writes first, in this order: what
+/// decides whether a recipe makes a glass, then its temperatures.
+const LEADING_RESULTS: [&str; 18] = [
+    "critical_rate_k_per_s",
+    "critical_rate_k_per_min",
+    "limiting_phase",
+    "vouched",
+    "max_glassy_thickness_mm",
+    "nose_temperature_k",
+    "nose_temperature_c",
+    "nose_time_s",
+    "nose_rate_k_per_s",
+    "nose_rate_k_per_min",
+    "primary_phase",
+    "liquidus_k",
+    "liquidus_c",
+    "glass_transition_k",
+    "glass_transition_c",
+    "melting_temperature_k",
+    "melting_temperature_c",
+    "melting_viscosity_pa_s",
+];
+
 /// The name a result column takes in a table with these input columns.
 fn result_name(name: &str, input: &[String], replaces: &[&str]) -> String {
     if input.iter().any(|c| c == name) && !replaces.contains(&name) {
@@ -289,19 +312,24 @@ struct ResultColumns {
 }
 
 impl ResultColumns {
-    /// The columns sorted by their key (as the whole-table path writes
-    /// them). A key that an input column the evaluation read already uses
+    /// The columns in a reading order ([`LEADING_RESULTS`], the per-phase
+    /// columns, the other fields as declared, warnings last). A key that an input column the evaluation read already uses
     /// (a melt card's `liquidus_k`, `turnbull_alpha`) takes that column's
     /// place with the value in force, so no column is written twice; a key
     /// that a passed-through column uses is written as `<key>_model`.
     fn new(plan: &ResultPlan, input: &[String]) -> Self {
-        let mut keyed: Vec<(String, Source)> = EVALUATION_FIELDS
-            .iter()
-            .filter(|f| match f.carried {
+        let fields = || {
+            EVALUATION_FIELDS.iter().filter(|f| match f.carried {
                 Carried::Always => true,
                 Carried::WithModels => plan.with_models,
                 Carried::WhenCalibrated => plan.calibrated,
             })
+        };
+        // The decisive numbers first, then each phase's own, then the rest
+        // in the order the fields are declared, warnings last.
+        let mut keyed: Vec<(String, Source)> = LEADING_RESULTS
+            .iter()
+            .filter_map(|&lead| fields().find(|f| f.name == lead))
             .map(|f| (f.name.to_string(), Source::Field(f)))
             .collect();
         let mut phases = plan.phases.clone();
@@ -312,7 +340,12 @@ impl ResultColumns {
                 keyed.push((f.column(p), Source::Phase(f, p.clone())));
             }
         }
-        keyed.sort_by(|a, b| a.0.cmp(&b.0));
+        keyed.extend(
+            fields()
+                .filter(|f| !LEADING_RESULTS.contains(&f.name) && f.name != "warnings")
+                .chain(fields().filter(|f| f.name == "warnings"))
+                .map(|f| (f.name.to_string(), Source::Field(f))),
+        );
         // Appended with `with_column`, a result named like an input column
         // replaces it where it stands: only the inputs the plan replaces.
         for (name, _) in &mut keyed {
