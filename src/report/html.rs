@@ -171,18 +171,40 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
         problem.equipment.safety_factor.log10()
     );
     if !problem.more_equipment.is_empty() {
+        // The rule that decides: the safety factor, or P(R_c ≤ rate) ≥
+        // min_probability from the screen's draws.
+        let min = problem
+            .uncertainty
+            .and_then(|u| u.min_probability)
+            .filter(|_| problem.probability_decides());
         let each: Vec<String> = problem
             .equipment_options()
-            .filter_map(|q| {
-                q.verdict(e.critical_rate_k_per_s).map(|v| {
-                    format!(
+            .enumerate()
+            .filter_map(|(k, q)| {
+                q.verdict(e.critical_rate_k_per_s).map(|v| match min {
+                    Some(m) => match l.row.probability_glassy_with.get(k).copied().flatten() {
+                        Some(p) => format!(
+                            "{}: {} (P = {p:.3} at {} K/s, min_probability {m}; {:+.2} decades)",
+                            esc(&q.name),
+                            if p >= m { "glassy" } else { "not glassy" },
+                            sig(q.rate.0),
+                            v.margin_decades
+                        ),
+                        None => format!(
+                            "{}: not drawn ({:+.2} decades at {} K/s)",
+                            esc(&q.name),
+                            v.margin_decades,
+                            sig(q.rate.0)
+                        ),
+                    },
+                    None => format!(
                         "{}: {} ({:+.2} decades at {} K/s; the safety factor asks for {:.2})",
                         esc(&q.name),
                         if v.glassy { "glassy" } else { "not glassy" },
                         v.margin_decades,
                         sig(q.rate.0),
                         q.safety_factor.log10()
-                    )
+                    ),
                 })
             })
             .collect();
