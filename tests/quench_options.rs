@@ -249,6 +249,19 @@ fn where_the_probability_decides_every_option_is_judged_by_its_probability() {
         // P is a share of 40 draws (a multiple of 1/40).
         assert!(pm <= p, "{pm} {p}");
         assert!(((pm * 40.0) - (pm * 40.0).round()).abs() < 1e-9, "{pm}");
+        // Source: the one-sided 95 % bound beside P: rule of three 1 − 3/N
+        // at N of N (Hanley & Lippman-Hand 1983, JAMA 249, 1743), else the
+        // lower end of Wilson's score interval (Wilson 1927, JASA 22, 209)
+        // with z = 1.6449 (normal table), written out here.
+        let (n, z) = (40.0f64, 1.644_853_626_951_472_2f64);
+        let want = if p >= 1.0 {
+            1.0 - 3.0 / n
+        } else {
+            (p + z * z / (2.0 * n) - z * (p * (1.0 - p) / n + z * z / (4.0 * n * n)).sqrt())
+                / (1.0 + z * z / n)
+        };
+        let lower = r["probability_glassy_lower95"].as_f64().unwrap();
+        assert!((lower - want).abs() < 1e-12, "{lower} {want}");
         // The margins stay log10(rate / R_c) (docs/science.md, "Limits").
         let m = r["margin_with_thick_mould_decades"].as_f64().unwrap();
         assert!((m - (1.0 / rc).log10()).abs() < 1e-9, "{m}");
@@ -280,6 +293,9 @@ fn where_the_probability_decides_every_option_is_judged_by_its_probability() {
     let html = std::fs::read_to_string(d.join("p/report.html")).unwrap();
     assert!(html.contains("crucible in air: glassy (P = "), "report");
     assert!(!html.contains("crucible in air: not glassy"), "report");
+    // Beside each probability, its one-sided 95 % bound (from
+    // probability_glassy_lower95, read back from the shortlist).
+    assert!(html.contains(" at 95 %"), "report");
     let first = &rows[0];
     let ox = ["SiO2", "Na2O", "CaO", "Al2O3"];
     let cells: Vec<String> = ox

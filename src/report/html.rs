@@ -220,10 +220,19 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
     if let (Some((lo, hi)), Some(p)) = (band, l.row.probability_glassy) {
         let _ = write!(
             h,
-            "<p>From the models' spreads: R_c lies between <b>{} and {} K/s</b> in 90 % of the draws (5–95 %), and the probability of a glass at {} K/s is <b>{p:.3}</b>.{}</p>",
+            "<p>From the models' spreads: R_c lies between <b>{} and {} K/s</b> in 90 % of the draws (5–95 %), and the probability of a glass at {} K/s is <b>{p:.3}</b>{}.{}</p>",
             sig(lo),
             sig(hi),
             sig(problem.equipment.rate.0),
+            // The one-sided 95 % bound beside it (docs/science.md, "What is
+            // reported"): 1 − 3/N where every draw is glassy.
+            match l.row.probability_glassy_lower95 {
+                Some(b) if p >= 1.0 => format!(
+                    " (every draw glassy: at least {b:.3} at 95 %, rule of three)"
+                ),
+                Some(b) => format!(" (at least {b:.3} at 95 %)"),
+                None => String::new(),
+            },
             if l.row.band_vouched == Some(false) {
                 " ⚠ The band reaches below 1e-3 K/s, beyond what the model can vouch for."
             } else {
