@@ -495,9 +495,10 @@ fn a_cheap_recipe_glassy_in_every_draw_is_not_lost_when_the_search_keeps_only_pa
 fn ranked_by_cost_the_cheapest_recipe_that_reaches_the_probability_is_not_lost() {
     // As above, a screen larger than what the search keeps (at most 800
     // rows by cost), now ranked by cost with min_probability 0.9 at 2 K/s:
-    // the cheapest recipes mostly fall below 0.9, more than the pool holds,
-    // so the pool runs out and the stage walks every feasible recipe again
-    // (docs/science.md, "Uncertainty in the screen"). The reference is the
+    // more of the cheapest recipes fall below 0.9 than the pool holds, so
+    // the kept set cannot prove its pick and the stage walks every feasible
+    // recipe again (docs/science.md, "Uncertainty in the screen"); without
+    // that walk it picked a dearer recipe from the kept set. The reference is the
     // full Monte Carlo: every feasible recipe of the screen kept and drawn.
     let d = temp_dir("probability-cost-pool");
     let text = small_probability("cost", 0.9)
