@@ -206,3 +206,131 @@ fn eval_against_reports_every_quench_option() {
     // (half a last digit each: 5e-4 decades plus 2.2e-4 from R_c).
     assert!((m - (1000.0 / rc).log10()).abs() < 8e-4, "{m} {rc}");
 }
+
+/// SMALL's crucible (2 K/s, deciding) beside a thick mould at 1 K/s
+/// (invented rates), ranked by cost with the probability deciding: 40
+/// draws, min_probability 0.5, the nuclei density drawn over six decades.
+fn probability_two() -> String {
+    let options = "[[equipment]]\nname = \"crucible in air\"\ncooling_rate = 2.0\nunit = \"K/s\"\nsafety_factor = 10.0\ndecides = true\n\n\
+[[equipment]]\nname = \"thick mould\"\ncooling_rate = 1.0\nsafety_factor = 10.0\n";
+    assert!(SMALL.contains(ONE));
+    format!(
+        "{}\n[objective]\nkind = \"cost\"\n\n[uncertainty]\ndraws = 40\nmin_probability = 0.5\n\n[kinetics]\nheterogeneous_nuclei_per_m3 = [1e6, 1e12]\n",
+        SMALL.replace(ONE, options)
+    )
+}
+
+#[test]
+fn where_the_probability_decides_every_option_is_judged_by_its_probability() {
+    let d = temp_dir("quench-probability");
+    let rows = shortlist(&d, &probability_two(), "p");
+    assert!(!rows.is_empty());
+    let mut old_rule_would_refuse = 0;
+    for r in &rows {
+        let p = r["probability_glassy"].as_f64().unwrap();
+        let rc = r["critical_rate_k_per_s"].as_f64().unwrap();
+        // The deciding option admitted the recipe: glassy with it, by the
+        // rule that decided (P ≥ min_probability), its probability the
+        // recipe's own.
+        assert_eq!(r["glassy_with_crucible_in_air"], Value::Bool(true), "{r}");
+        assert_eq!(
+            r["probability_glassy_with_crucible_in_air"].as_f64(),
+            Some(p)
+        );
+        assert!(p >= 0.5);
+        if rc > 0.2 {
+            old_rule_would_refuse += 1;
+        }
+        // The other option: glassy exactly when its own P reaches 0.5.
+        let pm = r["probability_glassy_with_thick_mould"].as_f64().unwrap();
+        assert_eq!(r["glassy_with_thick_mould"], Value::Bool(pm >= 0.5), "{r}");
+        // Source: P(R_c ≤ r) is a distribution function, non-decreasing in
+        // r (standard probability): the slower mould never does better; and
+        // P is a share of 40 draws (a multiple of 1/40).
+        assert!(pm <= p, "{pm} {p}");
+        assert!(((pm * 40.0) - (pm * 40.0).round()).abs() < 1e-9, "{pm}");
+        // Source: the one-sided 95 % bound beside P: rule of three 1 − 3/N
+        // at N of N (Hanley & Lippman-Hand 1983, JAMA 249, 1743), else the
+        // lower end of Wilson's score interval (Wilson 1927, JASA 22, 209)
+        // with z = 1.6449 (normal table), written out here.
+        let (n, z) = (40.0f64, 1.644_853_626_951_472_2f64);
+        let want = if p >= 1.0 {
+            1.0 - 3.0 / n
+        } else {
+            (p + z * z / (2.0 * n) - z * (p * (1.0 - p) / n + z * z / (4.0 * n * n)).sqrt())
+                / (1.0 + z * z / n)
+        };
+        let lower = r["probability_glassy_lower95"].as_f64().unwrap();
+        assert!((lower - want).abs() < 1e-12, "{lower} {want}");
+        // The margins stay log10(rate / R_c) (docs/science.md, "Limits").
+        let m = r["margin_with_thick_mould_decades"].as_f64().unwrap();
+        assert!((m - (1.0 / rc).log10()).abs() < 1e-9, "{m}");
+    }
+    // The case the safety-factor verdict got wrong: a shortlisted recipe
+    // with R_c above 2 K/s / 10, which "R_c ≤ rate / safety factor" calls
+    // not glassy with the quench that admitted it.
+    assert!(old_rule_would_refuse > 0, "{rows:?}");
+    // The CSV order: verdict, probability, margin per option.
+    let csv = std::fs::read_to_string(d.join("p/shortlist.csv")).unwrap();
+    let head: Vec<&str> = csv.lines().next().unwrap().split(',').collect();
+    let at = head.iter().position(|c| *c == "margin_decades").unwrap();
+    assert_eq!(
+        &head[at + 1..at + 4],
+        [
+            "glassy_with_crucible_in_air",
+            "probability_glassy_with_crucible_in_air",
+            "margin_with_crucible_in_air_decades",
+        ]
+    );
+    // The summary says which rule the columns follow.
+    let summary = std::fs::read_to_string(d.join("p/summary.txt")).unwrap();
+    assert!(
+        summary.contains("glassy_with_… = P(R_c ≤ that option's rate) ≥ min_probability 0.5"),
+        "{summary}"
+    );
+    // The report and eval --against say the same of the first recipe.
+    run_in(&d, &["report", "p"]).code(0);
+    let html = std::fs::read_to_string(d.join("p/report.html")).unwrap();
+    assert!(html.contains("crucible in air: glassy (P = "), "report");
+    assert!(!html.contains("crucible in air: not glassy"), "report");
+    // Beside each probability, its one-sided 95 % bound (from
+    // probability_glassy_lower95, read back from the shortlist).
+    assert!(html.contains(" at 95 %"), "report");
+    let first = &rows[0];
+    let ox = ["SiO2", "Na2O", "CaO", "Al2O3"];
+    let cells: Vec<String> = ox
+        .iter()
+        .map(|o| first[format!("{o}_mol_pct")].as_f64().unwrap().to_string())
+        .collect();
+    std::fs::write(
+        d.join("mine.csv"),
+        format!("name,{}\nrank one,{}\n", ox.join(","), cells.join(",")),
+    )
+    .unwrap();
+    run_in(
+        &d,
+        &[
+            "eval",
+            "--compositions",
+            "mine.csv",
+            "--against",
+            "p.toml",
+            "--out",
+            "mine-checked.csv",
+        ],
+    )
+    .code(0)
+    .stdout_has("glassy with crucible in air (P = ");
+    let csv = std::fs::read_to_string(d.join("mine-checked.csv")).unwrap();
+    let mut lines = csv.lines();
+    let head: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let row: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let cell = |name: &str| row[head.iter().position(|c| *c == name).unwrap()];
+    assert_eq!(cell("glassy_with_crucible_in_air"), "true");
+    // The same draws: the mould's probability as in the shortlist (0.001).
+    let pm: f64 = cell("probability_glassy_with_thick_mould").parse().unwrap();
+    let want = first["probability_glassy_with_thick_mould"]
+        .as_f64()
+        .unwrap();
+    assert!((pm - want).abs() < 6e-4, "{pm} {want}");
+}

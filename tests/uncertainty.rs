@@ -806,6 +806,7 @@ fn a_melt_card_table_draws_every_row_with_its_own_seed_and_matches_the_closed_fo
     let out = d.join("one.parquet");
     let p = table_column(&out, "probability_glassy");
     let se = table_column(&out, "probability_glassy_se");
+    let lower95 = table_column(&out, "probability_glassy_lower95");
     let p50 = table_column(&out, "critical_rate_p50_k_per_s");
     let note = text_column(&out, "band_note");
     let error = text_column(&out, "error");
@@ -824,6 +825,24 @@ fn a_melt_card_table_draws_every_row_with_its_own_seed_and_matches_the_closed_fo
             "row {row}: {got} vs closed form {exact} (SE {bse})"
         );
         assert!((se[row].unwrap() - (got * (1.0 - got) / n as f64).sqrt()).abs() < 1e-12);
+        // Source: the lower end of Wilson's score interval (Wilson 1927,
+        // JASA 22, 209) with z = Φ⁻¹(0.95) (statrs), written out here; 1 − 3/N
+        // where every draw is glassy (rule of three, Hanley & Lippman-Hand
+        // 1983, JAMA 249, 1743). The CSV keeps 0.001.
+        let (nf, z) = (n as f64, normal.inverse_cdf(0.95));
+        let wilson = if got >= 1.0 {
+            1.0 - 3.0 / nf
+        } else {
+            (got + z * z / (2.0 * nf)
+                - z * (got * (1.0 - got) / nf + z * z / (4.0 * nf * nf)).sqrt())
+                / (1.0 + z * z / nf)
+        };
+        assert!(
+            (lower95[row].unwrap() - wilson).abs() <= 5e-4 + 1e-12,
+            "row {row}: {:?} vs {wilson}",
+            lower95[row]
+        );
+        assert!(lower95[row].unwrap() <= got);
         // Row i is drawn with seed row_seed(seed, i): the library's
         // propagation with that seed gives the same band (to the digits a
         // CSV keeps).
@@ -884,8 +903,9 @@ fn a_melt_card_table_draws_every_row_with_its_own_seed_and_matches_the_closed_fo
         .collect();
     let from = header
         .iter()
-        .position(|c| c == "probability_glassy_se")
+        .position(|c| c == "probability_glassy_lower95")
         .unwrap();
+    assert_eq!(header[from - 1], "probability_glassy_se");
     assert_eq!(
         header[from + 1..from + 4],
         [

@@ -185,14 +185,14 @@ fn frame(
     // A verdict and a margin per quench option, when the config lists several.
     for f in equipment_fields(problem) {
         let cells = checks.iter().map(|c| {
+            let c = c.as_ref().ok();
             f.cell(
-                c.as_ref()
-                    .ok()
-                    .and_then(|c| c.candidate.evaluation.as_ref())
+                c.and_then(|c| c.candidate.evaluation.as_ref())
                     .map(|e| e.critical_rate_k_per_s),
+                c.map_or(&[][..], |c| &c.probability_glassy_with),
             )
         });
-        let col = if f.margin {
+        let col = if f.is_number() {
             let v: Vec<Option<f64>> = cells
                 .map(|c| match c {
                     Cell::Num(v) => v,
@@ -299,14 +299,22 @@ fn summary(
             }
             Err(e) => s.push_str(&format!("{name:<28} {:<6} {e}\n", "error")),
         }
-        if let Some(rc) = c
+        if let Some((rc, probs)) = c
             .as_ref()
             .ok()
-            .and_then(|c| c.candidate.evaluation.as_ref())
-            .map(|e| e.critical_rate_k_per_s)
+            .and_then(|c| {
+                c.candidate
+                    .evaluation
+                    .as_ref()
+                    .map(|e| (e.critical_rate_k_per_s, &c.probability_glassy_with))
+            })
             .filter(|_| !problem.more_equipment.is_empty())
         {
-            s.push_str(&format!("{:<28} {}\n", "", quench_verdicts(problem, rc)));
+            s.push_str(&format!(
+                "{:<28} {}\n",
+                "",
+                quench_verdicts(problem, rc, probs)
+            ));
         }
     }
     let n = checks.len();
@@ -327,18 +335,38 @@ fn summary(
 /// "glassy with roller quench (+3.62 decades, needs 1.00); NOT glassy with
 /// crucible in air (+0.92 decades, needs 1.00)": every quench option's
 /// verdict on one critical rate (the need is log10 of its safety factor).
-fn quench_verdicts(problem: &ScreenProblem, critical_rate: f64) -> String {
+/// Where the probability decides, the verdict is P(R_c ≤ rate) ≥
+/// min_probability from the screen's draws (`probs`, the options in order):
+/// "glassy with mould (P = 0.970, needs 0.9; +0.93 decades)".
+fn quench_verdicts(problem: &ScreenProblem, critical_rate: f64, probs: &[Option<f64>]) -> String {
+    let min = problem
+        .uncertainty
+        .and_then(|u| u.min_probability)
+        .filter(|_| problem.probability_decides());
     let parts: Vec<String> = problem
         .equipment_options()
-        .filter_map(|q| {
-            q.verdict(critical_rate).map(|v| {
-                format!(
+        .enumerate()
+        .filter_map(|(k, q)| {
+            q.verdict(critical_rate).map(|v| match min {
+                Some(m) => match probs.get(k).copied().flatten() {
+                    Some(p) => format!(
+                        "{} with {} (P = {p:.3}, needs {m}; {:+.2} decades)",
+                        if p >= m { "glassy" } else { "NOT glassy" },
+                        q.name,
+                        v.margin_decades
+                    ),
+                    None => format!(
+                        "not drawn for {} ({:+.2} decades)",
+                        q.name, v.margin_decades
+                    ),
+                },
+                None => format!(
                     "{} with {} ({:+.2} decades, needs {:.2})",
                     if v.glassy { "glassy" } else { "NOT glassy" },
                     q.name,
                     v.margin_decades,
                     q.safety_factor.log10()
-                )
+                ),
             })
         })
         .collect();

@@ -180,6 +180,7 @@ fn band_columns(quench: Option<f64>, shares: &[String]) -> ExtraColumns {
     if quench.is_some() {
         numbers.push("probability_glassy".into());
         numbers.push("probability_glassy_se".into());
+        numbers.push("probability_glassy_lower95".into());
     }
     numbers.extend(share_columns(shares));
     ExtraColumns {
@@ -240,6 +241,7 @@ fn band_cells(
             if quench.is_some() {
                 numbers.push(p.probability_glassy);
                 numbers.push(p.probability_glassy_se);
+                numbers.push(p.probability_glassy_lower95);
             }
             numbers.extend(shares.iter().map(|name| {
                 p.variance_shares

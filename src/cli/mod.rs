@@ -861,7 +861,9 @@ pub struct UncertaintyArgs {
     /// --compositions) every row is drawn with its own seed (derived from
     /// --seed and the row's place) and --out gains the columns
     /// critical_rate_p05/p50/p95_k_per_s, log10_critical_rate_sd,
-    /// failed_draws, probability_glassy(_se) with --quench-rate, one
+    /// failed_draws, probability_glassy, probability_glassy_se and
+    /// probability_glassy_lower95 (a one-sided 95 % lower bound: 1 − 3/N when
+    /// every draw is glassy, else Wilson's score bound) with --quench-rate, one
     /// variance_share_<input> per uncertain input (e.g.
     /// variance_share_turnbull_alpha_of_crystal; empty where a row does not
     /// draw it) and band_note; a melt-card table gives its spreads in the columns

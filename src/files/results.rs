@@ -12,7 +12,7 @@ use crate::report::html::{ReportRecipe, ScreenReport};
 use crate::report::plot::{ProbabilityPoint, TradePoint};
 use crate::report::records::{
     csv_digits, equipment_fields, fields, oxide_column, oxide_of_column, oxide_wt_column, rounded,
-    Cell, EQUIPMENT_FIELDS_AFTER,
+    Cell, EquipmentColumn, EQUIPMENT_FIELDS_AFTER,
 };
 use crate::report::text::{batch_csv, batch_text, evaluation_text};
 use crate::screen::{evaluate_candidate_with, Pass, Row, ScreenProblem, Shortlisted};
@@ -145,7 +145,7 @@ pub(crate) fn rows_frame_with(
         .position(|c| c.name().as_str() == EQUIPMENT_FIELDS_AFTER)
         .map_or(cols.len(), |i| i + 1);
     for (k, f) in equipment_fields(problem).into_iter().enumerate() {
-        let col = if f.margin {
+        let col = if f.is_number() {
             let v: Vec<Option<f64>> = rows
                 .iter()
                 .map(|r| match f.get(r) {
@@ -380,10 +380,23 @@ fn number_column(
 
 /// The Monte Carlo columns of shortlist.csv, put back on the re-evaluated
 /// rows (a screen without `[uncertainty]` has none).
-fn restore_probability(dir: &Path, rows: &mut [&mut Row]) -> Result<(), Error> {
+fn restore_probability(
+    dir: &Path,
+    problem: &ScreenProblem,
+    rows: &mut [&mut Row],
+) -> Result<(), Error> {
     let file = SHORTLIST_FULL;
     let df = read_frame(&dir.join(file))?;
     let p = number_column(&df, "probability_glassy", file)?;
+    let p_lower = number_column(&df, "probability_glassy_lower95", file)?;
+    // Each quench option's probability, where the probability decides.
+    let mut per_option = Vec::new();
+    for f in equipment_fields(problem)
+        .into_iter()
+        .filter(|f| f.kind == EquipmentColumn::Probability)
+    {
+        per_option.push(number_column(&df, &f.name, file)?);
+    }
     let lo = number_column(&df, "critical_rate_p05_k_per_s", file)?;
     let hi = number_column(&df, "critical_rate_p95_k_per_s", file)?;
     let vouched: Option<Vec<Option<bool>>> = df
@@ -394,6 +407,12 @@ fn restore_probability(dir: &Path, rows: &mut [&mut Row]) -> Result<(), Error> {
         let at =
             |c: &Option<Vec<Option<f64>>>| c.as_ref().and_then(|v| v.get(i).copied().flatten());
         r.probability_glassy = at(&p);
+        r.probability_glassy_lower95 = at(&p_lower);
+        r.probability_glassy_with = if per_option.iter().any(Option::is_some) {
+            per_option.iter().map(at).collect()
+        } else {
+            Vec::new()
+        };
         r.critical_rate_p05_k_per_s = at(&lo);
         r.critical_rate_p95_k_per_s = at(&hi);
         r.band_vouched = vouched.as_ref().and_then(|v| v.get(i).copied().flatten());
@@ -596,7 +615,7 @@ pub(crate) fn read_finished_run(dir: &Path) -> Result<(RunPlan, Vec<ReportRecipe
         });
     }
     let mut rows: Vec<&mut Row> = recipes.iter_mut().map(|r| &mut r.row).collect();
-    restore_probability(dir, &mut rows)?;
+    restore_probability(dir, &plan.problem, &mut rows)?;
     let summary = std::fs::read_to_string(dir.join("summary.txt")).unwrap_or_default();
     Ok((plan, recipes, summary))
 }

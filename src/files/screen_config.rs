@@ -946,6 +946,22 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
                     m.span(),
                     format!("[uncertainty] min_probability must be a probability above 0 and at most 1, got {v}"),
                 );
+            } else if v > most_shown(draws) + 1e-12 {
+                // Rule of three (docs/science.md, "What is reported"): N
+                // draws all glassy show P ≥ 1 − 3/N at 95 %, no more.
+                let need = if v < 1.0 {
+                    format!("raise draws to at least {}", ((3.0 / (1.0 - v)) - 1e-9).ceil())
+                } else {
+                    "no number of draws shows a certainty: ask for less than 1".to_string()
+                };
+                push(
+                    m.span(),
+                    format!(
+                        "[uncertainty] min_probability = {v} cannot be shown by {draws} draws: even with every draw glassy, the 95 % bound is 1 − 3/{draws} = {:.4} (rule of three); {need}, or lower min_probability to at most {:.4}",
+                        most_shown(draws),
+                        most_shown(draws)
+                    ),
+                );
             }
             v
         });
@@ -1170,4 +1186,11 @@ fn src_error(src: &Source, problems: Vec<Problem>, hint: &str) -> DataError {
         problems,
         hint: Some(hint.into()),
     }
+}
+
+/// The largest probability `draws` draws can show at 95 %: 1 − 3/draws, the
+/// bound when every draw is glassy (the rule of three; Hanley &
+/// Lippman-Hand 1983, JAMA 249, 1743).
+fn most_shown(draws: usize) -> f64 {
+    1.0 - 3.0 / draws.max(1) as f64
 }

@@ -174,18 +174,40 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
         problem.equipment.safety_factor.log10()
     );
     if !problem.more_equipment.is_empty() {
+        // The rule that decides: the safety factor, or P(R_c ≤ rate) ≥
+        // min_probability from the screen's draws.
+        let min = problem
+            .uncertainty
+            .and_then(|u| u.min_probability)
+            .filter(|_| problem.probability_decides());
         let each: Vec<String> = problem
             .equipment_options()
-            .filter_map(|q| {
-                q.verdict(e.critical_rate_k_per_s).map(|v| {
-                    format!(
+            .enumerate()
+            .filter_map(|(k, q)| {
+                q.verdict(e.critical_rate_k_per_s).map(|v| match min {
+                    Some(m) => match l.row.probability_glassy_with.get(k).copied().flatten() {
+                        Some(p) => format!(
+                            "{}: {} (P = {p:.3} at {} K/s, min_probability {m}; {:+.2} decades)",
+                            esc(&q.name),
+                            if p >= m { "glassy" } else { "not glassy" },
+                            sig(q.rate.0),
+                            v.margin_decades
+                        ),
+                        None => format!(
+                            "{}: not drawn ({:+.2} decades at {} K/s)",
+                            esc(&q.name),
+                            v.margin_decades,
+                            sig(q.rate.0)
+                        ),
+                    },
+                    None => format!(
                         "{}: {} ({:+.2} decades at {} K/s; the safety factor asks for {:.2})",
                         esc(&q.name),
                         if v.glassy { "glassy" } else { "not glassy" },
                         v.margin_decades,
                         sig(q.rate.0),
                         q.safety_factor.log10()
-                    )
+                    ),
                 })
             })
             .collect();
@@ -201,10 +223,19 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
     if let (Some((lo, hi)), Some(p)) = (band, l.row.probability_glassy) {
         let _ = write!(
             h,
-            "<p>From the models' spreads: R_c lies between <b>{} and {} K/s</b> in 90 % of the draws (5–95 %), and the probability of a glass at {} K/s is <b>{p:.3}</b>.{}</p>",
+            "<p>From the models' spreads: R_c lies between <b>{} and {} K/s</b> in 90 % of the draws (5–95 %), and the probability of a glass at {} K/s is <b>{p:.3}</b>{}.{}</p>",
             sig(lo),
             sig(hi),
             sig(problem.equipment.rate.0),
+            // The one-sided 95 % bound beside it (docs/science.md, "What is
+            // reported"): 1 − 3/N where every draw is glassy.
+            match l.row.probability_glassy_lower95 {
+                Some(b) if p >= 1.0 => format!(
+                    " (every draw glassy: at least {b:.3} at 95 %, rule of three)"
+                ),
+                Some(b) => format!(" (at least {b:.3} at 95 %)"),
+                None => String::new(),
+            },
             if l.row.band_vouched == Some(false) {
                 " ⚠ The band reaches below 1e-3 K/s, beyond what the model can vouch for."
             } else {

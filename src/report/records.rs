@@ -110,10 +110,14 @@ pub const NOTE_FIELDS: [Field; 2] = [
 /// `[uncertainty]`), after the decisive numbers in the shortlist and in the
 /// table of the recipes drawn; the candidates table, written before the
 /// draws, does not carry them.
-pub const PROBABILITY_FIELDS: [Field; 5] = [
+pub const PROBABILITY_FIELDS: [Field; 6] = [
     Field {
         name: "probability_glassy",
         get: |r| Cell::Num(r.probability_glassy),
+    },
+    Field {
+        name: "probability_glassy_lower95",
+        get: |r| Cell::Num(r.probability_glassy_lower95),
     },
     Field {
         name: "critical_rate_p05_k_per_s",
@@ -350,31 +354,67 @@ pub fn field(name: &str) -> Option<&'static Field> {
 }
 
 /// A column per quench option, when a screen config lists more than one
-/// `[[equipment]]`: `glassy_with_<name>` (R_c ≤ rate / safety factor) and
-/// `margin_with_<name>_decades` (log10(rate / R_c)). They follow
+/// `[[equipment]]`: `glassy_with_<name>` and `margin_with_<name>_decades`
+/// (log10(rate / R_c)); where the probability decides
+/// (`ScreenProblem::probability_decides`), also
+/// `probability_glassy_with_<name>`, P(R_c ≤ rate) from the screen's draws.
+/// `glassy_with_<name>` follows the rule that decides: R_c ≤ rate / safety
+/// factor, or P(R_c ≤ rate) ≥ min_probability. They follow
 /// `margin_decades`, the deciding option's margin, in every table.
 #[derive(Debug, Clone)]
 pub struct EquipmentField {
     pub name: String,
     pub equipment: Equipment,
-    /// The margin column (else the pass/fail column).
-    pub margin: bool,
+    /// Which column of the option this is.
+    pub kind: EquipmentColumn,
+    /// The option's place in `ScreenProblem::equipment_options` (and in
+    /// `Row::probability_glassy_with`).
+    pub option: usize,
+    /// The least probability asked for, where the probability decides.
+    pub min_probability: Option<f64>,
+}
+
+/// The columns of one quench option.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum EquipmentColumn {
+    /// Glassy with this option, by the rule that decides (a yes/no).
+    Glassy,
+    /// P(R_c ≤ rate) from the draws (only where the probability decides).
+    Probability,
+    /// log10(rate / R_c), decades.
+    Margin,
 }
 
 impl EquipmentField {
-    /// The value of this column for a glass of critical rate `critical_rate`, K/s.
-    pub fn cell(&self, critical_rate: Option<f64>) -> Cell<'static> {
-        let v = critical_rate.and_then(|r| self.equipment.verdict(r));
-        if self.margin {
-            Cell::Num(v.map(|v| v.margin_decades))
-        } else {
-            Cell::Bool(v.map(|v| v.glassy))
+    /// Whether the column holds numbers (else yes/no).
+    pub fn is_number(&self) -> bool {
+        self.kind != EquipmentColumn::Glassy
+    }
+
+    /// The value of this column for a glass of critical rate `critical_rate`
+    /// (K/s) with the probabilities of every option from the draws
+    /// (`Row::probability_glassy_with`; empty when not drawn).
+    pub fn cell(&self, critical_rate: Option<f64>, probabilities: &[Option<f64>]) -> Cell<'static> {
+        let p = probabilities.get(self.option).copied().flatten();
+        match (self.kind, self.min_probability) {
+            (EquipmentColumn::Margin, _) => Cell::Num(
+                critical_rate
+                    .and_then(|r| self.equipment.verdict(r))
+                    .map(|v| v.margin_decades),
+            ),
+            (EquipmentColumn::Probability, _) => Cell::Num(p),
+            (EquipmentColumn::Glassy, Some(m)) => Cell::Bool(p.map(|p| p >= m)),
+            (EquipmentColumn::Glassy, None) => Cell::Bool(
+                critical_rate
+                    .and_then(|r| self.equipment.verdict(r))
+                    .map(|v| v.glassy),
+            ),
         }
     }
 
     /// The value of this column in a screen's row.
     pub fn get(&self, r: &Row) -> Cell<'static> {
-        self.cell(r.critical_rate_k_per_s)
+        self.cell(r.critical_rate_k_per_s, &r.probability_glassy_with)
     }
 }
 
@@ -386,29 +426,51 @@ pub fn equipment_column_name(name: &str) -> String {
 
 /// The per-option columns of a problem: none with a single quench option
 /// (its verdict is `margin_decades` and the cooling-rate limit), else two
-/// per option, the deciding one first.
+/// per option (three where the probability decides), the deciding one first.
 pub fn equipment_fields(problem: &ScreenProblem) -> Vec<EquipmentField> {
     if problem.more_equipment.is_empty() {
         return Vec::new();
     }
+    let min_probability = problem
+        .uncertainty
+        .and_then(|u| u.min_probability)
+        .filter(|_| problem.probability_decides());
     problem
         .equipment_options()
-        .flat_map(|q| {
+        .enumerate()
+        .flat_map(|(option, q)| {
             let n = equipment_column_name(&q.name);
-            [
-                EquipmentField {
-                    name: format!("glassy_with_{n}"),
-                    equipment: q.clone(),
-                    margin: false,
-                },
-                EquipmentField {
-                    name: format!("margin_with_{n}_decades"),
-                    equipment: q.clone(),
-                    margin: true,
-                },
-            ]
+            let field = |name: String, kind| EquipmentField {
+                name,
+                equipment: q.clone(),
+                kind,
+                option,
+                min_probability,
+            };
+            let mut v = vec![field(format!("glassy_with_{n}"), EquipmentColumn::Glassy)];
+            if min_probability.is_some() {
+                v.push(field(
+                    format!("probability_glassy_with_{n}"),
+                    EquipmentColumn::Probability,
+                ));
+            }
+            v.push(field(
+                format!("margin_with_{n}_decades"),
+                EquipmentColumn::Margin,
+            ));
+            v
         })
         .collect()
+}
+
+/// Which rule the `glassy_with_<name>` columns follow, in words.
+pub fn equipment_rule_text(problem: &ScreenProblem) -> String {
+    match problem.uncertainty.and_then(|u| u.min_probability) {
+        Some(m) if problem.probability_decides() => format!(
+            "glassy_with_… = P(R_c ≤ that option's rate) ≥ min_probability {m}, from the screen's draws (probability_glassy_with_… columns)"
+        ),
+        _ => "glassy_with_… = R_c ≤ that option's rate / its safety factor".to_string(),
+    }
 }
 
 /// The column the per-option columns follow.

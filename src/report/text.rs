@@ -500,8 +500,16 @@ pub fn quench_options_text(problem: &ScreenProblem) -> Option<String> {
             )
         })
         .collect();
+    let rule = if problem.probability_decides() {
+        format!(
+            "\n  {}",
+            crate::report::records::equipment_rule_text(problem)
+        )
+    } else {
+        String::new()
+    };
     Some(format!(
-        "quench options: {} decides feasibility and ranking; also reported per recipe (glassy_with_… columns): {}",
+        "quench options: {} decides feasibility and ranking; also reported per recipe (glassy_with_… columns): {}{rule}",
         problem.equipment.name,
         others.join(", ")
     ))
@@ -545,6 +553,18 @@ pub fn probability_stage_text(problem: &ScreenProblem, o: &ProbabilityOutcome) -
             "\n  every feasible recipe the search let go is bounded off the shortlist (P ≤ {b:.3}, by a corner of the draws)"
         )),
         _ => {}
+    }
+    if problem.objective != crate::screen::ObjectiveKind::Probability {
+        if o.walked_every_feasible {
+            t.push_str(&format!(
+                "\n  the recipes the search kept by the objective ran out before the shortlist was full (or could not prove it): every feasible recipe of the screen ({}) was walked again, so the shortlist is the one drawing every feasible recipe gives",
+                o.considered
+            ));
+        } else if o.objective_let_go && o.pool_exact == Some(true) {
+            t.push_str(
+                "\n  every feasible recipe the search let go ranks after the last pick by the objective: the shortlist is the one drawing every feasible recipe gives",
+            );
+        }
     }
     if let Some(f) = o.failures.first() {
         t.push_str(&format!(

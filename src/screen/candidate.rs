@@ -495,6 +495,17 @@ pub struct Row {
     /// every draw is: P = 1 without drawing).
     #[serde(default)]
     pub probability_from: Option<String>,
+    /// A one-sided 95 % lower bound on `probability_glassy`
+    /// (`uncertainty::probability_lower95`: 1 − 3/N where every draw is
+    /// glassy, else Wilson's score bound).
+    #[serde(default)]
+    pub probability_glassy_lower95: Option<f64>,
+    /// P(R_c ≤ rate) of every quench option from the same draws, the
+    /// deciding one first, then as listed (`ScreenProblem::equipment_options`);
+    /// None for an option the draws say nothing of; empty for a recipe not
+    /// drawn.
+    #[serde(default)]
+    pub probability_glassy_with: Vec<Option<f64>>,
 }
 
 fn finite(x: f64) -> Option<f64> {
@@ -534,6 +545,8 @@ impl Row {
             critical_rate_p95_k_per_s: None,
             band_vouched: None,
             probability_from: None,
+            probability_glassy_lower95: None,
+            probability_glassy_with: Vec::new(),
         }
     }
 

@@ -31,6 +31,10 @@ pub struct RecipeCheck {
     /// (evaluated even when its composition is outside the screen's limits).
     pub candidate: Candidate,
     pub checks: Vec<LimitCheck>,
+    /// Where the probability decides, P(R_c ≤ rate) of every quench option
+    /// from the screen's draws, the deciding one first (empty otherwise, or
+    /// when the recipe could not be drawn).
+    pub probability_glassy_with: Vec<Option<f64>>,
 }
 
 impl RecipeCheck {
@@ -135,7 +139,11 @@ pub fn check_recipe(
             unit: "",
             pass: false,
         });
-        return RecipeCheck { candidate, checks };
+        return RecipeCheck {
+            candidate,
+            checks,
+            probability_glassy_with: Vec::new(),
+        };
     };
     checks.push(LimitCheck {
         limit: Limit::ModelDomain,
@@ -156,6 +164,7 @@ pub fn check_recipe(
             pass: g.value <= 0.0,
         });
     }
+    let mut probability_glassy_with = Vec::new();
     // Where the probability decides feasibility the cooling-rate gauge is
     // left out (as in the screen): the recipe gets the screen's draws here.
     if let Some(min) = problem.uncertainty.and_then(|u| u.min_probability) {
@@ -165,6 +174,9 @@ pub fn check_recipe(
                 super::probability::recipe_propagation(problem, &c).map_err(|err| err.to_string())
             });
         let probability = p.as_ref().ok().and_then(|p| p.probability_glassy);
+        if let Ok(p) = &p {
+            probability_glassy_with = p.probability_glassy_at.iter().map(|&v| Some(v)).collect();
+        }
         if let Err(err) = &p {
             candidate.error.get_or_insert_with(|| err.clone());
         }
@@ -176,5 +188,9 @@ pub fn check_recipe(
             pass: probability.is_some_and(|v| v >= min),
         });
     }
-    RecipeCheck { candidate, checks }
+    RecipeCheck {
+        candidate,
+        checks,
+        probability_glassy_with,
+    }
 }

@@ -26,7 +26,9 @@ use crate::error::Error;
 use crate::uncertainty::melt::{
     composition_critical_rate, inputs_of, model_set_inputs, Target, Uncertain,
 };
-use crate::uncertainty::{Drawn, Propagation, Settings, UncertaintyError};
+use crate::uncertainty::{
+    probability_lower95, share_glassy, Drawn, Propagation, Settings, UncertaintyError,
+};
 use rayon::prelude::*;
 
 /// A corner's R_c must exceed the equipment rate by this much (decades)
@@ -76,6 +78,15 @@ pub struct ProbabilityOutcome {
     /// the shortlist, so that the shortlist is the one drawing every
     /// feasible recipe of the screen gives (None for other rankings).
     pub pool_exact: Option<bool>,
+    /// Ranked by the objective (not by probability): whether the search let
+    /// go feasible recipes before this stage (its pool holds the best by the
+    /// objective only).
+    pub objective_let_go: bool,
+    /// Ranked by the objective: the pool the search kept could not prove the
+    /// shortlist (fewer than K picks, or the last pick ranks after a recipe
+    /// let go), so the stage walked every feasible recipe of the screen
+    /// again (`screen::run`).
+    pub walked_every_feasible: bool,
 }
 
 /// The screen's draws, made once for a run (docs/science.md, "Uncertainty
@@ -193,7 +204,7 @@ impl ScreenDraws {
         problem: &ScreenProblem,
         comp: &Composition,
     ) -> Result<Propagation, UncertaintyError> {
-        self.drawn.propagate(Some(problem.equipment.rate.0), |v| {
+        let mut p = self.drawn.propagate(Some(problem.equipment.rate.0), |v| {
             composition_critical_rate(
                 &problem.models,
                 comp,
@@ -201,7 +212,13 @@ impl ScreenDraws {
                 &self.unc,
                 v,
             )
-        })
+        })?;
+        // Every quench option from the same draws (the deciding one first).
+        p.probability_glassy_at = problem
+            .equipment_options()
+            .map(|q| share_glassy(&p.log10_rates, p.draws, q.rate.0).0)
+            .collect();
+        Ok(p)
     }
 }
 
@@ -299,6 +316,9 @@ impl Corners {
 }
 
 /// What is known of one recipe.
+// One per recipe considered, most of them drawn: boxing the large variant
+// would only add an allocation per drawn recipe.
+#[allow(clippy::large_enum_variant)]
 #[derive(Debug, Clone)]
 enum Known {
     Unknown,
@@ -325,6 +345,7 @@ pub(crate) fn select(
     draws: &ScreenDraws,
     pool: &[Row],
     let_go: Option<&(f64, Row)>,
+    objective_let_go: Option<&Row>,
 ) -> ProbabilityOutcome {
     let u = draws.uncertainty;
     let monotone = draws.corners.is_some();
@@ -425,32 +446,50 @@ pub(crate) fn select(
         }
         picks
     };
-    let pool_exact = (problem.objective == ObjectiveKind::Probability).then(|| {
-        let Some((u_d, d)) = let_go else {
-            return true;
-        };
-        // Every row let go ranks at or after d: a bound below that of the
-        // last pick (or equal to it and after it in the tie order) keeps it
-        // after the last pick in the full walk; while fewer than K are
-        // picked, below min_probability keeps it off.
-        match picks.last() {
-            Some(&l) if picks.len() >= k => {
-                let tau = match &known[l] {
-                    Known::Drawn(Ok(p)) => probability(p),
-                    _ => 1.0,
-                };
-                *u_d < tau
-                    || (*u_d == tau && rank(d, &rows[l], |_| 0.0) == std::cmp::Ordering::Greater)
+    let pool_exact = if problem.objective != ObjectiveKind::Probability {
+        // Ranked by the objective, the walk takes rows in the objective's
+        // order: it is the walk over every feasible recipe when every row
+        // up to the last pick was kept, that is when the shortlist is full
+        // and the best row let go ranks after its last pick.
+        Some(match objective_let_go {
+            None => true,
+            Some(d) => {
+                picks.len() >= k
+                    && picks.last().is_some_and(|&l| {
+                        rank(d, &rows[l], objective_key) == std::cmp::Ordering::Greater
+                    })
             }
-            _ => u.min_probability.is_some_and(|m| *u_d < m),
-        }
-    });
+        })
+    } else {
+        Some(()).map(|_| {
+            let Some((u_d, d)) = let_go else {
+                return true;
+            };
+            // Every row let go ranks at or after d: a bound below that of the
+            // last pick (or equal to it and after it in the tie order) keeps it
+            // after the last pick in the full walk; while fewer than K are
+            // picked, below min_probability keeps it off.
+            match picks.last() {
+                Some(&l) if picks.len() >= k => {
+                    let tau = match &known[l] {
+                        Known::Drawn(Ok(p)) => probability(p),
+                        _ => 1.0,
+                    };
+                    *u_d < tau
+                        || (*u_d == tau
+                            && rank(d, &rows[l], |_| 0.0) == std::cmp::Ordering::Greater)
+                }
+                _ => u.min_probability.is_some_and(|m| *u_d < m),
+            }
+        })
+    };
     let mut out = ProbabilityOutcome {
         considered: rows.len(),
         corner_evaluations,
         monotone,
         let_go_bound: let_go.map(|(b, _)| *b),
         pool_exact,
+        objective_let_go: objective_let_go.is_some(),
         ..Default::default()
     };
     for (i, r) in rows.iter().enumerate() {
@@ -475,10 +514,7 @@ pub(crate) fn select(
             }
             Known::Certain => {
                 out.certain += 1;
-                let mut r = r.clone();
-                r.probability_glassy = Some(1.0);
-                r.probability_from = Some("corner".into());
-                out.drawn.push(r);
+                out.drawn.push(certain(problem, r, u.draws));
             }
             Known::Unknown => {}
         }
@@ -510,10 +546,28 @@ pub fn recipe_propagation(
         .map_err(|e| Error::bad_input(e.to_string()))
 }
 
+/// A row glassy at the least glass-friendly corner of the draws, so in
+/// every draw: P = 1, reported with its rule-of-three bound 1 − 3/N; a
+/// quench option at least as fast as the deciding one is glassy in every
+/// draw too, a slower one is not known (None).
+fn certain(problem: &ScreenProblem, r: &Row, draws: usize) -> Row {
+    let mut r = r.clone();
+    r.probability_glassy = Some(1.0);
+    r.probability_glassy_lower95 = Some(probability_lower95(draws, draws));
+    r.probability_from = Some("corner".into());
+    r.probability_glassy_with = problem
+        .equipment_options()
+        .map(|q| (q.rate.0 >= problem.equipment.rate.0).then_some(1.0))
+        .collect();
+    r
+}
+
 /// The row with the probability columns of its draws.
 pub(crate) fn filled(r: &Row, p: &Propagation) -> Row {
     let mut r = r.clone();
     r.probability_glassy = p.probability_glassy;
+    r.probability_glassy_lower95 = p.probability_glassy_lower95;
+    r.probability_glassy_with = p.probability_glassy_at.iter().map(|&v| Some(v)).collect();
     r.critical_rate_p05_k_per_s = Some(p.critical_rate_p05_k_per_s);
     r.critical_rate_p95_k_per_s = Some(p.critical_rate_p95_k_per_s);
     // The 5 % end lies on the glassy side of the point estimate: where the

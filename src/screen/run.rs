@@ -14,7 +14,7 @@ use super::first_pass::{chunk_count, space_filling_rows};
 use super::limits::{Limit, LimitSummary};
 use super::polytope::ACTIVE_TOL_MOL_PCT;
 use super::probability::{select as select_by_probability, ProbabilityOutcome, ScreenDraws};
-use super::problem::{ScreenProblem, Search};
+use super::problem::{ObjectiveKind, ScreenProblem, Search};
 use super::refine::refine;
 use super::select::{objective_key, rank, Pools};
 use super::simplex::Simplex;
@@ -284,6 +284,9 @@ pub fn run(
     if !refined.is_empty() {
         observer.rows(&refined)?;
     }
+    // Every refined row, for a Monte Carlo stage that must walk every
+    // feasible recipe again (below).
+    let mut refined_rows: Vec<Row> = refined.clone();
     add(&mut pools, refined);
     // The shortlist, one recipe at a time (docs/science.md, "The screen"):
     // the best feasible recipe; then, for each further place, a refinement
@@ -325,6 +328,7 @@ pub fn run(
                 }
             };
             observer.rows(std::slice::from_ref(&row))?;
+            refined_rows.push(row.clone());
             add(&mut pools, vec![row]);
         }
         match pools.best_feasible_away(&away, d) {
@@ -339,7 +343,39 @@ pub fn run(
     let probability = match &draws {
         Some(draws) => {
             let (pool, let_go) = pools.probability_pool();
-            let out = select_by_probability(problem, draws, &pool, let_go.as_ref());
+            let objective_let_go = pools.objective_let_go().cloned();
+            let mut out = select_by_probability(
+                problem,
+                draws,
+                &pool,
+                let_go.as_ref(),
+                objective_let_go.as_ref(),
+            );
+            if out.pool_exact == Some(false) && problem.objective != ObjectiveKind::Probability {
+                // Ranked by the objective, the pool ran out (or could not
+                // prove the shortlist): walk every feasible recipe of the
+                // screen again, read back from the store (or evaluated
+                // again, the same numbers), so that the shortlist is the
+                // one drawing every feasible recipe gives (docs/science.md,
+                // "Uncertainty in the screen").
+                let mut all: Vec<Row> = Vec::new();
+                for k in 0..chunks {
+                    let kept = store.load_chunk(k);
+                    forward_notices(store, observer);
+                    let rows = match kept? {
+                        Some(rows) => rows,
+                        None => chunk_rows(problem, search, &simplex, k),
+                    };
+                    all.extend(rows.into_iter().filter(|r| r.feasible));
+                }
+                all.extend(refined_rows.iter().filter(|r| r.feasible).cloned());
+                for r in &mut all {
+                    r.warnings = String::new();
+                }
+                out = select_by_probability(problem, draws, &all, None, None);
+                out.objective_let_go = true;
+                out.walked_every_feasible = true;
+            }
             summary.reject_feasible(Limit::Probability, out.below_min);
             picks = out.picks.clone();
             Some(Box::new(out))
@@ -376,6 +412,8 @@ pub fn run(
             row.critical_rate_p05_k_per_s = r.critical_rate_p05_k_per_s;
             row.critical_rate_p95_k_per_s = r.critical_rate_p95_k_per_s;
             row.probability_from = r.probability_from.clone();
+            row.probability_glassy_lower95 = r.probability_glassy_lower95;
+            row.probability_glassy_with = r.probability_glassy_with.clone();
             // Re-evaluated with the glassy slab, the point estimate knows
             // whether the model vouches for it; the band's 5 % end lies on
             // its glassy side (super::probability::filled).

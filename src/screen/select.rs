@@ -92,8 +92,11 @@ pub(crate) struct Pools {
     /// The best-ranked row `by_bound` let go, with its bound: every row
     /// let go ranks at or after it.
     first_dropped: Option<(f64, Row)>,
-    /// `by_bound` keeps every row (the full Monte Carlo).
+    /// `by_bound` and `by_objective` keep every row (the full Monte Carlo).
     keep_all: bool,
+    /// The best-ranked feasible row `by_objective` let go (by the
+    /// objective): every row let go ranks at or after it.
+    objective_dropped: Option<Row>,
     tally: LimitSummary,
 }
 
@@ -121,6 +124,7 @@ impl Pools {
             keep_all: problem
                 .uncertainty
                 .is_some_and(|u| u.preselection == super::probability::Preselection::Full),
+            objective_dropped: None,
             tally: Default::default(),
         }
     }
@@ -185,9 +189,28 @@ impl Pools {
         // Warnings are restored when the selected rows are evaluated again.
         r.warnings = String::new();
         if r.feasible {
-            push_bounded(&mut self.by_objective, r.clone(), self.keep, objective_key);
+            let keep = if self.keep_all {
+                usize::MAX / 4
+            } else {
+                self.keep
+            };
+            if let Some(d) = push_bounded(&mut self.by_objective, r.clone(), keep, objective_key) {
+                let better = self
+                    .objective_dropped
+                    .as_ref()
+                    .is_none_or(|f| rank(&d, f, objective_key) == Ordering::Less);
+                if better {
+                    self.objective_dropped = Some(d);
+                }
+            }
         }
         push_bounded(&mut self.by_penalty, r, self.keep, penalised_key);
+    }
+
+    /// The best-ranked feasible row the objective pool let go (None: it
+    /// kept every feasible row).
+    pub(crate) fn objective_let_go(&self) -> Option<&Row> {
+        self.objective_dropped.as_ref()
     }
 
     /// The compositions refinement may start from, in the order it takes
@@ -286,13 +309,17 @@ impl Pools {
     }
 }
 
-/// Keep the `keep` best rows by key, in [`rank`] order.
-fn push_bounded(v: &mut Vec<Row>, r: Row, keep: usize, key: impl Fn(&Row) -> f64) {
+/// Keep the `keep` best rows by key, in [`rank`] order; returns the best
+/// row let go.
+fn push_bounded(v: &mut Vec<Row>, r: Row, keep: usize, key: impl Fn(&Row) -> f64) -> Option<Row> {
     v.push(r);
     if v.len() > 2 * keep {
         v.sort_by(|a, b| rank(a, b, &key));
+        let first = v.get(keep).cloned();
         v.truncate(keep);
+        return first;
     }
+    None
 }
 
 /// Keep the `keep` best rows by [`rank_by_bound`]; returns the best one let go.

@@ -161,6 +161,10 @@ pub struct Propagation {
     /// Latin hypercube up to n/(n − 1)).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub probability_glassy_se: Option<f64>,
+    /// A one-sided 95 % lower bound on it ([`probability_lower95`]): the
+    /// rule of three where every draw is glassy, else Wilson's score bound.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub probability_glassy_lower95: Option<f64>,
     pub variance_shares: Vec<VarianceShare>,
     /// Whether the 5 % quantile of R_c lies within what the model can vouch
     /// for (at least `assess::VOUCH_CRITICAL_RATE_K_PER_S`), as the point
@@ -171,6 +175,56 @@ pub struct Propagation {
     /// log10 R_c of every successful draw, in draw order (not written).
     #[serde(skip)]
     pub log10_rates: Vec<f64>,
+    /// P(R_c ≤ rate) at further rates a caller asks for from the same
+    /// draws (a screen's quench options; not written).
+    #[serde(skip)]
+    pub probability_glassy_at: Vec<f64>,
+}
+
+/// The one-sided standard normal quantile of a 95 % bound, Φ⁻¹(0.95).
+// Source: statrs Normal::inverse_cdf(0.95) = 1.6448536269514722 (also any
+// normal table: 1.645).
+pub const Z_ONE_SIDED_95: f64 = 1.644_853_626_951_472_2;
+
+/// A one-sided 95 % lower bound on a probability of which `glassy` of `n`
+/// draws are glassy (docs/science.md, "What is reported"): 0 where none is;
+/// where every draw is, the rule of three, 1 − 3/n (Hanley &
+/// Lippman-Hand 1983, JAMA 249, 1743), the bound README and the text report
+/// give; otherwise the lower end of Wilson's score interval with z = Φ⁻¹(0.95)
+/// (Wilson 1927, JASA 22, 209):
+/// (p̂ + z²/2n − z √(p̂(1 − p̂)/n + z²/4n²)) / (1 + z²/n).
+/// Never above p̂. 0 draws give 0.
+pub fn probability_lower95(glassy: usize, n: usize) -> f64 {
+    if n == 0 || glassy == 0 {
+        return 0.0;
+    }
+    let nf = n as f64;
+    if glassy >= n {
+        return (1.0 - 3.0 / nf).max(0.0);
+    }
+    wilson_lower(glassy, n, Z_ONE_SIDED_95)
+}
+
+/// The lower end of Wilson's score interval for `k` successes in `n`
+/// trials at normal quantile `z`, clamped to [0, k/n].
+pub fn wilson_lower(k: usize, n: usize, z: f64) -> f64 {
+    if n == 0 {
+        return 0.0;
+    }
+    let nf = n as f64;
+    let p = k.min(n) as f64 / nf;
+    let z2 = z * z;
+    let centre = p + z2 / (2.0 * nf);
+    let half = z * (p * (1.0 - p) / nf + z2 / (4.0 * nf * nf)).sqrt();
+    ((centre - half) / (1.0 + z2 / nf)).clamp(0.0, p)
+}
+
+/// P(R_c ≤ rate) from log10 R_c of the successful draws out of `n` (a
+/// failed draw counts as not glassy), and the number of glassy draws.
+pub fn share_glassy(log10_rates: &[f64], n: usize, rate_k_per_s: f64) -> (f64, usize) {
+    let lr = rate_k_per_s.log10();
+    let k = log10_rates.iter().filter(|&&v| v <= lr).count();
+    (k as f64 / n.max(1) as f64, k)
 }
 
 impl Propagation {
@@ -453,16 +507,19 @@ impl Drawn {
         let mut data = Data::new(y.clone());
         let q = |data: &mut Data<Vec<f64>>, p: f64| 10f64.powf(data.quantile(p));
         let (p05, p50, p95) = (q(&mut data, 0.05), q(&mut data, 0.50), q(&mut data, 0.95));
-        let (probability, se) = match quench_rate_k_per_s {
+        let (probability, se, lower95) = match quench_rate_k_per_s {
             Some(r) => {
                 // Over every draw: a failed draw counts as not glassy (the
                 // cautious side; at most MAX_FAILED_SHARE of them).
-                let lr = r.log10();
                 let all = n as f64;
-                let p = y.iter().filter(|&&v| v <= lr).count() as f64 / all;
-                (Some(p), Some((p * (1.0 - p) / all).sqrt()))
+                let (p, k) = share_glassy(&y, n, r);
+                (
+                    Some(p),
+                    Some((p * (1.0 - p) / all).sqrt()),
+                    Some(probability_lower95(k, n)),
+                )
             }
-            None => (None, None),
+            None => (None, None, None),
         };
         let variance_shares = self
             .names
@@ -489,10 +546,12 @@ impl Drawn {
             quench_rate_k_per_s,
             probability_glassy: probability,
             probability_glassy_se: se,
+            probability_glassy_lower95: lower95,
             variance_shares,
             critical_rate_p05_vouched: p05 >= VOUCH_CRITICAL_RATE_K_PER_S,
             critical_rate_p95_vouched: p95 >= VOUCH_CRITICAL_RATE_K_PER_S,
             log10_rates: y,
+            probability_glassy_at: Vec::new(),
         })
     }
 }
@@ -584,6 +643,42 @@ pub fn first_order_share(coords: &[&Vec<f64>], y: &[f64]) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn the_lower_bound_is_wilsons_score_bound_and_the_rule_of_three_at_the_edge() {
+        // Source: Newcombe 1998 (Statistics in Medicine 17, 857), Table I,
+        // Wilson score 95 % intervals (z = 1.96): 81/263 → 0.2553–0.3662,
+        // 15/148 → 0.0624–0.1605 (from memory; four decimals).
+        let z = statrs::distribution::ContinuousCDF::inverse_cdf(
+            &statrs::distribution::Normal::standard(),
+            0.975,
+        );
+        assert!((wilson_lower(81, 263, z) - 0.2553).abs() < 6e-5);
+        assert!((wilson_lower(15, 148, z) - 0.0624).abs() < 6e-5);
+        // Source: Φ⁻¹(0.95) = 1.6449 (any normal table).
+        let z95 = statrs::distribution::ContinuousCDF::inverse_cdf(
+            &statrs::distribution::Normal::standard(),
+            0.95,
+        );
+        assert!((z95 - Z_ONE_SIDED_95).abs() < 1e-12);
+        // Source: rule of three, Hanley & Lippman-Hand 1983 (JAMA 249,
+        // 1743): N of N successes bound P ≥ 1 − 3/N at 95 %, a slightly
+        // cautious stand-in for the exact one-sided Clopper–Pearson bound
+        // 0.05^(1/N) (Clopper & Pearson 1934, Biometrika 26, 404).
+        for n in [20usize, 40, 100, 1000] {
+            let b = probability_lower95(n, n);
+            assert!((b - (1.0 - 3.0 / n as f64)).abs() < 1e-15);
+            assert!(b <= 0.05f64.powf(1.0 / n as f64));
+            // One crystallised draw gives a lower bound still, below it.
+            let one_less = probability_lower95(n - 1, n);
+            assert!(one_less < b && one_less > 0.0, "{n}: {one_less} {b}");
+        }
+        assert_eq!(probability_lower95(0, 100), 0.0);
+        // Never above the share itself.
+        for k in 0..=50 {
+            assert!(probability_lower95(k, 50) <= k as f64 / 50.0);
+        }
+    }
 
     fn normal(name: &str, mean: f64, sd: f64) -> UncertainInput {
         UncertainInput {
