@@ -763,3 +763,52 @@ fn single_glass_outputs_are_refused_for_tables() {
     .code(2)
     .stderr_has("--viscosity-plot draws the point estimate");
 }
+
+/// `eval --melting-viscosity` moves the melting temperature to where the
+/// viscosity model reaches that viscosity.
+#[test]
+fn eval_takes_a_melting_viscosity_of_its_own() {
+    let d = temp_dir("eval-melting-viscosity");
+    let glass = "SiO2=81 B2O3=13 Na2O=4 Al2O3=2";
+    let json = |extra: &[&str]| -> serde_json::Value {
+        let mut args = vec![
+            "eval",
+            "--models",
+            "demo-borosilicate",
+            "--mol",
+            glass,
+            "--json",
+        ];
+        args.extend_from_slice(extra);
+        let r = run_in(&d, &args);
+        r.code(0);
+        serde_json::from_str(&r.stdout).unwrap()
+    };
+    let at10 = json(&[]);
+    let at316 = json(&["--melting-viscosity", "316.2"]);
+    let t10 = at10["melting_temperature_k"].as_f64().unwrap();
+    let t316 = at316["melting_temperature_k"].as_f64().unwrap();
+    assert_eq!(at316["melting_viscosity_pa_s"].as_f64(), Some(316.2));
+    // Source: the set's own viscosity curve solved for T at log10 η =
+    // log10 316.2 (the VFT law inverted, Fulcher 1925), through the library.
+    use quenchwise::composition::{Basis, Composition};
+    use quenchwise::files::model_set::{parse_model_set, BOROSILICATE_MODELS};
+    use quenchwise::files::source::Source;
+    let m = parse_model_set(&Source::new("demo-borosilicate", BOROSILICATE_MODELS)).unwrap();
+    let c = Composition::parse(glass, Basis::MolPercent, 2.0).unwrap();
+    let (curve, _) = m.viscosity.curve(&c).unwrap();
+    for (t, eta) in [(t316, 316.2_f64), (t10, 10.0)] {
+        let expect = curve
+            .temperature_at(quenchwise::units::Log10PaS(eta.log10()))
+            .unwrap()
+            .0;
+        assert!((t - expect).abs() < 0.05, "{t} vs {expect} K at {eta} Pa·s");
+    }
+    assert!(
+        t316 < t10 - 200.0,
+        "{t10} K at 10 Pa·s, {t316} K at 316 Pa·s"
+    );
+    run_in(&d, &["eval", "--mol", glass, "--melting-viscosity", "1e6"])
+        .code(2)
+        .stderr_has("--melting-viscosity must lie between 0.1 and 10000 Pa·s");
+}

@@ -156,6 +156,24 @@ pub fn overrides(a: &KineticArgs) -> KineticOverrides {
     }
 }
 
+/// The model set `eval` uses: `--models` (or the demo set), with
+/// `--viscosity-model` and `--melting-viscosity` applied.
+pub(super) fn eval_models(
+    a: &EvalArgs,
+) -> Result<quenchwise::properties::model_set::ModelSet, Error> {
+    let mut models = load_models(a.models.as_deref(), a.viscosity_model.as_deref())?;
+    if let Some(v) = a.melting_viscosity {
+        let (lo, hi) = quenchwise::files::screen_config::MELTING_VISCOSITY_RANGE_PA_S;
+        if !(v.is_finite() && (lo..=hi).contains(&v)) {
+            return Err(Error::bad_input(format!(
+                "--melting-viscosity must lie between {lo} and {hi} Pa·s, got {v} (10 Pa·s, 100 poise, is the common melting criterion; a data sheet in dPa·s: divide by 10)"
+            )));
+        }
+        models.melting_viscosity_pa_s = v;
+    }
+    Ok(models)
+}
+
 /// The first option given that writes one glass's outputs (the JSON, the
 /// TTT table and the plots), for the paths that cannot write them.
 pub(super) fn single_glass_output(a: &EvalArgs) -> Option<&'static str> {
@@ -211,6 +229,18 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
     if wt_table && a.compositions.is_none() {
         return Err(Error::bad_input("--wt without a value reads --compositions tables as wt%; give a composition or a table"));
     }
+    if a.melting_viscosity.is_some() {
+        if a.melt.is_some() || a.melt_cards.is_some() {
+            return Err(Error::bad_input(
+                "--melting-viscosity applies to compositions evaluated with a model set, not to melt cards",
+            ));
+        }
+        if a.against.is_some() {
+            return Err(Error::bad_input(
+                "--melting-viscosity: with --against the config's [furnace] melting_viscosity_pa_s decides; set it there",
+            ));
+        }
+    }
     if a.melt_cards.is_some() || a.compositions.is_some() {
         if let Some(flag) = single_glass_output(&a) {
             return Err(Error::bad_input(format!(
@@ -257,7 +287,7 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
     }
     if let Some(p) = &a.compositions {
         let out = table_out()?;
-        let models = load_models(a.models.as_deref(), a.viscosity_model.as_deref())?;
+        let models = eval_models(&a)?;
         let basis = if wt_table {
             Basis::WtPercent
         } else {
@@ -308,7 +338,7 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
     } else {
         let wt = a.wt_text.as_deref().filter(|t| !t.is_empty());
         let comp = input::composition(a.mol.as_deref(), wt, a.recipe.as_deref(), a.sum_tolerance)?;
-        let models = load_models(a.models.as_deref(), a.viscosity_model.as_deref())?;
+        let models = eval_models(&a)?;
         let opts = overrides(&a.kinetics).apply(base_options(&models));
         evaluate_composition(&models, &comp, &opts, slab, &cal).with_context(|| {
             format!(

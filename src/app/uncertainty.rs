@@ -7,7 +7,7 @@
 
 use super::eval::evaluate_table_with;
 use super::input;
-use super::models::{base_options, load_models};
+use super::models::base_options;
 use super::Outcome;
 use crate::cli::EvalArgs;
 use quenchwise::assess::{evaluate_composition, evaluate_melt, Calibration, SlabQuench};
@@ -117,7 +117,7 @@ pub fn eval_uncertainty(a: &EvalArgs, draws: usize) -> Result<Outcome, Error> {
     } else {
         let wt = a.wt_text.as_deref().filter(|t| !t.is_empty());
         let comp = input::composition(a.mol.as_deref(), wt, a.recipe.as_deref(), a.sum_tolerance)?;
-        let models = load_models(a.models.as_deref(), a.viscosity_model.as_deref())?;
+        let models = super::eval::eval_models(a)?;
         let opts = cli.apply(base_options(&models));
         let (inputs, notes) = model_set_inputs(&models, &opts, None)?;
         for n in &notes {
@@ -365,7 +365,7 @@ fn eval_uncertainty_table(
     let Some(p) = &a.compositions else {
         return Err(Error::internal("a table without a table input"));
     };
-    let models = load_models(a.models.as_deref(), a.viscosity_model.as_deref())?;
+    let models = super::eval::eval_models(a)?;
     let opts = cli.apply(base_options(&models));
     let (inputs, notes) = model_set_inputs(&models, &opts, None)?;
     for n in &notes {

@@ -776,6 +776,15 @@ pub struct EvalArgs {
     #[arg(long, value_name = "NAME|FILE", help_heading = "Models")]
     pub viscosity_model: Option<PathBuf>,
 
+    /// The viscosity that defines the melting temperature, Pa·s [default: 10].
+    ///
+    /// 10 Pa·s (100 poise) is the common criterion for soda-lime glass; a
+    /// borosilicate is often melted nearer 10^2.5 Pa·s. From 0.1 to 10000
+    /// Pa·s (a data sheet in dPa·s: divide by 10). A screen config sets it
+    /// as [furnace] melting_viscosity_pa_s. Example: --melting-viscosity 316
+    #[arg(long, value_name = "PA_S", help_heading = "Models")]
+    pub melting_viscosity: Option<f64>,
+
     /// How far (percentage points) amounts may sum from 100 [default: 2].
     ///
     /// From 0 to 10. Amounts that sum within it of 100 are normalised (and a
