@@ -560,6 +560,10 @@ struct Batches {
     batch_rows: usize,
     /// The schema every CSV batch is parsed with (None: inferred per batch).
     schema: Option<SchemaRef>,
+    /// The schema is only a guess (the types the first pass found so far):
+    /// a batch parsed with it is kept only when inference would have given
+    /// the same types ([`Batches::agrees_with_inference`]), else inferred.
+    guessed: bool,
     rows: usize,
 }
 
@@ -580,6 +584,7 @@ impl Batches {
             input,
             batch_rows: batch_rows.max(1),
             schema,
+            guessed: false,
             rows: 0,
         })
     }
@@ -588,6 +593,7 @@ impl Batches {
         let first = self.rows;
         let (df, lines) = match &mut self.input {
             Input::Csv(c) => {
+                let header = c.header.len();
                 let Some((text, lines)) = c.next(self.batch_rows, &self.label)? else {
                     return Ok(None);
                 };
@@ -604,7 +610,16 @@ impl Batches {
                 // after the check) is read as it is, so that the row reader
                 // names the bad cell, or the caller sees the changed types.
                 let df = match parse(self.schema.clone(), text.clone()) {
-                    Ok(df) => Ok(df),
+                    Ok(df)
+                        if !self.guessed
+                            || Batches::agrees_with_inference(
+                                &text[header.min(text.len())..],
+                                &df,
+                            ) =>
+                    {
+                        Ok(df)
+                    }
+                    Ok(_) => parse(None, text),
                     Err(_) if self.schema.is_some() => parse(None, text),
                     Err(e) => Err(e),
                 }
@@ -623,6 +638,41 @@ impl Batches {
         self.rows += df.height();
         let places = Places::batch(self.label.clone(), first, lines);
         Ok(Some((df, places)))
+    }
+}
+
+impl Batches {
+    /// Whether a batch parsed with a guessed schema of Float64, Int64 and
+    /// String columns has the types polars' inference would merge into the
+    /// same schema (see [`merge_dtype`]). A text column stays text whatever
+    /// the batch holds. A numeric column parsed without error holds what
+    /// polars' number parser takes, which is what inference takes as a
+    /// number, except: a sign `+` (other than in an exponent), a number
+    /// ending in `.` before its exponent (`1.e5`), spaces or quotes around
+    /// a number, and spellings of NaN and infinity other than `NaN` and
+    /// `inf`, all of which inference reads as text. A batch holding any of
+    /// these (in any column: `data` is the batch's text after its header),
+    /// or any non-finite number, is inferred instead.
+    fn agrees_with_inference(data: &[u8], df: &DataFrame) -> bool {
+        let mut prev = b'\n';
+        for &b in data {
+            let odd = match b {
+                b'"' | b' ' | b'\t' => true,
+                b'+' => !matches!(prev, b'e' | b'E'),
+                b'e' | b'E' => prev == b'.',
+                _ => false,
+            };
+            if odd {
+                return false;
+            }
+            prev = b;
+        }
+        df.columns().iter().all(|c| match c.dtype() {
+            DataType::Float64 => c
+                .f64()
+                .is_ok_and(|ca| ca.iter().flatten().all(f64::is_finite)),
+            _ => true,
+        })
     }
 }
 
@@ -676,6 +726,20 @@ fn merge_dtype(whole: Option<DataType>, batch: &Column) -> Option<DataType> {
     })
 }
 
+/// The schema of the types found so far, when every column has one that a
+/// batch parsed with it can be checked against inference for (text or a
+/// 64-bit number; see [`Batches::agrees_with_inference`]).
+fn guessed_schema(names: &[PlSmallStr], types: &[Option<DataType>]) -> Option<SchemaRef> {
+    let fields = names.iter().zip(types).map(|(n, t)| match t {
+        Some(t @ (DataType::Float64 | DataType::Int64 | DataType::String)) => {
+            Some(Field::new(n.clone(), t.clone()))
+        }
+        _ => None,
+    });
+    let fields: Option<Vec<Field>> = fields.collect();
+    Some(Arc::new(Schema::from_iter(fields?)))
+}
+
 /// What the first pass found.
 struct Checked {
     schema: Option<SchemaRef>,
@@ -712,6 +776,11 @@ fn check_table<R: RowReader>(
             for (t, c) in types.iter_mut().zip(df.columns()) {
                 *t = merge_dtype(t.take(), c);
             }
+            // Inference over every row costs more than the parse: later
+            // batches are parsed with the types found so far, and inferred
+            // only when those may not be what inference would give.
+            batches.schema = guessed_schema(&names, &types);
+            batches.guessed = true;
         }
         if bad.len() >= CELLS_COLLECTED {
             bad.truncate(CELLS_COLLECTED);
