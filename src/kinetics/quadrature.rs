@@ -580,14 +580,14 @@ mod tests {
             let mut every = (600.0, f64::NEG_INFINITY, 0.0);
             for p in &panels {
                 let ts = rule.nodes_on(p.lo, p.hi);
-                for j in 0..NODES {
-                    let ln_u3 = 3.0 * p.ln_u[j];
+                for ((&t, &ln_i), &ln_u) in ts.iter().zip(&p.ln_i).zip(&p.ln_u) {
+                    let ln_u3 = 3.0 * ln_u;
                     if ln_u3 == f64::NEG_INFINITY {
                         continue;
                     }
-                    let v = -solve_quartic_cubic(ln_pi_3 + p.ln_i[j] + ln_u3, ttt.0 + ln_u3, ttt.1);
+                    let v = -solve_quartic_cubic(ln_pi_3 + ln_i + ln_u3, ttt.0 + ln_u3, ttt.1);
                     if v > every.1 {
-                        every = (ts[j], v, 0.5 * (p.hi - p.lo));
+                        every = (t, v, 0.5 * (p.hi - p.lo));
                     }
                 }
             }
