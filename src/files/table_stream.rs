@@ -14,7 +14,9 @@
 //! - **Writing.** Result columns are built typed, straight from each
 //!   [`Evaluation`] through the column definitions of
 //!   [`crate::report::records`], appended to the batch's input columns, and
-//!   written by polars' batched CSV or Parquet writer.
+//!   written by polars' batched CSV or Parquet writer; with more than one
+//!   worker thread, on a thread of its own, so writing batch k overlaps
+//!   reading and evaluating batch k + 1 (one batch waits at most).
 //!
 //! The output goes to `<out>.partial` (e.g. `results.csv.partial`), renamed
 //! to `<out>` only when every batch is written and synced; on any error the
@@ -934,7 +936,8 @@ pub struct BatchDone<'a> {
 pub enum Event<'a> {
     /// The first pass is done: the table has this many rows, every cell fine.
     Checked(usize),
-    /// A batch is evaluated and written.
+    /// A batch is evaluated and handed to the writer (written, or with
+    /// more than one worker thread, queued to be).
     Batch(BatchDone<'a>),
 }
 
@@ -997,7 +1000,140 @@ pub fn stream_table_with<R: RowReader>(
     let pass = check_table(input, out, reader, settings.batch_rows)?;
     on(Event::Checked(pass.rows));
     let mut batches = Batches::open(input, settings.batch_rows, pass.schema)?;
-    let mut sink: Option<Sink> = None;
+    // With more than one worker thread, a thread of its own writes batch k
+    // while batch k + 1 is read and evaluated.
+    let pipelined = rayon::current_num_threads() > 1;
+    std::thread::scope(|scope| {
+        let mut output = Output::new(scope, out, pipelined);
+        let counted = evaluate_batches(
+            &mut batches,
+            input,
+            out,
+            reader,
+            plan,
+            extra,
+            &evaluate,
+            &mut on,
+            &mut output,
+        );
+        let sink = output.close();
+        let (rows_seen, failed) = counted?;
+        match sink? {
+            Some(s) => s.finish()?,
+            None => {
+                return Err(TableError::NoRows {
+                    path: input.display().to_string(),
+                })
+            }
+        }
+        Ok(Streamed {
+            rows: rows_seen,
+            failed,
+        })
+    })
+}
+
+/// Where the assembled batches go: written here, or handed to a writer
+/// thread (one batch waits at most), so writing overlaps evaluating.
+enum Output<'scope> {
+    Here {
+        out: &'scope Path,
+        sink: Option<Sink>,
+    },
+    Thread {
+        out: &'scope Path,
+        to_writer: Option<std::sync::mpsc::SyncSender<DataFrame>>,
+        writer: Option<std::thread::ScopedJoinHandle<'scope, Result<Option<Sink>, TableError>>>,
+    },
+}
+
+/// Write a batch, creating the output (with the batch's schema) first.
+fn write_into(sink: &mut Option<Sink>, out: &Path, mut frame: DataFrame) -> Result<(), TableError> {
+    if sink.is_none() {
+        *sink = Some(Sink::create(out, frame.schema())?);
+    }
+    if let Some(s) = sink.as_mut() {
+        s.write(&mut frame)?;
+    }
+    Ok(())
+}
+
+impl<'scope> Output<'scope> {
+    fn new<'env>(
+        scope: &'scope std::thread::Scope<'scope, 'env>,
+        out: &'env Path,
+        pipelined: bool,
+    ) -> Self {
+        if !pipelined {
+            return Output::Here { out, sink: None };
+        }
+        let (to_writer, batches) = std::sync::mpsc::sync_channel::<DataFrame>(1);
+        let writer = scope.spawn(move || {
+            let mut sink = None;
+            for frame in batches {
+                write_into(&mut sink, out, frame)?;
+            }
+            Ok(sink)
+        });
+        Output::Thread {
+            out,
+            to_writer: Some(to_writer),
+            writer: Some(writer),
+        }
+    }
+
+    fn push(&mut self, frame: DataFrame) -> Result<(), TableError> {
+        match self {
+            Output::Here { out, sink } => write_into(sink, out, frame),
+            Output::Thread { out, to_writer, .. } => {
+                if to_writer.as_ref().is_some_and(|t| t.send(frame).is_ok()) {
+                    return Ok(());
+                }
+                let path = out.display().to_string();
+                // The writer stopped early: its error says why.
+                match self.close() {
+                    Err(e) => Err(e),
+                    Ok(_) => Err(TableError::Write {
+                        path,
+                        message: "the writer stopped before the last batch".into(),
+                    }),
+                }
+            }
+        }
+    }
+
+    /// Every batch written: the output, still to be finished (`None`: no
+    /// batch came). A writer thread's panic goes on to the caller.
+    fn close(&mut self) -> Result<Option<Sink>, TableError> {
+        match self {
+            Output::Here { sink, .. } => Ok(sink.take()),
+            Output::Thread {
+                to_writer, writer, ..
+            } => {
+                drop(to_writer.take());
+                match writer.take() {
+                    Some(w) => w.join().unwrap_or_else(|p| std::panic::resume_unwind(p)),
+                    None => Ok(None),
+                }
+            }
+        }
+    }
+}
+
+/// The second pass of [`stream_table_with`]: every batch read, evaluated and
+/// handed to `output`; the rows seen and how many failed.
+#[allow(clippy::too_many_arguments)]
+fn evaluate_batches<R: RowReader>(
+    batches: &mut Batches,
+    input: &Path,
+    out: &Path,
+    reader: &R,
+    plan: &ResultPlan,
+    extra: &ExtraColumns,
+    evaluate: &(impl Fn(usize, &R::Row) -> Result<(Evaluation, ExtraCells), String> + Sync),
+    on: &mut impl FnMut(Event<'_>),
+    output: &mut Output<'_>,
+) -> Result<(usize, usize), TableError> {
     let mut columns: Option<ResultColumns> = None;
     let mut failed = 0;
     let mut rows_seen = 0;
@@ -1071,12 +1207,7 @@ pub fn stream_table_with<R: RowReader>(
                 message: format!("assembling the results: {e}"),
             })?;
         }
-        if sink.is_none() {
-            sink = Some(Sink::create(out, frame.schema())?);
-        }
-        if let Some(s) = sink.as_mut() {
-            s.write(&mut frame)?;
-        }
+        output.push(frame)?;
         on(Event::Batch(BatchDone {
             input: &df,
             first_row: places.first_row(),
@@ -1085,18 +1216,7 @@ pub fn stream_table_with<R: RowReader>(
         }));
         rows_seen += results.len();
     }
-    match sink {
-        Some(s) => s.finish()?,
-        None => {
-            return Err(TableError::NoRows {
-                path: input.display().to_string(),
-            })
-        }
-    }
-    Ok(Streamed {
-        rows: rows_seen,
-        failed,
-    })
+    Ok((rows_seen, failed))
 }
 
 #[cfg(test)]
