@@ -301,3 +301,80 @@ fn a_failure_after_some_batches_are_written_leaves_no_complete_looking_file() {
     assert!(!out.exists());
     assert!(!d.join("o.csv.partial").exists());
 }
+
+#[test]
+fn columns_get_the_types_inference_over_the_whole_file_gives_whatever_the_batch() {
+    // The first pass parses later batches with the types found so far; cells
+    // that polars' number parser takes but its inference reads as text (a
+    // leading '+', "1.e5", spaces, quotes, "nan", "Inf") turn a column to
+    // text only in a late batch here, as do a float after integers (to a
+    // float) and numbers after empty cells. The whole-table path infers over
+    // every row at once: the streamed file must have the same cells.
+    let d = temp_dir("tables-late-types");
+    let demo = std::fs::read_to_string(root().join("demo-datasets/melt-cards.csv")).unwrap();
+    let mut lines = demo.lines();
+    let header = lines.next().unwrap();
+    let first = lines.next().unwrap();
+    let late: [(&str, &str); 10] = [
+        ("plus", "+5"),
+        ("dot_e", "1.e5"),
+        ("space", " 7"),
+        ("quoted", "\"3.5\""),
+        ("nan", "nan"),
+        ("inf", "Inf"),
+        ("nan_as_read", "NaN"),
+        ("int_then_float", "7.5"),
+        ("text", "abc"),
+        ("plus_exponent", "2.5e+3"),
+    ];
+    let mut s = String::from(header);
+    for (name, _) in &late {
+        s.push_str(&format!(",{name}"));
+    }
+    s.push_str(",empty_then_number\n");
+    // Each odd cell in a row of its own, so one does not make another's
+    // batch inferred.
+    let rows = late.len() + 2;
+    for row in 1..=rows {
+        s.push_str(first);
+        for (k, (name, token)) in late.iter().enumerate() {
+            let v = if row == k + 3 {
+                token.to_string()
+            } else if *name == "int_then_float" {
+                row.to_string()
+            } else {
+                format!("{row}.5")
+            };
+            s.push_str(&format!(",{v}"));
+        }
+        s.push_str(if row >= 6 { ",3\n" } else { ",\n" });
+    }
+    let input = d.join("m.csv");
+    std::fs::write(&input, s).unwrap();
+    let t = read_melt_table(&input).unwrap();
+    let results: Vec<_> = t
+        .rows
+        .iter()
+        .map(|r| r.clone().and_then(|v| melt_eval(&v)))
+        .collect();
+    let mut df = append_results(t.frame, &results).unwrap();
+    let whole = d.join("whole.csv");
+    write_frame(&whole, &mut df).unwrap();
+    for batch in [1, 2, 3, 4096] {
+        let out = d.join(format!("streamed-{batch}.csv"));
+        stream_table(
+            &input,
+            &out,
+            &MeltRows,
+            &ResultPlan::melt_cards(),
+            StreamSettings {
+                batch_rows: batch,
+                ..Default::default()
+            },
+            melt_eval,
+            |_| {},
+        )
+        .unwrap();
+        assert_same_rows(&whole, &out);
+    }
+}

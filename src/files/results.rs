@@ -495,35 +495,25 @@ fn read_shortlist(dir: &Path) -> Result<Vec<Vec<(Oxide, f64)>>, Error> {
 
 /// Every candidate (thinned to at most about 4000) against cost and against
 /// melting temperature, and the shortlisted recipes marked.
+///
+/// `candidates.parquet` grows with the screen (10⁸ rows overnight), so it is
+/// read one row group at a time, only the four columns drawn, keeping every
+/// `stride`-th row: memory stays that of a row group.
 fn trade_points(
     dir: &Path,
     short: &[ReportRecipe],
 ) -> Result<(Vec<TradePoint>, Vec<TradePoint>), Error> {
-    let df = read_frame(&dir.join("candidates.parquet"))?;
+    let path = dir.join("candidates.parquet");
     let bad = |e: PolarsError| Error::bad_input(format!("candidates.parquet: {e}"));
-    let get = |n: &str| -> Result<Vec<Option<f64>>, Error> {
-        Ok(df
-            .column(n)
-            .and_then(|c| c.cast(&DataType::Float64))
-            .map_err(bad)?
-            .f64()
-            .map_err(bad)?
-            .iter()
-            .collect())
-    };
-    let rc = get("critical_rate_k_per_s")?;
-    let cost = get("cost_per_kg")?;
-    let tm = get("melting_temperature_k")?;
-    let feasible: Vec<bool> = df
-        .column("feasible")
+    let open = || std::fs::File::open(&path).map_err(|e| Error::io("reading", &path, e));
+    let metadata = ParquetReader::new(open()?)
+        .get_metadata()
         .map_err(bad)?
-        .bool()
-        .map_err(bad)?
-        .iter()
-        .map(|b| b.unwrap_or(false))
-        .collect();
+        .clone();
+    let groups: Vec<usize> = metadata.row_groups.iter().map(|g| g.num_rows()).collect();
+    let height: usize = groups.iter().sum();
     // A fixed stride keeps the file small and the picture reproducible.
-    let stride = (df.height() / 4000).max(1);
+    let stride = (height / 4000).max(1);
     let mut by_cost = Vec::new();
     let mut by_tm = Vec::new();
     let mut add = |rc: Option<f64>, c: Option<f64>, t: Option<f64>, feasible, shortlisted| {
@@ -546,8 +536,46 @@ fn trade_points(
             }
         }
     };
-    for i in (0..df.height()).step_by(stride) {
-        add(rc[i], cost[i], tm[i], feasible[i], false);
+    let columns = [
+        "critical_rate_k_per_s",
+        "cost_per_kg",
+        "melting_temperature_k",
+        "feasible",
+    ];
+    let mut first = 0;
+    for len in groups {
+        let mut reader = ParquetReader::new(open()?)
+            .with_slice(Some((first, len)))
+            .with_columns(Some(columns.iter().map(|c| c.to_string()).collect()));
+        reader.set_metadata(metadata.clone());
+        let df = reader.finish().map_err(bad)?;
+        let get = |n: &str| -> Result<Vec<Option<f64>>, Error> {
+            Ok(df
+                .column(n)
+                .and_then(|c| c.cast(&DataType::Float64))
+                .map_err(bad)?
+                .f64()
+                .map_err(bad)?
+                .iter()
+                .collect())
+        };
+        let rc = get("critical_rate_k_per_s")?;
+        let cost = get("cost_per_kg")?;
+        let tm = get("melting_temperature_k")?;
+        let feasible: Vec<bool> = df
+            .column("feasible")
+            .map_err(bad)?
+            .bool()
+            .map_err(bad)?
+            .iter()
+            .map(|b| b.unwrap_or(false))
+            .collect();
+        // Rows first, first + stride, ... of the file that fall in this group.
+        let skip = (stride - first % stride) % stride;
+        for i in (skip..df.height()).step_by(stride) {
+            add(rc[i], cost[i], tm[i], feasible[i], false);
+        }
+        first += len;
     }
     for s in short {
         let r = &s.row;

@@ -14,7 +14,9 @@
 //! - **Writing.** Result columns are built typed, straight from each
 //!   [`Evaluation`] through the column definitions of
 //!   [`crate::report::records`], appended to the batch's input columns, and
-//!   written by polars' batched CSV or Parquet writer.
+//!   written by polars' batched CSV or Parquet writer; with more than one
+//!   worker thread, on a thread of its own, so writing batch k overlaps
+//!   reading and evaluating batch k + 1 (one batch waits at most).
 //!
 //! The output goes to `<out>.partial` (e.g. `results.csv.partial`), renamed
 //! to `<out>` only when every batch is written and synced; on any error the
@@ -636,6 +638,10 @@ struct Batches {
     batch_rows: usize,
     /// The schema every CSV batch is parsed with (None: inferred per batch).
     schema: Option<SchemaRef>,
+    /// The schema is only a guess (the types the first pass found so far):
+    /// a batch parsed with it is kept only when inference would have given
+    /// the same types ([`Batches::agrees_with_inference`]), else inferred.
+    guessed: bool,
     rows: usize,
 }
 
@@ -656,6 +662,7 @@ impl Batches {
             input,
             batch_rows: batch_rows.max(1),
             schema,
+            guessed: false,
             rows: 0,
         })
     }
@@ -664,6 +671,7 @@ impl Batches {
         let first = self.rows;
         let (df, lines) = match &mut self.input {
             Input::Csv(c) => {
+                let header = c.header.len();
                 let Some((text, lines)) = c.next(self.batch_rows, &self.label)? else {
                     return Ok(None);
                 };
@@ -680,7 +688,16 @@ impl Batches {
                 // after the check) is read as it is, so that the row reader
                 // names the bad cell, or the caller sees the changed types.
                 let df = match parse(self.schema.clone(), text.clone()) {
-                    Ok(df) => Ok(df),
+                    Ok(df)
+                        if !self.guessed
+                            || Batches::agrees_with_inference(
+                                &text[header.min(text.len())..],
+                                &df,
+                            ) =>
+                    {
+                        Ok(df)
+                    }
+                    Ok(_) => parse(None, text),
                     Err(_) if self.schema.is_some() => parse(None, text),
                     Err(e) => Err(e),
                 }
@@ -699,6 +716,41 @@ impl Batches {
         self.rows += df.height();
         let places = Places::batch(self.label.clone(), first, lines);
         Ok(Some((df, places)))
+    }
+}
+
+impl Batches {
+    /// Whether a batch parsed with a guessed schema of Float64, Int64 and
+    /// String columns has the types polars' inference would merge into the
+    /// same schema (see [`merge_dtype`]). A text column stays text whatever
+    /// the batch holds. A numeric column parsed without error holds what
+    /// polars' number parser takes, which is what inference takes as a
+    /// number, except: a sign `+` (other than in an exponent), a number
+    /// ending in `.` before its exponent (`1.e5`), spaces or quotes around
+    /// a number, and spellings of NaN and infinity other than `NaN` and
+    /// `inf`, all of which inference reads as text. A batch holding any of
+    /// these (in any column: `data` is the batch's text after its header),
+    /// or any non-finite number, is inferred instead.
+    fn agrees_with_inference(data: &[u8], df: &DataFrame) -> bool {
+        let mut prev = b'\n';
+        for &b in data {
+            let odd = match b {
+                b'"' | b' ' | b'\t' => true,
+                b'+' => !matches!(prev, b'e' | b'E'),
+                b'e' | b'E' => prev == b'.',
+                _ => false,
+            };
+            if odd {
+                return false;
+            }
+            prev = b;
+        }
+        df.columns().iter().all(|c| match c.dtype() {
+            DataType::Float64 => c
+                .f64()
+                .is_ok_and(|ca| ca.iter().flatten().all(f64::is_finite)),
+            _ => true,
+        })
     }
 }
 
@@ -752,6 +804,20 @@ fn merge_dtype(whole: Option<DataType>, batch: &Column) -> Option<DataType> {
     })
 }
 
+/// The schema of the types found so far, when every column has one that a
+/// batch parsed with it can be checked against inference for (text or a
+/// 64-bit number; see [`Batches::agrees_with_inference`]).
+fn guessed_schema(names: &[PlSmallStr], types: &[Option<DataType>]) -> Option<SchemaRef> {
+    let fields = names.iter().zip(types).map(|(n, t)| match t {
+        Some(t @ (DataType::Float64 | DataType::Int64 | DataType::String)) => {
+            Some(Field::new(n.clone(), t.clone()))
+        }
+        _ => None,
+    });
+    let fields: Option<Vec<Field>> = fields.collect();
+    Some(Arc::new(Schema::from_iter(fields?)))
+}
+
 /// What the first pass found.
 struct Checked {
     schema: Option<SchemaRef>,
@@ -788,6 +854,11 @@ fn check_table<R: RowReader>(
             for (t, c) in types.iter_mut().zip(df.columns()) {
                 *t = merge_dtype(t.take(), c);
             }
+            // Inference over every row costs more than the parse: later
+            // batches are parsed with the types found so far, and inferred
+            // only when those may not be what inference would give.
+            batches.schema = guessed_schema(&names, &types);
+            batches.guessed = true;
         }
         if bad.len() >= CELLS_COLLECTED {
             bad.truncate(CELLS_COLLECTED);
@@ -949,7 +1020,8 @@ pub struct BatchDone<'a> {
 pub enum Event<'a> {
     /// The first pass is done: the table has this many rows, every cell fine.
     Checked(usize),
-    /// A batch is evaluated and written.
+    /// A batch is evaluated and handed to the writer (written, or with
+    /// more than one worker thread, queued to be).
     Batch(BatchDone<'a>),
 }
 
@@ -1015,14 +1087,158 @@ pub fn stream_table_with<R: RowReader>(
     let pass = check_table(input, out, reader, settings.batch_rows)?;
     on(Event::Checked(pass.rows));
     let mut batches = Batches::open(input, settings.batch_rows, pass.schema)?;
-    let mut sink: Option<Sink> = None;
-    let mut columns: Option<ResultColumns> = None;
-    let mut failed = 0;
-    let mut rows_seen = 0;
+    // With more than one worker thread, a thread of its own writes batch k
+    // while batch k + 1 is read and evaluated.
+    let pipelined = rayon::current_num_threads() > 1;
     let readable = settings.readable_csv
         && out
             .extension()
             .is_some_and(|e| e.eq_ignore_ascii_case("csv"));
+    std::thread::scope(|scope| {
+        let mut output = Output::new(scope, out, pipelined);
+        let counted = evaluate_batches(
+            &mut batches,
+            input,
+            out,
+            reader,
+            plan,
+            extra,
+            &evaluate,
+            &mut on,
+            &mut output,
+            readable,
+        );
+        let sink = output.close();
+        let (rows_seen, failed, warning_codes) = counted?;
+        match sink? {
+            Some(s) => s.finish()?,
+            None => {
+                return Err(TableError::NoRows {
+                    path: input.display().to_string(),
+                })
+            }
+        }
+        Ok(Streamed {
+            rows: rows_seen,
+            failed,
+            warning_codes,
+        })
+    })
+}
+
+/// Where the assembled batches go: written here, or handed to a writer
+/// thread (one batch waits at most), so writing overlaps evaluating.
+enum Output<'scope> {
+    Here {
+        out: &'scope Path,
+        sink: Option<Sink>,
+    },
+    Thread {
+        out: &'scope Path,
+        to_writer: Option<std::sync::mpsc::SyncSender<DataFrame>>,
+        writer: Option<std::thread::ScopedJoinHandle<'scope, Result<Option<Sink>, TableError>>>,
+    },
+}
+
+/// Write a batch, creating the output (with the batch's schema) first.
+fn write_into(sink: &mut Option<Sink>, out: &Path, mut frame: DataFrame) -> Result<(), TableError> {
+    if sink.is_none() {
+        *sink = Some(Sink::create(out, frame.schema())?);
+    }
+    if let Some(s) = sink.as_mut() {
+        s.write(&mut frame)?;
+    }
+    Ok(())
+}
+
+impl<'scope> Output<'scope> {
+    fn new<'env>(
+        scope: &'scope std::thread::Scope<'scope, 'env>,
+        out: &'env Path,
+        pipelined: bool,
+    ) -> Self {
+        if !pipelined {
+            return Output::Here { out, sink: None };
+        }
+        let (to_writer, batches) = std::sync::mpsc::sync_channel::<DataFrame>(1);
+        let writer = scope.spawn(move || {
+            let mut sink = None;
+            for frame in batches {
+                write_into(&mut sink, out, frame)?;
+            }
+            Ok(sink)
+        });
+        Output::Thread {
+            out,
+            to_writer: Some(to_writer),
+            writer: Some(writer),
+        }
+    }
+
+    fn push(&mut self, frame: DataFrame) -> Result<(), TableError> {
+        match self {
+            Output::Here { out, sink } => write_into(sink, out, frame),
+            Output::Thread { out, to_writer, .. } => {
+                if to_writer.as_ref().is_some_and(|t| t.send(frame).is_ok()) {
+                    return Ok(());
+                }
+                let path = out.display().to_string();
+                // The writer stopped early: its error says why.
+                match self.close() {
+                    Err(e) => Err(e),
+                    Ok(_) => Err(TableError::Write {
+                        path,
+                        message: "the writer stopped before the last batch".into(),
+                    }),
+                }
+            }
+        }
+    }
+
+    /// The file being written.
+    fn path(&self) -> &Path {
+        match self {
+            Output::Here { out, .. } | Output::Thread { out, .. } => out,
+        }
+    }
+
+    /// Every batch written: the output, still to be finished (`None`: no
+    /// batch came). A writer thread's panic goes on to the caller.
+    fn close(&mut self) -> Result<Option<Sink>, TableError> {
+        match self {
+            Output::Here { sink, .. } => Ok(sink.take()),
+            Output::Thread {
+                to_writer, writer, ..
+            } => {
+                drop(to_writer.take());
+                match writer.take() {
+                    Some(w) => w.join().unwrap_or_else(|p| std::panic::resume_unwind(p)),
+                    None => Ok(None),
+                }
+            }
+        }
+    }
+}
+
+/// The second pass of [`stream_table_with`]: every batch read, evaluated and
+/// handed to `output` (with `readable`, warnings coded once the legend is
+/// fixed); the rows seen, how many failed, and the legend.
+#[allow(clippy::too_many_arguments)]
+fn evaluate_batches<R: RowReader>(
+    batches: &mut Batches,
+    input: &Path,
+    out: &Path,
+    reader: &R,
+    plan: &ResultPlan,
+    extra: &ExtraColumns,
+    evaluate: &(impl Fn(usize, &R::Row) -> Result<(Evaluation, ExtraCells), String> + Sync),
+    on: &mut impl FnMut(Event<'_>),
+    output: &mut Output<'_>,
+    readable: bool,
+) -> Result<(usize, usize, Vec<WarningCode>), TableError> {
+    let mut columns: Option<ResultColumns> = None;
+    let mut failed = 0;
+    let mut rows_seen = 0;
     let mut legend = WarningLegend::new();
     let mut pending: Vec<(DataFrame, Vec<Option<Vec<String>>>)> = Vec::new();
     // The name the evaluation's warnings column took (`warnings_model` when
@@ -1116,10 +1332,10 @@ pub fn stream_table_with<R: RowReader>(
             }
             pending.push((frame, warnings));
             if legend.is_fixed() {
-                flush(&mut pending, &mut legend, &warnings_column, &mut sink, out)?;
+                flush(&mut pending, &mut legend, &warnings_column, output)?;
             }
         } else {
-            write_batch(&mut sink, out, &mut frame)?;
+            output.push(frame)?;
         }
         on(Event::Batch(BatchDone {
             input: &df,
@@ -1129,23 +1345,14 @@ pub fn stream_table_with<R: RowReader>(
         }));
         rows_seen += results.len();
     }
-    if readable {
+    let codes = if readable {
         legend.finish();
-        flush(&mut pending, &mut legend, &warnings_column, &mut sink, out)?;
-    }
-    match sink {
-        Some(s) => s.finish()?,
-        None => {
-            return Err(TableError::NoRows {
-                path: input.display().to_string(),
-            })
-        }
-    }
-    Ok(Streamed {
-        rows: rows_seen,
-        failed,
-        warning_codes: if readable { legend.codes() } else { Vec::new() },
-    })
+        flush(&mut pending, &mut legend, &warnings_column, output)?;
+        legend.codes()
+    } else {
+        Vec::new()
+    };
+    Ok((rows_seen, failed, codes))
 }
 
 /// A result column as a readable CSV file shows it: numbers rounded to
@@ -1164,28 +1371,12 @@ fn rounded_column(c: Column) -> Column {
     }
 }
 
-/// Write a batch, opening the file with its schema at the first.
-fn write_batch(
-    sink: &mut Option<Sink>,
-    out: &Path,
-    frame: &mut DataFrame,
-) -> Result<(), TableError> {
-    if sink.is_none() {
-        *sink = Some(Sink::create(out, frame.schema())?);
-    }
-    match sink.as_mut() {
-        Some(s) => s.write(frame),
-        None => Ok(()),
-    }
-}
-
 /// Write the batches that waited for the legend, their warnings coded.
 fn flush(
     pending: &mut Vec<(DataFrame, Vec<Option<Vec<String>>>)>,
     legend: &mut WarningLegend,
     column: &str,
-    sink: &mut Option<Sink>,
-    out: &Path,
+    output: &mut Output<'_>,
 ) -> Result<(), TableError> {
     for (mut frame, warnings) in pending.drain(..) {
         let coded = StringChunked::from_iter_options(
@@ -1196,10 +1387,10 @@ fn flush(
         )
         .into_column();
         frame.with_column(coded).map_err(|e| TableError::Write {
-            path: out.display().to_string(),
+            path: output.path().display().to_string(),
             message: format!("assembling the results: {e}"),
         })?;
-        write_batch(sink, out, &mut frame)?;
+        output.push(frame)?;
     }
     Ok(())
 }

@@ -239,9 +239,10 @@ impl Kinetics {
     /// ln I and ln U summed over the phases (the nucleation rate of any crystal,
     /// and the fastest growth), at T.
     pub fn rates(&self, t: Kelvin) -> Rates {
+        let mut mobility = None;
         self.phases
             .iter()
-            .map(|(_, p)| self.rates_of(p, t.0))
+            .map(|(_, p)| self.rates_sharing(p, t.0, &mut mobility))
             .fold(Rates::NONE, |acc, r| Rates {
                 ln_nucleation: log_add(acc.ln_nucleation, r.ln_nucleation),
                 ln_growth: acc.ln_growth.max(r.ln_growth),
@@ -250,6 +251,19 @@ impl Kinetics {
 
     #[inline]
     pub(super) fn rates_of(&self, p: &PhaseRates, t: f64) -> Rates {
+        self.rates_sharing(p, t, &mut None)
+    }
+
+    /// As [`Kinetics::rates_of`], with ln(T/η) at T kept in `mobility` once
+    /// some phase has computed it, for the other phases at the same T (the
+    /// same number: it does not depend on the phase).
+    #[inline]
+    pub(super) fn rates_sharing(
+        &self,
+        p: &PhaseRates,
+        t: f64,
+        mobility: &mut Option<f64>,
+    ) -> Rates {
         if t >= p.tl {
             return Rates::NONE;
         }
@@ -257,7 +271,7 @@ impl Kinetics {
         if dg.is_nan() || dg <= 0.0 {
             return Rates::NONE;
         }
-        let ln_d = p.ln_d_pref + self.ln_mobility(t);
+        let ln_d = p.ln_d_pref + *mobility.get_or_insert_with(|| self.ln_mobility(t));
         let barrier = 1.0 / (dg * dg * t);
         let mut ln_nucleation = p.ln_i_pref + ln_d - p.kw * barrier;
         if let Some(kw_wall) = p.kw_wall {

@@ -136,8 +136,9 @@ impl Kinetics {
     fn isothermal_coefficients(&self, t: f64) -> (f64, f64) {
         let mut ln_a = f64::NEG_INFINITY;
         let mut ln_b = f64::NEG_INFINITY;
+        let mut mobility = None;
         for (_, p) in &self.phases {
-            let r = self.rates_of(p, t);
+            let r = self.rates_sharing(p, t, &mut mobility);
             if r.ln_growth == f64::NEG_INFINITY {
                 continue;
             }

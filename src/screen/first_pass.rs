@@ -17,7 +17,7 @@ use super::polytope::Polytope;
 use super::problem::{ScreenProblem, Search};
 use super::simplex::Simplex;
 use sobol::params::JoeKuoD6;
-use sobol::Sobol;
+use sobol::{Sobol, SobolType};
 
 /// SplitMix64 (Steele, Lea & Flood 2014): a seed → well-mixed 64-bit numbers.
 fn splitmix64(mut z: u64) -> u64 {
@@ -30,15 +30,50 @@ fn splitmix64(mut z: u64) -> u64 {
 /// The unit-cube points of one chunk of the space-filling pass: a Sobol sequence
 /// randomised by the seed with a Cranley–Patterson rotation (u + s mod 1, one
 /// shift s per dimension; Cranley & Patterson 1976, SIAM J. Numer. Anal. 13, 904).
+///
+/// The sequence is the `sobol` crate's (its direction numbers, its Gray-code
+/// order, its 53-bit rendering), entered at point `start` directly: in Gray-code
+/// order point n is the XOR of the direction numbers at the bits set in
+/// n ⊕ (n >> 1) (Antonov & Saleev 1979, USSR Comput. Math. Math. Phys. 19,
+/// 252–256, doi:10.1016/0041-5553(79)90085-5), so a chunk costs the same
+/// wherever it sits, where stepping the crate's iterator to `start` made the
+/// first pass quadratic in its length.
 pub fn sobol_points(dims: usize, seed: u64, start: usize, count: usize) -> Vec<Vec<f64>> {
     let shift: Vec<f64> = (0..dims)
         .map(|d| (splitmix64(seed ^ splitmix64(d as u64)) >> 11) as f64 / (1u64 << 53) as f64)
         .collect();
-    Sobol::<f64>::new(dims.max(1), &JoeKuoD6::minimal())
-        .skip(start)
-        .take(count)
-        .map(|u| u.iter().zip(&shift).map(|(u, s)| (u + s).fract()).collect())
-        .collect()
+    let dirs = Sobol::<f64>::init_direction_vals::<u32>(
+        dims.max(1),
+        <f64 as SobolType>::MAX_RESOLUTION,
+        &JoeKuoD6::minimal(),
+    );
+    let gray = (start ^ (start >> 1)) as u64;
+    let mut x: Vec<u64> = dirs
+        .iter()
+        .map(|v| {
+            v.iter()
+                .enumerate()
+                .filter(|(j, _)| (gray >> j) & 1 == 1)
+                .fold(0, |acc, (_, &d)| acc ^ d)
+        })
+        .collect();
+    let mut out = Vec::with_capacity(count);
+    for n in start..start + count {
+        if n > start {
+            // The crate's step: the direction number at the rightmost zero bit of n − 1.
+            let c = (!(n - 1)).trailing_zeros() as usize;
+            for (xi, v) in x.iter_mut().zip(&dirs) {
+                *xi ^= v[c];
+            }
+        }
+        out.push(
+            x.iter()
+                .zip(&shift)
+                .map(|(&u, s)| (<f64 as SobolType>::render(u) + s).fract())
+                .collect(),
+        );
+    }
+    out
 }
 
 /// Evaluate chunk `k` of the space-filling pass (points k·size … (k+1)·size − 1).
@@ -98,4 +133,42 @@ fn map_chunk<T: Send>(
 /// Number of chunks in the space-filling pass.
 pub fn chunk_count(search: &Search) -> usize {
     search.first_pass_points.div_ceil(search.chunk_size)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The points as the `sobol` crate's iterator gives them, stepped to `start`.
+    fn stepped(dims: usize, seed: u64, start: usize, count: usize) -> Vec<Vec<f64>> {
+        let shift: Vec<f64> = (0..dims)
+            .map(|d| (splitmix64(seed ^ splitmix64(d as u64)) >> 11) as f64 / (1u64 << 53) as f64)
+            .collect();
+        Sobol::<f64>::new(dims.max(1), &JoeKuoD6::minimal())
+            .skip(start)
+            .take(count)
+            .map(|u| u.iter().zip(&shift).map(|(u, s)| (u + s).fract()).collect())
+            .collect()
+    }
+
+    #[test]
+    fn entering_the_sequence_at_a_point_gives_the_crates_points() {
+        // Source: the sobol crate's own iterator (the reference here), bit for bit.
+        for dims in [0, 1, 2, 6, 9] {
+            for (start, count) in [
+                (0, 70),
+                (1, 5),
+                (511, 3),
+                (512, 40),
+                (4095, 2),
+                (98_304, 17),
+            ] {
+                assert_eq!(
+                    sobol_points(dims, 20261202, start, count),
+                    stepped(dims, 20261202, start, count),
+                    "dims {dims}, start {start}"
+                );
+            }
+        }
+    }
 }
