@@ -2,6 +2,34 @@
 //! error (with its hint) once, and turn the outcome into the exit code:
 //! 0 finished, 1 internal error, 2 bad input or nothing feasible, 130 stopped.
 
+// The terminal writers of the binary. Unlike println! and eprintln! they do
+// not panic when the other end of a pipe has gone (`quenchwise check c.toml |
+// head -1`): the reader no longer wants the text, so it is dropped.
+macro_rules! outln {
+    ($($t:tt)*) => {{
+        use std::io::Write as _;
+        let _ = writeln!(std::io::stdout(), $($t)*);
+    }};
+}
+macro_rules! out {
+    ($($t:tt)*) => {{
+        use std::io::Write as _;
+        let _ = write!(std::io::stdout(), $($t)*);
+    }};
+}
+macro_rules! errln {
+    ($($t:tt)*) => {{
+        use std::io::Write as _;
+        let _ = writeln!(std::io::stderr(), $($t)*);
+    }};
+}
+macro_rules! errout {
+    ($($t:tt)*) => {{
+        use std::io::Write as _;
+        let _ = write!(std::io::stderr(), $($t)*);
+    }};
+}
+
 mod app;
 mod cli;
 
@@ -14,16 +42,16 @@ fn main() -> ExitCode {
     let caution = !cli.quiet && cli.command.leads_to_a_melt();
     let outcome = app::run(cli);
     if caution && outcome.is_ok() {
-        eprintln!("{}", quenchwise::report::CAUTION);
+        errln!("{}", quenchwise::report::CAUTION);
     }
     match outcome {
         Ok(app::Outcome::Finished) => ExitCode::SUCCESS,
         Ok(app::Outcome::Interrupted) => ExitCode::from(130),
         Ok(app::Outcome::NothingFeasible) => ExitCode::from(2),
         Err(err) => {
-            eprintln!("quenchwise: {err}");
+            errln!("quenchwise: {err}");
             if let Some(h) = err.hint() {
-                eprintln!("hint: {h}");
+                errln!("hint: {h}");
             }
             match err.kind() {
                 ErrorKind::BadInput => ExitCode::from(2),

@@ -669,8 +669,8 @@ fn eval_tables_keep_the_users_own_columns_named_like_results() {
     // check is only that they come back unchanged.
     std::fs::write(
         d.join("meas.csv"),
-        "name,SiO2,Na2O,CaO,Al2O3,critical_rate_k_per_s,liquidus_c,warnings\n\
-         plate-A,72,14,10,4,0.05,999,my own note\n",
+        "name,SiO2,Na2O,CaO,Al2O3,critical_rate_k_per_s,liquidus_c,warnings,error,critical_rate_k_per_s_model\n\
+         plate-A,72,14,10,4,0.05,999,my own note,cracked on annealing,0.5\n",
     )
     .unwrap();
     run_in(
@@ -681,11 +681,18 @@ fn eval_tables_keep_the_users_own_columns_named_like_results() {
     let df = quenchwise::files::table::read_frame(&d.join("out.csv")).unwrap();
     assert_eq!(floats(&df, "critical_rate_k_per_s")[0], 0.05);
     assert_eq!(floats(&df, "liquidus_c")[0], 999.0);
-    let model = floats(&df, "critical_rate_k_per_s_model")[0];
-    assert!(model > 0.0 && model != 0.05, "{model}");
+    // An earlier model column of the user's own is kept too.
+    assert_eq!(floats(&df, "critical_rate_k_per_s_model")[0], 0.5);
+    let model = floats(&df, "critical_rate_k_per_s_model_2")[0];
+    assert!(model > 0.0 && model != 0.05 && model != 0.5, "{model}");
     assert!(floats(&df, "liquidus_c_model")[0] > 500.0);
     let text = std::fs::read_to_string(d.join("out.csv")).unwrap();
     assert!(text.contains("my own note"), "{text}");
+    assert!(text.contains("cracked on annealing"), "{text}");
+    assert!(
+        text.lines().next().unwrap().contains(",error_model"),
+        "{text}"
+    );
 }
 
 /// `--nuclei-per-m3` on the command line wins over a melt-card table's
@@ -811,4 +818,20 @@ fn eval_takes_a_melting_viscosity_of_its_own() {
     run_in(&d, &["eval", "--mol", glass, "--melting-viscosity", "1e6"])
         .code(2)
         .stderr_has("--melting-viscosity must lie between 0.1 and 10000 Pa·s");
+}
+
+/// A CSV row with more cells than the header, past the first batch, is
+/// named by its line, in words a user can act on.
+#[test]
+fn a_ragged_row_far_into_a_table_is_named_by_its_line() {
+    let d = temp_dir("ragged");
+    let mut text = String::from("name,SiO2,Na2O,CaO,Al2O3\n");
+    for i in 0..5000 {
+        text.push_str(&format!("x{i},72,14,10,4\n"));
+    }
+    text.push_str("bad,72,14,10,4,5\n");
+    std::fs::write(d.join("rag.csv"), text).unwrap();
+    run_in(&d, &["eval", "--compositions", "rag.csv", "--out", "o.csv"])
+        .code(2)
+        .stderr_has("rag.csv: line 5002 has 6 cells but the header names 5 columns");
 }

@@ -99,3 +99,29 @@ fn every_help_states_each_default_once() {
         check(&block);
     }
 }
+
+/// A reader that stops early (`quenchwise check c.toml | head -1`) is not
+/// an error of quenchwise: it must not panic (exit 101) on the closed pipe.
+/// Source: common practice of Unix command-line tools.
+#[test]
+fn a_closed_pipe_is_not_a_panic() {
+    let bin = env!("CARGO_BIN_EXE_quenchwise");
+    let cfg = crate::util::root().join("configs/demo-screen.toml");
+    for _ in 0..5 {
+        // `true` exits without reading, so the pipe is usually closed by the
+        // time quenchwise writes.
+        let status = std::process::Command::new("bash")
+            .arg("-c")
+            .arg(format!(
+                "set -o pipefail; '{bin}' check '{}' 2>&1 | true",
+                cfg.display()
+            ))
+            .status()
+            .unwrap();
+        assert_ne!(
+            status.code(),
+            Some(101),
+            "quenchwise panicked on a closed pipe"
+        );
+    }
+}

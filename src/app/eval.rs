@@ -296,7 +296,7 @@ pub fn eval(a: EvalArgs) -> Result<Outcome, Error> {
         let opts = overrides(&a.kinetics).apply(base_options(&models));
         let other = composition_columns_passed(p)?;
         if !other.is_empty() {
-            eprintln!(
+            errln!(
                 "quenchwise: columns not read as oxides (passed through): {}",
                 other.join(", ")
             );
@@ -479,7 +479,7 @@ pub(super) fn evaluate_table_with<R: RowReader>(
     }
     let streamed = streamed?;
     write_stdout(&summary.text(streamed.rows, out))?;
-    eprintln!(
+    errln!(
         "quenchwise: {} rows evaluated, {} failed (see the error column); wrote {}",
         streamed.rows,
         streamed.failed,
@@ -499,8 +499,8 @@ pub(super) fn evaluate_table_with<R: RowReader>(
     } else {
         let text = warning_legend_text(out, streamed.rows, &streamed.warning_codes);
         write_file(&legend, text.as_bytes())?;
-        eprint!("quenchwise: {}", text.replace('\n', "\n  "));
-        eprintln!("(this legend is also in {})", legend.display());
+        errout!("quenchwise: {}", text.replace('\n', "\n  "));
+        errln!("(this legend is also in {})", legend.display());
     }
     Ok(Outcome::Finished)
 }

@@ -169,21 +169,21 @@ fn write_outputs(
     svg: impl FnOnce() -> String,
 ) -> Result<(), Error> {
     write_text(&common.out, model_text).map_err(Error::internal)?;
-    eprintln!("quenchwise: wrote {}", common.out.display());
+    errln!("quenchwise: wrote {}", common.out.display());
     if let Some(p) = &common.residuals {
         write_text(p, &residuals).map_err(Error::internal)?;
-        eprintln!("quenchwise: wrote residuals to {}", p.display());
+        errln!("quenchwise: wrote residuals to {}", p.display());
     }
     if let Some(p) = &common.plot {
         write_text(p, &svg()).map_err(Error::internal)?;
-        eprintln!("quenchwise: wrote the residual plot to {}", p.display());
+        errln!("quenchwise: wrote the residual plot to {}", p.display());
     }
     Ok(())
 }
 
 fn note_ignored(data: &Path, ignored: &[String]) {
     if !ignored.is_empty() {
-        eprintln!(
+        errln!(
             "quenchwise: {}: columns not read: {}",
             data.display(),
             ignored.join(", ")
@@ -271,7 +271,7 @@ fn viscosity(a: FitViscosityArgs) -> Result<Outcome, Error> {
     let text = match &based {
         Some((set, notes, name)) => {
             if set.kinetics_fit.is_some() {
-                eprintln!("quenchwise: note: the α of '{}' were fitted with its old viscosity model; fit kinetics again", set.about.name);
+                errln!("quenchwise: note: the α of '{}' were fitted with its old viscosity model; fit kinetics again", set.about.name);
             }
             let mut out = set.clone().with_viscosity(fit.model.clone());
             out.about = fitted_about(&set.about, name, line, &prov.date);
@@ -346,7 +346,7 @@ fn viscosity(a: FitViscosityArgs) -> Result<Outcome, Error> {
     )?;
     if let Some(dir) = &a.viscosity_plots {
         let n = write_viscosity_plots(dir, &fit.model, &data.points, &data.glasses, form_name)?;
-        eprintln!(
+        errln!(
             "quenchwise: wrote {} (fitted curve and measured points) to {}",
             count(n, "viscosity plot", "viscosity plots"),
             dir.display()
@@ -449,7 +449,7 @@ fn liquidus(a: FitLiquidusArgs) -> Result<Outcome, Error> {
     let prov = provenance(&c.data)?;
     let fit = fit_liquidus(&set, &data.points, &shift, &prov).with_context(ctx)?;
     if set.kinetics_fit.is_some() {
-        eprintln!("quenchwise: note: the α of '{}' were fitted with its old liquidus surfaces; fit kinetics again", set.about.name);
+        errln!("quenchwise: note: the α of '{}' were fitted with its old liquidus surfaces; fit kinetics again", set.about.name);
     }
     let (hits, tried) = fit.held_out_hits(&data.points);
     let phases: Vec<String> = fit
@@ -684,7 +684,7 @@ fn kinetics(a: FitKineticsArgs) -> Result<Outcome, Error> {
     );
     let summary = kinetic_fit_text(&fit, &points, &options);
     if a.fit_nuclei {
-        eprintln!(
+        errln!(
             "quenchwise: the fitted α hold with {} pre-existing nuclei per m³: eval uses it by default with this set; give heterogeneous_nuclei_per_m3 = {} in a screen config's [kinetics]",
             quenchwise::report::sig(nuclei),
             quenchwise::report::sig(nuclei)

@@ -60,7 +60,7 @@ fn threads(n: Option<usize>) -> Result<Option<usize>, Error> {
             let cores = cores();
             let cap = max_threads();
             if t > cap {
-                eprintln!(
+                errln!(
                     "quenchwise: --threads {t} capped at {cap} ({THREADS_PER_CORE} × the {cores} cores of this machine)"
                 );
                 Ok(Some(cap))

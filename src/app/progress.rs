@@ -68,7 +68,7 @@ impl Progress {
         };
         if last.elapsed().as_secs() >= 30 || done == self.total {
             *last = Instant::now();
-            eprintln!(
+            errln!(
                 "quenchwise {}: {done}/{} {} done, {:.0} s elapsed",
                 self.label,
                 self.total,

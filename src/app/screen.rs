@@ -46,14 +46,14 @@ impl ScreenObserver for Watch {
         }
     }
     fn notice(&mut self, text: &str) {
-        eprintln!("note: {text}");
+        errln!("note: {text}");
     }
 }
 
 /// What the config loader changed (a capped thread count), said once.
 fn say_notes(plan: &screen_config::RunPlan, config: &std::path::Path) {
     for note in &plan.notes {
-        eprintln!("quenchwise: {}: {note}", config.display());
+        errln!("quenchwise: {}: {note}", config.display());
     }
 }
 
@@ -62,7 +62,7 @@ pub fn check(a: CheckArgs) -> Result<Outcome, Error> {
     say_notes(&plan, &a.config);
     let problem = &plan.problem;
     let simplex = Simplex::new(problem);
-    println!(
+    outln!(
         "{}: valid. {} oxides vary ({} free, {} closes the sum); {}; {} first-pass points in {}; {}",
         a.config.display(),
         problem.oxides.len(),
@@ -80,7 +80,7 @@ pub fn check(a: CheckArgs) -> Result<Outcome, Error> {
         }
     );
     if let Some(line) = quenchwise::report::text::quench_options_text(problem) {
-        println!("{line}");
+        outln!("{line}");
     }
     Ok(Outcome::Finished)
 }
@@ -158,11 +158,11 @@ fn tell(end: run_folder::Outcome, out: &std::path::Path, again: &str) -> Result<
             ..
         } => {
             let text = std::fs::read_to_string(out.join("summary.txt")).unwrap_or_default();
-            print!("{}", without_caution(&text));
+            out!("{}", without_caution(&text));
             if out.join("report.html").exists() {
-                println!("report: {}", out.join("report.html").display());
+                outln!("report: {}", out.join("report.html").display());
             }
-            println!(
+            outln!(
                 "\nshortlist: {} ({} of {feasible} feasible, {evaluated} evaluated); batch sheets in {}",
                 out.join("shortlist.csv").display(),
                 count(shortlisted, "recipe", "recipes"),
@@ -176,20 +176,20 @@ fn tell(end: run_folder::Outcome, out: &std::path::Path, again: &str) -> Result<
                 Stage::Refinement => "refinement",
                 Stage::Outputs => "writing the outputs",
             };
-            eprintln!(
+            errln!(
                 "quenchwise: stopped during {during} ({done}/{total} {} kept); the work so far is saved.\nhint: {again}",
                 stage.unit()
             );
             Ok(Outcome::Interrupted)
         }
         run_folder::Outcome::NothingFeasible { limits } => {
-            eprintln!("quenchwise: no recipe meets every limit\n{limits}");
+            errln!("quenchwise: no recipe meets every limit\n{limits}");
             Ok(Outcome::NothingFeasible)
         }
         run_folder::Outcome::AlreadyFinished => {
             let text = std::fs::read_to_string(out.join("summary.txt")).unwrap_or_default();
-            print!("{}", without_caution(&text));
-            println!(
+            out!("{}", without_caution(&text));
+            outln!(
                 "\n{} holds a finished run; nothing to resume (shortlist: {})",
                 out.display(),
                 out.join("shortlist.csv").display()
@@ -197,7 +197,7 @@ fn tell(end: run_folder::Outcome, out: &std::path::Path, again: &str) -> Result<
             Ok(Outcome::Finished)
         }
         run_folder::Outcome::ShardDone { shard, chunks } => {
-            println!(
+            outln!(
                 "shard {}/{}: chunks {}..{} of the first pass kept in {}\nwhen every shard is done: quenchwise merge --out DIR SHARD_DIR...",
                 shard.index,
                 shard.count,
@@ -213,6 +213,6 @@ fn tell(end: run_folder::Outcome, out: &std::path::Path, again: &str) -> Result<
 pub fn report(a: ReportArgs) -> Result<Outcome, Error> {
     let folder = RunFolder::open(&a.dir, Opening::Existing)?;
     let p = write_report(&folder)?;
-    println!("wrote {}", p.display());
+    outln!("wrote {}", p.display());
     Ok(Outcome::Finished)
 }

@@ -121,7 +121,7 @@ pub fn eval_uncertainty(a: &EvalArgs, draws: usize) -> Result<Outcome, Error> {
         let opts = cli.apply(base_options(&models));
         let (inputs, notes) = model_set_inputs(&models, &opts, None)?;
         for n in &notes {
-            eprintln!("quenchwise: {n}");
+            errln!("quenchwise: {n}");
         }
         if inputs.is_empty() {
             return Err(Error::bad_input(format!(
@@ -319,7 +319,7 @@ fn eval_uncertainty_table(
         draws: settings.draws,
         seed: row_seed(settings.seed, i),
     };
-    eprintln!(
+    errln!(
         "quenchwise: {} draws per row, each row with its own seed derived from seed {} and its place in the file (the same numbers at any thread count)",
         settings.draws, settings.seed
     );
@@ -369,7 +369,7 @@ fn eval_uncertainty_table(
     let opts = cli.apply(base_options(&models));
     let (inputs, notes) = model_set_inputs(&models, &opts, None)?;
     for n in &notes {
-        eprintln!("quenchwise: {n}");
+        errln!("quenchwise: {n}");
     }
     if inputs.is_empty() {
         return Err(Error::bad_input(format!(
@@ -385,7 +385,7 @@ fn eval_uncertainty_table(
     };
     let other = super::eval::composition_columns_passed(p)?;
     if !other.is_empty() {
-        eprintln!(
+        errln!(
             "quenchwise: columns not read as oxides (passed through): {}",
             other.join(", ")
         );

@@ -697,7 +697,11 @@ pub struct EvalArgs {
     /// A table (CSV or Parquet) of compositions, one per row; needs --out.
     ///
     /// One column per oxide (SiO2, Na2O, ...) in mol% (wt% with --wt); other
-    /// columns (names, ids) are passed through to the output. An empty oxide
+    /// columns (names, ids, your own measurements) are passed through to the
+    /// output unchanged: a result whose name one of them already has is
+    /// written beside it as `<name>_model` (e.g. your measured
+    /// critical_rate_k_per_s and the model's critical_rate_k_per_s_model).
+    /// An empty oxide
     /// cell counts as 0; a cell that is not a number ("O.5", "NaN") is an
     /// error naming its row, line and column.
     #[arg(long, value_name = "FILE", requires = "out", help_heading = "Input")]

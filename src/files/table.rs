@@ -267,7 +267,7 @@ fn record_lines(bytes: &[u8]) -> Vec<usize> {
 
 /// The first record with more comma-separated cells than the header, as
 /// (line, cells, header cells): commas inside double quotes do not count.
-fn longer_record(bytes: &[u8]) -> Option<(usize, usize, usize)> {
+pub(crate) fn longer_record(bytes: &[u8]) -> Option<(usize, usize, usize)> {
     let mut line = 1;
     let mut record_line = 1;
     let mut cells = 1;

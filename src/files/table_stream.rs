@@ -235,13 +235,22 @@ const LEADING_RESULTS: [&str; 18] = [
     "melting_viscosity_pa_s",
 ];
 
-/// The name a result column takes in a table with these input columns.
+/// The name a result column takes in a table with these input columns:
+/// its own, or `<name>_model` beside a user's column of that name
+/// (`<name>_model_2`, `_3`, … if the user has that one too).
 fn result_name(name: &str, input: &[String], replaces: &[&str]) -> String {
-    if input.iter().any(|c| c == name) && !replaces.contains(&name) {
-        format!("{name}_model")
-    } else {
-        name.to_string()
+    let taken = |n: &str| input.iter().any(|c| c == n);
+    if !taken(name) || replaces.contains(&name) {
+        return name.to_string();
     }
+    let first = format!("{name}_model");
+    if !taken(&first) {
+        return first;
+    }
+    (2..)
+        .map(|k| format!("{name}_model_{k}"))
+        .find(|n| !taken(n))
+        .unwrap_or(first)
 }
 
 impl ResultPlan {
@@ -311,6 +320,9 @@ enum Source {
 /// The result columns of a table, in order, named for its input.
 struct ResultColumns {
     columns: Vec<(String, Source)>,
+    /// The name of the column of row errors (`error`, or `error_model`
+    /// beside a user's own `error` column).
+    error: String,
 }
 
 impl ResultColumns {
@@ -353,7 +365,10 @@ impl ResultColumns {
         for (name, _) in &mut keyed {
             *name = result_name(name, input, plan.replaces);
         }
-        ResultColumns { columns: keyed }
+        ResultColumns {
+            columns: keyed,
+            error: result_name("error", input, &[]),
+        }
     }
 
     /// The name the result of `key` is written under.
@@ -382,7 +397,9 @@ impl ResultColumns {
             })
             .collect();
         let errors = results.iter().map(|r| r.as_ref().err().map(String::as_str));
-        out.push(StringChunked::from_iter_options("error".into(), errors).into_column());
+        out.push(
+            StringChunked::from_iter_options(self.error.as_str().into(), errors).into_column(),
+        );
         out
     }
 }
@@ -687,6 +704,7 @@ impl Batches {
                 // A batch the file's schema does not fit (the file changed
                 // after the check) is read as it is, so that the row reader
                 // names the bad cell, or the caller sees the changed types.
+                let for_errors = text.clone();
                 let df = match parse(self.schema.clone(), text.clone()) {
                     Ok(df)
                         if !self.guessed
@@ -701,7 +719,23 @@ impl Batches {
                     Err(_) if self.schema.is_some() => parse(None, text),
                     Err(e) => Err(e),
                 }
-                .map_err(|e| read_error(&self.label, e))?;
+                .map_err(|e| {
+                    match crate::files::table::longer_record(&for_errors) {
+                        // The batch is the header and whole records: its line r
+                        // is the (r − 2)-th record of the batch.
+                        Some((r, n, head)) => TableError::Read {
+                            path: self.label.clone(),
+                            message: format!(
+                                "line {} has {n} cells but the header names {head} columns \
+                             (a comma inside a cell needs the cell in double quotes)",
+                                r.checked_sub(2)
+                                    .and_then(|k| lines.get(k))
+                                    .map_or_else(|| "?".to_string(), |l| l.to_string())
+                            ),
+                        },
+                        None => read_error(&self.label, e),
+                    }
+                })?;
                 // Where the count of records agrees with polars, rows get lines.
                 let lines = (lines.len() == df.height()).then_some(lines);
                 (df, lines)

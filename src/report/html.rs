@@ -237,7 +237,7 @@ fn recipe_section(problem: &ScreenProblem, l: &ReportRecipe, e: &Evaluation) -> 
                 None => String::new(),
             },
             if l.row.band_vouched == Some(false) {
-                " ⚠ The band reaches below 1e-3 K/s, beyond what the model can vouch for."
+                " ⚠ Part of the band lies beyond what the model can vouch for (a rate below 1e-3 K/s, a nose time above a day or a glassy slab above 100 mm: see the recipe's warnings)."
             } else {
                 ""
             }

@@ -176,7 +176,12 @@ pub fn csv_digits(name: &str) -> Option<Digits> {
         Some(Digits::Significant(3))
     } else if name.ends_with("_k") || name.ends_with("_c") {
         Some(Digits::Decimals(1))
-    } else if name.ends_with("_decades") || name.starts_with("probability") {
+    } else if name.ends_with("_decades")
+        || name.starts_with("probability")
+        || name.starts_with("variance_share")
+    {
+        // Variance shares are estimates from binned draws: two decimals
+        // of noise at best.
         Some(Digits::Decimals(3))
     } else if name.contains("_per_s") || name.contains("_per_min") || name.starts_with("cost") {
         Some(Digits::Significant(4))
