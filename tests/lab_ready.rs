@@ -835,3 +835,55 @@ fn a_ragged_row_far_into_a_table_is_named_by_its_line() {
         .code(2)
         .stderr_has("rag.csv: line 5002 has 6 cells but the header names 5 columns");
 }
+
+/// A table that names one oxide twice in its header is refused, not read
+/// with the second column passed through under another name.
+#[test]
+fn a_repeated_oxide_column_is_refused() {
+    let d = temp_dir("repeated-oxide");
+    std::fs::write(d.join("rep.csv"), "name,SiO2,Na2O,CaO,SiO2\nA,72,14,10,4\n").unwrap();
+    run_in(&d, &["eval", "--compositions", "rep.csv", "--out", "o.csv"])
+        .code(2)
+        .stderr_has("both name SiO2");
+}
+
+/// A melt-card table may give the liquidus in °C, as a melt-card file may.
+/// Source: the same card with liquidus_k = liquidus_c + 273.15 (ISO 80000-5).
+#[test]
+fn a_melt_card_table_reads_the_liquidus_in_celsius() {
+    let d = temp_dir("cards-celsius");
+    let head =
+        "a,b_k,c_k,{},enthalpy_of_fusion_j_per_mol,molar_volume_m3_per_mol,turnbull_alpha,growth\n";
+    let row = "-2.8,4500.0,480.0,{},60000.0,6.0e-5,0.33,normal\n";
+    std::fs::write(
+        d.join("k.csv"),
+        head.replace("{}", "liquidus_k") + &row.replace("{}", "1300.0"),
+    )
+    .unwrap();
+    std::fs::write(
+        d.join("c.csv"),
+        head.replace("{}", "liquidus_c") + &row.replace("{}", "1026.85"),
+    )
+    .unwrap();
+    for f in ["k", "c"] {
+        run_in(
+            &d,
+            &[
+                "eval",
+                "--melt-cards",
+                &format!("{f}.csv"),
+                "--out",
+                &format!("{f}.parquet"),
+            ],
+        )
+        .code(0);
+    }
+    let k = quenchwise::files::table::read_frame(&d.join("k.parquet")).unwrap();
+    let c = quenchwise::files::table::read_frame(&d.join("c.parquet")).unwrap();
+    let (rk, rc) = (
+        floats(&k, "critical_rate_k_per_s")[0],
+        floats(&c, "critical_rate_k_per_s")[0],
+    );
+    assert!(rk > 0.0 && ((rk - rc) / rk).abs() < 1e-9, "{rk} vs {rc}");
+    assert_eq!(floats(&c, "liquidus_k")[0], floats(&k, "liquidus_k")[0]);
+}

@@ -687,7 +687,8 @@ pub struct EvalArgs {
 
     /// A table (CSV or Parquet) of melt cards, one per row; needs --out.
     ///
-    /// Columns are named like the card keys: a, b_k, c_k, liquidus_k,
+    /// Columns are named like the card keys: a, b_k, c_k, liquidus_k (or
+    /// liquidus_c, °C),
     /// enthalpy_of_fusion_j_per_mol, molar_volume_m3_per_mol, turnbull_alpha
     /// or interface_energy_j_per_m2, growth, and optionally the [kinetics]
     /// keys. Rows run in parallel; a failed row gets its reason in `error`.

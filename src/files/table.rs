@@ -655,7 +655,17 @@ pub(crate) fn melt_rows(
     let a = require("a", bad)?;
     let b = require("b_k", bad)?;
     let c = require("c_k", bad)?;
-    let tl = require("liquidus_k", bad)?;
+    // The liquidus in K, or in °C as a melt-card file may give it.
+    let tl = match number_column(df, places, "liquidus_k", bad) {
+        Some(v) => v,
+        None => number_column(df, places, "liquidus_c", bad)
+            .map(|v| {
+                v.into_iter()
+                    .map(|c| c.map(|c| crate::units::Celsius(c).to_kelvin().0))
+                    .collect()
+            })
+            .ok_or_else(|| missing(df, &p, "liquidus_k (or liquidus_c)"))?,
+    };
     let dh = require("enthalpy_of_fusion_j_per_mol", bad)?;
     let vm = require("molar_volume_m3_per_mol", bad)?;
     let alpha = number_column(df, places, "turnbull_alpha", bad);
@@ -800,7 +810,25 @@ pub(crate) fn composition_rows(
                 let v = number_column(df, places, name.as_str(), bad).unwrap_or_default();
                 oxide_cols.push((o, name.to_string(), v));
             }
-            Err(_) => other.push(name.to_string()),
+            Err(_) => {
+                // The CSV reader renames a repeated header name to
+                // `NAME_duplicated_K`: a repeated oxide is refused, not
+                // passed through.
+                let repeated = name
+                    .as_str()
+                    .rsplit_once("_duplicated_")
+                    .filter(|(_, k)| k.parse::<usize>().is_ok())
+                    .and_then(|(head, _)| head.parse::<Oxide>().ok().map(|o| (head, o)));
+                if let Some((head, o)) = repeated {
+                    return Err(TableError::DuplicateColumn {
+                        path: places.path().to_string(),
+                        first: head.to_string(),
+                        second: head.to_string(),
+                        what: o.formula().to_string(),
+                    });
+                }
+                other.push(name.to_string())
+            }
         }
     }
     if oxide_cols.is_empty() {

@@ -194,11 +194,12 @@ pub struct ResultPlan {
 
 /// The columns of a melt-card table the row reader reads
 /// (`files::table::melt_rows`).
-pub const MELT_CARD_COLUMNS: [&str; 15] = [
+pub const MELT_CARD_COLUMNS: [&str; 16] = [
     "a",
     "b_k",
     "c_k",
     "liquidus_k",
+    "liquidus_c",
     "enthalpy_of_fusion_j_per_mol",
     "molar_volume_m3_per_mol",
     "turnbull_alpha",
