@@ -16,12 +16,14 @@
 //!    recipe; with `[uncertainty]` its probability of a glass is drawn again
 //!    and must reach the least probability asked for; with a margin
 //!    objective a recipe the model vouched for must stay vouched;
-//! 4. a recipe none of whose neighbours passes, or whose passing neighbour
-//!    is a recipe already kept, is dropped, with the reason;
+//! 4. a neighbour that is a recipe already kept, or lies closer than the
+//!    shortlist distance to one, is passed over; a recipe none of whose
+//!    neighbours passes is dropped, with the reason;
 //! 5. the places dropped are refilled from the next-ranked candidates (at
 //!    least the shortlist distance from every recipe already listed), each
 //!    snapped and checked by the same rule, until the shortlist is full or
-//!    the candidates run out.
+//!    the candidates run out;
+//! 6. the recipes kept are ranked again in the stage's order.
 //!
 //! No I/O here.
 
