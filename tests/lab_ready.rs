@@ -293,6 +293,12 @@ fn snapping_and_batch_keys_are_checked_with_their_line() {
             "glass_kg = 1e-9",
             "[batch] glass_kg must lie in [0.001, 1000]",
         ),
+        // A third number was once ignored without a word.
+        (
+            "Al2O3 = [0.0, 3.0]",
+            "Al2O3 = [0.0, 3.0, 5.0]",
+            "Al2O3 limits must be two numbers [min, max] mol%, got 3",
+        ),
         // Snapping gives Al2O3 0 or 0.5 mol%: neither lies in [0.05, 0.15].
         (
             "Al2O3 = [0.0, 3.0]",

@@ -338,6 +338,22 @@ fn summary(
 /// Where the probability decides, the verdict is P(R_c ≤ rate) ≥
 /// min_probability from the screen's draws (`probs`, the options in order):
 /// "glassy with mould (P = 0.970, needs 0.9; +0.93 decades)".
+/// A probability from `n` draws as text: where every draw (or none) fell on
+/// one side, the one-sided 95 % bound of the rule of three (1 − 3/n, or
+/// 3/n), not a certainty (docs/science.md, "What is reported").
+fn probability_text(p: f64, n: usize) -> String {
+    if n > 0 && p >= 1.0 {
+        format!(
+            "P ≥ {:.3}, every one of {n} draws glassy",
+            1.0 - 3.0 / n as f64
+        )
+    } else if n > 0 && p <= 0.0 {
+        format!("P ≤ {:.3}, none of {n} draws glassy", 3.0 / n as f64)
+    } else {
+        format!("P = {p:.3}")
+    }
+}
+
 fn quench_verdicts(problem: &ScreenProblem, critical_rate: f64, probs: &[Option<f64>]) -> String {
     let min = problem
         .uncertainty
@@ -350,9 +366,10 @@ fn quench_verdicts(problem: &ScreenProblem, critical_rate: f64, probs: &[Option<
             q.verdict(critical_rate).map(|v| match min {
                 Some(m) => match probs.get(k).copied().flatten() {
                     Some(p) => format!(
-                        "{} with {} (P = {p:.3}, needs {m}; {:+.2} decades)",
+                        "{} with {} ({}, needs {m}; {:+.2} decades)",
                         if p >= m { "glassy" } else { "NOT glassy" },
                         q.name,
+                        probability_text(p, problem.uncertainty.map_or(0, |u| u.draws)),
                         v.margin_decades
                     ),
                     None => format!(
@@ -380,5 +397,26 @@ fn unit_text(unit: &str) -> &str {
         "per_kg" => "per kg of glass",
         "mol_pct" => "mol%",
         other => other,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::probability_text;
+
+    #[test]
+    fn a_probability_at_an_end_is_given_as_its_rule_of_three_bound() {
+        // Source: the rule of three (Hanley & Lippman-Hand 1983, JAMA 249,
+        // 1743): with 0 events in n trials the one-sided 95 % upper bound on
+        // their rate is about 3/n.
+        assert_eq!(
+            probability_text(1.0, 100),
+            "P ≥ 0.970, every one of 100 draws glassy"
+        );
+        assert_eq!(
+            probability_text(0.0, 100),
+            "P ≤ 0.030, none of 100 draws glassy"
+        );
+        assert_eq!(probability_text(0.93, 100), "P = 0.930");
     }
 }

@@ -467,6 +467,30 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         }
     });
 
+    // A range is two numbers: the reader takes the first two of a longer
+    // list, so the length is checked on the text itself.
+    if let Ok(table) = text.parse::<toml::Table>() {
+        if let Some(toml::Value::Table(listed)) = table.get("oxides") {
+            for (name, value) in listed {
+                let n = match value {
+                    toml::Value::Array(a) => a.len(),
+                    _ => continue,
+                };
+                if n != 2 {
+                    let span = raw
+                        .oxides
+                        .iter()
+                        .find(|(k, _)| k.get_ref() == name)
+                        .map(|(_, v)| v.span())
+                        .unwrap_or(0..0);
+                    push(
+                        span,
+                        format!("{name} limits must be two numbers [min, max] mol%, got {n}"),
+                    );
+                }
+            }
+        }
+    }
     let mut oxides: Vec<(Oxide, f64, f64)> = Vec::new();
     let mut named: Vec<(Oxide, &Spanned<String>)> = Vec::new();
     for (k, v) in &raw.oxides {
