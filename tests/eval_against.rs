@@ -87,6 +87,9 @@ fn recipes_the_demo_screen_shortlists_pass_and_broken_ones_fail_the_right_limit(
         t[1]
     );
     assert_eq!(t[1]["composition_limits_pass"], "false");
+    // The evaluation's warnings come along, as in the plain eval table
+    // (the demo model set is invented and says so on every result).
+    assert!(t[0]["warnings"].contains("invented"), "{:?}", t[0]);
     // Its cost on the sheet is the screen's.
     // The CSV file shows costs to 4 significant figures (0.2xxx): within
     // half the last digit (Source: common practice for rounding).

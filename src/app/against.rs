@@ -247,6 +247,20 @@ fn frame(
             .map(|c| c.as_ref().ok().and_then(|c| c.candidate.cost_per_kg))
             .collect::<Vec<_>>(),
     ));
+    // What the evaluation warns of (an invented model set, a result beyond
+    // what the model can vouch for), as in the plain eval table.
+    cols.push(Column::new(
+        "warnings".into(),
+        checks
+            .iter()
+            .map(|c| {
+                c.as_ref()
+                    .ok()
+                    .and_then(|c| c.candidate.evaluation.as_ref())
+                    .map(|e| e.warnings.join("; "))
+            })
+            .collect::<Vec<_>>(),
+    ));
     cols.push(Column::new(
         "error".into(),
         checks
