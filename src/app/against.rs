@@ -211,16 +211,18 @@ fn frame(
         };
         cols.push(col);
     }
+    let evaluations: Vec<Option<&quenchwise::assess::Evaluation>> = checks
+        .iter()
+        .map(|c| {
+            c.as_ref()
+                .ok()
+                .and_then(|c| c.candidate.evaluation.as_ref())
+        })
+        .collect();
     let eval = |f: &dyn Fn(&quenchwise::assess::Evaluation) -> Option<f64>| {
-        checks
+        evaluations
             .iter()
-            .map(|c| {
-                c.as_ref()
-                    .ok()
-                    .and_then(|c| c.candidate.evaluation.as_ref())
-                    .and_then(f)
-                    .filter(|v| v.is_finite())
-            })
+            .map(|e| e.and_then(f).filter(|v| v.is_finite()))
             .collect::<Vec<_>>()
     };
     cols.push(Column::new(
@@ -251,14 +253,9 @@ fn frame(
     // what the model can vouch for), as in the plain eval table.
     cols.push(Column::new(
         "warnings".into(),
-        checks
+        evaluations
             .iter()
-            .map(|c| {
-                c.as_ref()
-                    .ok()
-                    .and_then(|c| c.candidate.evaluation.as_ref())
-                    .map(|e| e.warnings.join("; "))
-            })
+            .map(|e| e.map(|e| e.warnings.join("; ")))
             .collect::<Vec<_>>(),
     ));
     cols.push(Column::new(
@@ -356,13 +353,11 @@ fn summary(
 /// one side, the one-sided 95 % bound of the rule of three (1 − 3/n, or
 /// 3/n), not a certainty (docs/science.md, "What is reported").
 fn probability_text(p: f64, n: usize) -> String {
+    let bound = quenchwise::uncertainty::rule_of_three(n);
     if n > 0 && p >= 1.0 {
-        format!(
-            "P ≥ {:.3}, every one of {n} draws glassy",
-            1.0 - 3.0 / n as f64
-        )
+        format!("P ≥ {:.3}, every one of {n} draws glassy", 1.0 - bound)
     } else if n > 0 && p <= 0.0 {
-        format!("P ≤ {:.3}, none of {n} draws glassy", 3.0 / n as f64)
+        format!("P ≤ {bound:.3}, none of {n} draws glassy")
     } else {
         format!("P = {p:.3}")
     }

@@ -21,14 +21,15 @@ use quenchwise::files::table_stream::{
     table_column_names, CompositionRows, ExtraCells, ExtraColumns, MeltSpreadRows, ResultPlan,
     MELT_SPREAD_COLUMNS,
 };
-use quenchwise::kinetics::KineticOptions;
+use quenchwise::kinetics::{KineticOptions, KineticOverrides};
+use quenchwise::properties::ModelSet;
 use quenchwise::report::text::evaluation_text;
 use quenchwise::report::uncertainty::propagation_text;
 use quenchwise::uncertainty::melt::{
     alpha_input_name, composition_critical_rate, inputs_of, interface_energy_input_name,
     melt_critical_rate, melt_inputs, model_set_inputs, NUCLEI_INPUT_NAME,
 };
-use quenchwise::uncertainty::melt::{MeltSpreads, Target};
+use quenchwise::uncertainty::melt::{MeltSpreads, Target, Uncertain};
 use quenchwise::uncertainty::sampling::row_seed;
 use quenchwise::uncertainty::Propagation;
 use quenchwise::uncertainty::{propagate, Settings, DEFAULT_SEED, MAX_DRAWS, MIN_DRAWS};
@@ -117,19 +118,8 @@ pub fn eval_uncertainty(a: &EvalArgs, draws: usize) -> Result<Outcome, Error> {
     } else {
         let wt = a.wt_text.as_deref().filter(|t| !t.is_empty());
         let comp = input::composition(a.mol.as_deref(), wt, a.recipe.as_deref(), a.sum_tolerance)?;
-        let models = super::eval::eval_models(a)?;
-        let opts = cli.apply(base_options(&models));
-        let (inputs, notes) = model_set_inputs(&models, &opts, None)?;
-        for n in &notes {
-            errln!("quenchwise: {n}");
-        }
-        if inputs.is_empty() {
-            return Err(Error::bad_input(format!(
-                "model set '{}' has no fit records and no standard error of α to draw from",
-                models.about.name
-            ))
-            .with_hint("fit the models to your measurements with `quenchwise fit` (it writes the covariances), or use a melt card with turnbull_alpha_sd"));
-        }
+        let (models, opts, inputs) =
+            model_set_draws(a, &cli, "a melt card with turnbull_alpha_sd")?;
         let e = evaluate_composition(&models, &comp, &opts, slab, &Calibration::None)?;
         let prop = propagate(&inputs_of(&inputs), settings, quench, |v| {
             composition_critical_rate(&models, &comp, &opts, &inputs, v)
@@ -303,6 +293,30 @@ fn melt_table_share_inputs(header: &[String], nuclei_given: bool) -> Vec<String>
 /// table does not depend on the thread count or the batch size; streamed in
 /// batches like every table (memory holds one batch and, per running row,
 /// its N draws).
+/// The model set `eval` draws from, its kinetic options (the command line
+/// applied) and its uncertain inputs, the notes about them printed; refused
+/// when the set gives nothing to draw (`instead`: what the user may use).
+fn model_set_draws(
+    a: &EvalArgs,
+    cli: &KineticOverrides,
+    instead: &str,
+) -> Result<(ModelSet, KineticOptions, Vec<Uncertain>), Error> {
+    let models = super::eval::eval_models(a)?;
+    let opts = cli.apply(base_options(&models));
+    let (inputs, notes) = model_set_inputs(&models, &opts, None)?;
+    for n in &notes {
+        errln!("quenchwise: {n}");
+    }
+    if inputs.is_empty() {
+        return Err(Error::bad_input(format!(
+            "model set '{}' has no fit records and no standard error of α to draw from",
+            models.about.name
+        ))
+        .with_hint(format!("fit the models to your measurements with `quenchwise fit` (it writes the covariances), or use {instead}")));
+    }
+    Ok((models, opts, inputs))
+}
+
 fn eval_uncertainty_table(
     a: &EvalArgs,
     settings: Settings,
@@ -365,19 +379,8 @@ fn eval_uncertainty_table(
     let Some(p) = &a.compositions else {
         return Err(Error::internal("a table without a table input"));
     };
-    let models = super::eval::eval_models(a)?;
-    let opts = cli.apply(base_options(&models));
-    let (inputs, notes) = model_set_inputs(&models, &opts, None)?;
-    for n in &notes {
-        errln!("quenchwise: {n}");
-    }
-    if inputs.is_empty() {
-        return Err(Error::bad_input(format!(
-            "model set '{}' has no fit records and no standard error of α to draw from",
-            models.about.name
-        ))
-        .with_hint("fit the models to your measurements with `quenchwise fit` (it writes the covariances), or use melt-card tables with a turnbull_alpha_sd column"));
-    }
+    let (models, opts, inputs) =
+        model_set_draws(a, &cli, "melt-card tables with a turnbull_alpha_sd column")?;
     let basis = if a.wt_text.as_deref() == Some("") {
         Basis::WtPercent
     } else {

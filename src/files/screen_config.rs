@@ -1054,17 +1054,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
     // every snapped recipe would be dropped (the balance oxide, widest
     // range, takes the rest and is not snapped on its own).
     if let Some(snap) = snapping {
-        let balance = oxides
-            .iter()
-            .enumerate()
-            .fold((usize::MAX, f64::NEG_INFINITY), |(bi, bw), (i, o)| {
-                if o.2 - o.1 > bw {
-                    (i, o.2 - o.1)
-                } else {
-                    (bi, bw)
-                }
-            })
-            .0;
+        let balance = crate::screen::simplex::balance_index(&oxides);
         for (i, &(o, lo, hi)) in oxides.iter().enumerate() {
             if i == balance || lo >= hi {
                 continue;
@@ -1216,5 +1206,5 @@ fn src_error(src: &Source, problems: Vec<Problem>, hint: &str) -> DataError {
 /// bound when every draw is glassy (the rule of three; Hanley &
 /// Lippman-Hand 1983, JAMA 249, 1743).
 fn most_shown(draws: usize) -> f64 {
-    1.0 - 3.0 / draws.max(1) as f64
+    1.0 - crate::uncertainty::rule_of_three(draws)
 }

@@ -50,17 +50,14 @@ pub fn propagation_text(p: &Propagation, unit: RateUnit) -> String {
         // With every draw on one side the binomial error is 0; the rule of
         // three gives the 95 % bound instead (Hanley & Lippman-Hand 1983,
         // JAMA 249, 1743).
-        let n = p.draws as f64;
+        let bound = crate::uncertainty::rule_of_three(p.draws);
         let told = if pg >= 1.0 {
             format!(
                 "≥ {:.3} (95 %: no draw crystallised; rule of three)",
-                1.0 - 3.0 / n
+                1.0 - bound
             )
         } else if pg <= 0.0 {
-            format!(
-                "≤ {:.3} (95 %: no draw stayed glassy; rule of three)",
-                3.0 / n
-            )
+            format!("≤ {bound:.3} (95 %: no draw stayed glassy; rule of three)")
         } else {
             format!("{pg:.3} (± {se:.3}, binomial standard error)")
         };

@@ -14,21 +14,26 @@ pub struct Simplex {
     pub balance: (Oxide, f64, f64),
 }
 
+/// Which of the varying oxides (oxide, min, max mol%) closes the sum: the
+/// one with the widest range (ties: the first); 0 for an empty list.
+pub fn balance_index(oxides: &[(Oxide, f64, f64)]) -> usize {
+    oxides
+        .iter()
+        .enumerate()
+        .fold((0, f64::NEG_INFINITY), |(bi, bw), (i, o)| {
+            if o.2 - o.1 > bw {
+                (i, o.2 - o.1)
+            } else {
+                (bi, bw)
+            }
+        })
+        .0
+}
+
 impl Simplex {
     /// The balance oxide is the one with the widest range (ties: the first).
     pub fn new(problem: &ScreenProblem) -> Self {
-        let (bi, _) =
-            problem
-                .oxides
-                .iter()
-                .enumerate()
-                .fold((0, f64::NEG_INFINITY), |(bi, bw), (i, o)| {
-                    if o.2 - o.1 > bw {
-                        (i, o.2 - o.1)
-                    } else {
-                        (bi, bw)
-                    }
-                });
+        let bi = balance_index(&problem.oxides);
         let balance = problem.oxides[bi];
         let free = problem
             .oxides

@@ -186,6 +186,13 @@ pub struct Propagation {
 // normal table: 1.645).
 pub const Z_ONE_SIDED_95: f64 = 1.644_853_626_951_472_2;
 
+/// The rule of three: with no event in `n` trials, the one-sided 95 % upper
+/// bound on the event's probability is about 3/n (Hanley & Lippman-Hand 1983,
+/// JAMA 249, 1743). `n` of 0 is taken as 1.
+pub fn rule_of_three(n: usize) -> f64 {
+    3.0 / n.max(1) as f64
+}
+
 /// A one-sided 95 % lower bound on a probability of which `glassy` of `n`
 /// draws are glassy (docs/science.md, "What is reported"): 0 where none is;
 /// where every draw is, the rule of three, 1 − 3/n (Hanley &
@@ -198,9 +205,8 @@ pub fn probability_lower95(glassy: usize, n: usize) -> f64 {
     if n == 0 || glassy == 0 {
         return 0.0;
     }
-    let nf = n as f64;
     if glassy >= n {
-        return (1.0 - 3.0 / nf).max(0.0);
+        return (1.0 - rule_of_three(n)).max(0.0);
     }
     wilson_lower(glassy, n, Z_ONE_SIDED_95)
 }
