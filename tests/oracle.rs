@@ -47,3 +47,33 @@ pub fn dense_growth_integral(k: &Kinetics, points: usize) -> f64 {
         })
         .sum()
 }
+
+/// R_c with pre-existing nuclei as well: the root R of
+/// (4π/3)[J/R⁴ + N_h (∫U dT)³/R³] = X_c, J and ∫U dT on `points` uniform
+/// intervals as above, solved by bisection on ln R (one phase).
+pub fn dense_reference_critical_rate_with_nuclei(k: &Kinetics, nuclei: f64, points: usize) -> f64 {
+    let xc = k.options().detectable_fraction;
+    let ln_4pi_3 = (4.0 * PI / 3.0).ln();
+    // ln A = ln((4π/3) J) from R_c,J = [(4π/3) J / X_c]^¼.
+    let ln_a = 4.0 * dense_reference_critical_rate(k, points).ln() + xc.ln();
+    let ln_b = if nuclei > 0.0 {
+        ln_4pi_3 + nuclei.ln() + 3.0 * dense_growth_integral(k, points).ln()
+    } else {
+        f64::NEG_INFINITY
+    };
+    let ln_x = |l: f64| {
+        let (p, q) = (ln_a - 4.0 * l, ln_b - 3.0 * l);
+        let m = p.max(q);
+        m + ((p - m).exp() + (q - m).exp()).ln()
+    };
+    let (mut lo, mut hi) = (-2000.0, 2000.0);
+    for _ in 0..200 {
+        let mid = 0.5 * (lo + hi);
+        if ln_x(mid) > xc.ln() {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    (0.5 * (lo + hi)).exp()
+}

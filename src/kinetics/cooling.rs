@@ -130,6 +130,7 @@ impl Kinetics {
             cooling,
             &self.quad,
             (ln_nuclei, self.opts.detectable_fraction.ln()),
+            self.decoupling_temperature(),
             seed,
             keep,
         )

@@ -281,18 +281,24 @@ impl Quadrature {
         q: &QuadratureSettings,
         ttt: (f64, f64),
     ) -> Result<CoolingIntegrals, KineticsError> {
-        Quadrature::cooling_integrals_seeded(rates, window, cooling, q, ttt, None, None)
+        Quadrature::cooling_integrals_seeded(rates, window, cooling, q, ttt, None, None, None)
     }
 
     /// As [`Quadrature::cooling_integrals_with`], starting from the panels of
     /// `seed` (a layout over the same window) when given, and leaving the final
-    /// panels in `keep` when given.
+    /// panels in `keep` when given. A `kink` inside the window (a temperature
+    /// where the rates are continuous but their slope is not, as at the
+    /// decoupling temperature) becomes a panel edge: a Gauss–Legendre panel
+    /// across a kink converges only slowly (docs/science.md, "The adaptive
+    /// Gauss–Legendre quadrature").
+    #[allow(clippy::too_many_arguments)]
     pub(super) fn cooling_integrals_seeded<R: Fn(f64) -> Rates>(
         rates: &R,
         (a, b): (f64, f64),
         cooling: Cooling,
         q: &QuadratureSettings,
         ttt: (f64, f64),
+        kink: Option<f64>,
         seed: Option<&Layout>,
         keep: Option<&mut Layout>,
     ) -> Result<CoolingIntegrals, KineticsError> {
@@ -315,16 +321,27 @@ impl Quadrature {
                     .collect(),
                 0,
             ),
-            _ => (
-                (0..n0)
-                    .map(|k| {
-                        let lo = a + (b - a) * k as f64 / n0 as f64;
-                        let hi = a + (b - a) * (k + 1) as f64 / n0 as f64;
-                        Quadrature::panel(rates, rule, lo, hi, cooling)
-                    })
-                    .collect(),
-                n0 * NODES,
-            ),
+            _ => {
+                let mut edges: Vec<f64> = (0..=n0)
+                    .map(|k| a + (b - a) * k as f64 / n0 as f64)
+                    .collect();
+                if let Some(t) = kink.filter(|&t| t > a && t < b) {
+                    // The kink replaces the nearest even edge, or is added when
+                    // that edge is a window end.
+                    let k = (((t - a) / (b - a)) * n0 as f64).round() as usize;
+                    if k == 0 || k == n0 {
+                        edges.insert(if k == 0 { 1 } else { n0 }, t);
+                    } else {
+                        edges[k] = t;
+                    }
+                }
+                let panels: Vec<Panel> = edges
+                    .windows(2)
+                    .map(|e| Quadrature::panel(rates, rule, e[0], e[1], cooling))
+                    .collect();
+                let n = panels.len() * NODES;
+                (panels, n)
+            }
         };
         let keep_layout = |panels: &[Panel], keep: Option<&mut Layout>| {
             if let Some(k) = keep {

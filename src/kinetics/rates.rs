@@ -193,6 +193,11 @@ impl Kinetics {
         self.phases.iter().map(|(i, _)| *i)
     }
 
+    /// T_d, below which the fractional transport law holds (None: Stokes–Einstein throughout).
+    pub(super) fn decoupling_temperature(&self) -> Option<f64> {
+        self.decoupling.map(|(td, _, _)| td)
+    }
+
     /// ln(T/η) with the transport law in force: Stokes–Einstein gives
     /// D = (k_B/3πλ)·T/η; below T_d the fractional law scales it as (T/η)^ξ.
     #[inline]
