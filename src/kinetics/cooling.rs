@@ -119,11 +119,7 @@ impl Kinetics {
         seed: Option<&Layout>,
         keep: Option<&mut Layout>,
     ) -> Result<CoolingIntegrals, KineticsError> {
-        let ln_nuclei = if p.nuclei > 0.0 {
-            ln_4pi_3() + p.nuclei.ln()
-        } else {
-            f64::NEG_INFINITY
-        };
+        let ln_nuclei = p.ln_nuclei_sphere;
         Quadrature::cooling_integrals_seeded(
             &|t| self.rates_of(p, t),
             (self.freeze, p.tl),

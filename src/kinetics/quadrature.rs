@@ -205,6 +205,25 @@ struct Panel {
     ln_u_range: f64,
 }
 
+/// The working buffers of the adaptive quadrature, kept per thread.
+#[derive(Default)]
+struct Scratch {
+    panels: Vec<Panel>,
+    next: Vec<Panel>,
+    /// I·G³ at the nodes of each panel.
+    f: Vec<[f64; NODES]>,
+    /// Each panel's estimate of the integral.
+    share: Vec<f64>,
+    /// The running growth integral at each panel's end.
+    g_end: Vec<f64>,
+    /// How many pieces each panel is cut into.
+    split: Vec<usize>,
+}
+
+thread_local! {
+    static SCRATCH: std::cell::RefCell<Scratch> = std::cell::RefCell::default();
+}
+
 /// Common scale factors of the linear values: I·exp(−i_shift), U·exp(−u_shift).
 #[derive(Clone, Copy)]
 struct Shifts {
@@ -294,6 +313,37 @@ impl Quadrature {
     #[allow(clippy::too_many_arguments)]
     pub(super) fn cooling_integrals_seeded<R: Fn(f64) -> Rates>(
         rates: &R,
+        window: (f64, f64),
+        cooling: Cooling,
+        q: &QuadratureSettings,
+        ttt: (f64, f64),
+        kink: Option<f64>,
+        seed: Option<&Layout>,
+        keep: Option<&mut Layout>,
+    ) -> Result<CoolingIntegrals, KineticsError> {
+        // The working buffers of this thread, taken for the call and put back
+        // after it, so a screen allocates them once per thread, not per phase
+        // of every candidate.
+        let mut scratch = SCRATCH.with(|s| std::mem::take(&mut *s.borrow_mut()));
+        let out = Quadrature::integrate(
+            &mut scratch,
+            rates,
+            window,
+            cooling,
+            q,
+            ttt,
+            kink,
+            seed,
+            keep,
+        );
+        SCRATCH.with(|s| *s.borrow_mut() = scratch);
+        out
+    }
+
+    #[allow(clippy::too_many_arguments)]
+    fn integrate<R: Fn(f64) -> Rates>(
+        scratch: &mut Scratch,
+        rates: &R,
         (a, b): (f64, f64),
         cooling: Cooling,
         q: &QuadratureSettings,
@@ -304,43 +354,51 @@ impl Quadrature {
     ) -> Result<CoolingIntegrals, KineticsError> {
         let rule = rule();
         let n0 = q.initial_panels.max(1);
-        let (mut panels, mut evaluations): (Vec<Panel>, usize) = match seed {
-            Some(l) if !l.panels.is_empty() => (
-                l.panels
-                    .iter()
-                    .map(|r| {
-                        let ts = rule.nodes_on(r.lo, r.hi);
-                        let sh: [f64; NODES] = std::array::from_fn(|k| cooling.ln_shape(ts[k]));
-                        Quadrature::panel_of(
-                            r.lo,
-                            r.hi,
-                            std::array::from_fn(|k| r.ln_i[k] + sh[k]),
-                            std::array::from_fn(|k| r.ln_u[k] + sh[k]),
-                        )
-                    })
-                    .collect(),
-                0,
-            ),
+        let Scratch {
+            panels,
+            next,
+            f,
+            share,
+            g_end,
+            split,
+        } = scratch;
+        panels.clear();
+        let mut evaluations = match seed {
+            Some(l) if !l.panels.is_empty() => {
+                panels.extend(l.panels.iter().map(|r| {
+                    let ts = rule.nodes_on(r.lo, r.hi);
+                    let sh: [f64; NODES] = std::array::from_fn(|k| cooling.ln_shape(ts[k]));
+                    Quadrature::panel_of(
+                        r.lo,
+                        r.hi,
+                        std::array::from_fn(|k| r.ln_i[k] + sh[k]),
+                        std::array::from_fn(|k| r.ln_u[k] + sh[k]),
+                    )
+                }));
+                0
+            }
             _ => {
-                let mut edges: Vec<f64> = (0..=n0)
-                    .map(|k| a + (b - a) * k as f64 / n0 as f64)
-                    .collect();
-                if let Some(t) = kink.filter(|&t| t > a && t < b) {
-                    // The kink replaces the nearest even edge, or is added when
-                    // that edge is a window end.
-                    let k = (((t - a) / (b - a)) * n0 as f64).round() as usize;
-                    if k == 0 || k == n0 {
-                        edges.insert(if k == 0 { 1 } else { n0 }, t);
-                    } else {
-                        edges[k] = t;
+                // Even edges a + (b − a)k/n0. A kink replaces the nearest inner
+                // edge, or is added beside a window end when that edge is one.
+                let edge = |k: usize| a + (b - a) * k as f64 / n0 as f64;
+                let kink = kink
+                    .filter(|&t| t > a && t < b)
+                    .map(|t| (t, (((t - a) / (b - a)) * n0 as f64).round() as usize));
+                let mut lo = a;
+                for k in 1..=n0 {
+                    let mut hi = edge(k);
+                    if let Some((t, nearest)) = kink {
+                        if nearest == k && k < n0 {
+                            hi = t;
+                        } else if (nearest == 0 && k == 1) || (nearest == n0 && k == n0) {
+                            panels.push(Quadrature::panel(rates, rule, lo, t, cooling));
+                            lo = t;
+                        }
                     }
+                    panels.push(Quadrature::panel(rates, rule, lo, hi, cooling));
+                    lo = hi;
                 }
-                let panels: Vec<Panel> = edges
-                    .windows(2)
-                    .map(|e| Quadrature::panel(rates, rule, e[0], e[1], cooling))
-                    .collect();
-                let n = panels.len() * NODES;
-                (panels, n)
+                panels.len() * NODES
             }
         };
         let keep_layout = |panels: &[Panel], keep: Option<&mut Layout>| {
@@ -365,8 +423,8 @@ impl Quadrature {
                 .fold(f64::NEG_INFINITY, f64::max)
         };
         let mut sh = Shifts {
-            i: max_of(&panels, |p| &p.ln_i),
-            u: max_of(&panels, |p| &p.ln_u),
+            i: max_of(panels, |p| &p.ln_i),
+            u: max_of(panels, |p| &p.ln_u),
         };
         if !sh.u.is_finite() {
             return Err(KineticsError::Numerical(
@@ -380,7 +438,7 @@ impl Quadrature {
                 Quadrature::scale_panel(rule, p, sh);
             }
             let g: f64 = panels.iter().map(|p| 0.5 * (p.hi - p.lo) * p.g_tot).sum();
-            keep_layout(&panels, keep);
+            keep_layout(panels, keep);
             return Ok(CoolingIntegrals {
                 ln_j: f64::NEG_INFINITY,
                 ln_g_total: sh.u + g.ln(),
@@ -391,16 +449,13 @@ impl Quadrature {
         for p in panels.iter_mut() {
             Quadrature::scale_panel(rule, p, sh);
         }
-        let mut f = Vec::new();
-        let mut share = Vec::new();
-        let mut g_end = Vec::new();
         loop {
             // Running growth integral G and the integrand F = I G³ at every node.
             f.clear();
             share.clear();
             g_end.clear();
             let mut g_start = 0.0;
-            for p in &panels {
+            for p in panels.iter() {
                 let h = 0.5 * (p.hi - p.lo);
                 let fp: [f64; NODES] = std::array::from_fn(|i| {
                     // The interpolant of a steep U can dip below zero near the panel start.
@@ -427,7 +482,8 @@ impl Quadrature {
             // How many pieces each panel is cut into (1 = kept): enough that the
             // measured log range per piece falls to the threshold, at most 8.
             let f_peak = f.iter().flat_map(|v| v.iter().copied()).fold(0.0, f64::max);
-            let mut split = vec![1usize; panels.len()];
+            split.clear();
+            split.resize(panels.len(), 1);
             let mut any = false;
             for (k, p) in panels.iter().enumerate() {
                 if p.hi - p.lo < min_width {
@@ -459,8 +515,8 @@ impl Quadrature {
             }
             if !any || panels.len() >= MAX_PANELS {
                 // Nose guess: the node with the shortest isothermal time to X_c.
-                let nose = nose_node(rule, &panels, a, ttt);
-                keep_layout(&panels, keep);
+                let nose = nose_node(rule, panels, a, ttt);
+                keep_layout(panels, keep);
                 return Ok(CoolingIntegrals {
                     ln_j: sh.i + 3.0 * sh.u + total.ln(),
                     ln_g_total: sh.u + g_start.ln(),
@@ -468,9 +524,9 @@ impl Quadrature {
                     evaluations,
                 });
             }
-            let mut next = Vec::with_capacity(panels.len() * 2);
+            next.clear();
             let mut rebase = false;
-            for (p, &pieces) in panels.into_iter().zip(&split) {
+            for (p, &pieces) in panels.drain(..).zip(split.iter()) {
                 if pieces > 1 {
                     let w = (p.hi - p.lo) / pieces as f64;
                     for j in 0..pieces {
@@ -490,11 +546,11 @@ impl Quadrature {
                     next.push(p);
                 }
             }
-            panels = next;
+            std::mem::swap(panels, next);
             if rebase {
                 sh = Shifts {
-                    i: max_of(&panels, |p| &p.ln_i),
-                    u: max_of(&panels, |p| &p.ln_u),
+                    i: max_of(panels, |p| &p.ln_i),
+                    u: max_of(panels, |p| &p.ln_u),
                 };
                 for p in panels.iter_mut() {
                     Quadrature::scale_panel(rule, p, sh);

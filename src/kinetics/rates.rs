@@ -69,6 +69,8 @@ pub(super) struct PhaseRates {
     screw: bool,
     /// Pre-existing nuclei per m³.
     pub(super) nuclei: f64,
+    /// ln((4π/3) N_h), −∞ without pre-existing nuclei.
+    pub(super) ln_nuclei_sphere: f64,
 }
 
 /// A melt prepared for fast evaluation of I(T) and U(T) of every phase.
@@ -133,6 +135,15 @@ impl Kinetics {
                     kw_wall: wall.map(|f| f * kw),
                     screw: p.growth == GrowthMode::Screw,
                     nuclei: p.nuclei_per_m3.unwrap_or(opts.heterogeneous_nuclei_per_m3),
+                    ln_nuclei_sphere: f64::NEG_INFINITY,
+                };
+                let rates = PhaseRates {
+                    ln_nuclei_sphere: if rates.nuclei > 0.0 {
+                        (4.0 * PI / 3.0 * rates.nuclei).ln()
+                    } else {
+                        f64::NEG_INFINITY
+                    },
+                    ..rates
                 };
                 (i, rates)
             })
