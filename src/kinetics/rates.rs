@@ -293,10 +293,15 @@ impl Kinetics {
         if let Some(kw_wall) = p.kw_wall {
             ln_nucleation = log_add(ln_nucleation, p.ln_wall_pref + ln_d - kw_wall * barrier);
         }
-        let mut ln_growth = p.ln_u_pref + ln_d + (-(-dg / (GAS_CONSTANT * t)).exp_m1()).ln();
-        if p.screw {
-            ln_growth += ((p.tl - t) / (2.0 * PI * p.tl)).ln();
-        }
+        // U = (D/λ)(1 − e^(−ΔG/RT)), times ΔT/(2π T_L) for screw growth: the
+        // two factors share one logarithm.
+        let kinetic = -(-dg / (GAS_CONSTANT * t)).exp_m1();
+        let site_fraction = if p.screw {
+            (p.tl - t) / (2.0 * PI * p.tl)
+        } else {
+            1.0
+        };
+        let ln_growth = p.ln_u_pref + ln_d + (kinetic * site_fraction).ln();
         Rates {
             ln_nucleation,
             ln_growth,
