@@ -429,6 +429,50 @@ fn s4_absurd_counts_are_refused_by_check_with_their_range() {
 }
 
 #[test]
+fn every_two_number_range_refuses_a_longer_list_where_it_stands() {
+    // A third number was once dropped without a word by every [min, max]
+    // key read as a fixed pair; each is now refused with its line.
+    let d = temp_dir("pairs");
+    for (from, to) in [
+        (
+            "# glass_transition_c = [520.0, 600.0]",
+            "glass_transition_c = [520.0, 600.0, 700.0]",
+        ),
+        (
+            "# working_range_k = [250.0, 400.0]",
+            "working_range_k = [250.0]",
+        ),
+    ] {
+        let text = demo_config(&[(from, to), ("# [properties]", "[properties]")]);
+        let c = write(&d, "s.toml", &text);
+        let n = if to.contains("700") { 3 } else { 1 };
+        run_in(&d, &["check", &c]).code(2).stderr_has(&format!(
+            "s.toml:{}: invalid length {n}, expected two numbers [min, max]",
+            line_of(&text, to)
+        ));
+    }
+    // A model set's validity domain.
+    let text = quenchwise::files::model_set::DEMO_MODELS.replacen(
+        "Na2O = [9.0, 20.0]",
+        "Na2O = [9.0, 20.0, 30.0]",
+        1,
+    );
+    assert_ne!(text, quenchwise::files::model_set::DEMO_MODELS);
+    let err = quenchwise::files::model_set::parse_model_set(
+        &quenchwise::files::source::Source::new("lab.toml", &text),
+    )
+    .unwrap_err()
+    .to_string();
+    assert!(
+        err.contains(&format!(
+            "lab.toml:{}",
+            line_of(&text, "Na2O = [9.0, 20.0, 30.0]")
+        )) && err.contains("invalid length 3, expected two numbers [min, max]"),
+        "{err}"
+    );
+}
+
+#[test]
 fn s5_nan_negative_and_inverted_config_values_are_refused_with_lines() {
     let d = temp_dir("s5");
     let text = demo_config(&[

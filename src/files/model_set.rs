@@ -3,7 +3,7 @@
 //! [`ModelSet`] with every problem located by line. The two shipped files are
 //! embedded in the binary, so the program runs with no files beside it.
 
-use super::source::{read_text, Collector, DataError, Source};
+use super::source::{read_text, Collector, DataError, Pair, Source};
 use crate::composition::N_OXIDES;
 use crate::properties::fit::{alpha_coefficient, NUCLEI_COEFFICIENT};
 use crate::properties::{
@@ -89,7 +89,7 @@ struct ViscosityFile {
     #[allow(dead_code)]
     note: Option<String>,
     #[serde(default)]
-    domain: BTreeMap<Spanned<String>, Spanned<[f64; 2]>>,
+    domain: BTreeMap<Spanned<String>, Spanned<Pair>>,
     a: Option<MixtureFile>,
     b_k: Option<MixtureFile>,
     c_k: Option<MixtureFile>,
@@ -201,7 +201,7 @@ struct PhaseFile {
     #[serde(default)]
     liquidus_fit: Option<FitFile>,
     #[serde(default)]
-    domain: BTreeMap<Spanned<String>, Spanned<[f64; 2]>>,
+    domain: BTreeMap<Spanned<String>, Spanned<Pair>>,
 }
 
 #[derive(Deserialize)]

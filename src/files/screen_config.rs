@@ -6,7 +6,7 @@
 use super::melt_card::KineticsTable;
 use super::model_set::{built_in_model_set, load_model_set, load_viscosity_model};
 use super::raw_materials::read_raw_materials;
-use super::source::{read_text, DataError, Problem, Source};
+use super::source::{read_text, DataError, Pair, Problem, Source};
 use crate::batch::{BatchSettings, CostModel, MAX_BATCH_TOLERANCE_WT_PCT};
 use crate::composition::expr::parse_linear;
 use crate::composition::Oxide;
@@ -31,7 +31,7 @@ use toml::Spanned;
 #[serde(deny_unknown_fields)]
 struct RawConfig {
     search: RawSearch,
-    oxides: BTreeMap<Spanned<String>, Spanned<[f64; 2]>>,
+    oxides: BTreeMap<Spanned<String>, Spanned<Pair>>,
     #[serde(default)]
     constraint: Vec<RawConstraint>,
     equipment: Spanned<RawEquipments>,
@@ -253,8 +253,8 @@ struct RawCost {
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct RawProperties {
-    glass_transition_c: Option<Spanned<[f64; 2]>>,
-    working_range_k: Option<Spanned<[f64; 2]>>,
+    glass_transition_c: Option<Spanned<Pair>>,
+    working_range_k: Option<Spanned<Pair>>,
 }
 
 #[derive(Deserialize)]
@@ -467,30 +467,6 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         }
     });
 
-    // A range is two numbers: the reader takes the first two of a longer
-    // list, so the length is checked on the text itself.
-    if let Ok(table) = text.parse::<toml::Table>() {
-        if let Some(toml::Value::Table(listed)) = table.get("oxides") {
-            for (name, value) in listed {
-                let n = match value {
-                    toml::Value::Array(a) => a.len(),
-                    _ => continue,
-                };
-                if n != 2 {
-                    let span = raw
-                        .oxides
-                        .iter()
-                        .find(|(k, _)| k.get_ref() == name)
-                        .map(|(_, v)| v.span())
-                        .unwrap_or(0..0);
-                    push(
-                        span,
-                        format!("{name} limits must be two numbers [min, max] mol%, got {n}"),
-                    );
-                }
-            }
-        }
-    }
     let mut oxides: Vec<(Oxide, f64, f64)> = Vec::new();
     let mut named: Vec<(Oxide, &Spanned<String>)> = Vec::new();
     for (k, v) in &raw.oxides {
@@ -516,7 +492,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
                     continue;
                 }
                 named.push((o, k));
-                let [lo, hi] = *v.get_ref();
+                let [lo, hi] = v.get_ref().0;
                 if !(lo.is_finite() && hi.is_finite() && 0.0 <= lo && lo <= hi && hi <= 100.0) {
                     push(v.span(), format!("{o} limits must be [min, max] with 0 <= min <= max <= 100 mol%, got [{lo}, {hi}]"));
                 }
@@ -911,8 +887,8 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
             "objective kind = \"cost\" needs a [cost] table with the raw materials".into(),
         );
     }
-    let mut bounds = |key: &str, b: &Spanned<[f64; 2]>, lowest: f64, unit: &str| -> (f64, f64) {
-        let [lo, hi] = *b.get_ref();
+    let mut bounds = |key: &str, b: &Spanned<Pair>, lowest: f64, unit: &str| -> (f64, f64) {
+        let [lo, hi] = b.get_ref().0;
         if !(lo.is_finite() && hi.is_finite() && lo >= lowest && lo <= hi) {
             push(
                 b.span(),
@@ -1100,7 +1076,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
             let Ok(o) = k.get_ref().parse::<Oxide>() else {
                 continue;
             };
-            if v.get_ref()[1] <= 0.0 {
+            if v.get_ref().0[1] <= 0.0 {
                 continue;
             }
             let mut missing = Vec::new();
@@ -1115,7 +1091,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
                     k.span(),
                     format!(
                         "{o} may reach {} mol% here, but {} (no validity domain lists it), so its effect would count as zero; narrow {o} to [0, 0], use a model set that covers it, or set allow_extrapolation = true under [search]",
-                        v.get_ref()[1],
+                        v.get_ref().0[1],
                         match missing.as_slice() {
                             [one] => format!("{one} does not cover {o}"),
                             _ => format!("neither {} covers {o}", missing.join(" nor ")),

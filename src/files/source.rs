@@ -156,6 +156,40 @@ pub fn read_text(path: &Path) -> Result<String, DataError> {
 }
 
 /// Collects every problem of a file, so all are reported at once.
+/// Two numbers [low, high] in a TOML file. A list of any other length is
+/// refused where it is read: serde's fixed-size arrays take the first two
+/// numbers of a longer list and drop the rest without a word.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct Pair(pub [f64; 2]);
+
+impl<'de> Deserialize<'de> for Pair {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct Two;
+        impl<'de> serde::de::Visitor<'de> for Two {
+            type Value = Pair;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str("two numbers [min, max]")
+            }
+            fn visit_seq<A: serde::de::SeqAccess<'de>>(self, mut seq: A) -> Result<Pair, A::Error> {
+                let mut got = [0.0; 2];
+                let mut n = 0;
+                while let Some(x) = seq.next_element::<f64>()? {
+                    if n < 2 {
+                        got[n] = x;
+                    }
+                    n += 1;
+                }
+                if n == 2 {
+                    Ok(Pair(got))
+                } else {
+                    Err(serde::de::Error::invalid_length(n, &self))
+                }
+            }
+        }
+        d.deserialize_seq(Two)
+    }
+}
+
 pub(crate) struct Collector<'s, 'a> {
     pub(crate) src: &'s Source<'a>,
     pub(crate) problems: Vec<Problem>,
@@ -248,7 +282,7 @@ impl<'s, 'a> Collector<'s, 'a> {
     /// (0–100 mol%).
     pub(crate) fn domain(
         &mut self,
-        d: &BTreeMap<Spanned<String>, Spanned<[f64; 2]>>,
+        d: &BTreeMap<Spanned<String>, Spanned<Pair>>,
         uses: impl Fn(Oxide) -> bool,
     ) -> Domain {
         let mut out = Domain::default();
@@ -260,7 +294,7 @@ impl<'s, 'a> Collector<'s, 'a> {
         }
         for (k, v) in d {
             if let Some(o) = self.oxide_once(k, &mut seen) {
-                let [lo, hi] = *v.get_ref();
+                let [lo, hi] = v.get_ref().0;
                 if !(lo.is_finite() && hi.is_finite() && 0.0 <= lo && lo <= hi && hi <= 100.0) {
                     self.push(v.span(), format!("domain of {o} must be [min, max] with 0 <= min <= max <= 100 mol%, got [{lo}, {hi}]"));
                 }
