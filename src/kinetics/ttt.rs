@@ -323,7 +323,7 @@ impl Kinetics {
         // start 0.12 h away from it).
         let lo = (t0 - 0.5 * half).max(self.freeze);
         let hi = (t0 + 0.5 * half * GOLDEN_STRETCH).min(self.tl);
-        brent_min(|t| self.ln_ttt_time(t), lo, hi, 1e-5).map_err(KineticsError::Numerical)
+        brent_min(|t| self.ln_ttt_time(t), lo, hi, 1e-6).map_err(KineticsError::Numerical)
     }
 }
 
