@@ -445,9 +445,13 @@ fn every_two_number_range_refuses_a_longer_list_where_it_stands() {
     ] {
         let text = demo_config(&[(from, to), ("# [properties]", "[properties]")]);
         let c = write(&d, "s.toml", &text);
-        let n = if to.contains("700") { 3 } else { 1 };
+        let (key, n, unit) = if to.contains("700") {
+            ("glass_transition_c", 3, "°C")
+        } else {
+            ("working_range_k", 1, "K")
+        };
         run_in(&d, &["check", &c]).code(2).stderr_has(&format!(
-            "s.toml:{}: invalid length {n}, expected two numbers [min, max]",
+            "s.toml:{}: {key} must be two numbers [min, max] {unit}, got {n}",
             line_of(&text, to)
         ));
     }
@@ -467,7 +471,7 @@ fn every_two_number_range_refuses_a_longer_list_where_it_stands() {
         err.contains(&format!(
             "lab.toml:{}",
             line_of(&text, "Na2O = [9.0, 20.0, 30.0]")
-        )) && err.contains("invalid length 3, expected two numbers [min, max]"),
+        )) && err.contains("domain of Na2O must be two numbers [min, max] mol%, got 3"),
         "{err}"
     );
 }

@@ -6,7 +6,7 @@ use crate::oracle::{
 };
 use crate::tolerances::{
     CRITICAL_RATE_RTOL, NOSE_RATIO_CARD, NOSE_RATIO_RTOL, NOSE_RATIO_SCREW_HOFFMAN,
-    NOSE_TEMPERATURE_ATOL_K, NOSE_TIME_RTOL, ORACLE_RTOL, PATH_RTOL,
+    NOSE_SEARCH_ATOL_K, NOSE_TEMPERATURE_ATOL_K, NOSE_TIME_RTOL, ORACLE_RTOL, PATH_RTOL,
 };
 use crate::util::rel;
 use quenchwise::kinetics::{
@@ -291,25 +291,21 @@ fn default_quadrature_meets_the_target_over_a_family_of_melts() {
     assert!(worst < ORACLE_RTOL, "worst relative error {worst:.2e}");
 }
 
-#[test]
-fn default_quadrature_meets_the_target_over_random_melts_and_options() {
-    // The accuracy target of R_c (0.1 %, docs/science.md, "The adaptive
-    // Gauss–Legendre quadrature") against the dense trapezoid oracle over 300
-    // melts drawn at random (fixed seed) across every option that shapes the
-    // integrand: VFT curves, T_L/T_g from 1.25 to 1.9, ΔH_m, V_m, α, ΔC_p,
-    // growth mode, driving force, pre-existing nuclei, wall nucleation and
-    // fractional transport. The kink of the fractional law at T_d is what
-    // this family found: inside a panel it cost up to 3.6e-3.
-    let mut z = 0x5eedu64;
-    let mut u = || {
+/// Single-phase melts drawn at random (fixed seed, a SplitMix-style
+/// sequence) across every option that shapes the kinetics: VFT curves, T_L/T_g
+/// from 1.25 to 1.9, ΔH_m, V_m, α, ΔC_p, growth mode, driving force,
+/// pre-existing nuclei, wall nucleation and fractional transport; only melts
+/// the kinetics accept (liquidus above T_g) are yielded.
+fn random_melts(seed: u64) -> impl Iterator<Item = (Melt, KineticOptions)> {
+    let mut z = seed;
+    let mut u = move || {
         z = z.wrapping_add(0x9e3779b97f4a7c15);
         let mut x = z;
         x = (x ^ (x >> 30)).wrapping_mul(0xbf58476d1ce4e5b9);
         x = (x ^ (x >> 27)).wrapping_mul(0x94d049bb133111eb);
         ((x ^ (x >> 31)) >> 11) as f64 / (1u64 << 53) as f64
     };
-    let (mut worst, mut tried, mut kinked): (f64, usize, usize) = (0.0, 0, 0);
-    while tried < 300 {
+    std::iter::from_fn(move || loop {
         let (a, b, c) = (-4.0 + 2.5 * u(), 2000.0 + 7000.0 * u(), 300.0 + 500.0 * u());
         let tl = (c + b / (12.0 - a)) * (1.25 + 0.65 * u());
         let growth = if u() < 0.5 {
@@ -346,18 +342,116 @@ fn default_quadrature_meets_the_target_over_random_melts_and_options() {
         let Ok(m) = Melt::with_phases(ViscosityCurve::vft(a, b, c).unwrap(), vec![p]) else {
             continue;
         };
-        let Ok(k) = Kinetics::new(&m, &o) else {
+        if Kinetics::new(&m, &o).is_ok() {
+            return Some((m, o));
+        }
+    })
+}
+
+#[test]
+fn the_nose_lies_where_a_golden_section_search_puts_it() {
+    // Source: golden-section search (Kiefer 1953, Proc. Am. Math. Soc. 4, 502;
+    // from memory), a different minimiser from the code's Brent, run to 10⁻⁶ K
+    // on ln t(T) built here from the public rates (A t⁴ + B t³ = X_c solved by
+    // bisection), after a 0.05 K scan ±20 K around the nose found (the lower
+    // of two minima either side of a decoupling kink), over 300 random melts. The
+    // nose time is a flat minimum; its temperature decides the rates printed
+    // at the nose (docs/science.md, "The nose").
+    let pi = PI;
+    let mut worst: f64 = 0.0;
+    let mut n = 0;
+    for (m, o) in random_melts(0x0b5e) {
+        if n == 300 {
+            break;
+        }
+        let k = Kinetics::new(&m, &o).unwrap();
+        let Ok(s) = k.analyse() else {
             continue;
         };
-        let Ok(fast) = k.critical_rate() else {
-            continue;
+        n += 1;
+        let lx = o.detectable_fraction.ln();
+        let ln_t = |t: f64| {
+            let r = k.rates(Kelvin(t));
+            let la = (pi / 3.0).ln() + r.ln_nucleation + 3.0 * r.ln_growth;
+            let lb = if o.heterogeneous_nuclei_per_m3 > 0.0 {
+                (4.0 * pi / 3.0 * o.heterogeneous_nuclei_per_m3).ln() + 3.0 * r.ln_growth
+            } else {
+                f64::NEG_INFINITY
+            };
+            let f = |z: f64| {
+                let (p, q) = (la + 4.0 * z, lb + 3.0 * z);
+                let m = p.max(q);
+                m + ((p - m).exp() + (q - m).exp()).ln() - lx
+            };
+            let (mut lo, mut hi) = (-3000.0, 3000.0);
+            for _ in 0..200 {
+                let mid = 0.5 * (lo + hi);
+                if f(mid) > 0.0 {
+                    hi = mid;
+                } else {
+                    lo = mid;
+                }
+            }
+            0.5 * (lo + hi)
         };
+        let t0 = s.nose_temperature.0;
+        // A scan in 0.05 K steps first: ln t(T) may have two minima (one each
+        // side of the decoupling kink), and the nose is the lower one.
+        let (a, b) = (
+            (t0 - 20.0).max(k.freeze_temperature().0),
+            (t0 + 20.0).min(k.liquidus().0 - 1e-6),
+        );
+        let steps = ((b - a) / 0.05) as usize;
+        let best = (0..=steps)
+            .map(|i| a + (b - a) * i as f64 / steps as f64)
+            .min_by(|x, y| ln_t(*x).total_cmp(&ln_t(*y)))
+            .unwrap();
+        let (mut lo, mut hi) = ((best - 0.05).max(a), (best + 0.05).min(b));
+        let g = 0.5 * (5f64.sqrt() - 1.0);
+        while hi - lo > 1e-6 {
+            let (x1, x2) = (hi - g * (hi - lo), lo + g * (hi - lo));
+            if ln_t(x1) < ln_t(x2) {
+                hi = x2;
+            } else {
+                lo = x1;
+            }
+        }
+        let tr = 0.5 * (lo + hi);
+        worst = worst.max((t0 - tr).abs());
+    }
+    assert_eq!(n, 300);
+    assert!(
+        worst < NOSE_SEARCH_ATOL_K,
+        "worst nose temperature off by {worst:.2e} K"
+    );
+}
+
+#[test]
+fn default_quadrature_meets_the_target_over_random_melts_and_options() {
+    // The accuracy target of R_c (0.1 %, docs/science.md, "The adaptive
+    // Gauss–Legendre quadrature") against the dense trapezoid oracle over 300
+    // melts drawn at random (fixed seed) across every option that shapes the
+    // integrand: VFT curves, T_L/T_g from 1.25 to 1.9, ΔH_m, V_m, α, ΔC_p,
+    // growth mode, driving force, pre-existing nuclei, wall nucleation and
+    // fractional transport. The kink of the fractional law at T_d is what
+    // this family found: inside a panel it cost up to 3.6e-3. With T_d a
+    // panel edge the worst of the 300 is 8.4e-4 (a homogeneous melt with
+    // wall nucleation and ΔC_p): inside the target, but not within the
+    // quarter of it (ORACLE_RTOL) that the curated families above keep.
+    let (mut worst, mut tried, mut kinked): (f64, usize, usize) = (0.0, 0, 0);
+    for (m, o) in random_melts(0x5eed) {
+        if tried == 300 {
+            break;
+        }
+        let k = Kinetics::new(&m, &o).unwrap();
         let slow =
             dense_reference_critical_rate_with_nuclei(&k, o.heterogeneous_nuclei_per_m3, 200_000);
-        // The oracle works in linear values: skip melts whose rates underflow there.
+        // The oracle works in linear values: skip melts whose rates underflow
+        // there (decided by the oracle alone, never by the code under test).
         if !(slow > 1e-30 && slow < 1e30 && dense_growth_integral(&k, 1000) > 0.0) {
             continue;
         }
+        let fast = k.critical_rate().expect("the oracle found a critical rate");
         tried += 1;
         kinked += usize::from(matches!(o.transport, Transport::Fractional { .. }));
         worst = worst.max(rel(fast.0, slow));

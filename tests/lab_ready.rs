@@ -297,7 +297,7 @@ fn snapping_and_batch_keys_are_checked_with_their_line() {
         (
             "Al2O3 = [0.0, 3.0]",
             "Al2O3 = [0.0, 3.0, 5.0]",
-            "invalid length 3, expected two numbers [min, max]",
+            "Al2O3 limits must be two numbers [min, max] mol%, got 3",
         ),
         // Snapping gives Al2O3 0 or 0.5 mol%: neither lies in [0.05, 0.15].
         (

@@ -492,7 +492,11 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
                     continue;
                 }
                 named.push((o, k));
-                let [lo, hi] = v.get_ref().0;
+                if let Some(m) = v.get_ref().count_problem(&format!("{o} limits"), "mol%") {
+                    push(v.span(), m);
+                    continue;
+                }
+                let [lo, hi] = v.get_ref().values;
                 if !(lo.is_finite() && hi.is_finite() && 0.0 <= lo && lo <= hi && hi <= 100.0) {
                     push(v.span(), format!("{o} limits must be [min, max] with 0 <= min <= max <= 100 mol%, got [{lo}, {hi}]"));
                 }
@@ -888,7 +892,11 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
         );
     }
     let mut bounds = |key: &str, b: &Spanned<Pair>, lowest: f64, unit: &str| -> (f64, f64) {
-        let [lo, hi] = b.get_ref().0;
+        if let Some(m) = b.get_ref().count_problem(key, unit) {
+            push(b.span(), m);
+            return (0.0, 0.0);
+        }
+        let [lo, hi] = b.get_ref().values;
         if !(lo.is_finite() && hi.is_finite() && lo >= lowest && lo <= hi) {
             push(
                 b.span(),
@@ -1076,7 +1084,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
             let Ok(o) = k.get_ref().parse::<Oxide>() else {
                 continue;
             };
-            if v.get_ref().0[1] <= 0.0 {
+            if v.get_ref().values[1] <= 0.0 {
                 continue;
             }
             let mut missing = Vec::new();
@@ -1091,7 +1099,7 @@ pub fn load_with_base(path: &Path, base: Option<&Path>) -> Result<RunPlan, Error
                     k.span(),
                     format!(
                         "{o} may reach {} mol% here, but {} (no validity domain lists it), so its effect would count as zero; narrow {o} to [0, 0], use a model set that covers it, or set allow_extrapolation = true under [search]",
-                        v.get_ref().0[1],
+                        v.get_ref().values[1],
                         match missing.as_slice() {
                             [one] => format!("{one} does not cover {o}"),
                             _ => format!("neither {} covers {o}", missing.join(" nor ")),

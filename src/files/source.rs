@@ -155,41 +155,58 @@ pub fn read_text(path: &Path) -> Result<String, DataError> {
     })
 }
 
-/// Collects every problem of a file, so all are reported at once.
-/// Two numbers [low, high] in a TOML file. A list of any other length is
-/// refused where it is read: serde's fixed-size arrays take the first two
-/// numbers of a longer list and drop the rest without a word.
+/// A [min, max] pair in a TOML file, read as whatever list of numbers stands
+/// there: serde's fixed-size arrays would take the first two numbers of a
+/// longer list and drop the rest without a word, so the count is kept and
+/// the reader that knows the key and its unit refuses any other length,
+/// beside the file's other problems.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub(crate) struct Pair(pub [f64; 2]);
+pub(crate) struct Pair {
+    /// The first two numbers (0 where fewer were given).
+    pub values: [f64; 2],
+    /// How many numbers the list held.
+    pub given: usize,
+}
 
-impl<'de> Deserialize<'de> for Pair {
-    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
-        struct Two;
-        impl<'de> serde::de::Visitor<'de> for Two {
-            type Value = Pair;
-            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
-                f.write_str("two numbers [min, max]")
-            }
-            fn visit_seq<A: serde::de::SeqAccess<'de>>(self, mut seq: A) -> Result<Pair, A::Error> {
-                let mut got = [0.0; 2];
-                let mut n = 0;
-                while let Some(x) = seq.next_element::<f64>()? {
-                    if n < 2 {
-                        got[n] = x;
-                    }
-                    n += 1;
-                }
-                if n == 2 {
-                    Ok(Pair(got))
-                } else {
-                    Err(serde::de::Error::invalid_length(n, &self))
-                }
-            }
-        }
-        d.deserialize_seq(Two)
+impl Pair {
+    /// "... must be two numbers [min, max] UNIT, got N", or None for two.
+    pub(crate) fn count_problem(&self, what: &str, unit: &str) -> Option<String> {
+        (self.given != 2).then(|| {
+            format!(
+                "{what} must be two numbers [min, max] {unit}, got {}",
+                self.given
+            )
+        })
     }
 }
 
+impl<'de> Deserialize<'de> for Pair {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct Numbers;
+        impl<'de> serde::de::Visitor<'de> for Numbers {
+            type Value = Pair;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str("a list of numbers [min, max]")
+            }
+            fn visit_seq<A: serde::de::SeqAccess<'de>>(self, mut seq: A) -> Result<Pair, A::Error> {
+                let mut p = Pair {
+                    values: [0.0; 2],
+                    given: 0,
+                };
+                while let Some(x) = seq.next_element::<f64>()? {
+                    if p.given < 2 {
+                        p.values[p.given] = x;
+                    }
+                    p.given += 1;
+                }
+                Ok(p)
+            }
+        }
+        d.deserialize_seq(Numbers)
+    }
+}
+
+/// Collects every problem of a file, so all are reported at once.
 pub(crate) struct Collector<'s, 'a> {
     pub(crate) src: &'s Source<'a>,
     pub(crate) problems: Vec<Problem>,
@@ -294,7 +311,11 @@ impl<'s, 'a> Collector<'s, 'a> {
         }
         for (k, v) in d {
             if let Some(o) = self.oxide_once(k, &mut seen) {
-                let [lo, hi] = v.get_ref().0;
+                if let Some(m) = v.get_ref().count_problem(&format!("domain of {o}"), "mol%") {
+                    self.push(v.span(), m);
+                    continue;
+                }
+                let [lo, hi] = v.get_ref().values;
                 if !(lo.is_finite() && hi.is_finite() && 0.0 <= lo && lo <= hi && hi <= 100.0) {
                     self.push(v.span(), format!("domain of {o} must be [min, max] with 0 <= min <= max <= 100 mol%, got [{lo}, {hi}]"));
                 }

@@ -138,8 +138,9 @@ impl Kinetics {
                     ln_nuclei_sphere: f64::NEG_INFINITY,
                 };
                 let rates = PhaseRates {
+                    // ln(4π/3) + ln N_h: the product could overflow for any N_h above 4e307.
                     ln_nuclei_sphere: if rates.nuclei > 0.0 {
-                        (4.0 * PI / 3.0 * rates.nuclei).ln()
+                        (4.0 * PI / 3.0).ln() + rates.nuclei.ln()
                     } else {
                         f64::NEG_INFINITY
                     },
