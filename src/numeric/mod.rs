@@ -36,6 +36,8 @@ pub(crate) fn brent_root<F: Fn(f64) -> f64>(
 ) -> Result<f64, String> {
     let res = Executor::new(Scalar(f), BrentRoot::new(lo, hi, tol))
         .configure(|s| s.max_iters(200))
+        // No clock readings per iteration: these solves take microseconds.
+        .timer(false)
         .run()
         .map_err(|e| e.to_string())?;
     res.state()
@@ -56,6 +58,8 @@ pub(crate) fn brent_min<F: Fn(f64) -> f64>(
 ) -> Result<f64, String> {
     let res = Executor::new(Scalar(f), BrentOpt::new(lo, hi).set_tolerance(rel, 1e-3))
         .configure(|s| s.max_iters(200))
+        // No clock readings per iteration: these solves take microseconds.
+        .timer(false)
         .run()
         .map_err(|e| e.to_string())?;
     res.state()
