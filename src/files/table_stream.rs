@@ -1279,49 +1279,15 @@ fn evaluate_batches<R: RowReader>(
     // The name the evaluation's warnings column took (`warnings_model` when
     // the input has a column of its own called `warnings`).
     let mut warnings_column = String::from("warnings");
-    while let Some((df, places)) = batches.next()? {
-        let mut bad = Vec::new();
-        let rows = reader.rows(&df, &places, &mut bad)?;
-        // The first pass checked every cell: a bad one now means the file
-        // changed under us.
-        super::table::cells(bad)?;
-        if let Some(s) = &batches.schema {
-            if df.schema().as_ref() != s.as_ref() {
-                return Err(TableError::Read {
-                    path: input.display().to_string(),
-                    message: format!(
-                        "the file changed while it was read (rows {} to {})",
-                        places.first_row() + 1,
-                        places.first_row() + df.height()
-                    ),
-                });
-            }
-        }
-        let first = places.first_row();
-        let both: Vec<Result<(Evaluation, ExtraCells), String>> = rows
-            .par_iter()
-            .enumerate()
-            .map(|(i, r)| {
-                r.as_ref()
-                    .map_err(Clone::clone)
-                    .and_then(|r| evaluate(first + i, r))
-            })
-            .collect();
-        let mut results: Vec<Result<Evaluation, String>> = Vec::with_capacity(both.len());
-        let mut cells: Vec<ExtraCells> = Vec::with_capacity(both.len());
-        for r in both {
-            match r {
-                Ok((e, c)) => {
-                    results.push(Ok(e));
-                    cells.push(c);
-                }
-                Err(m) => {
-                    results.push(Err(m));
-                    cells.push(ExtraCells::default());
-                }
-            }
-        }
-        failed += results.iter().filter(|r| r.is_err()).count();
+    // What is left of an evaluated batch: its result columns built, rounded
+    // and handed to the writer, in input order.
+    let mut finish = |done: Evaluated| -> Result<(), TableError> {
+        let Evaluated {
+            df,
+            places,
+            results,
+            cells,
+        } = done;
         let cols = columns.get_or_insert_with(|| {
             let names: Vec<String> = df
                 .get_column_names()
@@ -1379,7 +1345,99 @@ fn evaluate_batches<R: RowReader>(
             extra: &cells,
         }));
         rows_seen += results.len();
+        Ok(())
+    };
+    // A pipeline: while the workers evaluate one batch, this thread finishes
+    // the one before and reads the one after, so the workers do not wait for
+    // the reading, the result columns and the rounding (they did: 2 threads
+    // were 1.5 times as fast as 1). Each batch is finished in input order,
+    // so the output is the same.
+    let mut previous: Option<Evaluated> = None;
+    let mut upcoming = batches.next()?;
+    while let Some((df, places)) = upcoming.take() {
+        let prepared = (|| {
+            let mut bad = Vec::new();
+            let rows = reader.rows(&df, &places, &mut bad)?;
+            // The first pass checked every cell: a bad one now means the file
+            // changed under us.
+            super::table::cells(bad)?;
+            if let Some(s) = &batches.schema {
+                if df.schema().as_ref() != s.as_ref() {
+                    return Err(TableError::Read {
+                        path: input.display().to_string(),
+                        message: format!(
+                            "the file changed while it was read (rows {} to {})",
+                            places.first_row() + 1,
+                            places.first_row() + df.height()
+                        ),
+                    });
+                }
+            }
+            Ok(rows)
+        })();
+        let rows = match prepared {
+            Ok(rows) => rows,
+            Err(e) => {
+                // The batches before this one are written first, as without
+                // the pipeline.
+                if let Some(done) = previous.take() {
+                    finish(done)?;
+                }
+                return Err(e);
+            }
+        };
+        let first = places.first_row();
+        let mut both: Vec<Result<(Evaluation, ExtraCells), String>> = Vec::new();
+        let mut finished = Ok(());
+        let mut read = Ok(None);
+        rayon::in_place_scope(|scope| {
+            let (slot, rows) = (&mut both, &rows);
+            scope.spawn(move |_| {
+                *slot = rows
+                    .par_iter()
+                    .enumerate()
+                    .map(|(i, r)| {
+                        r.as_ref()
+                            .map_err(Clone::clone)
+                            .and_then(|r| evaluate(first + i, r))
+                    })
+                    .collect();
+            });
+            if let Some(done) = previous.take() {
+                finished = finish(done);
+            }
+            if finished.is_ok() {
+                read = batches.next();
+            }
+        });
+        finished?;
+        upcoming = read?;
+        let mut results: Vec<Result<Evaluation, String>> = Vec::with_capacity(both.len());
+        let mut cells: Vec<ExtraCells> = Vec::with_capacity(both.len());
+        for r in both {
+            match r {
+                Ok((e, c)) => {
+                    results.push(Ok(e));
+                    cells.push(c);
+                }
+                Err(m) => {
+                    results.push(Err(m));
+                    cells.push(ExtraCells::default());
+                }
+            }
+        }
+        failed += results.iter().filter(|r| r.is_err()).count();
+        previous = Some(Evaluated {
+            df,
+            places,
+            results,
+            cells,
+        });
     }
+    if let Some(done) = previous.take() {
+        finish(done)?;
+    }
+    drop(finish);
     let codes = if readable {
         legend.finish();
         flush(&mut pending, &mut legend, &warnings_column, output)?;
@@ -1388,6 +1446,14 @@ fn evaluate_batches<R: RowReader>(
         Vec::new()
     };
     Ok((rows_seen, failed, codes))
+}
+
+/// One batch of a table, evaluated.
+struct Evaluated {
+    df: DataFrame,
+    places: Places,
+    results: Vec<Result<Evaluation, String>>,
+    cells: Vec<ExtraCells>,
 }
 
 /// A result column as a readable CSV file shows it: numbers rounded to
