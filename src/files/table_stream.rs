@@ -1437,7 +1437,6 @@ fn evaluate_batches<R: RowReader>(
     if let Some(done) = previous.take() {
         finish(done)?;
     }
-    drop(finish);
     let codes = if readable {
         legend.finish();
         flush(&mut pending, &mut legend, &warnings_column, output)?;
