@@ -621,14 +621,7 @@ mod tests {
         // rates over wide ranges (a SplitMix-style generator, fixed seed),
         // with and without pre-existing nuclei, some nodes not growing.
         let rule = rule();
-        let mut z = 0x1234_5678_9abc_def0u64;
-        let mut next = || {
-            z = z.wrapping_add(0x9e3779b97f4a7c15);
-            let mut x = z;
-            x = (x ^ (x >> 30)).wrapping_mul(0xbf58476d1ce4e5b9);
-            x = (x ^ (x >> 27)).wrapping_mul(0x94d049bb133111eb);
-            ((x ^ (x >> 31)) >> 11) as f64 / (1u64 << 53) as f64
-        };
+        let mut next = crate::numeric::split_mix(0x1234_5678_9abc_def0u64);
         let ln_pi_3 = (PI / 3.0).ln();
         for case in 0..400 {
             let ttt = (

@@ -359,14 +359,7 @@ mod tests {
         // dominating by any margin, near-ties), on a fixed SplitMix-style
         // sequence; the residual is rounding only (ROUNDING_ATOL per unit of
         // the largest log it is computed from).
-        let mut z = 0x0bad_5eed_u64;
-        let mut next = || {
-            z = z.wrapping_add(0x9e3779b97f4a7c15);
-            let mut x = z;
-            x = (x ^ (x >> 30)).wrapping_mul(0xbf58476d1ce4e5b9);
-            x = (x ^ (x >> 27)).wrapping_mul(0x94d049bb133111eb);
-            ((x ^ (x >> 31)) >> 11) as f64 / (1u64 << 53) as f64
-        };
+        let mut next = crate::numeric::split_mix(0x0bad_5eed_u64);
         for _ in 0..20_000 {
             let ln_a = -700.0 + 1400.0 * next();
             let ln_b = -700.0 + 1400.0 * next();

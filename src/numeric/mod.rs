@@ -68,6 +68,21 @@ pub(crate) fn brent_min<F: Fn(f64) -> f64>(
         .ok_or_else(|| "minimiser returned no point".to_string())
 }
 
+/// Uniform numbers in [0, 1) from a fixed seed (SplitMix64, Steele, Lea &
+/// Flood 2014, doi:10.1145/2714064.2660195): the unit tests' reproducible
+/// random cases, without a generator crate.
+#[cfg(test)]
+pub(crate) fn split_mix(seed: u64) -> impl FnMut() -> f64 {
+    let mut z = seed;
+    move || {
+        z = z.wrapping_add(0x9e3779b97f4a7c15);
+        let mut x = z;
+        x = (x ^ (x >> 30)).wrapping_mul(0xbf58476d1ce4e5b9);
+        x = (x ^ (x >> 27)).wrapping_mul(0x94d049bb133111eb);
+        ((x ^ (x >> 31)) >> 11) as f64 / (1u64 << 53) as f64
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

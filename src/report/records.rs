@@ -728,14 +728,7 @@ mod tests {
         // Source: the Rust standard library's exact float formatting and
         // parsing (`{:.N}`, `{:.Ne}`, `str::parse::<f64>`): the slow path,
         // kept as the reference.
-        let mut z = 0x7ab1e5_u64;
-        let mut next = || {
-            z = z.wrapping_add(0x9e3779b97f4a7c15);
-            let mut x = z;
-            x = (x ^ (x >> 30)).wrapping_mul(0xbf58476d1ce4e5b9);
-            x = (x ^ (x >> 27)).wrapping_mul(0x94d049bb133111eb);
-            ((x ^ (x >> 31)) >> 11) as f64 / (1u64 << 53) as f64
-        };
+        let mut next = crate::numeric::split_mix(0x7ab1e5_u64);
         let (mut answered, mut tried) = (0, 0);
         for i in 0..200_000 {
             let mut x = 10f64.powf(-15.0 + 30.0 * next());
