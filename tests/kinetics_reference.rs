@@ -588,14 +588,19 @@ fn the_slab_from_the_constant_rate_panels_equals_the_slab_computed_afresh() {
     // with (the same rule then refines it further), which must change neither
     // the summary nor the slab beyond the quadrature's own error, over the
     // 48-melt family of `default_quadrature_meets_the_target_over_a_family_of_melts`,
-    // with and without pre-existing nuclei. (What it saves is measured in
+    // with and without pre-existing nuclei, and with fractional transport (its
+    // kink at T_d an edge of the panels the slab starts from). (What it saves is measured in
     // benches/kinetics.rs, not here.)
     let (ts, kappa) = (Kelvin(298.15), 5e-7);
     let (mut worst, mut compared) = (0.0_f64, 0usize);
     for dh in [30e3, 60e3, 120e3] {
         for alpha in [0.25, 0.4] {
             for growth in [GrowthMode::Normal, GrowthMode::Screw] {
-                for nuclei in [0.0, 1e9] {
+                for (nuclei, transport) in [
+                    (0.0, Transport::StokesEinstein),
+                    (1e9, Transport::StokesEinstein),
+                    (0.0, Transport::Fractional { exponent: 0.7 }),
+                ] {
                     for (a, b, c, tl) in
                         [(-2.8, 4500.0, 480.0, 1300.0), (-2.0, 2000.0, 700.0, 1400.0)]
                     {
@@ -610,6 +615,7 @@ fn the_slab_from_the_constant_rate_panels_equals_the_slab_computed_afresh() {
                         .unwrap();
                         let o = KineticOptions {
                             heterogeneous_nuclei_per_m3: nuclei,
+                            transport,
                             ..KineticOptions::default()
                         };
                         let k = Kinetics::new(&m, &o).unwrap();
