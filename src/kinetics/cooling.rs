@@ -9,7 +9,7 @@ use super::melt::DEFAULT_DETECTABLE_FRACTION;
 use super::quadrature::{
     self, Cooling, CoolingIntegrals, Layout, Quadrature, QuadratureSettings, NODES,
 };
-use super::rates::{log_add, Kinetics, PhaseRates, Rates};
+use super::rates::{ln_nuclei_sphere, log_add, Kinetics, PhaseRates, Rates};
 use super::ttt::{representable, solve_quartic_cubic, KineticSummary};
 use super::KineticsError;
 use crate::error::{finite, positive};
@@ -36,14 +36,11 @@ impl Extent {
         ln_b: f64::NEG_INFINITY,
     };
 
-    fn of(ci: &CoolingIntegrals, nuclei: f64) -> Extent {
+    /// From the integrals and ln((4π/3) N_h) ([`ln_nuclei_sphere`]).
+    fn of(ci: &CoolingIntegrals, ln_nuclei_sphere: f64) -> Extent {
         Extent {
             ln_a: ln_4pi_3() + ci.ln_j,
-            ln_b: if nuclei > 0.0 {
-                ln_4pi_3() + nuclei.ln() + 3.0 * ci.ln_g_total
-            } else {
-                f64::NEG_INFINITY
-            },
+            ln_b: ln_nuclei_sphere + 3.0 * ci.ln_g_total,
         }
     }
 
@@ -106,7 +103,7 @@ impl Kinetics {
             out.push(PhaseIntegrals {
                 phase: *i,
                 integrals: ci,
-                extent: Extent::of(&ci, p.nuclei),
+                extent: Extent::of(&ci, p.ln_nuclei_sphere),
             });
         }
         Ok(out)
@@ -119,13 +116,12 @@ impl Kinetics {
         seed: Option<&Layout>,
         keep: Option<&mut Layout>,
     ) -> Result<CoolingIntegrals, KineticsError> {
-        let ln_nuclei = p.ln_nuclei_sphere;
         Quadrature::cooling_integrals_seeded(
             &|t| self.rates_of(p, t),
             (self.freeze, p.tl),
             cooling,
             &self.quad,
-            (ln_nuclei, self.opts.detectable_fraction.ln()),
+            (p.ln_nuclei_sphere, self.opts.detectable_fraction.ln()),
             self.decoupling_temperature(),
             seed,
             keep,
@@ -338,5 +334,7 @@ pub fn extended_fraction_constant_rate<R: Fn(Kelvin) -> Rates>(
         &QuadratureSettings::default(),
         (f64::NEG_INFINITY, DEFAULT_DETECTABLE_FRACTION.ln()),
     )?;
-    Ok(Extent::of(&ci, nuclei_per_m3).ln_at(rate.0.ln()).exp())
+    Ok(Extent::of(&ci, ln_nuclei_sphere(nuclei_per_m3))
+        .ln_at(rate.0.ln())
+        .exp())
 }

@@ -226,6 +226,17 @@ thread_local! {
     static SCRATCH: std::cell::RefCell<Scratch> = std::cell::RefCell::default();
 }
 
+/// This thread's [`Scratch`] while a quadrature uses it; handed back on drop.
+struct HeldScratch(Scratch);
+
+impl Drop for HeldScratch {
+    fn drop(&mut self) {
+        let scratch = std::mem::take(&mut self.0);
+        // (During thread teardown the slot may be gone: the buffers just go.)
+        let _ = SCRATCH.try_with(|s| *s.borrow_mut() = scratch);
+    }
+}
+
 /// Common scale factors of the linear values: I·exp(−i_shift), U·exp(−u_shift).
 #[derive(Clone, Copy)]
 struct Shifts {
@@ -315,37 +326,6 @@ impl Quadrature {
     #[allow(clippy::too_many_arguments)]
     pub(super) fn cooling_integrals_seeded<R: Fn(f64) -> Rates>(
         rates: &R,
-        window: (f64, f64),
-        cooling: Cooling,
-        q: &QuadratureSettings,
-        ttt: (f64, f64),
-        kink: Option<f64>,
-        seed: Option<&Layout>,
-        keep: Option<&mut Layout>,
-    ) -> Result<CoolingIntegrals, KineticsError> {
-        // The working buffers of this thread, taken for the call and put back
-        // after it, so a screen allocates them once per thread, not per phase
-        // of every candidate.
-        let mut scratch = SCRATCH.with(|s| std::mem::take(&mut *s.borrow_mut()));
-        let out = Quadrature::integrate(
-            &mut scratch,
-            rates,
-            window,
-            cooling,
-            q,
-            ttt,
-            kink,
-            seed,
-            keep,
-        );
-        SCRATCH.with(|s| *s.borrow_mut() = scratch);
-        out
-    }
-
-    #[allow(clippy::too_many_arguments)]
-    fn integrate<R: Fn(f64) -> Rates>(
-        scratch: &mut Scratch,
-        rates: &R,
         (a, b): (f64, f64),
         cooling: Cooling,
         q: &QuadratureSettings,
@@ -354,6 +334,10 @@ impl Quadrature {
         seed: Option<&Layout>,
         keep: Option<&mut Layout>,
     ) -> Result<CoolingIntegrals, KineticsError> {
+        // The working buffers of this thread, held for the call and handed
+        // back when it returns (or unwinds), so a screen allocates them once
+        // per thread, not per phase of every candidate.
+        let mut held = HeldScratch(SCRATCH.with(|s| std::mem::take(&mut *s.borrow_mut())));
         let rule = rule();
         let n0 = q.initial_panels.max(1);
         let Scratch {
@@ -363,7 +347,7 @@ impl Quadrature {
             share,
             g_end,
             split,
-        } = scratch;
+        } = &mut held.0;
         panels.clear();
         let mut evaluations = match seed {
             Some(l) if !l.panels.is_empty() => {

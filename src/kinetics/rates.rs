@@ -47,6 +47,16 @@ pub(crate) fn log_add(a: f64, b: f64) -> f64 {
     m + ((a - m).exp() + (b - m).exp()).ln()
 }
 
+/// ln((4π/3) N_h) for N_h pre-existing nuclei per m³, −∞ for none; a sum
+/// of logarithms, as the product would overflow for N_h above 4e307.
+pub(super) fn ln_nuclei_sphere(nuclei_per_m3: f64) -> f64 {
+    if nuclei_per_m3 > 0.0 {
+        (4.0 * PI / 3.0).ln() + nuclei_per_m3.ln()
+    } else {
+        f64::NEG_INFINITY
+    }
+}
+
 /// One phase prepared for fast evaluation.
 #[derive(Debug, Clone)]
 pub(super) struct PhaseRates {
@@ -123,6 +133,7 @@ impl Kinetics {
                 let nv = AVOGADRO / vm;
                 let sigma = p.interface_energy_j_per_m2();
                 let kw = 16.0 * PI * sigma.powi(3) * vm * vm / (3.0 * BOLTZMANN);
+                let nuclei = p.nuclei_per_m3.unwrap_or(opts.heterogeneous_nuclei_per_m3);
                 let rates = PhaseRates {
                     tl: p.liquidus.0,
                     dh: p.enthalpy_of_fusion_j_per_mol,
@@ -134,17 +145,8 @@ impl Kinetics {
                     kw,
                     kw_wall: wall.map(|f| f * kw),
                     screw: p.growth == GrowthMode::Screw,
-                    nuclei: p.nuclei_per_m3.unwrap_or(opts.heterogeneous_nuclei_per_m3),
-                    ln_nuclei_sphere: f64::NEG_INFINITY,
-                };
-                let rates = PhaseRates {
-                    // ln(4π/3) + ln N_h: the product could overflow for any N_h above 4e307.
-                    ln_nuclei_sphere: if rates.nuclei > 0.0 {
-                        (4.0 * PI / 3.0).ln() + rates.nuclei.ln()
-                    } else {
-                        f64::NEG_INFINITY
-                    },
-                    ..rates
+                    nuclei,
+                    ln_nuclei_sphere: ln_nuclei_sphere(nuclei),
                 };
                 (i, rates)
             })

@@ -302,23 +302,25 @@ impl Kinetics {
     /// its own nose; the bracket where the combined time is shortest is
     /// searched by Brent's method.
     fn nose(&self, integrals: &[PhaseIntegrals]) -> Result<f64, KineticsError> {
-        let mut best = (f64::INFINITY, self.freeze, 0.0);
-        if let [only] = integrals {
-            best = (
-                0.0,
-                only.integrals.nose_guess.0,
-                only.integrals.nose_guess.2,
-            );
-        } else {
-            for pi in integrals {
-                let (t0, _, half) = pi.integrals.nose_guess;
-                let v = self.ln_ttt_time(t0);
-                if v < best.0 {
-                    best = (v, t0, half);
-                }
+        // Each phase's best node, judged on the TTT curve of all phases
+        // together; with one phase there is nothing to judge.
+        let guess = |pi: &PhaseIntegrals| (pi.integrals.nose_guess.0, pi.integrals.nose_guess.2);
+        let (t0, half) = match integrals {
+            [only] => guess(only),
+            _ => {
+                integrals
+                    .iter()
+                    .map(|pi| (self.ln_ttt_time(pi.integrals.nose_guess.0), guess(pi)))
+                    .fold((f64::INFINITY, (self.freeze, 0.0)), |best, v| {
+                        if v.0 < best.0 {
+                            v
+                        } else {
+                            best
+                        }
+                    })
+                    .1
             }
-        }
-        let (_, t0, half) = best;
+        };
         // Gauss–Legendre nodes are at most 0.37 half-widths apart (0.04 from a panel
         // edge), so the nose lies within half a half-width of the best node.
         // Brent's method starts at the golden-section point of its bracket,
