@@ -159,18 +159,11 @@ pub fn run_chunks(
                 total,
             });
         }
-        let rows = match ahead.take() {
-            Some((j, rows)) if j == k => rows,
-            _ => chunk_rows(problem, search, &simplex, k),
-        };
+        let rows = chunk_or_ahead(problem, search, &simplex, k, &mut ahead);
         let next = (k + 1..range.end).find(|&j| !store.has_chunk(j));
-        let (saved, computed) = overlapped(
-            next.map(|j| {
-                let simplex = &simplex;
-                move || (j, chunk_rows(problem, search, simplex, j))
-            }),
-            || store.save_chunk(k, &rows),
-        );
+        let (saved, computed) = overlapped(problem, search, &simplex, next, || {
+            store.save_chunk(k, &rows)
+        });
         ahead = computed;
         saved?;
         done += 1;
@@ -183,23 +176,40 @@ fn chunk_rows(problem: &ScreenProblem, search: &Search, simplex: &Simplex, k: us
     space_filling_rows(problem, search, simplex, k)
 }
 
-/// `io` on this thread while `compute` (the next chunk) is handed to the
-/// other worker threads of the pool the screen runs in (so `--threads`
-/// still bounds it); this thread joins in once `io` is done. Without the
-/// overlap the workers waited while each chunk's checkpoint and rows were
-/// written (a 10⁶-candidate screen used 1.5 of 2 cores). A chunk's rows do
-/// not depend on when they are computed, so the results are the same; a
-/// chunk computed ahead of a stop request is simply not kept.
-fn overlapped<T, C, F>(compute: Option<F>, io: impl FnOnce() -> T) -> (T, Option<C>)
-where
-    C: Send,
-    F: FnOnce() -> C + Send,
-{
+/// Chunk `k`'s rows: those computed ahead while the chunk before was
+/// written ([`overlapped`]), or computed now.
+fn chunk_or_ahead(
+    problem: &ScreenProblem,
+    search: &Search,
+    simplex: &Simplex,
+    k: usize,
+    ahead: &mut Option<(usize, Vec<Row>)>,
+) -> Vec<Row> {
+    match ahead.take() {
+        Some((j, rows)) if j == k => rows,
+        _ => chunk_rows(problem, search, simplex, k),
+    }
+}
+
+/// `io` on this thread while chunk `next` is computed by the other worker
+/// threads of the pool the screen runs in (so `--threads` still bounds it);
+/// this thread joins in once `io` is done. Without the overlap the workers
+/// waited while each chunk's checkpoint and rows were written (a
+/// 10⁶-candidate screen used 1.5 of 2 cores). A chunk's rows do not depend
+/// on when they are computed, so the results are the same; a chunk computed
+/// ahead of a stop request is simply not kept.
+fn overlapped<T>(
+    problem: &ScreenProblem,
+    search: &Search,
+    simplex: &Simplex,
+    next: Option<usize>,
+    io: impl FnOnce() -> T,
+) -> (T, Option<(usize, Vec<Row>)>) {
     let mut computed = None;
     let t = rayon::in_place_scope(|s| {
-        if let Some(c) = compute {
+        if let Some(j) = next {
             let slot = &mut computed;
-            s.spawn(move |_| *slot = Some(c()));
+            s.spawn(move |_| *slot = Some((j, chunk_rows(problem, search, simplex, j))));
         }
         io()
     });
@@ -263,18 +273,18 @@ pub fn run(
         forward_notices(store, observer);
         let (rows, computed) = match kept? {
             Some(rows) => (rows, false),
-            None => match ahead.take() {
-                Some((j, rows)) if j == k => (rows, true),
-                _ => (chunk_rows(problem, search, &simplex, k), true),
-            },
+            None => (
+                chunk_or_ahead(problem, search, &simplex, k, &mut ahead),
+                true,
+            ),
         };
         // The next chunk not yet kept is computed while this one is written.
         let next = (k + 1 < chunks && !store.has_chunk(k + 1)).then_some(k + 1);
         let (written, next_rows) = overlapped(
-            next.map(|j| {
-                let simplex = &simplex;
-                move || (j, chunk_rows(problem, search, simplex, j))
-            }),
+            problem,
+            search,
+            &simplex,
+            next,
             || -> Result<Vec<Row>, Error> {
                 if computed {
                     store.save_chunk(k, &rows)?;
