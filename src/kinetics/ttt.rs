@@ -6,7 +6,7 @@
 
 use super::cooling::{total_extent, PhaseIntegrals};
 use super::quadrature::Cooling;
-use super::rates::{log_add, Kinetics};
+use super::rates::{Kinetics, LogSum};
 use super::KineticsError;
 use crate::numeric::brent_min;
 use crate::units::{Kelvin, KelvinPerSecond};
@@ -155,20 +155,20 @@ impl Kinetics {
 
     /// ln Σ_k (π/3) I_k U_k³ and ln Σ_k (4π/3) N_h,k U_k³ at T.
     fn isothermal_coefficients(&self, t: f64) -> (f64, f64) {
-        let mut ln_a = f64::NEG_INFINITY;
-        let mut ln_b = f64::NEG_INFINITY;
+        let mut ln_a = LogSum::EMPTY;
+        let mut ln_b = LogSum::EMPTY;
         let mut mobility = None;
         for (_, p) in &self.phases {
             let r = self.rates_sharing(p, t, &mut mobility);
             if r.ln_growth == f64::NEG_INFINITY {
                 continue;
             }
-            ln_a = log_add(ln_a, (PI / 3.0).ln() + r.ln_nucleation + 3.0 * r.ln_growth);
+            ln_a.add((PI / 3.0).ln() + r.ln_nucleation + 3.0 * r.ln_growth);
             if p.nuclei > 0.0 {
-                ln_b = log_add(ln_b, p.ln_nuclei_sphere + 3.0 * r.ln_growth);
+                ln_b.add(p.ln_nuclei_sphere + 3.0 * r.ln_growth);
             }
         }
-        (ln_a, ln_b)
+        (ln_a.ln(), ln_b.ln())
     }
 
     /// Isothermal transformed fraction after `time_s` at T by JMAK:
