@@ -9,7 +9,7 @@ use super::melt::DEFAULT_DETECTABLE_FRACTION;
 use super::quadrature::{
     self, Cooling, CoolingIntegrals, Layout, Quadrature, QuadratureSettings, NODES,
 };
-use super::rates::{ln_nuclei_sphere, log_add, Kinetics, PhaseRates, Rates};
+use super::rates::{ln_nuclei_sphere, log_add, Kinetics, PhaseRates, Rates, SplitRates};
 use super::ttt::{representable, solve_quartic_cubic, KineticSummary};
 use super::KineticsError;
 use crate::error::{finite, positive};
@@ -117,7 +117,7 @@ impl Kinetics {
         keep: Option<&mut Layout>,
     ) -> Result<CoolingIntegrals, KineticsError> {
         Quadrature::cooling_integrals_seeded(
-            &|t| self.rates_of(p, t),
+            &|t| self.split_rates(p, t),
             (self.freeze, p.tl),
             cooling,
             &self.quad,
@@ -328,7 +328,7 @@ pub fn extended_fraction_constant_rate<R: Fn(Kelvin) -> Rates>(
 ) -> Result<f64, KineticsError> {
     positive("cooling rate", rate.0, "K/s")?;
     let ci = Quadrature::cooling_integrals_with(
-        &|t| rates(Kelvin(t)),
+        &|t| SplitRates::from_logs(rates(Kelvin(t))),
         (window.0 .0, window.1 .0),
         Cooling::Constant,
         &QuadratureSettings::default(),

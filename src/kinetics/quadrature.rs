@@ -14,7 +14,7 @@
 //! - L. Greengard, "Spectral integration and two-point boundary value problems",
 //!   SIAM J. Numer. Anal. 28 (1991) 1071–1080, doi:10.1137/0728057.
 
-use super::rates::Rates;
+use super::rates::SplitRates;
 use super::ttt::solve_quartic_cubic;
 use super::KineticsError;
 use std::f64::consts::PI;
@@ -128,7 +128,7 @@ pub(super) struct CoolingIntegrals {
     pub(super) evaluations: usize,
 }
 
-/// Where a finished quadrature left its panels, with ln I and ln U at their
+/// Where a finished quadrature left its panels, with I and U at their
 /// nodes before any rate-shape factor, so that the integrals along a second
 /// cooling law start from them instead of from two bare panels: the rates,
 /// which cost most, are not evaluated again, and refinement goes on from
@@ -143,16 +143,15 @@ pub(super) struct Layout {
 struct RawPanel {
     lo: f64,
     hi: f64,
-    ln_i: [f64; NODES],
-    ln_u: [f64; NODES],
+    rates: [SplitRates; NODES],
 }
 
 impl Cooling {
-    /// ln of the rate-shape factor at temperature t.
-    fn ln_shape(self, t: f64) -> f64 {
+    /// The rate-shape factor at temperature t.
+    fn shape(self, t: f64) -> f64 {
         match self {
-            Cooling::Constant => 0.0,
-            Cooling::Newtonian { surface } => -(t - surface).ln(),
+            Cooling::Constant => 1.0,
+            Cooling::Newtonian { surface } => 1.0 / (t - surface),
         }
     }
 }
@@ -194,17 +193,28 @@ impl Default for QuadratureSettings {
 struct Panel {
     lo: f64,
     hi: f64,
-    /// ln I and ln U at the nodes (times the rate-shape factor).
-    ln_i: [f64; NODES],
-    ln_u: [f64; NODES],
-    /// I and U scaled by exp(−shift), so no logarithm is needed per refinement.
+    /// I and U at the nodes, before the rate-shape factor.
+    rates: [SplitRates; NODES],
+    /// The rate-shape factor at the nodes.
+    shape: [f64; NODES],
+    /// I and U times the shape, scaled by exp(−shift), so no logarithm is
+    /// needed per refinement.
     i_lin: [f64; NODES],
+    u_lin: [f64; NODES],
     /// Running ∫ U from the panel start to each node, scaled (S·u, without h/2).
     g_inc: [f64; NODES],
     /// ∫ U over the panel, scaled (w·u, without h/2).
     g_tot: f64,
     /// max − min of ln U over the nodes.
     ln_u_range: f64,
+}
+
+impl Panel {
+    /// ln I and ln U (times the shape) at node j.
+    fn logs(&self, j: usize) -> (f64, f64) {
+        let (r, w) = (&self.rates[j], self.shape[j]);
+        (r.ln_i + (r.m * w).ln(), r.ln_u + (r.m * r.f * w).ln())
+    }
 }
 
 /// The working buffers of the adaptive quadrature, kept per thread.
@@ -248,6 +258,10 @@ struct Shifts {
 /// when judging whether a panel is resolved.
 const NEGLIGIBLE_NODE: f64 = 1e-14;
 
+/// Scaled linear values at or above this keep full relative precision (well
+/// above the subnormal range, 2.2e-308), so ratios of them give exact ranges.
+const PRECISE_LINEAR: f64 = 1e-290;
+
 /// How far above its shift a log value may go before the linear copies are rebuilt.
 const SHIFT_HEADROOM: f64 = 600.0;
 
@@ -255,7 +269,7 @@ const SHIFT_HEADROOM: f64 = 600.0;
 pub(super) struct Quadrature;
 
 impl Quadrature {
-    fn panel<R: Fn(f64) -> Rates>(
+    fn panel<R: Fn(f64) -> SplitRates>(
         rates: &R,
         rule: &Rule,
         lo: f64,
@@ -263,50 +277,62 @@ impl Quadrature {
         cooling: Cooling,
     ) -> Panel {
         let ts = rule.nodes_on(lo, hi);
-        let mut ln_i = [0.0; NODES];
-        let mut ln_u = [0.0; NODES];
-        for k in 0..NODES {
-            let r = rates(ts[k]);
-            let shape = cooling.ln_shape(ts[k]);
-            ln_i[k] = r.ln_nucleation + shape;
-            ln_u[k] = r.ln_growth + shape;
-        }
-        Quadrature::panel_of(lo, hi, ln_i, ln_u)
+        Quadrature::panel_of(lo, hi, ts.map(rates), ts.map(|t| cooling.shape(t)))
     }
 
-    /// A panel from its log values at the nodes.
-    fn panel_of(lo: f64, hi: f64, ln_i: [f64; NODES], ln_u: [f64; NODES]) -> Panel {
-        let (mn, mx) = ln_u
-            .iter()
-            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
-                (a.min(x), b.max(x))
-            });
+    /// A panel from its rates and shape factors at the nodes (its linear
+    /// values are filled by [`Quadrature::scale_panel`]).
+    fn panel_of(lo: f64, hi: f64, rates: [SplitRates; NODES], shape: [f64; NODES]) -> Panel {
         Panel {
             lo,
             hi,
-            ln_i,
-            ln_u,
+            rates,
+            shape,
             i_lin: [0.0; NODES],
+            u_lin: [0.0; NODES],
             g_inc: [0.0; NODES],
             g_tot: 0.0,
-            ln_u_range: mx - mn,
+            ln_u_range: 0.0,
         }
     }
 
-    /// Fill the scaled linear values of a panel.
+    /// Fill the scaled linear values of a panel, and its range of ln U.
     fn scale_panel(rule: &Rule, p: &mut Panel, sh: Shifts) {
-        let u = p.ln_u.map(|l| (l - sh.u).exp());
-        p.i_lin = p.ln_i.map(|l| (l - sh.i).exp());
+        for j in 0..NODES {
+            let (r, w) = (&p.rates[j], p.shape[j]);
+            p.i_lin[j] = (r.ln_i - sh.i).exp() * (r.m * w);
+            p.u_lin[j] = (r.ln_u - sh.u).exp() * (r.m * r.f * w);
+        }
+        let u = &p.u_lin;
         for i in 0..NODES {
             p.g_inc[i] = (0..NODES).map(|j| rule.s[i][j] * u[j]).sum();
         }
         p.g_tot = (0..NODES).map(|j| rule.w[j] * u[j]).sum();
+        // The range of ln U from the linear values, one logarithm per panel.
+        // Where the smallest value is too small to be held to full precision
+        // the logarithms at every node give it, unless it is zero beside a
+        // precise largest one: the range is then beyond 76 nats (or ∞ for
+        // a node that does not grow), more than any split decision tells
+        // apart.
+        let (mn, mx) = u
+            .iter()
+            .fold((f64::INFINITY, 0.0f64), |(a, b), &x| (a.min(x), b.max(x)));
+        p.ln_u_range = if mn >= PRECISE_LINEAR || (mn == 0.0 && mx >= PRECISE_LINEAR) {
+            (mx / mn).ln()
+        } else {
+            let (mn, mx) = (0..NODES)
+                .map(|j| p.logs(j).1)
+                .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), x| {
+                    (a.min(x), b.max(x))
+                });
+            mx - mn
+        };
     }
 
     /// J and the total growth integral along a cooling law, by adaptive panels.
     ///
     /// `ttt` = (ln((4π/3) N_h), ln X_c) locates the TTT nose among the nodes.
-    pub(super) fn cooling_integrals_with<R: Fn(f64) -> Rates>(
+    pub(super) fn cooling_integrals_with<R: Fn(f64) -> SplitRates>(
         rates: &R,
         window: (f64, f64),
         cooling: Cooling,
@@ -324,7 +350,7 @@ impl Quadrature {
     /// across a kink converges only slowly (docs/science.md, "The adaptive
     /// Gauss–Legendre quadrature").
     #[allow(clippy::too_many_arguments)]
-    pub(super) fn cooling_integrals_seeded<R: Fn(f64) -> Rates>(
+    pub(super) fn cooling_integrals_seeded<R: Fn(f64) -> SplitRates>(
         rates: &R,
         (a, b): (f64, f64),
         cooling: Cooling,
@@ -358,13 +384,7 @@ impl Quadrature {
                     .is_none_or(|t| l.panels.iter().any(|r| r.hi == t)));
                 panels.extend(l.panels.iter().map(|r| {
                     let ts = rule.nodes_on(r.lo, r.hi);
-                    let sh: [f64; NODES] = std::array::from_fn(|k| cooling.ln_shape(ts[k]));
-                    Quadrature::panel_of(
-                        r.lo,
-                        r.hi,
-                        std::array::from_fn(|k| r.ln_i[k] + sh[k]),
-                        std::array::from_fn(|k| r.ln_u[k] + sh[k]),
-                    )
+                    Quadrature::panel_of(r.lo, r.hi, r.rates, ts.map(|t| cooling.shape(t)))
                 }));
                 0
             }
@@ -395,27 +415,25 @@ impl Quadrature {
         let keep_layout = |panels: &[Panel], keep: Option<&mut Layout>| {
             if let Some(k) = keep {
                 k.panels.clear();
-                k.panels.extend(panels.iter().map(|p| {
-                    let ts = rule.nodes_on(p.lo, p.hi);
-                    RawPanel {
-                        lo: p.lo,
-                        hi: p.hi,
-                        ln_i: std::array::from_fn(|j| p.ln_i[j] - cooling.ln_shape(ts[j])),
-                        ln_u: std::array::from_fn(|j| p.ln_u[j] - cooling.ln_shape(ts[j])),
-                    }
+                k.panels.extend(panels.iter().map(|p| RawPanel {
+                    lo: p.lo,
+                    hi: p.hi,
+                    rates: p.rates,
                 }));
             }
         };
         let min_width = (b - a) * 1e-9;
-        let max_of = |panels: &[Panel], f: fn(&Panel) -> &[f64; NODES]| {
+        // The shifts are the largest split logarithms (ln I and ln U without
+        // their factors): the linear values stay within a few thousand of one.
+        let max_of = |panels: &[Panel], f: fn(&SplitRates) -> f64| {
             panels
                 .iter()
-                .flat_map(|p| f(p).iter().copied())
+                .flat_map(|p| p.rates.iter().map(f))
                 .fold(f64::NEG_INFINITY, f64::max)
         };
         let mut sh = Shifts {
-            i: max_of(panels, |p| &p.ln_i),
-            u: max_of(panels, |p| &p.ln_u),
+            i: max_of(panels, |r| r.ln_i),
+            u: max_of(panels, |r| r.ln_u),
         };
         if !sh.u.is_finite() {
             return Err(KineticsError::Numerical(
@@ -506,7 +524,7 @@ impl Quadrature {
             }
             if !any || panels.len() >= MAX_PANELS {
                 // Nose guess: the node with the shortest isothermal time to X_c.
-                let nose = nose_node(rule, panels, a, ttt);
+                let nose = nose_node(rule, panels, a, ttt, sh);
                 keep_layout(panels, keep);
                 return Ok(CoolingIntegrals {
                     ln_j: sh.i + 3.0 * sh.u + total.ln(),
@@ -524,8 +542,16 @@ impl Quadrature {
                         let lo = p.lo + w * j as f64;
                         let hi = if j + 1 == pieces { p.hi } else { lo + w };
                         let mut c = Quadrature::panel(rates, rule, lo, hi, cooling);
-                        let mi = c.ln_i.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-                        let mu = c.ln_u.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+                        let mi = c
+                            .rates
+                            .iter()
+                            .map(|r| r.ln_i)
+                            .fold(f64::NEG_INFINITY, f64::max);
+                        let mu = c
+                            .rates
+                            .iter()
+                            .map(|r| r.ln_u)
+                            .fold(f64::NEG_INFINITY, f64::max);
                         if mi > sh.i + SHIFT_HEADROOM || mu > sh.u + SHIFT_HEADROOM {
                             rebase = true;
                         }
@@ -540,8 +566,8 @@ impl Quadrature {
             std::mem::swap(panels, next);
             if rebase {
                 sh = Shifts {
-                    i: max_of(panels, |p| &p.ln_i),
-                    u: max_of(panels, |p| &p.ln_u),
+                    i: max_of(panels, |r| r.ln_i),
+                    u: max_of(panels, |r| r.ln_u),
                 };
                 for p in panels.iter_mut() {
                     Quadrature::scale_panel(rule, p, sh);
@@ -554,7 +580,8 @@ impl Quadrature {
 /// The node of `panels` with the shortest isothermal time to X_c, as
 /// (temperature, −ln y, half-width of its panel), y the time solving
 /// A y⁴ + B y³ = X_c with A = (π/3) I U³ and B = ttt.0 · U³ (`ttt` =
-/// (ln((4π/3) N_h), ln X_c)); (`a`, −∞, 0) when no node grows.
+/// (ln((4π/3) N_h), ln X_c)); (`a`, −∞, 0) when no node grows. `sh` are the
+/// shifts of the panels' linear values.
 ///
 /// Solving for y takes Newton iterations at every node, so nodes that cannot
 /// win are ruled out first by bounds that need none: with h = the smaller of
@@ -563,27 +590,81 @@ impl Quadrature {
 /// node whose lower bound lies above the least upper bound is slower than
 /// the fastest node, so only the others are solved; the node found is the
 /// one solving every node would give.
-fn nose_node(rule: &Rule, panels: &[Panel], a: f64, ttt: (f64, f64)) -> (f64, f64, f64) {
+///
+/// The least upper bound is the smaller of the one-term solutions at the
+/// node with the largest I U³ and at the node with the largest U, and a node
+/// can pass the cut only if its I U³ or its U reaches a threshold: both are
+/// found on the linear values, so logarithms are taken at those nodes alone
+/// (at every node when the largest linear values are too small to be held
+/// to full precision).
+fn nose_node(
+    rule: &Rule,
+    panels: &[Panel],
+    a: f64,
+    ttt: (f64, f64),
+    sh: Shifts,
+) -> (f64, f64, f64) {
     let ln_pi_3 = (PI / 3.0).ln();
-    let upper = |ln_i: f64, ln_u: f64| {
+    let upper = |(ln_i, ln_u): (f64, f64)| {
         let ln_u3 = 3.0 * ln_u;
         ((ttt.1 - (ln_pi_3 + ln_i + ln_u3)) / 4.0).min((ttt.1 - (ttt.0 + ln_u3)) / 3.0)
     };
-    let least_upper = panels
-        .iter()
-        .flat_map(|p| p.ln_i.iter().zip(&p.ln_u))
-        .filter(|(_, &ln_u)| ln_u != f64::NEG_INFINITY)
-        .map(|(&ln_i, &ln_u)| upper(ln_i, ln_u))
-        .fold(f64::INFINITY, f64::min);
+    // The node's bound, ∞ for a node that does not grow.
+    let upper_at = |p: &Panel, j: usize| {
+        let logs = p.logs(j);
+        if logs.1 == f64::NEG_INFINITY {
+            f64::INFINITY
+        } else {
+            upper(logs)
+        }
+    };
+    let mut best_iu3 = (0.0, 0, 0);
+    let mut best_u = (0.0, 0, 0);
+    for (k, p) in panels.iter().enumerate() {
+        for j in 0..NODES {
+            let u = p.u_lin[j];
+            let iu3 = p.i_lin[j] * u * u * u;
+            if iu3 > best_iu3.0 {
+                best_iu3 = (iu3, k, j);
+            }
+            if u > best_u.0 {
+                best_u = (u, k, j);
+            }
+        }
+    }
+    let precise = best_iu3.0 >= PRECISE_LINEAR && best_u.0 >= PRECISE_LINEAR;
+    let least_upper = if precise {
+        upper_at(&panels[best_iu3.1], best_iu3.2).min(upper_at(&panels[best_u.1], best_u.2))
+    } else {
+        panels
+            .iter()
+            .flat_map(|p| (0..NODES).map(move |j| upper_at(p, j)))
+            .fold(f64::INFINITY, f64::min)
+    };
     // Far more than the rounding of Newton's root, far less than (ln 2)/3.
     let cut = least_upper + 1e-9 * (1.0 + least_upper.abs()) + std::f64::consts::LN_2 / 3.0;
+    // Within the cut: ln(I U³) ≥ ln X_c − ln(π/3) − 4 cut, or
+    // ln U ≥ (ln X_c − ttt.0 − 3 cut)/3; as thresholds on the linear values,
+    // lowered far beyond their rounding (zero lets every node through).
+    let (iu3_least, u_least) = if precise {
+        (
+            (ttt.1 - ln_pi_3 - 4.0 * cut - sh.i - 3.0 * sh.u).exp() * (1.0 - 1e-6),
+            ((ttt.1 - ttt.0 - 3.0 * cut) / 3.0 - sh.u).exp() * (1.0 - 1e-6),
+        )
+    } else {
+        (0.0, 0.0)
+    };
     let mut nose = (a, f64::NEG_INFINITY, 0.0);
     for p in panels {
         let ts = rule.nodes_on(p.lo, p.hi);
-        for ((&t, &ln_i), &ln_u) in ts.iter().zip(&p.ln_i).zip(&p.ln_u) {
+        for (j, (&t, (&i, &u))) in ts.iter().zip(p.i_lin.iter().zip(&p.u_lin)).enumerate() {
+            // (NaN values and thresholds never rule a node out.)
+            if i * u * u * u < iu3_least && u < u_least {
+                continue;
+            }
+            let (ln_i, ln_u) = p.logs(j);
             let ln_u3 = 3.0 * ln_u;
-            // (NaN bounds never rule a node out.)
-            if ln_u3 == f64::NEG_INFINITY || upper(ln_i, ln_u) > cut {
+            if ln_u3 == f64::NEG_INFINITY || upper((ln_i, ln_u)) > cut {
                 continue;
             }
             let v = -solve_quartic_cubic(ln_pi_3 + ln_i + ln_u3, ttt.0 + ln_u3, ttt.1);
@@ -601,13 +682,16 @@ mod tests {
 
     #[test]
     fn the_nose_node_is_the_one_solving_every_node_gives() {
-        // Every node solved, as the bounds in nose_node skip; random log
-        // rates over wide ranges (a SplitMix-style generator, fixed seed),
-        // with and without pre-existing nuclei, some nodes not growing.
+        // Every node solved, as the bounds and linear thresholds in nose_node
+        // skip; random split rates over wide ranges (a SplitMix-style
+        // generator, fixed seed), with random factors, with and without
+        // pre-existing nuclei, some nodes not growing, and in a third of the
+        // cases I and U so opposed that the largest scaled I·U³ underflows
+        // (the path that takes every node's logarithms).
         let rule = rule();
         let mut next = crate::numeric::split_mix(0x1234_5678_9abc_def0u64);
         let ln_pi_3 = (PI / 3.0).ln();
-        for case in 0..400 {
+        for case in 0..600 {
             let ttt = (
                 if case % 2 == 0 {
                     f64::NEG_INFINITY
@@ -616,28 +700,57 @@ mod tests {
                 },
                 1e-6f64.ln(),
             );
-            let panels: Vec<Panel> = (0..1 + case % 9)
+            let mut panels: Vec<Panel> = (0..1 + case % 9)
                 .map(|k| {
                     let lo = 700.0 + 50.0 * k as f64;
-                    let mut ln_i = [0.0; NODES];
-                    let mut ln_u = [0.0; NODES];
-                    for j in 0..NODES {
+                    let rates = std::array::from_fn(|_| {
                         // Close values often, so near-ties are tried too.
                         let spread = if case % 3 == 0 { 0.1 } else { 80.0 };
-                        ln_i[j] = -20.0 + spread * next();
-                        ln_u[j] = if next() < 0.05 {
-                            f64::NEG_INFINITY
+                        let x = next();
+                        let (ln_i, ln_u) = if case % 3 == 1 {
+                            (-20.0 + 400.0 * x, -30.0 - 400.0 * x)
                         } else {
-                            -30.0 + spread * 0.2 * next()
+                            (-20.0 + spread * x, -30.0 + spread * 0.2 * next())
                         };
-                    }
-                    Quadrature::panel_of(lo, lo + 50.0, ln_i, ln_u)
+                        SplitRates {
+                            ln_i,
+                            ln_u: if next() < 0.05 {
+                                f64::NEG_INFINITY
+                            } else {
+                                ln_u
+                            },
+                            m: 1.0 + 3000.0 * next(),
+                            f: (-18.0 * next()).exp(),
+                        }
+                    });
+                    let shape = std::array::from_fn(|_| {
+                        if case % 4 == 0 {
+                            1.0
+                        } else {
+                            0.001 + 0.01 * next()
+                        }
+                    });
+                    Quadrature::panel_of(lo, lo + 50.0, rates, shape)
                 })
                 .collect();
+            let max_of = |f: fn(&SplitRates) -> f64| {
+                panels
+                    .iter()
+                    .flat_map(|p| p.rates.iter().map(f))
+                    .fold(f64::NEG_INFINITY, f64::max)
+            };
+            let sh = Shifts {
+                i: max_of(|r| r.ln_i),
+                u: max_of(|r| r.ln_u),
+            };
+            for p in panels.iter_mut() {
+                Quadrature::scale_panel(rule, p, sh);
+            }
             let mut every = (600.0, f64::NEG_INFINITY, 0.0);
             for p in &panels {
                 let ts = rule.nodes_on(p.lo, p.hi);
-                for ((&t, &ln_i), &ln_u) in ts.iter().zip(&p.ln_i).zip(&p.ln_u) {
+                for (j, &t) in ts.iter().enumerate() {
+                    let (ln_i, ln_u) = p.logs(j);
                     let ln_u3 = 3.0 * ln_u;
                     if ln_u3 == f64::NEG_INFINITY {
                         continue;
@@ -648,8 +761,55 @@ mod tests {
                     }
                 }
             }
-            let found = nose_node(rule, &panels, 600.0, ttt);
+            let found = nose_node(rule, &panels, 600.0, ttt, sh);
             assert_eq!(found, every, "case {case}");
+        }
+    }
+
+    #[test]
+    fn the_range_of_ln_u_is_the_same_from_linear_values_and_from_logarithms() {
+        // Source: the definition, max − min of ln U over a panel's nodes,
+        // against scale_panel's ratio of linear values, for shifts that put
+        // the values anywhere from full precision to underflow; where a
+        // value underflows only the decision it feeds (the range exceeds
+        // what splits a panel into the most pieces, 8 × 6 nats) must agree.
+        let rule = rule();
+        let mut next = crate::numeric::split_mix(0x07a1_19e5_u64);
+        for case in 0..3000 {
+            let spread = [0.5, 20.0, 300.0, 1000.0][case % 4];
+            let rates = std::array::from_fn(|_| SplitRates {
+                ln_i: -10.0,
+                ln_u: if next() < 0.03 {
+                    f64::NEG_INFINITY
+                } else {
+                    -30.0 - spread * next()
+                },
+                m: 1.0 + 3000.0 * next(),
+                f: (-18.0 * next()).exp(),
+            });
+            let mut p = Quadrature::panel_of(700.0, 750.0, rates, [1.0; NODES]);
+            let sh = Shifts {
+                i: -10.0,
+                u: -30.0 + 800.0 * next() - 200.0,
+            };
+            Quadrature::scale_panel(rule, &mut p, sh);
+            let logs: Vec<f64> = (0..NODES).map(|j| p.logs(j).1).collect();
+            let exact = logs.iter().copied().fold(f64::NEG_INFINITY, f64::max)
+                - logs.iter().copied().fold(f64::INFINITY, f64::min);
+            let got = p.ln_u_range;
+            if exact.is_nan() || got.is_nan() {
+                assert!(
+                    exact.is_nan() && got.is_nan(),
+                    "case {case}: {got} vs {exact}"
+                );
+            } else if exact > 48.0 || got > 48.0 {
+                assert!(exact > 48.0 && got > 48.0, "case {case}: {got} vs {exact}");
+            } else {
+                assert!(
+                    (got - exact).abs() <= 1e-10,
+                    "case {case}: {got} vs {exact}"
+                );
+            }
         }
     }
 
@@ -659,9 +819,11 @@ mod tests {
         // the kink replaces the nearest inner edge, or is added beside a
         // window end; panels stay contiguous and ordered, none empty, and
         // refinement keeps the edge. Smooth synthetic rates on [700, 1000] K.
-        let rates = |t: f64| Rates {
-            ln_nucleation: -((t - 800.0) / 40.0).powi(2),
-            ln_growth: -30.0 - ((t - 900.0) / 120.0).powi(2),
+        let rates = |t: f64| SplitRates {
+            ln_i: -((t - 800.0) / 40.0).powi(2),
+            ln_u: -30.0 - ((t - 900.0) / 120.0).powi(2),
+            m: 1.0,
+            f: 1.0,
         };
         for n0 in [1usize, 2, 5] {
             for kink in [700.3, 760.0, 850.0, 880.0, 999.7] {

@@ -38,6 +38,51 @@ impl Rates {
     }
 }
 
+/// Rates at one temperature split so that their linear values need no
+/// logarithm: ln I = `ln_i` + ln `m`, ln U = `ln_u` + ln(`m`·`f`), with `m`
+/// and `f` positive factors of order one to a few thousand (T, the growth's
+/// kinetic and site factors, a cooling law's weight). The quadrature sums
+/// e^(ln_i − shift)·m and takes the logarithms only at the few nodes a
+/// decision needs them (docs/science.md, "The adaptive Gauss–Legendre
+/// quadrature").
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SplitRates {
+    pub ln_i: f64,
+    pub ln_u: f64,
+    pub m: f64,
+    pub f: f64,
+}
+
+impl SplitRates {
+    /// No nucleation and no growth.
+    pub const NONE: SplitRates = SplitRates {
+        ln_i: f64::NEG_INFINITY,
+        ln_u: f64::NEG_INFINITY,
+        m: 1.0,
+        f: 1.0,
+    };
+
+    /// Rates given as logarithms (factors 1).
+    pub fn from_logs(r: Rates) -> SplitRates {
+        SplitRates {
+            ln_i: r.ln_nucleation,
+            ln_u: r.ln_growth,
+            m: 1.0,
+            f: 1.0,
+        }
+    }
+
+    /// ln I.
+    pub fn ln_nucleation(&self) -> f64 {
+        self.ln_i + self.m.ln()
+    }
+
+    /// ln U.
+    pub fn ln_growth(&self) -> f64 {
+        self.ln_u + (self.m * self.f).ln()
+    }
+}
+
 /// ln(e^a + e^b) without overflow.
 pub(crate) fn log_add(a: f64, b: f64) -> f64 {
     let m = a.max(b);
@@ -251,15 +296,23 @@ impl Kinetics {
         self.decoupling.map(|(td, _, _)| td)
     }
 
-    /// ln(T/η) with the transport law in force: Stokes–Einstein gives
-    /// D = (k_B/3πλ)·T/η; below T_d the fractional law scales it as (T/η)^ξ.
+    /// ln(T/η) with the transport law in force, as (ℓ, m) with ln(T/η) =
+    /// ℓ + ln m: Stokes–Einstein gives D = (k_B/3πλ)·T/η, so ℓ = −ln η and
+    /// m = T, which needs no logarithm; below T_d the fractional law scales
+    /// it as (T/η)^ξ, and ℓ carries the whole of it (m = 1).
     #[inline]
-    fn ln_mobility(&self, t: f64) -> f64 {
-        let ln_x = t.ln() - LN_10 * self.melt.viscosity.log10_eta(t);
+    fn mobility(&self, t: f64) -> (f64, f64) {
+        let ln_inv_eta = -LN_10 * self.melt.viscosity.log10_eta(t);
         match self.decoupling {
-            Some((td, ln_xd, xi)) if t < td => ln_xd + xi * (ln_x - ln_xd),
-            _ => ln_x,
+            Some((td, ln_xd, xi)) if t < td => (ln_xd + xi * (t.ln() + ln_inv_eta - ln_xd), 1.0),
+            _ => (ln_inv_eta, t),
         }
+    }
+
+    /// ln(T/η) with the transport law in force.
+    fn ln_mobility(&self, t: f64) -> f64 {
+        let (l, m) = self.mobility(t);
+        l + m.ln()
     }
 
     /// Diffusivity D(T) in m²/s controlling phase `k`'s kinetics.
@@ -312,41 +365,67 @@ impl Kinetics {
         self.rates_sharing(p, t, &mut None)
     }
 
-    /// As [`Kinetics::rates_of`], with ln(T/η) at T kept in `mobility` once
-    /// some phase has computed it, for the other phases at the same T (the
-    /// same number: it does not depend on the phase).
+    /// As [`Kinetics::rates_of`], with the mobility at T and its logarithm
+    /// kept in `mobility` once some phase has computed them, for the other
+    /// phases at the same T (they do not depend on the phase).
     #[inline]
     pub(super) fn rates_sharing(
         &self,
         p: &PhaseRates,
         t: f64,
-        mobility: &mut Option<f64>,
+        mobility: &mut Option<(f64, f64, f64)>,
     ) -> Rates {
         if t >= p.tl {
             return Rates::NONE;
         }
+        let &mut (l, m, ln_m) = mobility.get_or_insert_with(|| {
+            let (l, m) = self.mobility(t);
+            (l, m, m.ln())
+        });
+        let s = self.split_rates_with(p, t, (l, m));
+        Rates {
+            ln_nucleation: s.ln_i + ln_m,
+            ln_growth: s.ln_u + (s.f).ln() + ln_m,
+        }
+    }
+
+    /// I and U of phase `p` at T in the split form the quadrature sums
+    /// ([`SplitRates`]): no logarithm is taken.
+    #[inline]
+    pub(super) fn split_rates(&self, p: &PhaseRates, t: f64) -> SplitRates {
+        if t >= p.tl {
+            return SplitRates::NONE;
+        }
+        self.split_rates_with(p, t, self.mobility(t))
+    }
+
+    #[inline]
+    fn split_rates_with(&self, p: &PhaseRates, t: f64, (l, m): (f64, f64)) -> SplitRates {
+        if t >= p.tl {
+            return SplitRates::NONE;
+        }
         let dg = self.driving_force(p, t);
         if dg.is_nan() || dg <= 0.0 {
-            return Rates::NONE;
+            return SplitRates::NONE;
         }
-        let ln_d = p.ln_d_pref + *mobility.get_or_insert_with(|| self.ln_mobility(t));
+        let ln_d = p.ln_d_pref + l;
         let barrier = 1.0 / (dg * dg * t);
-        let mut ln_nucleation = p.ln_i_pref + ln_d - p.kw * barrier;
+        let mut ln_i = p.ln_i_pref + ln_d - p.kw * barrier;
         if let Some(kw_wall) = p.kw_wall {
-            ln_nucleation = log_add(ln_nucleation, p.ln_wall_pref + ln_d - kw_wall * barrier);
+            ln_i = log_add(ln_i, p.ln_wall_pref + ln_d - kw_wall * barrier);
         }
-        // U = (D/λ)(1 − e^(−ΔG/RT)), times ΔT/(2π T_L) for screw growth: the
-        // two factors share one logarithm.
+        // U = (D/λ)(1 − e^(−ΔG/RT)), times ΔT/(2π T_L) for screw growth.
         let kinetic = -(-dg / (GAS_CONSTANT * t)).exp_m1();
         let site_fraction = if p.screw {
             (p.tl - t) / (2.0 * PI * p.tl)
         } else {
             1.0
         };
-        let ln_growth = p.ln_u_pref + ln_d + (kinetic * site_fraction).ln();
-        Rates {
-            ln_nucleation,
-            ln_growth,
+        SplitRates {
+            ln_i,
+            ln_u: p.ln_u_pref + ln_d,
+            m,
+            f: kinetic * site_fraction,
         }
     }
 }
