@@ -205,8 +205,8 @@ struct Panel {
     g_inc: [f64; NODES],
     /// ∫ U over the panel, scaled (w·u, without h/2).
     g_tot: f64,
-    /// max − min of ln U over the nodes.
-    ln_u_range: f64,
+    /// max / min of U over the nodes (e^(range of ln U)).
+    u_spread: f64,
 }
 
 impl Panel {
@@ -292,7 +292,7 @@ impl Quadrature {
             u_lin: [0.0; NODES],
             g_inc: [0.0; NODES],
             g_tot: 0.0,
-            ln_u_range: 0.0,
+            u_spread: 1.0,
         }
     }
 
@@ -308,24 +308,24 @@ impl Quadrature {
             p.g_inc[i] = (0..NODES).map(|j| rule.s[i][j] * u[j]).sum();
         }
         p.g_tot = (0..NODES).map(|j| rule.w[j] * u[j]).sum();
-        // The range of ln U from the linear values, one logarithm per panel.
-        // Where the smallest value is too small to be held to full precision
-        // the logarithms at every node give it, unless it is zero beside a
-        // precise largest one: the range is then beyond 76 nats (or ∞ for
-        // a node that does not grow), more than any split decision tells
-        // apart.
+        // The spread of U from the linear values, with no logarithm. Where
+        // the smallest value is too small to be held to full precision the
+        // logarithms at every node give it, unless it is zero beside a
+        // precise largest one: the range of ln U is then beyond 76 nats (or
+        // ∞ for a node that does not grow), more than any split decision
+        // tells apart.
         let (mn, mx) = u
             .iter()
             .fold((f64::INFINITY, 0.0f64), |(a, b), &x| (a.min(x), b.max(x)));
-        p.ln_u_range = if mn >= PRECISE_LINEAR || (mn == 0.0 && mx >= PRECISE_LINEAR) {
-            (mx / mn).ln()
+        p.u_spread = if mn >= PRECISE_LINEAR || (mn == 0.0 && mx >= PRECISE_LINEAR) {
+            mx / mn
         } else {
             let (mn, mx) = (0..NODES)
                 .map(|j| p.logs(j).1)
                 .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), x| {
                     (a.min(x), b.max(x))
                 });
-            mx - mn
+            (mx - mn).exp()
         };
     }
 
@@ -488,6 +488,9 @@ impl Quadrature {
             let top = share.iter().rposition(|&s| s > floor).unwrap_or(0);
             let g_floor = q.negligible_share * g_end[top];
             let split_at = q.log_range_split;
+            // The thresholds as ratios: a logarithm is taken only for a panel
+            // that is cut, to count its pieces.
+            let (f_spread_max, u_spread_max) = (split_at.exp(), q.growth_log_range_split.exp());
             // How many pieces each panel is cut into (1 = kept): enough that the
             // measured log range per piece falls to the threshold, at most 8.
             let f_peak = f.iter().flat_map(|v| v.iter().copied()).fold(0.0, f64::max);
@@ -506,16 +509,16 @@ impl Quadrature {
                         (a.min(x), b.max(x))
                     });
                 // Node values far below the global peak need no resolving.
-                let f_range = (mx / mn.max(f_peak * NEGLIGIBLE_NODE)).ln().max(0.0);
-                let weighty = (p.hi - p.lo) * mx > floor && f_range > split_at;
+                let f_spread = mx / mn.max(f_peak * NEGLIGIBLE_NODE);
+                let weighty = (p.hi - p.lo) * mx > floor && f_spread > f_spread_max;
                 let g_here = 0.5 * (p.hi - p.lo) * p.g_tot;
-                let feeds = k <= top && g_here > g_floor && p.ln_u_range > q.growth_log_range_split;
+                let feeds = k <= top && g_here > g_floor && p.u_spread > u_spread_max;
                 let mut pieces: f64 = 1.0;
                 if weighty {
-                    pieces = pieces.max(f_range / split_at);
+                    pieces = pieces.max(f_spread.ln() / split_at);
                 }
                 if feeds {
-                    pieces = pieces.max(p.ln_u_range / q.growth_log_range_split);
+                    pieces = pieces.max(p.u_spread.ln() / q.growth_log_range_split);
                 }
                 if weighty || feeds {
                     split[k] = (pieces.ceil() as usize).clamp(2, 8);
@@ -796,7 +799,7 @@ mod tests {
             let logs: Vec<f64> = (0..NODES).map(|j| p.logs(j).1).collect();
             let exact = logs.iter().copied().fold(f64::NEG_INFINITY, f64::max)
                 - logs.iter().copied().fold(f64::INFINITY, f64::min);
-            let got = p.ln_u_range;
+            let got = p.u_spread.ln();
             if exact.is_nan() || got.is_nan() {
                 assert!(
                     exact.is_nan() && got.is_nan(),

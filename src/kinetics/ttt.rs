@@ -6,7 +6,7 @@
 
 use super::cooling::{total_extent, PhaseIntegrals};
 use super::quadrature::Cooling;
-use super::rates::{Kinetics, LogSum};
+use super::rates::{Kinetics, LogSum, PRECISE_WEIGHT};
 use super::KineticsError;
 use crate::numeric::brent_min;
 use crate::units::{Kelvin, KelvinPerSecond};
@@ -154,21 +154,48 @@ impl Kinetics {
     }
 
     /// ln Σ_k (π/3) I_k U_k³ and ln Σ_k (4π/3) N_h,k U_k³ at T.
+    ///
+    /// With the rates split as ln I = ℓ_I + ln m and ln U = ℓ_U + ln(m f)
+    /// ([`super::rates::SplitRates`]), the phases share m, so the sums are
+    /// m⁴ Σ_k f_k³ e^(ℓ_I + 3ℓ_U) and m³ Σ_k f_k³ e^(ln(4π/3)N_h + 3ℓ_U): one
+    /// logarithm, of m, serves every phase.
     fn isothermal_coefficients(&self, t: f64) -> (f64, f64) {
-        let mut ln_a = LogSum::EMPTY;
-        let mut ln_b = LogSum::EMPTY;
+        let ln_pi_3 = (PI / 3.0).ln();
+        let mut a = LogSum::EMPTY;
+        let mut b = LogSum::EMPTY;
         let mut mobility = None;
         for (_, p) in &self.phases {
-            let r = self.rates_sharing(p, t, &mut mobility);
-            if r.ln_growth == f64::NEG_INFINITY {
+            if t >= p.tl {
                 continue;
             }
-            ln_a.add((PI / 3.0).ln() + r.ln_nucleation + 3.0 * r.ln_growth);
-            if p.nuclei > 0.0 {
-                ln_b.add(p.ln_nuclei_sphere + 3.0 * r.ln_growth);
+            let mob = *mobility.get_or_insert_with(|| self.mobility(t));
+            let s = self.split_rates_with(p, t, mob);
+            if s.ln_u == f64::NEG_INFINITY || s.f == 0.0 {
+                continue;
+            }
+            let x_a = ln_pi_3 + s.ln_i + 3.0 * s.ln_u;
+            let x_b = p.ln_nuclei_sphere + 3.0 * s.ln_u;
+            let f3 = s.f * s.f * s.f;
+            if f3 >= PRECISE_WEIGHT {
+                a.add_weighted(x_a, f3);
+                if p.nuclei > 0.0 {
+                    b.add_weighted(x_b, f3);
+                }
+            } else {
+                let ln_f3 = 3.0 * s.f.ln();
+                a.add(x_a + ln_f3);
+                if p.nuclei > 0.0 {
+                    b.add(x_b + ln_f3);
+                }
             }
         }
-        (ln_a.ln(), ln_b.ln())
+        match mobility {
+            Some((_, m)) => {
+                let ln_m = m.ln();
+                (a.ln() + 4.0 * ln_m, b.ln() + 3.0 * ln_m)
+            }
+            None => (f64::NEG_INFINITY, f64::NEG_INFINITY),
+        }
     }
 
     /// Isothermal transformed fraction after `time_s` at T by JMAK:
