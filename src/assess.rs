@@ -171,7 +171,7 @@ impl Evaluation {
     ///
     /// # Errors
     /// None in practice: the same melt and options were accepted before.
-    pub fn kinetics(&self) -> Result<Kinetics, KineticsError> {
+    pub fn kinetics(&self) -> Result<Kinetics<'_>, KineticsError> {
         Kinetics::new(&self.melt, &self.options)
     }
 }

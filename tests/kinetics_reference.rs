@@ -168,7 +168,8 @@ fn transformed_fraction_scales_as_rate_to_the_minus_four() {
     // homogeneous nucleation: cooling ten times faster leaves 10⁴ times less
     // crystal. Checked on the time-domain path integral, whose 1 K panels
     // resolve it to about 1e-3 (see a_linear_cooling_path_equals_constant_rate_cooling).
-    let k = Kinetics::new(&card(), &KineticOptions::default()).unwrap();
+    let m = card();
+    let k = Kinetics::new(&m, &KineticOptions::default()).unwrap();
     let ratio = linear_path_fraction(&k, 1e-4) / linear_path_fraction(&k, 1e-3);
     assert!(rel(ratio, 1e4) < PATH_RTOL, "{ratio}");
     // With pre-existing nuclei, X = (4π/3)[J/R⁴ + N_h G³/R³]: the exponent lies
@@ -180,7 +181,8 @@ fn transformed_fraction_scales_as_rate_to_the_minus_four() {
         heterogeneous_nuclei_per_m3: 1.0,
         ..KineticOptions::default()
     };
-    let k = Kinetics::new(&card(), &o).unwrap();
+    let m = card();
+    let k = Kinetics::new(&m, &o).unwrap();
     let slope = |r: f64| (linear_path_fraction(&k, r) / linear_path_fraction(&k, 10.0 * r)).log10();
     let (fast, slow) = (slope(1e-1), slope(1e-9));
     assert!(fast > 3.0 - 1e-3 && slow < 4.0 + 1e-3, "{fast} {slow}");
@@ -528,7 +530,8 @@ fn nose_method_overestimates_the_critical_rate() {
 fn a_linear_cooling_path_equals_constant_rate_cooling() {
     // Two independent code paths: the time-domain path integral and the
     // temperature-domain continuous-cooling quadrature.
-    let k = Kinetics::new(&card(), &KineticOptions::default()).unwrap();
+    let m = card();
+    let k = Kinetics::new(&m, &KineticOptions::default()).unwrap();
     let r = 2e-4;
     let (tl, te) = (1300.0, k.freeze_temperature().0);
     let path = [(0.0, Kelvin(tl)), ((tl - te) / r, Kelvin(te))];
@@ -544,7 +547,8 @@ fn a_linear_cooling_path_equals_constant_rate_cooling() {
 #[test]
 fn isothermal_hold_path_equals_jmak_and_fraction_stays_in_unit_interval() {
     // Source: Avrami (1939): X = 1 − exp(−(π/3) I U³ t⁴) at constant T.
-    let k = Kinetics::new(&card(), &KineticOptions::default()).unwrap();
+    let m = card();
+    let k = Kinetics::new(&m, &KineticOptions::default()).unwrap();
     let t = Kelvin(950.0);
     let mut last = 0.0;
     for time in [1e2, 1e4, 1e5, 3e5, 1e6, 1e7] {
@@ -566,7 +570,8 @@ fn isothermal_hold_path_equals_jmak_and_fraction_stays_in_unit_interval() {
 fn thickest_glassy_slab_reaches_exactly_the_detectable_fraction() {
     // The slab answer (Newtonian first Fourier mode) re-checked by integrating the
     // centre's cooling curve T(t) = T_s + (T_L − T_s) exp(−π²κt/4h²) as a path.
-    let k = Kinetics::new(&card(), &KineticOptions::default()).unwrap();
+    let m = card();
+    let k = Kinetics::new(&m, &KineticOptions::default()).unwrap();
     let (ts, kappa) = (Kelvin(298.15), 5e-7);
     let h = k.max_glassy_half_thickness_m(ts, kappa).unwrap();
     let rate_const = PI * PI * kappa / (4.0 * h * h);
@@ -705,7 +710,8 @@ fn heterogeneous_nuclei_raise_the_critical_rate() {
 
 #[test]
 fn adaptive_quadrature_matches_dense_oracle() {
-    let k = Kinetics::new(&card(), &KineticOptions::default()).unwrap();
+    let m = card();
+    let k = Kinetics::new(&m, &KineticOptions::default()).unwrap();
     let fast = k.critical_rate().unwrap().0;
     let slow = dense_reference_critical_rate(&k, 400_000);
     assert!(rel(fast, slow) < ORACLE_RTOL, "{fast} vs {slow}");

@@ -6,8 +6,13 @@ use quenchwise::kinetics::{KineticOptions, Kinetics};
 use quenchwise::report::plot::{self, TradePoint};
 use quenchwise::units::KelvinPerSecond;
 
-fn card() -> Kinetics {
-    Kinetics::new(&crate::util::demo_card(), &KineticOptions::default()).unwrap()
+fn card() -> Kinetics<'static> {
+    static CARD: std::sync::OnceLock<quenchwise::kinetics::Melt> = std::sync::OnceLock::new();
+    Kinetics::new(
+        CARD.get_or_init(crate::util::demo_card),
+        &KineticOptions::default(),
+    )
+    .unwrap()
 }
 
 #[test]

@@ -23,7 +23,7 @@ pub struct Calibrated {
     pub phase: usize,
 }
 
-impl Kinetics {
+impl Kinetics<'_> {
     /// Turnbull α (or σ, if the phase gives σ) of one phase that makes the
     /// model reproduce a measured critical cooling rate.
     ///

@@ -71,7 +71,7 @@ pub(super) struct PhaseIntegrals {
     pub(super) extent: Extent,
 }
 
-impl Kinetics {
+impl Kinetics<'_> {
     /// The cooling integrals of every phase that can crystallise.
     pub(super) fn phase_integrals(
         &self,

@@ -204,8 +204,10 @@ pub(super) struct PhaseRates {
 
 /// A melt prepared for fast evaluation of I(T) and U(T) of every phase.
 #[derive(Debug, Clone)]
-pub struct Kinetics {
-    pub(super) melt: Melt,
+pub struct Kinetics<'m> {
+    /// The melt, borrowed: a screen prepares one per candidate, and a copy
+    /// would clone every phase's name.
+    pub(super) melt: &'m Melt,
     pub(super) opts: KineticOptions,
     /// The phases that can crystallise (liquidus above T_g), with their index in the melt.
     pub(super) phases: Vec<(usize, PhaseRates)>,
@@ -220,13 +222,13 @@ pub struct Kinetics {
     decoupling: Option<(f64, f64, f64)>,
 }
 
-impl Kinetics {
+impl<'m> Kinetics<'m> {
     /// Prepare a melt for kinetic evaluation. Phases whose liquidus lies at or
     /// below T_g cannot crystallise from the liquid and are left out.
     ///
     /// # Errors
     /// Invalid options; every liquidus at or below T_g.
-    pub fn new(melt: &Melt, opts: &KineticOptions) -> Result<Self, KineticsError> {
+    pub fn new(melt: &'m Melt, opts: &KineticOptions) -> Result<Self, KineticsError> {
         opts.validate()?;
         let tg = melt
             .viscosity
@@ -281,7 +283,7 @@ impl Kinetics {
             }
         };
         Ok(Kinetics {
-            melt: melt.clone(),
+            melt,
             opts: *opts,
             phases,
             tl,
@@ -299,8 +301,8 @@ impl Kinetics {
     }
 
     /// The melt this was prepared from.
-    pub fn melt(&self) -> &Melt {
-        &self.melt
+    pub fn melt(&self) -> &'m Melt {
+        self.melt
     }
 
     /// The options in force.

@@ -142,7 +142,7 @@ pub(super) fn representable(
 /// (1 − c)/c with c = (3 − √5)/2, the golden-section fraction.
 const GOLDEN_STRETCH: f64 = 1.618_033_988_749_895;
 
-impl Kinetics {
+impl Kinetics<'_> {
     /// ln of the isothermal time to reach X_c at T, all phases together:
     /// Σ_k [(π/3) I_k U_k³ t⁴ + (4π/3) N_h,k U_k³ t³] = X_c.
     pub(super) fn ln_ttt_time(&self, t: f64) -> f64 {
