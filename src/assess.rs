@@ -319,14 +319,21 @@ fn kinetic_part(
 fn beyond_vouching(e: &Evaluation) -> Vec<String> {
     let mut out = Vec::new();
     if e.nose_time_s > VOUCH_NOSE_TIME_S {
-        out.push(format!(
-            "a nose time of {:.1} days",
-            e.nose_time_s / 86_400.0
-        ));
+        // Beyond a century, digits past the second say nothing.
+        let days = e.nose_time_s / 86_400.0;
+        out.push(if days < 36_525.0 {
+            format!("a nose time of {days:.1} days")
+        } else {
+            format!("a nose time of {days:.1e} days")
+        });
     }
     if let Some(mm) = e.max_glassy_thickness_mm {
         if mm > VOUCH_THICKNESS_MM {
-            out.push(format!("a glassy slab of {mm:.0} mm"));
+            out.push(if mm < 1e6 {
+                format!("a glassy slab of {mm:.0} mm")
+            } else {
+                format!("a glassy slab of {mm:.1e} mm")
+            });
         }
     }
     if e.critical_rate_k_per_s < VOUCH_CRITICAL_RATE_K_PER_S {
