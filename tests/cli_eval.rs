@@ -243,3 +243,48 @@ fn melt_and_composition_tables_keep_going_past_bad_rows() {
     assert!(d.join("cands.parquet").exists());
     assert!(!d.join("cands.parquet.partial").exists());
 }
+
+#[test]
+fn times_and_slabs_beyond_vouching_are_printed_with_two_digits() {
+    // An invented melt card of a very good glass former (nose time of about
+    // 2e7 days, slab of about 1e7 mm): the warning states both in e-notation
+    // with two significant digits (common practice for numbers whose digits
+    // mean nothing), and they agree with the JSON fields.
+    let d = temp_dir("eval-beyond");
+    let card = d.join("card.toml");
+    std::fs::write(
+        &card,
+        "[viscosity]\na = -2.674\nb_k = 4999.6\nc_k = 448.5\n\n[crystal]\nliquidus_k = 1222.2\n\
+         enthalpy_of_fusion_j_per_mol = 66864.0\nmolar_volume_m3_per_mol = 5.096e-5\n\
+         turnbull_alpha = 0.381\ngrowth = \"screw\"\n",
+    )
+    .unwrap();
+    let j = run_in(&d, &["eval", "--melt", card.to_str().unwrap(), "--json"])
+        .code(0)
+        .json();
+    let warnings = j["warnings"].to_string();
+    let after = |key: &str, unit: &str| -> f64 {
+        let rest = &warnings[warnings
+            .find(key)
+            .unwrap_or_else(|| panic!("{key}: {warnings}"))
+            + key.len()..];
+        let text = &rest[..rest.find(unit).unwrap()];
+        assert!(text.contains('e'), "{key}{text}{unit} is not in e-notation");
+        assert_eq!(
+            text.split('e').next().unwrap().len(),
+            3,
+            "two digits: {text}"
+        );
+        text.parse().unwrap()
+    };
+    let days = after("a nose time of ", " days");
+    let mm = after("a glassy slab of ", " mm");
+    let want_days = j["nose_time_s"].as_f64().unwrap() / 86_400.0;
+    let want_mm = j["max_glassy_thickness_mm"].as_f64().unwrap();
+    assert!(
+        want_days > 36_525.0 && want_mm > 1e6,
+        "{want_days} days, {want_mm} mm"
+    );
+    assert!(rel(days, want_days) < 0.05, "{days} vs {want_days}");
+    assert!(rel(mm, want_mm) < 0.05, "{mm} vs {want_mm}");
+}

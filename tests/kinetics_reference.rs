@@ -886,3 +886,68 @@ fn wall_nucleation_counts_sites_per_area() {
     assert!(thick > 0.0);
     assert!(rel(thin / thick, 10.0) < 1e-9, "{}", thin / thick);
 }
+
+#[test]
+fn the_isothermal_fraction_of_several_phases_is_the_jmak_sum_of_their_rates() {
+    // Source: JMAK with additive extended volumes (Avrami 1939–41), as
+    // docs/science.md, "Several phases", writes it:
+    // X_ext = Σ_k [(π/3) I_k U_k³ t⁴ + (4π/3) N_h,k U_k³ t³], X = 1 − e^(−X_ext),
+    // built here from each phase's public rates; the code sums the phases
+    // its own way (split rates, one logarithm per temperature). The
+    // two-phase melt under every option that changes the rates, at 40
+    // temperatures across the window and times spanning X_ext from 1e-9 to 3.
+    use crate::tolerances::ROUNDING_SUM_RTOL;
+    let mut melts = Vec::new();
+    for variant in 0..6 {
+        let mut m = two_phases();
+        let mut o = KineticOptions::default();
+        match variant {
+            1 => o.heterogeneous_nuclei_per_m3 = 1e9,
+            2 => {
+                o.contact_angle_deg = 60.0;
+                m.phases[1].nuclei_per_m3 = Some(1e11);
+            }
+            3 => o.transport = Transport::Fractional { exponent: 0.7 },
+            4 => o.driving_force = DrivingForce::Hoffman,
+            5 => m.phases[0].heat_capacity_change_j_per_mol_k = 30.0,
+            _ => {}
+        }
+        melts.push((m, o));
+    }
+    for (m, o) in &melts {
+        let k = Kinetics::new(m, o).unwrap();
+        let (te, tl) = (k.freeze_temperature().0, k.liquidus().0);
+        for n in 0..40 {
+            let t = te + (tl - te) * (n as f64 + 0.5) / 40.0;
+            // Each phase's coefficients of t⁴ and t³ from its public rates.
+            let (mut a, mut b) = (0.0, 0.0);
+            for p in k.active_phases() {
+                let r = k.phase_rates(p, Kelvin(t));
+                let u3 = r.growth_m_per_s().powi(3);
+                a += PI / 3.0 * r.nucleation_per_m3_s() * u3;
+                let nh = m.phases[p]
+                    .nuclei_per_m3
+                    .unwrap_or(o.heterogeneous_nuclei_per_m3);
+                b += 4.0 * PI / 3.0 * nh * u3;
+            }
+            if a + b == 0.0 {
+                continue;
+            }
+            // Times where X_ext runs from 1e-9 to 3.
+            let ext_at = |s: f64| a * s.powi(4) + b * s.powi(3);
+            let mut s = 1e-30;
+            while ext_at(s) < 1e-9 {
+                s *= 10.0;
+            }
+            while ext_at(s) < 3.0 {
+                let want = -(-ext_at(s)).exp_m1();
+                let got = k.isothermal_fraction(Kelvin(t), s);
+                assert!(
+                    rel(got, want) < ROUNDING_SUM_RTOL,
+                    "{o:?} at {t} K, {s} s: {got} vs {want}"
+                );
+                s *= 3.0;
+            }
+        }
+    }
+}

@@ -105,3 +105,7 @@ pub const SE_ORACLE_RTOL: f64 = 1e-4;
 /// its own standard errors (a two-sided normal band that a correct
 /// estimator leaves with probability 0.27 %; common practice).
 pub const MONTE_CARLO_STANDARD_ERRORS: f64 = 3.0;
+
+/// Rounding in sums of a few products of exponentials computed two ways
+/// (extended fractions from the public rates against the code's sums).
+pub const ROUNDING_SUM_RTOL: f64 = 1e-11;

@@ -14,7 +14,7 @@
 //! - L. Greengard, "Spectral integration and two-point boundary value problems",
 //!   SIAM J. Numer. Anal. 28 (1991) 1071–1080, doi:10.1137/0728057.
 
-use super::rates::SplitRates;
+use super::rates::{SplitRates, PRECISE_LINEAR};
 use super::ttt::solve_quartic_cubic;
 use super::KineticsError;
 use std::f64::consts::PI;
@@ -122,7 +122,8 @@ pub(super) struct CoolingIntegrals {
     pub(super) ln_j: f64,
     /// ln ∫_{T_e}^{T_L} U w dT.
     pub(super) ln_g_total: f64,
-    /// Temperature and value of the largest ln I + 3 ln U seen at any node (nose bracket).
+    /// The node with the shortest isothermal time to X_c, as (temperature,
+    /// −ln y, half-width of its panel) ([`nose_node`]): the nose bracket.
     pub(super) nose_guess: (f64, f64, f64),
     /// Number of temperatures at which I and U were evaluated.
     pub(super) evaluations: usize,
@@ -258,10 +259,6 @@ struct Shifts {
 /// when judging whether a panel is resolved.
 const NEGLIGIBLE_NODE: f64 = 1e-14;
 
-/// Scaled linear values at or above this keep full relative precision (well
-/// above the subnormal range, 2.2e-308), so ratios of them give exact ranges.
-const PRECISE_LINEAR: f64 = 1e-290;
-
 /// How far above its shift a log value may go before the linear copies are rebuilt.
 const SHIFT_HEADROOM: f64 = 600.0;
 
@@ -277,7 +274,13 @@ impl Quadrature {
         cooling: Cooling,
     ) -> Panel {
         let ts = rule.nodes_on(lo, hi);
-        Quadrature::panel_of(lo, hi, ts.map(rates), ts.map(|t| cooling.shape(t)))
+        let mut at = [SplitRates::NONE; NODES];
+        let mut shape = [1.0; NODES];
+        for k in 0..NODES {
+            at[k] = rates(ts[k]);
+            shape[k] = cooling.shape(ts[k]);
+        }
+        Quadrature::panel_of(lo, hi, at, shape)
     }
 
     /// A panel from its rates and shape factors at the nodes (its linear
@@ -424,7 +427,7 @@ impl Quadrature {
         };
         let min_width = (b - a) * 1e-9;
         // The shifts are the largest split logarithms (ln I and ln U without
-        // their factors): the linear values stay within a few thousand of one.
+        // their factors m, f and w), far from where the linear values overflow.
         let max_of = |panels: &[Panel], f: fn(&SplitRates) -> f64| {
             panels
                 .iter()
@@ -621,12 +624,22 @@ fn nose_node(
             upper(logs)
         }
     };
+    // The linear values divided by their largest, I' and U' in [0, 1]:
+    // the shifts need not be the maxima (refinement rebuilds them only 600
+    // nats beyond), and I'·U'³ can then neither overflow nor be 0·∞.
+    // One pass: the largest I and U, and the nodes with the largest I·U³
+    // and U on the values as they are (an overflowed or NaN product only
+    // picks a node whose bound is not the least, which lowers the
+    // thresholds below: more nodes are solved, none is missed).
+    let (mut top_i, mut top_u) = (0.0f64, 0.0f64);
     let mut best_iu3 = (0.0, 0, 0);
     let mut best_u = (0.0, 0, 0);
     for (k, p) in panels.iter().enumerate() {
         for j in 0..NODES {
-            let u = p.u_lin[j];
-            let iu3 = p.i_lin[j] * u * u * u;
+            let (i, u) = (p.i_lin[j], p.u_lin[j]);
+            top_i = top_i.max(i);
+            top_u = top_u.max(u);
+            let iu3 = i * u * u * u;
             if iu3 > best_iu3.0 {
                 best_iu3 = (iu3, k, j);
             }
@@ -635,7 +648,22 @@ fn nose_node(
             }
         }
     }
-    let precise = best_iu3.0 >= PRECISE_LINEAR && best_u.0 >= PRECISE_LINEAR;
+    let scalable = top_i >= f64::MIN_POSITIVE
+        && top_u >= f64::MIN_POSITIVE
+        && top_i.is_finite()
+        && top_u.is_finite();
+    let (to_i, to_u) = (1.0 / top_i, 1.0 / top_u);
+    // The best nodes' I'·U'³ and U', scaled.
+    let scaled = |(_, k, j): (f64, usize, usize)| {
+        let p: &Panel = &panels[k];
+        let (i, u) = (p.i_lin[j] * to_i, p.u_lin[j] * to_u);
+        (i * u * u * u, u)
+    };
+    let (best_iu3_scaled, best_u_scaled) = (scaled(best_iu3).0, scaled(best_u).1);
+    // I'·U'³ can be far below 1 at every node (I and U peak apart); the
+    // unit of I'' = I'/(the best I'·U'³) puts the best node at 1.
+    let precise = scalable && best_iu3_scaled > 0.0 && best_u_scaled > 0.0;
+    let to_i2 = to_i / best_iu3_scaled;
     let least_upper = if precise {
         upper_at(&panels[best_iu3.1], best_iu3.2).min(upper_at(&panels[best_u.1], best_u.2))
     } else {
@@ -647,22 +675,43 @@ fn nose_node(
     // Far more than the rounding of Newton's root, far less than (ln 2)/3.
     let cut = least_upper + 1e-9 * (1.0 + least_upper.abs()) + std::f64::consts::LN_2 / 3.0;
     // Within the cut: ln(I U³) ≥ ln X_c − ln(π/3) − 4 cut, or
-    // ln U ≥ (ln X_c − ttt.0 − 3 cut)/3; as thresholds on the linear values,
-    // lowered far beyond their rounding (zero lets every node through).
+    // ln U ≥ (ln X_c − ttt.0 − 3 cut)/3; as thresholds on I''·U'³ and U',
+    // lowered far beyond their rounding. They lie near 1 (the best node's
+    // values, within a factor 2^(4/3)), far above the normal range's floor,
+    // so comparisons with normal values are exact to rounding. A node whose
+    // U' has underflowed has I''·U'³ below 2.2e-308³/2.2e-308, under the
+    // threshold; one whose I' has underflowed has I''·U'³ below
+    // 2.2e-308/(the best I'·U'³), under it when that is small enough
+    // (`tiny_i_slower`), else it is solved.
     let (iu3_least, u_least) = if precise {
+        let ln_unit_i = sh.i + top_i.ln() + best_iu3_scaled.ln();
+        let ln_top_u = sh.u + top_u.ln();
         (
-            (ttt.1 - ln_pi_3 - 4.0 * cut - sh.i - 3.0 * sh.u).exp() * (1.0 - 1e-6),
-            ((ttt.1 - ttt.0 - 3.0 * cut) / 3.0 - sh.u).exp() * (1.0 - 1e-6),
+            (ttt.1 - ln_pi_3 - 4.0 * cut - ln_unit_i - 3.0 * ln_top_u).exp() * (1.0 - 1e-6),
+            ((ttt.1 - ttt.0 - 3.0 * cut) / 3.0 - ln_top_u).exp() * (1.0 - 1e-6),
         )
     } else {
         (0.0, 0.0)
+    };
+    let tiny_i_slower = f64::MIN_POSITIVE / best_iu3_scaled < iu3_least;
+    let surely_slower = |r: &SplitRates, i: f64, u: f64| {
+        let u = u * to_u;
+        let small_iu3 = r.ln_i == f64::NEG_INFINITY
+            || u < f64::MIN_POSITIVE
+            || if i * to_i < f64::MIN_POSITIVE {
+                tiny_i_slower
+            } else {
+                let i = i * to_i2;
+                i * u * u * u < iu3_least
+            };
+        precise && small_iu3 && u < u_least
     };
     let mut nose = (a, f64::NEG_INFINITY, 0.0);
     for p in panels {
         let ts = rule.nodes_on(p.lo, p.hi);
         for (j, (&t, (&i, &u))) in ts.iter().zip(p.i_lin.iter().zip(&p.u_lin)).enumerate() {
             // (NaN values and thresholds never rule a node out.)
-            if i * u * u * u < iu3_least && u < u_least {
+            if surely_slower(&p.rates[j], i, u) {
                 continue;
             }
             let (ln_i, ln_u) = p.logs(j);
@@ -683,14 +732,20 @@ fn nose_node(
 mod tests {
     use super::*;
 
+    /// Logarithms of order 1000 (and ranges of them), to rounding.
+    const RANGE_ATOL: f64 = 1e-10;
+
     #[test]
     fn the_nose_node_is_the_one_solving_every_node_gives() {
         // Every node solved, as the bounds and linear thresholds in nose_node
         // skip; random split rates over wide ranges (a SplitMix-style
         // generator, fixed seed), with random factors, with and without
-        // pre-existing nuclei, some nodes not growing, and in a third of the
+        // pre-existing nuclei, some nodes not growing, in a third of the
         // cases I and U so opposed that the largest scaled I·U³ underflows
-        // (the path that takes every node's logarithms).
+        // (the path that takes every node's logarithms), and shifts up to
+        // 600 nats below the largest values as refinement can leave them
+        // (so that I underflows where U is large).
+        // Source: the rule itself, every node solved.
         let rule = rule();
         let mut next = crate::numeric::split_mix(0x1234_5678_9abc_def0u64);
         let ln_pi_3 = (PI / 3.0).ln();
@@ -711,7 +766,14 @@ mod tests {
                         let spread = if case % 3 == 0 { 0.1 } else { 80.0 };
                         let x = next();
                         let (ln_i, ln_u) = if case % 3 == 1 {
-                            (-20.0 + 400.0 * x, -30.0 - 400.0 * x)
+                            // Up to 1500 nats of I: where U is largest, I
+                            // underflows against a shift
+                            // (and I·U³ is largest where I is least).
+                            if case % 6 == 4 {
+                                (-20.0 + 1500.0 * x, -30.0 - 600.0 * x)
+                            } else {
+                                (-20.0 + 400.0 * x, -30.0 - 400.0 * x)
+                            }
                         } else {
                             (-20.0 + spread * x, -30.0 + spread * 0.2 * next())
                         };
@@ -742,9 +804,14 @@ mod tests {
                     .flat_map(|p| p.rates.iter().map(f))
                     .fold(f64::NEG_INFINITY, f64::max)
             };
+            let (stale_i, stale_u) = if case % 5 == 2 || case % 6 == 4 {
+                (600.0 * next(), 600.0 * next())
+            } else {
+                (0.0, 0.0)
+            };
             let sh = Shifts {
-                i: max_of(|r| r.ln_i),
-                u: max_of(|r| r.ln_u),
+                i: max_of(|r| r.ln_i) - stale_i,
+                u: max_of(|r| r.ln_u) - stale_u,
             };
             for p in panels.iter_mut() {
                 Quadrature::scale_panel(rule, p, sh);
@@ -754,6 +821,19 @@ mod tests {
                 let ts = rule.nodes_on(p.lo, p.hi);
                 for (j, &t) in ts.iter().enumerate() {
                     let (ln_i, ln_u) = p.logs(j);
+                    // The logarithms the rule uses are ln I and ln U term by
+                    // term, with the cooling law's weight.
+                    let (r, w) = (&p.rates[j], p.shape[j]);
+                    let by_terms = (
+                        r.ln_i + r.m.ln() + w.ln(),
+                        r.ln_u + r.m.ln() + r.f.ln() + w.ln(),
+                    );
+                    for (a, b) in [(ln_i, by_terms.0), (ln_u, by_terms.1)] {
+                        assert!(
+                            a == b || (a - b).abs() <= RANGE_ATOL,
+                            "case {case}: {a} vs {b}"
+                        );
+                    }
                     let ln_u3 = 3.0 * ln_u;
                     if ln_u3 == f64::NEG_INFINITY {
                         continue;
@@ -771,7 +851,8 @@ mod tests {
 
     #[test]
     fn the_range_of_ln_u_is_the_same_from_linear_values_and_from_logarithms() {
-        // Source: the definition, max − min of ln U over a panel's nodes,
+        // Source: the definition, max − min of ln U over a panel's nodes
+        // (ln U summed from its split terms and the cooling law's weight),
         // against scale_panel's ratio of linear values, for shifts that put
         // the values anywhere from full precision to underflow; where a
         // value underflows only the decision it feeds (the range exceeds
@@ -790,13 +871,24 @@ mod tests {
                 m: 1.0 + 3000.0 * next(),
                 f: (-18.0 * next()).exp(),
             });
-            let mut p = Quadrature::panel_of(700.0, 750.0, rates, [1.0; NODES]);
+            let shape: [f64; NODES] = if case % 3 == 0 {
+                [1.0; NODES]
+            } else {
+                std::array::from_fn(|_| 1e-4 + 0.01 * next())
+            };
+            let mut p = Quadrature::panel_of(700.0, 750.0, rates, shape);
             let sh = Shifts {
                 i: -10.0,
                 u: -30.0 + 800.0 * next() - 200.0,
             };
             Quadrature::scale_panel(rule, &mut p, sh);
-            let logs: Vec<f64> = (0..NODES).map(|j| p.logs(j).1).collect();
+            // ln U = ℓ_U + ln m + ln f + ln w, term by term.
+            let logs: Vec<f64> = (0..NODES)
+                .map(|j| {
+                    let r = &p.rates[j];
+                    r.ln_u + r.m.ln() + r.f.ln() + p.shape[j].ln()
+                })
+                .collect();
             let exact = logs.iter().copied().fold(f64::NEG_INFINITY, f64::max)
                 - logs.iter().copied().fold(f64::INFINITY, f64::min);
             let got = p.u_spread.ln();
@@ -809,7 +901,7 @@ mod tests {
                 assert!(exact > 48.0 && got > 48.0, "case {case}: {got} vs {exact}");
             } else {
                 assert!(
-                    (got - exact).abs() <= 1e-10,
+                    (got - exact).abs() <= RANGE_ATOL,
                     "case {case}: {got} vs {exact}"
                 );
             }

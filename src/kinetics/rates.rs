@@ -3,8 +3,10 @@
 //! driving force (Turnbull with ΔC_p, or Hoffman), the classical barrier,
 //! steady nucleation in the volume and on the sample's walls, and
 //! interface-controlled growth. Every rate is kept as a natural logarithm
-//! because I(T) spans hundreds of decades. See docs/science.md, "Nucleation
-//! and growth" and "Transport near the glass transition".
+//! because I(T) spans hundreds of decades, or, for the quadrature, in a
+//! split form whose linear values need no logarithm ([`SplitRates`]). See
+//! docs/science.md, "Nucleation and growth", "Transport near the glass
+//! transition" and "The adaptive Gauss–Legendre quadrature".
 
 use super::melt::{wetting_factor, DrivingForce, KineticOptions, Melt, Transport};
 use super::quadrature::QuadratureSettings;
@@ -40,22 +42,23 @@ impl Rates {
 
 /// Rates at one temperature split so that their linear values need no
 /// logarithm: ln I = `ln_i` + ln `m`, ln U = `ln_u` + ln(`m`·`f`), with `m`
-/// and `f` positive factors of order one to a few thousand (T, the growth's
-/// kinetic and site factors, a cooling law's weight). The quadrature sums
-/// e^(ln_i − shift)·m and takes the logarithms only at the few nodes a
-/// decision needs them (docs/science.md, "The adaptive Gauss–Legendre
-/// quadrature").
+/// positive (T under Stokes–Einstein, 1 below T_d with fractional
+/// transport) and `f` in (0, 1] (the growth's kinetic factor 1 − e^(−ΔG/RT),
+/// times ΔT/(2π T_L) for screw growth; small just below T_L). The
+/// quadrature sums e^(ln_i − shift)·m and takes the logarithms only at the
+/// few nodes a decision needs them (docs/science.md, "The adaptive
+/// Gauss–Legendre quadrature").
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct SplitRates {
-    pub ln_i: f64,
-    pub ln_u: f64,
-    pub m: f64,
-    pub f: f64,
+pub(crate) struct SplitRates {
+    pub(crate) ln_i: f64,
+    pub(crate) ln_u: f64,
+    pub(crate) m: f64,
+    pub(crate) f: f64,
 }
 
 impl SplitRates {
     /// No nucleation and no growth.
-    pub const NONE: SplitRates = SplitRates {
+    pub(crate) const NONE: SplitRates = SplitRates {
         ln_i: f64::NEG_INFINITY,
         ln_u: f64::NEG_INFINITY,
         m: 1.0,
@@ -63,23 +66,13 @@ impl SplitRates {
     };
 
     /// Rates given as logarithms (factors 1).
-    pub fn from_logs(r: Rates) -> SplitRates {
+    pub(crate) fn from_logs(r: Rates) -> SplitRates {
         SplitRates {
             ln_i: r.ln_nucleation,
             ln_u: r.ln_growth,
             m: 1.0,
             f: 1.0,
         }
-    }
-
-    /// ln I.
-    pub fn ln_nucleation(&self) -> f64 {
-        self.ln_i + self.m.ln()
-    }
-
-    /// ln U.
-    pub fn ln_growth(&self) -> f64 {
-        self.ln_u + (self.m * self.f).ln()
     }
 }
 
@@ -92,13 +85,15 @@ pub(crate) fn log_add(a: f64, b: f64) -> f64 {
     m + ((a - m).exp() + (b - m).exp()).ln()
 }
 
-/// Weights at or above this keep full relative precision (far above the
-/// subnormal range, 2.2e-308).
-pub(crate) const PRECISE_WEIGHT: f64 = 1e-290;
+/// Linear values and weights at or above this keep full relative precision
+/// (far above the subnormal range, below 2.2e-308), so products and ratios
+/// of them are exact to rounding; below it the logarithms are taken.
+pub(crate) const PRECISE_LINEAR: f64 = 1e-290;
 
 /// A running ln Σ_k e^(x_k), one exponential per term: the sum is kept
 /// scaled by its largest term so far (where [`log_add`] takes two
-/// exponentials and a logarithm per term).
+/// exponentials and a logarithm per term); the TTT sums over phases use it
+/// (docs/science.md, "The adaptive Gauss–Legendre quadrature").
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct LogSum {
     max: f64,
@@ -126,10 +121,10 @@ impl LogSum {
     }
 
     /// Add w·e^x for a weight w > 0 held to full precision (at least
-    /// [`PRECISE_WEIGHT`]), one exponential.
+    /// [`PRECISE_LINEAR`]), one exponential.
     #[inline]
     pub(crate) fn add_weighted(&mut self, x: f64, w: f64) {
-        debug_assert!(w >= PRECISE_WEIGHT);
+        debug_assert!(w >= PRECISE_LINEAR);
         if x > self.max {
             self.scaled = self.scaled * (self.max - x).exp() + w;
             self.max = x;
@@ -152,7 +147,8 @@ impl LogSum {
 
 /// 1 − e^(−x) for x > 0: directly where e^(−x) ≤ ½, which leaves no
 /// cancellation (the difference is exact to an ulp), and by expm1 below,
-/// which costs about twice an exponential.
+/// which costs about twice an exponential (docs/science.md, "The adaptive
+/// Gauss–Legendre quadrature").
 #[inline]
 fn one_minus_exp_neg(x: f64) -> f64 {
     if x > LN_2 {
@@ -429,7 +425,8 @@ impl<'m> Kinetics<'m> {
     }
 
     /// I and U of phase `p` at T in the split form the quadrature sums
-    /// ([`SplitRates`]): no logarithm is taken.
+    /// ([`SplitRates`]): no logarithm is taken. (Inlined into the
+    /// quadrature's loop: called there it costs a fifth more.)
     #[inline]
     pub(super) fn split_rates(&self, p: &PhaseRates, t: f64) -> SplitRates {
         if t >= p.tl {
@@ -438,6 +435,8 @@ impl<'m> Kinetics<'m> {
         self.split_rates_with(p, t, self.mobility(t))
     }
 
+    /// As [`Kinetics::split_rates`], with the mobility at T given
+    /// ([`Kinetics::mobility`]), as phases at one temperature share it.
     #[inline]
     pub(super) fn split_rates_with(
         &self,
@@ -453,14 +452,21 @@ impl<'m> Kinetics<'m> {
             return SplitRates::NONE;
         }
         let ln_d = p.ln_d_pref + l;
-        // 1/(ΔG² T), the one division here: ΔG/(RT) follows from it.
         let barrier = 1.0 / (dg * dg * t);
         let mut ln_i = p.ln_i_pref + ln_d - p.kw * barrier;
         if let Some(kw_wall) = p.kw_wall {
             ln_i = log_add(ln_i, p.ln_wall_pref + ln_d - kw_wall * barrier);
         }
         // U = (D/λ)(1 − e^(−ΔG/RT)), times ΔT/(2π T_L) for screw growth.
-        let kinetic = one_minus_exp_neg(dg * (dg * dg * barrier) * (1.0 / GAS_CONSTANT));
+        // ΔG/(RT) from the barrier, without a division, except where that
+        // is infinite or zero (ΔG below 1e-150 or above 1e150 J/mol).
+        let x = dg * (dg * dg * barrier) * (1.0 / GAS_CONSTANT);
+        let x = if x > 0.0 && x.is_finite() {
+            x
+        } else {
+            dg / (GAS_CONSTANT * t)
+        };
+        let kinetic = one_minus_exp_neg(x);
         let site_fraction = if p.screw {
             (p.tl - t) * p.screw_per_k
         } else {
@@ -479,20 +485,70 @@ impl<'m> Kinetics<'m> {
 mod tests {
     use super::*;
 
+    /// A few units of rounding relative to the value.
+    const FEW_ULPS: f64 = 4.0 * f64::EPSILON;
+
+    /// Sums of logarithms of order 1 to 700, to rounding.
+    const LOG_SUM_RTOL: f64 = 1e-14;
+
     #[test]
-    fn one_minus_exp_neg_agrees_with_expm1_to_an_ulp_or_two() {
-        // Source: the C99/IEEE expm1 of the platform's libm, a reference
-        // implementation of 1 − e^(−x) without cancellation; x from 1e-12 to
-        // 700 on a log grid, and densely around the switch at ln 2.
+    fn one_minus_exp_neg_agrees_with_a_form_free_of_cancellation() {
+        // Source: the identity 1 − e^(−x) = 2 tanh(x/2) / (1 + tanh(x/2)),
+        // which has no cancellation anywhere (libm's tanh, not the exp or
+        // expm1 the function uses); x from 1e-12 to 700 on a log grid, and
+        // densely around the switch at ln 2.
         let xs = (0..20_000)
             .map(|k| 1e-12 * (700e12f64).powf(k as f64 / 19_999.0))
             .chain((0..2001).map(|k| LN_2 * (0.999 + 0.002 * k as f64 / 2000.0)));
         for x in xs {
-            let reference = -(-x).exp_m1();
+            let h = (0.5 * x).tanh();
+            let reference = 2.0 * h / (1.0 + h);
             let got = one_minus_exp_neg(x);
             assert!(
-                (got - reference).abs() <= 2.0 * f64::EPSILON * reference,
+                (got - reference).abs() <= FEW_ULPS * reference,
                 "x = {x}: {got} vs {reference}"
+            );
+        }
+    }
+
+    #[test]
+    fn the_growth_factor_holds_for_driving_forces_beyond_the_barrier_range() {
+        // Source: the definition, 1 − e^(−ΔG/RT) (here against the same
+        // identity in tanh), for ΔG from 1e-200 to 1e200 J/mol at 1000 K,
+        // where the barrier 1/(ΔG² T) is subnormal, zero or infinite at
+        // the ends: the growth factor stays in (0, 1].
+        let melt = Melt::new(
+            crate::properties::ViscosityCurve::Vft {
+                a: -2.8,
+                b_k: 4500.0,
+                c_k: 480.0,
+            },
+            Kelvin(1300.0),
+            60_000.0,
+            6e-5,
+            crate::properties::Interface::TurnbullAlpha(0.33),
+            GrowthMode::Normal,
+        )
+        .unwrap();
+        let k = Kinetics::new(&melt, &KineticOptions::default()).unwrap();
+        let (_, p) = &k.phases[0];
+        let t = 1000.0;
+        for e in -200..=200 {
+            let dg = 10f64.powi(e);
+            // The same phase with ΔH_m/T_L set so that ΔG(T) = dg.
+            let q = PhaseRates {
+                dh_per_tl: dg / (p.tl - t),
+                ..p.clone()
+            };
+            let s = k.split_rates_with(&q, t, k.mobility(t));
+            let h = (0.5 * dg / (GAS_CONSTANT * t)).tanh();
+            let want = 2.0 * h / (1.0 + h);
+            assert!(s.f > 0.0 && s.f <= 1.0, "ΔG = {dg}: f = {}", s.f);
+            // (ΔG itself is computed from ΔH_m/T_L · ΔT, a few roundings.)
+            assert!(
+                (s.f - want).abs() <= 4.0 * FEW_ULPS * want,
+                "ΔG = {dg}: {} vs {want}",
+                s.f
             );
         }
     }
@@ -521,25 +577,32 @@ mod tests {
                 continue;
             }
             let scale = 1.0 + pairwise.abs();
-            assert!((s.ln() - pairwise).abs() <= 1e-14 * scale, "{xs:?}");
+            assert!((s.ln() - pairwise).abs() <= LOG_SUM_RTOL * scale, "{xs:?}");
             if !wide {
                 let direct = xs.iter().map(|x| x.exp()).sum::<f64>().ln();
-                assert!((s.ln() - direct).abs() <= 1e-14 * scale, "{xs:?}");
+                assert!((s.ln() - direct).abs() <= LOG_SUM_RTOL * scale, "{xs:?}");
             }
         }
-        // With weights: Σ w e^x against the direct sum.
+        // With weights down to the least precise one (1e-290): Σ w e^x
+        // against the direct sum, the exponents kept so that it is
+        // representable.
         for case in 0..2000 {
             let n = 1 + case % 7;
             let terms: Vec<(f64, f64)> = (0..n)
-                .map(|_| (-30.0 + 60.0 * next(), (-60.0 * next()).exp()))
+                .map(|_| {
+                    let w = (PRECISE_LINEAR.ln() * next()).exp().max(PRECISE_LINEAR);
+                    (-30.0 + 60.0 * next() - w.ln() * next(), w)
+                })
                 .collect();
             let mut s = LogSum::EMPTY;
             terms.iter().for_each(|&(x, w)| s.add_weighted(x, w));
             let direct = terms.iter().map(|(x, w)| w * x.exp()).sum::<f64>().ln();
-            assert!(
-                (s.ln() - direct).abs() <= 1e-14 * (1.0 + direct.abs()),
-                "{terms:?}"
-            );
+            // Rounding relative to the largest logarithm in the sum.
+            let scale = terms
+                .iter()
+                .map(|(x, w)| x.abs() + w.ln().abs())
+                .fold(1.0 + direct.abs(), f64::max);
+            assert!((s.ln() - direct).abs() <= LOG_SUM_RTOL * scale, "{terms:?}");
         }
         let mut s = LogSum::EMPTY;
         s.add(1.0);

@@ -6,7 +6,7 @@
 
 use super::cooling::{total_extent, PhaseIntegrals};
 use super::quadrature::Cooling;
-use super::rates::{Kinetics, LogSum, PRECISE_WEIGHT};
+use super::rates::{Kinetics, LogSum, PRECISE_LINEAR};
 use super::KineticsError;
 use crate::numeric::brent_min;
 use crate::units::{Kelvin, KelvinPerSecond};
@@ -176,7 +176,7 @@ impl Kinetics<'_> {
             let x_a = ln_pi_3 + s.ln_i + 3.0 * s.ln_u;
             let x_b = p.ln_nuclei_sphere + 3.0 * s.ln_u;
             let f3 = s.f * s.f * s.f;
-            if f3 >= PRECISE_WEIGHT {
+            if f3 >= PRECISE_LINEAR {
                 a.add_weighted(x_a, f3);
                 if p.nuclei > 0.0 {
                     b.add_weighted(x_b, f3);
