@@ -694,17 +694,16 @@ fn nose_node(
         (0.0, 0.0)
     };
     let tiny_i_slower = f64::MIN_POSITIVE / best_iu3_scaled < iu3_least;
+    // (Without short-circuits: the tests mix from node to node, and the
+    // branches cost more than the arithmetic.)
     let surely_slower = |r: &SplitRates, i: f64, u: f64| {
         let u = u * to_u;
-        let small_iu3 = r.ln_i == f64::NEG_INFINITY
-            || u < f64::MIN_POSITIVE
-            || if i * to_i < f64::MIN_POSITIVE {
-                tiny_i_slower
-            } else {
-                let i = i * to_i2;
-                i * u * u * u < iu3_least
-            };
-        precise && small_iu3 && u < u_least
+        let tiny_i = i * to_i < f64::MIN_POSITIVE;
+        let small_iu3 = (r.ln_i == f64::NEG_INFINITY)
+            | (u < f64::MIN_POSITIVE)
+            | (tiny_i & tiny_i_slower)
+            | (!tiny_i & (i * to_i2 * u * u * u < iu3_least));
+        precise & small_iu3 & (u < u_least)
     };
     let mut nose = (a, f64::NEG_INFINITY, 0.0);
     for p in panels {
