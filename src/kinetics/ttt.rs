@@ -157,7 +157,7 @@ impl Kinetics<'_> {
     ///
     /// With the rates split as ln I = ℓ_I + ln m and ln U = ℓ_U + ln(m f)
     /// ([`super::rates::SplitRates`]), the phases share m, so the sums are
-    /// m⁴ Σ_k f_k³ e^(ℓ_I + 3ℓ_U) and m³ Σ_k f_k³ e^(ln(4π/3)N_h + 3ℓ_U): one
+    /// m⁴ Σ_k (π/3) f_k³ e^(ℓ_I + 3ℓ_U) and m³ Σ_k f_k³ e^(ln((4π/3)N_h) + 3ℓ_U): one
     /// logarithm, of m, serves every phase.
     fn isothermal_coefficients(&self, t: f64) -> (f64, f64) {
         let ln_pi_3 = (PI / 3.0).ln();
