@@ -69,6 +69,11 @@ struct Shelf {
     /// a[i * nr + k]: oxide i delivered per kg of raw material k (yield × retention).
     a: Vec<f64>,
     yields: Vec<f64>,
+    /// The settings' retention factors and each raw material's supply
+    /// limit, the inputs of `a` and `upper` (compared instead of them: equal
+    /// inputs give equal products and quotients).
+    retention: [f64; N_OXIDES],
+    available: Vec<Option<f64>>,
     price: Vec<f64>,
     upper: Vec<f64>,
     tol: f64,
@@ -81,27 +86,30 @@ struct Shelf {
 impl Shelf {
     fn matches(&self, raws: &[RawMaterial], s: &BatchSettings, glass_kg: f64) -> bool {
         let nr = raws.len();
+        let same = |a: f64, b: f64| a.to_bits() == b.to_bits();
         if self.price.len() != nr
-            || self.tol.to_bits() != (s.tolerance_wt_pct / 100.0).to_bits()
-            || self.glass_kg.to_bits() != glass_kg.to_bits()
+            || !same(self.tol, s.tolerance_wt_pct / 100.0)
+            || !same(self.glass_kg, glass_kg)
+            || !self
+                .retention
+                .iter()
+                .zip(&s.retention)
+                .all(|(&a, &b)| same(a, b))
         {
             return false;
         }
-        for (k, r) in raws.iter().enumerate() {
-            if r.price_per_kg.to_bits() != self.price[k].to_bits()
-                || upper_of(r, glass_kg).to_bits() != self.upper[k].to_bits()
-            {
-                return false;
-            }
-            for i in 0..N_OXIDES {
-                if r.yields[i].to_bits() != self.yields[k * N_OXIDES + i].to_bits()
-                    || (r.yields[i] * s.retention[i]).to_bits() != self.a[i * nr + k].to_bits()
-                {
-                    return false;
+        raws.iter().enumerate().all(|(k, r)| {
+            same(r.price_per_kg, self.price[k])
+                && match (r.available_kg, self.available[k]) {
+                    (Some(a), Some(b)) => same(a, b),
+                    (None, None) => true,
+                    _ => false,
                 }
-            }
-        }
-        true
+                && r.yields
+                    .iter()
+                    .zip(&self.yields[k * N_OXIDES..(k + 1) * N_OXIDES])
+                    .all(|(&a, &b)| same(a, b))
+        })
     }
 
     fn new(raws: &[RawMaterial], s: &BatchSettings, glass_kg: f64) -> Shelf {
@@ -121,6 +129,8 @@ impl Shelf {
         Shelf {
             a,
             yields,
+            retention: s.retention,
+            available: raws.iter().map(|r| r.available_kg).collect(),
             price: raws.iter().map(|r| r.price_per_kg).collect(),
             upper: raws.iter().map(|r| upper_of(r, glass_kg)).collect(),
             tol: s.tolerance_wt_pct / 100.0,
@@ -567,6 +577,65 @@ mod tests {
         forward.sort_unstable();
         backward.sort_unstable();
         assert_eq!(forward, backward);
+    }
+
+    #[test]
+    fn a_kept_basis_never_serves_another_shelf() {
+        // Reference: the good_lp/microlp programme of `super::solve`. One
+        // thread alternates, target by target, between the demo shelf and
+        // shelves that differ from it in one input of the programme each (a
+        // yield, a retention factor, an availability, a price, the batch
+        // size); every answer must be the full solver's for its own shelf.
+        let base = crate::files::raw_materials::read_raw_materials(None).unwrap();
+        let s = BatchSettings::default();
+        let mut next = rng(0x0dd5_eed5_u64);
+        let mid = random_glass(&mut || 0.5).wt_percent().map(|v| v / 100.0);
+        let x = super::super::solve(&base, &mid, 1.0, &s).unwrap();
+        let most = (0..x.len()).max_by(|&a, &b| x[a].total_cmp(&x[b])).unwrap();
+        let mut yielded = base.clone();
+        let first = (0..N_OXIDES)
+            .find(|&i| yielded[most].yields[i] > 0.0)
+            .unwrap();
+        yielded[most].yields[first] *= 0.97;
+        let mut retained = s;
+        retained.retention[first] = 0.9;
+        let mut scarce = base.clone();
+        scarce[most].available_kg = Some(0.95 * x[most]);
+        let mut dear = base.clone();
+        dear[most].price_per_kg *= 3.0;
+        let shelves: Vec<(&[RawMaterial], &BatchSettings, f64)> = vec![
+            (&base, &s, 1.0),
+            (&yielded, &s, 1.0),
+            (&base, &retained, 1.0),
+            (&scarce, &s, 1.0),
+            (&dear, &s, 1.0),
+            (&base, &s, 2.5),
+        ];
+        CACHE.with(|c| *c.borrow_mut() = Cache::default());
+        for n in 0..600 {
+            let target = random_glass(&mut next).wt_percent().map(|v| v / 100.0);
+            // The base shelf first, so its bases are kept, then another.
+            for &(raws, st, kg) in [shelves[0], shelves[1 + n % 5]].iter() {
+                let got = least_cost(raws, &target, kg, st, || {
+                    super::super::solve(raws, &target, kg, st)
+                });
+                let want = super::super::solve(raws, &target, kg, st).map(|x| {
+                    raws.iter()
+                        .zip(&x)
+                        .map(|(r, m)| r.price_per_kg * m)
+                        .sum::<f64>()
+                });
+                match (got, want) {
+                    (Ok((got, path)), Ok(want)) => assert!(
+                        (got - want).abs() <= 1e-9 * want.abs(),
+                        "shelf {}: {got} vs {want} ({path:?})",
+                        1 + n % 5
+                    ),
+                    (Err(a), Err(b)) => assert_eq!(a, b),
+                    (got, want) => panic!("shelf {}: {got:?} vs {want:?}", 1 + n % 5),
+                }
+            }
+        }
     }
 
     #[test]
