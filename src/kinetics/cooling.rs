@@ -285,7 +285,7 @@ impl Kinetics<'_> {
                 g_after += total;
             }
             if phase.nuclei > 0.0 && g_after > 0.0 {
-                ln_ext = log_add(ln_ext, c + phase.nuclei.ln() + 3.0 * g_after.ln());
+                ln_ext = log_add(ln_ext, phase.ln_nuclei_sphere + 3.0 * g_after.ln());
             }
         }
         let ext = ln_ext.exp();

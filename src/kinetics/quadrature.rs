@@ -548,16 +548,8 @@ impl Quadrature {
                         let lo = p.lo + w * j as f64;
                         let hi = if j + 1 == pieces { p.hi } else { lo + w };
                         let mut c = Quadrature::panel(rates, rule, lo, hi, cooling);
-                        let mi = c
-                            .rates
-                            .iter()
-                            .map(|r| r.ln_i)
-                            .fold(f64::NEG_INFINITY, f64::max);
-                        let mu = c
-                            .rates
-                            .iter()
-                            .map(|r| r.ln_u)
-                            .fold(f64::NEG_INFINITY, f64::max);
+                        let one = std::slice::from_ref(&c);
+                        let (mi, mu) = (max_of(one, |r| r.ln_i), max_of(one, |r| r.ln_u));
                         if mi > sh.i + SHIFT_HEADROOM || mu > sh.u + SHIFT_HEADROOM {
                             rebase = true;
                         }
@@ -601,8 +593,8 @@ impl Quadrature {
 /// node with the largest I U³ and at the node with the largest U, and a node
 /// can pass the cut only if its I U³ or its U reaches a threshold: both are
 /// found on the linear values, so logarithms are taken at those nodes alone
-/// (at every node when the largest linear values are too small to be held
-/// to full precision).
+/// (at every node when the linear values cannot be scaled to at most one: a
+/// largest value that is zero, subnormal or infinite).
 fn nose_node(
     rule: &Rule,
     panels: &[Panel],

@@ -110,14 +110,7 @@ impl LogSum {
     /// Add e^x (a NaN makes the sum NaN, as in [`log_add`]).
     #[inline]
     pub(crate) fn add(&mut self, x: f64) {
-        if x > self.max {
-            self.scaled = self.scaled * (self.max - x).exp() + 1.0;
-            self.max = x;
-        } else if x > f64::NEG_INFINITY {
-            self.scaled += (x - self.max).exp();
-        } else if x.is_nan() {
-            self.scaled = f64::NAN;
-        }
+        self.add_weighted(x, 1.0);
     }
 
     /// Add w·e^x for a weight w > 0 held to full precision (at least
@@ -425,8 +418,7 @@ impl<'m> Kinetics<'m> {
     }
 
     /// I and U of phase `p` at T in the split form the quadrature sums
-    /// ([`SplitRates`]): no logarithm is taken. (Inlined into the
-    /// quadrature's loop: called there it costs a fifth more.)
+    /// ([`SplitRates`]): no logarithm is taken.
     #[inline]
     pub(super) fn split_rates(&self, p: &PhaseRates, t: f64) -> SplitRates {
         if t >= p.tl {

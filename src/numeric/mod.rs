@@ -68,18 +68,28 @@ pub(crate) fn brent_min<F: Fn(f64) -> f64>(
         .ok_or_else(|| "minimiser returned no point".to_string())
 }
 
-/// Uniform numbers in [0, 1) from a fixed seed (SplitMix64, Steele, Lea &
-/// Flood 2014, doi:10.1145/2714064.2660195): the unit tests' reproducible
-/// random cases, without a generator crate.
+/// SplitMix64 (Steele, Lea & Flood 2014, doi:10.1145/2714064.2660195): a
+/// seed → well-mixed 64-bit numbers; the next state is the seed plus
+/// [`SPLIT_MIX_GAMMA`].
+pub(crate) fn splitmix64(mut z: u64) -> u64 {
+    z = z.wrapping_add(SPLIT_MIX_GAMMA);
+    z = (z ^ (z >> 30)).wrapping_mul(0xbf58476d1ce4e5b9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94d049bb133111eb);
+    z ^ (z >> 31)
+}
+
+/// SplitMix64's increment, 2⁶⁴/φ.
+const SPLIT_MIX_GAMMA: u64 = 0x9e3779b97f4a7c15;
+
+/// Uniform numbers in [0, 1) from a fixed seed ([`splitmix64`]): the unit
+/// tests' reproducible random cases, without a generator crate.
 #[cfg(test)]
 pub(crate) fn split_mix(seed: u64) -> impl FnMut() -> f64 {
     let mut z = seed;
     move || {
-        z = z.wrapping_add(0x9e3779b97f4a7c15);
-        let mut x = z;
-        x = (x ^ (x >> 30)).wrapping_mul(0xbf58476d1ce4e5b9);
-        x = (x ^ (x >> 27)).wrapping_mul(0x94d049bb133111eb);
-        ((x ^ (x >> 31)) >> 11) as f64 / (1u64 << 53) as f64
+        let x = splitmix64(z);
+        z = z.wrapping_add(SPLIT_MIX_GAMMA);
+        (x >> 11) as f64 / (1u64 << 53) as f64
     }
 }
 

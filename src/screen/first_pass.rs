@@ -16,16 +16,9 @@ use super::candidate::{evaluate_candidate, Candidate, Pass, Row};
 use super::polytope::Polytope;
 use super::problem::{ScreenProblem, Search};
 use super::simplex::Simplex;
+use crate::numeric::splitmix64;
 use sobol::params::JoeKuoD6;
 use sobol::{Sobol, SobolType};
-
-/// SplitMix64 (Steele, Lea & Flood 2014): a seed → well-mixed 64-bit numbers.
-fn splitmix64(mut z: u64) -> u64 {
-    z = z.wrapping_add(0x9e3779b97f4a7c15);
-    z = (z ^ (z >> 30)).wrapping_mul(0xbf58476d1ce4e5b9);
-    z = (z ^ (z >> 27)).wrapping_mul(0x94d049bb133111eb);
-    z ^ (z >> 31)
-}
 
 /// The unit-cube points of one chunk of the space-filling pass: a Sobol sequence
 /// randomised by the seed with a Cranley–Patterson rotation (u + s mod 1, one
