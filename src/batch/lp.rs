@@ -581,7 +581,7 @@ mod tests {
 
     #[test]
     fn a_kept_basis_never_serves_another_shelf() {
-        // Reference: the good_lp/microlp programme of `super::solve`. One
+        // Source: the good_lp/microlp programme of `super::solve`. One
         // thread alternates, target by target, between the demo shelf and
         // shelves that differ from it in one input of the programme each (a
         // yield, a retention factor, an availability, a price, the batch
