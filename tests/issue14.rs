@@ -598,6 +598,32 @@ fn n1_a_card_whose_rates_overflow_is_refused_at_its_line() {
 }
 
 #[test]
+fn n1_a_card_whose_driving_force_is_out_of_range_is_refused_at_its_line() {
+    // Enthalpies of fusion far outside any oxide's (the interface energy,
+    // ∝ ΔH_m, then makes the barrier overflow or vanish): the critical rate
+    // is refused as unrepresentable at the card's line, beside the
+    // implausible input, before the nose search could fail on it less
+    // clearly.
+    let d = temp_dir("n1-dh");
+    for dh in ["1e200", "1e-200"] {
+        let text = demo_card(&[(
+            "enthalpy_of_fusion_j_per_mol = 60000.0",
+            &format!("enthalpy_of_fusion_j_per_mol = {dh}"),
+        )]);
+        let c = write(&d, "card.toml", &text);
+        let r = run_in(&d, &["eval", "--melt", &c, "--json"]);
+        r.code(2)
+            .stderr_has(&format!(
+                "card.toml:{}: the critical cooling rate comes out as",
+                line_of(&text, "enthalpy_of_fusion_j_per_mol =")
+            ))
+            .stderr_has("not a finite positive number")
+            .stderr_has("is outside 2000 to 1e6 J/mol");
+        assert!(r.stdout.is_empty(), "{}", r.stdout);
+    }
+}
+
+#[test]
 fn n2_no_output_holds_inf_nan_null_or_never_for_any_kinetic_factor() {
     // α from ordinary to absurd, with and without pre-existing nuclei: each
     // run either prints finite numbers or refuses with a message.

@@ -241,7 +241,9 @@ impl Kinetics<'_> {
     ) -> Result<KineticSummary, KineticsError> {
         let total = total_extent(integrals);
         let xc = self.opts.detectable_fraction;
-        let critical = total.critical_scale(xc);
+        // Checked first: a melt outside what the kinetics represent says so
+        // here, before the nose search fails on the same rates less clearly.
+        let critical = representable("critical cooling rate", total.critical_scale(xc), "K/s")?;
         let nose_t = self.nose(integrals)?;
         let nose_time = self.ln_ttt_time(nose_t).exp();
         if nose_t < self.tg {
@@ -279,7 +281,6 @@ impl Kinetics<'_> {
             .0;
         let r = self.rates(Kelvin(nose_t));
         let nose_rate = (self.tl - nose_t) / nose_time;
-        representable("critical cooling rate", critical, "K/s")?;
         representable("TTT nose time", nose_time, "s")?;
         representable("nose-method rate", nose_rate, "K/s")?;
         for (what, v) in [
