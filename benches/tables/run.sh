@@ -6,7 +6,10 @@
 # Prints, each a median of RUNS runs (default 5) made in this one call, so
 # the ratios compare runs under the same load:
 #   - wall time of the whole process on 2e5 rows at 1 and 2 threads, and the
-#     speed-up (target >= 1.8);
+#     speed-up (target >= 1.8). The 1-thread run is held to one core
+#     (taskset -c 0): besides its worker, the reading, finishing and writing
+#     threads run beside it, and unpinned they would borrow the second core,
+#     so the ratio would no longer say what a second core buys;
 #   - the NumPy time for R_c alone, computation only (the anchor), and
 #     numpy / quenchwise at 2 threads (target >= 15);
 #   - peak memory (max RSS, /usr/bin/time -v) for 2e5 and 2e6 rows at 2
@@ -15,7 +18,7 @@
 #
 # Needs: a release build (built here if missing), /usr/bin/python3 with
 # numpy (Debian: apt-get install -y python3-numpy), /usr/bin/time (apt-get
-# install -y time). Usage: benches/tables/run.sh [RUNS]
+# install -y time), taskset (util-linux). Usage: benches/tables/run.sh [RUNS]
 set -eu
 RUNS=${1:-5}
 ROOT=$(cd "$(dirname "$0")/../.." && pwd)
@@ -28,9 +31,11 @@ HERE=$ROOT/benches/tables
 [ -f "$WORK/m2m.csv" ] || /usr/bin/python3 "$HERE/gen_melt_cards.py" 2000000 "$WORK/m2m.csv"
 
 echo "load average before: $(cut -d' ' -f1-3 /proc/loadavg)"
-# One run: prints "seconds max_rss_kb".
+# One run: prints "seconds max_rss_kb". With a third argument, on that core only.
 one() {
-    /usr/bin/time -f "%e %M" -o "$WORK/time.txt" "$BIN" eval --melt-cards "$1" \
+    PIN=
+    [ -n "${3:-}" ] && PIN="taskset -c $3"
+    /usr/bin/time -f "%e %M" -o "$WORK/time.txt" $PIN "$BIN" eval --melt-cards "$1" \
         --out "$WORK/out.csv" --threads "$2" > /dev/null 2> "$WORK/stderr.txt" || {
         cat "$WORK/stderr.txt" >&2
         exit 1
@@ -40,7 +45,7 @@ one() {
 : > "$WORK/runs.txt"
 i=0
 while [ $i -lt "$RUNS" ]; do
-    echo "t1 $(one "$WORK/m200k.csv" 1)" >> "$WORK/runs.txt"
+    echo "t1 $(one "$WORK/m200k.csv" 1 0)" >> "$WORK/runs.txt"
     echo "t2 $(one "$WORK/m200k.csv" 2)" >> "$WORK/runs.txt"
     i=$((i + 1))
 done
@@ -64,8 +69,8 @@ t1, t2 = med("t1", 0), med("t2", 0)
 n = float(numpy["numpy_rc_seconds_median"])
 m_small, m_big = med("t2", 1) / 1024, med("big", 1) / 1024
 print("runs per figure: %d (medians)" % len(runs["t1"]))
-print("200k rows, whole process, 1 thread:   %.2f s   (all: %s)" % (t1, " ".join("%.2f" % r[0] for r in runs["t1"])))
-print("200k rows, whole process, 2 threads:  %.2f s   (all: %s)" % (t2, " ".join("%.2f" % r[0] for r in runs["t2"])))
+print("200k rows, whole process, 1 thread, 1 core: %.2f s   (all: %s)" % (t1, " ".join("%.2f" % r[0] for r in runs["t1"])))
+print("200k rows, whole process, 2 threads:  %.2f s         (all: %s)" % (t2, " ".join("%.2f" % r[0] for r in runs["t2"])))
 print("speed-up 2 threads / 1 thread:        %.2f   (target >= 1.8)" % (t1 / t2))
 print("anchor: numpy R_c alone, 200k melts:  %.2f s   (all: %s)" % (n, numpy["numpy_rc_seconds_all"].strip()))
 print("numpy / quenchwise (2 threads):       %.2f   (target >= 15)" % (n / t2))

@@ -237,24 +237,48 @@ const EXACT_POWERS_OF_TEN: [f64; 23] = [
     1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
 ];
 
-/// [`rounded_through_text`] in floating point, where that provably gives the
-/// same double, else None. x is scaled by an exact power of ten 10^k to
-/// y = x·10^k (one rounding, under 2⁻⁵² relative) and y is rounded to a whole
-/// number m; m/10^k (or m·10^|k|) is one correctly rounded operation on exact
-/// operands, so it is the double the decimal text of m·10^−k parses to. The
-/// whole number is the text's whenever y's one rounding cannot cross a tie:
-/// |y| < 2⁴⁰ (its fraction is then good to 2⁻¹²) and its fraction lies more
-/// than 10⁻³ from one half. For significant figures, k comes from log10 and
-/// is used only when y really has that many digits before the point.
+/// 10^k for k = 0..=308, each the double nearest to it (the parser's
+/// correctly rounded value; exact up to 10²²).
+fn power_of_ten(k: u32) -> Option<f64> {
+    static POWERS: std::sync::LazyLock<Vec<f64>> = std::sync::LazyLock::new(|| {
+        (0..=308)
+            .map(|k| format!("1e{k}").parse().unwrap_or(f64::INFINITY))
+            .collect()
+    });
+    match EXACT_POWERS_OF_TEN.get(k as usize) {
+        Some(p) => Some(*p),
+        None => POWERS.get(k as usize).copied(),
+    }
+}
+
+/// How far from one half y's fraction must lie, relative to |y|, for
+/// [`scaled_rounding`] to round it: 2⁻⁵⁰, twice y's largest error.
+const TIE_MARGIN: f64 = 4.0 * f64::EPSILON;
+
+/// [`rounded_through_text`] without its formatting, where that provably
+/// gives the same double, else None. x is scaled by the double nearest
+/// 10^k to y = x·10^k and y is rounded to a whole number m: the text's
+/// digits whenever y's error cannot cross a tie. y carries at most two
+/// roundings (of 10^k for k > 22, and of the product or quotient), so its
+/// error is under 2⁻⁵¹|y|, and m is used only when y's fraction lies more than
+/// 2⁻⁵⁰|y| ([`TIE_MARGIN`]) from one half; with |y| < 2⁴⁰ the fraction is
+/// then good to 2⁻¹¹ (a margin of 10⁻³, used before, sent one value in
+/// 500 to the slow path). For k ≤ 22, m/10^k (or
+/// m·10^|k|) is one correctly rounded operation on exact operands, so it is
+/// the double the text m·10^−k parses to; beyond, that short text is parsed
+/// (no float formatting, which is what made the text path slow). For
+/// significant figures, k comes from log10 and is used only when y really
+/// has that many digits before the point.
 fn scaled_rounding(x: f64, d: Digits) -> Option<f64> {
     let k = match d {
         Digits::Decimals(n) => n.max(0),
         Digits::Significant(n) => n.max(1) as i32 - 1 - x.abs().log10().floor() as i32,
     };
-    let p = *EXACT_POWERS_OF_TEN.get(k.unsigned_abs() as usize)?;
+    let p = power_of_ten(k.unsigned_abs())?;
     let y = if k >= 0 { x * p } else { x / p };
-    // (An overflow to infinity lands here too.)
-    if y.abs() >= (1u64 << 40) as f64 {
+    // (An overflow to infinity lands here too, and so does an x so small
+    // that y lost digits: its k needs a power beyond 10³⁰⁸.)
+    if !(y.abs() < (1u64 << 40) as f64) {
         return None;
     }
     if let Digits::Significant(n) = d {
@@ -263,11 +287,21 @@ fn scaled_rounding(x: f64, d: Digits) -> Option<f64> {
             return None;
         }
     }
-    if (y.abs().fract() - 0.5).abs() < 1e-3 {
+    // y's error is under 2⁻⁵¹|y| (see above); twice that from a tie and
+    // the rounding of y is the rounding of x·10^k.
+    if (y.abs().fract() - 0.5).abs() <= y.abs() * TIE_MARGIN {
         return None;
     }
     let m = y.round();
-    Some(if k >= 0 { m / p } else { m * p })
+    if k.unsigned_abs() as usize <= 22 {
+        return Some(if k >= 0 { m / p } else { m * p });
+    }
+    // m·10^−k as text: at most 13 digits, a sign and an exponent.
+    let mut text = [0u8; 32];
+    let mut cursor = std::io::Cursor::new(&mut text[..]);
+    std::io::Write::write_fmt(&mut cursor, format_args!("{}e{}", m as i64, -k)).ok()?;
+    let len = cursor.position() as usize;
+    std::str::from_utf8(&text[..len]).ok()?.parse().ok()
 }
 
 /// Warnings a table states once: each gets a code (`W1`, `W2`, ... in the
@@ -719,10 +753,11 @@ mod tests {
         assert_eq!(rounded(0.000123456, Digits::Significant(4)), 0.0001235);
     }
 
-    /// The floating-point shortcut gives the very double the decimal text
-    /// gives, bit for bit, wherever it answers: values over 30 decades, both
-    /// signs, every digit count the tables use, near-ties from the decimal
-    /// grid included (fixed SplitMix-style sequence).
+    /// The shortcut gives the very double the decimal text gives, bit for
+    /// bit, wherever it answers: values over 30 decades (and, for
+    /// significant figures, over the whole range of doubles, subnormals
+    /// included), both signs, every digit count the tables use, near-ties
+    /// from the decimal grid included (fixed SplitMix-style sequence).
     #[test]
     fn scaled_rounding_equals_the_text_rounding_bit_for_bit() {
         // Source: the Rust standard library's exact float formatting and
@@ -731,11 +766,29 @@ mod tests {
         let mut next = crate::numeric::split_mix(0x7ab1e5_u64);
         let (mut answered, mut tried) = (0, 0);
         for i in 0..200_000 {
-            let mut x = 10f64.powf(-15.0 + 30.0 * next());
+            let mut x = if i % 5 == 4 {
+                // A rate or a time far from 1: beyond the exact powers.
+                10f64.powf(-323.0 + 631.0 * next())
+            } else {
+                10f64.powf(-15.0 + 30.0 * next())
+            };
             if i % 3 == 0 {
                 // On or next to the decimal grid: ties and near-ties.
                 let q = 10f64.powi((next() * 8.0) as i32 - 4);
                 x = ((x / q).round() + 0.5) * q * (1.0 + (next() - 0.5) * 1e-15);
+            } else if i % 3 == 1 {
+                // Within a few units in the last place of a tie of the grid
+                // the digit count rounds to: where the rounding of x·10^k
+                // itself can flip the answer.
+                let d = [0, 1, 2, 4][(next() * 4.0) as usize];
+                let q = if next() < 0.5 {
+                    10f64.powi(-d)
+                } else {
+                    10f64.powi(x.abs().log10().floor() as i32 - 5)
+                };
+                let tie = ((x / q).floor() + 0.5) * q;
+                let ulps = (next() * 7.0) as i64 - 3;
+                x = f64::from_bits((tie.to_bits() as i64 + ulps) as u64);
             }
             if i % 2 == 0 {
                 x = -x;
@@ -760,6 +813,17 @@ mod tests {
         }
         // The shortcut must answer for most values, or it buys nothing.
         assert!(answered * 10 > tried * 6, "{answered} of {tried}");
+        // Far from 1 it answers too: the significant figures of 10^±40.
+        for x in [1.234_567_8e-40, -9.876_543_2e40, 5e-324, 1.7e308] {
+            let d = Digits::Significant(4);
+            let r = scaled_rounding(x, d);
+            if x.abs() > 1e-300 {
+                assert!(r.is_some(), "{x:e}");
+            }
+            if let Some(r) = r {
+                assert_eq!(r.to_bits(), rounded_through_text(x, d).to_bits(), "{x:e}");
+            }
+        }
     }
 
     fn w(t: &[&str]) -> Vec<String> {
