@@ -378,3 +378,121 @@ fn columns_get_the_types_inference_over_the_whole_file_gives_whatever_the_batch(
         assert_same_rows(&whole, &out);
     }
 }
+
+/// Ctrl-C between batches (here the flag it raises, raised once the first
+/// batch is written, or before the first pass): the stream ends with
+/// `Stopped`, saying how many rows were evaluated, and leaves no file.
+#[test]
+fn a_stop_between_batches_writes_nothing_and_says_how_far_it_got() {
+    use quenchwise::files::table::TableError;
+    use std::sync::atomic::AtomicBool;
+    static STOP: AtomicBool = AtomicBool::new(false);
+    let d = temp_dir("tables-stop");
+    let input = d.join("m.csv");
+    std::fs::write(&input, melt_table(10, 0, "")).unwrap();
+    let out = d.join("o.csv");
+    let ran = AtomicUsize::new(0);
+    let settings = StreamSettings {
+        batch_rows: 2,
+        readable_csv: true,
+        stop: Some(&STOP),
+    };
+    let e = stream_table(
+        &input,
+        &out,
+        &MeltRows,
+        &ResultPlan::melt_cards(),
+        settings,
+        |v| {
+            ran.fetch_add(1, Ordering::Relaxed);
+            melt_eval(v)
+        },
+        |event| {
+            if let Event::Batch(_) = event {
+                STOP.store(true, Ordering::SeqCst);
+            }
+        },
+    )
+    .unwrap_err();
+    let TableError::Stopped { evaluated, total } = e else {
+        panic!("not a stop: {e}");
+    };
+    // The batch after the first was being evaluated when the flag rose.
+    assert_eq!((evaluated, total), (4, Some(10)));
+    assert_eq!(ran.load(Ordering::Relaxed), 4);
+    assert!(!out.exists());
+    assert!(!d.join("o.csv.partial").exists());
+    // Raised before the first pass: nothing runs at all.
+    ran.store(0, Ordering::Relaxed);
+    let e = stream_table(
+        &input,
+        &out,
+        &MeltRows,
+        &ResultPlan::melt_cards(),
+        settings,
+        |v| {
+            ran.fetch_add(1, Ordering::Relaxed);
+            melt_eval(v)
+        },
+        |_| {},
+    )
+    .unwrap_err();
+    assert!(
+        matches!(
+            e,
+            TableError::Stopped {
+                evaluated: 0,
+                total: None
+            }
+        ),
+        "{e}"
+    );
+    assert_eq!(
+        e.to_string(),
+        "stopped at your request while the table was checked, before any row was evaluated"
+    );
+    assert_eq!(ran.load(Ordering::Relaxed), 0);
+    assert!(!out.exists());
+}
+
+/// The real program on SIGINT (what Ctrl-C sends) part-way through a table:
+/// exit 130, the reason on stderr, no output file and no partial file left.
+#[test]
+fn ctrl_c_during_a_table_stops_it_and_leaves_no_file() {
+    use std::process::{Command, Stdio};
+    let d = temp_dir("tables-sigint");
+    std::fs::write(d.join("m.csv"), melt_table(40_000, 0, "")).unwrap();
+    let child = Command::new(env!("CARGO_BIN_EXE_quenchwise"))
+        .args(["eval", "--melt-cards", "m.csv", "--out", "o.csv"])
+        .args(["--threads", "1", "--batch-rows", "64"])
+        .current_dir(&d)
+        .stdout(Stdio::null())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    // The first batch is on its way to disk: the evaluation has begun.
+    let partial = d.join("o.csv.partial");
+    for _ in 0..1200 {
+        if partial.exists() {
+            break;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(25));
+    }
+    assert!(partial.exists(), "the table never started to be written");
+    Command::new("kill")
+        .args(["-INT", &child.id().to_string()])
+        .status()
+        .unwrap();
+    let run = child.wait_with_output().unwrap();
+    let stderr = String::from_utf8_lossy(&run.stderr);
+    // A run that ended with 0 finished before the signal or ignored it.
+    assert_eq!(run.status.code(), Some(130), "{stderr}");
+    assert!(stderr.contains("stopped at your request after"), "{stderr}");
+    assert!(
+        stderr.contains("of 40000 rows; nothing was written"),
+        "{stderr}"
+    );
+    assert!(!d.join("o.csv").exists());
+    assert!(!partial.exists());
+    assert!(!d.join("o.warnings.txt").exists());
+}

@@ -15,7 +15,7 @@ use quenchwise::error::{Error, ResultExt};
 use quenchwise::files::melt_card::read_melt_card;
 use quenchwise::files::melt_card::MeltValues;
 use quenchwise::files::source::{read_text, Source};
-use quenchwise::files::table::OxideAmounts;
+use quenchwise::files::table::{OxideAmounts, TableError};
 use quenchwise::files::table_stream::{
     stream_table_with, table_column_names, BatchDone, CompositionRows, Event, ExtraCells,
     ExtraColumns, MeltRows, ResultPlan, RowReader, StreamSettings, DEFAULT_BATCH_ROWS,
@@ -415,6 +415,8 @@ pub(super) fn stream_settings(a: &EvalArgs) -> Result<StreamSettings, Error> {
         // A CSV file a person reads: meaningful digits, repeated warnings as
         // codes with their legend beside it (Parquet keeps everything).
         readable_csv: true,
+        // Set where a table is streamed: Ctrl-C stops other commands at once.
+        stop: None,
     })
 }
 
@@ -451,6 +453,11 @@ pub(super) fn evaluate_table_with<R: RowReader>(
     settings: StreamSettings,
     evaluate: impl Fn(usize, &R::Row) -> Result<(Evaluation, ExtraCells), String> + Sync,
 ) -> Result<Outcome, Error> {
+    // Ctrl-C and SIGTERM stop the table between batches, writing nothing.
+    let settings = StreamSettings {
+        stop: Some(super::stop_flag()),
+        ..settings
+    };
     let progress: std::sync::OnceLock<Progress> = std::sync::OnceLock::new();
     let mut summary = Summary::default();
     let streamed = stream_table_with(
@@ -477,7 +484,16 @@ pub(super) fn evaluate_table_with<R: RowReader>(
     if let Some(p) = progress.get() {
         p.finish();
     }
-    let streamed = streamed?;
+    let streamed = match streamed {
+        Err(e @ TableError::Stopped { .. }) => {
+            errln!(
+                "quenchwise: {e}; nothing was written ({} is written whole or not at all).\nhint: run the same command again to evaluate the table",
+                out.display()
+            );
+            return Ok(Outcome::Interrupted);
+        }
+        s => s?,
+    };
     write_stdout(&summary.text(streamed.rows, out))?;
     errln!(
         "quenchwise: {} rows evaluated, {} failed (see the error column); wrote {}",

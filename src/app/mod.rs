@@ -15,13 +15,31 @@ mod uncertainty;
 use crate::cli::{Cli, Command};
 use quenchwise::error::Error;
 use quenchwise::files::screen_config::{max_threads, THREADS_PER_CORE};
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::{Arc, OnceLock};
+
+/// The flag Ctrl-C and SIGTERM raise (one handler per process), lowered.
+fn stop_flag() -> &'static Arc<AtomicBool> {
+    static FLAG: OnceLock<Arc<AtomicBool>> = OnceLock::new();
+    let flag = FLAG.get_or_init(|| {
+        let flag = Arc::new(AtomicBool::new(false));
+        let f = flag.clone();
+        // If a handler cannot be installed the command still works; it just
+        // cannot be stopped gracefully.
+        let _ = ctrlc::set_handler(move || f.store(true, Ordering::SeqCst));
+        flag
+    });
+    flag.store(false, Ordering::SeqCst);
+    flag
+}
 
 /// How a command ended, for the exit code.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub enum Outcome {
     /// Done (exit 0).
     Finished,
-    /// Stopped by Ctrl-C or SIGTERM with the work saved (exit 130).
+    /// Stopped by Ctrl-C or SIGTERM: a screen with the work saved, a table
+    /// with nothing written (exit 130).
     Interrupted,
     /// A screen in which no recipe meets every limit (exit 2).
     NothingFeasible,

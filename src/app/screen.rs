@@ -11,22 +11,6 @@ use quenchwise::files::run_folder::{self, Opening, RunFolder, ScreenOptions, Sha
 use quenchwise::files::screen_config;
 use quenchwise::report::text::count;
 use quenchwise::screen::{chunk_count, ScreenObserver, Simplex, Stage};
-use std::sync::atomic::{AtomicBool, Ordering};
-use std::sync::{Arc, OnceLock};
-
-/// The flag Ctrl-C and SIGTERM raise (one handler per process).
-fn stop_flag() -> Arc<AtomicBool> {
-    static FLAG: OnceLock<Arc<AtomicBool>> = OnceLock::new();
-    FLAG.get_or_init(|| {
-        let flag = Arc::new(AtomicBool::new(false));
-        let f = flag.clone();
-        // If a handler cannot be installed the run still works; it just
-        // cannot be stopped gracefully.
-        let _ = ctrlc::set_handler(move || f.store(true, Ordering::SeqCst));
-        flag
-    })
-    .clone()
-}
 
 /// Shows the first pass's progress.
 struct Watch {
@@ -86,8 +70,7 @@ pub fn check(a: CheckArgs) -> Result<Outcome, Error> {
 }
 
 fn options(out: &std::path::Path, f: &FolderArgs) -> ScreenOptions {
-    let stop = stop_flag();
-    stop.store(false, Ordering::SeqCst);
+    let stop = super::stop_flag().clone();
     ScreenOptions {
         resume: f.resume,
         force: f.force,

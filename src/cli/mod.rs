@@ -101,6 +101,9 @@ pub enum Command {
     ///   quenchwise eval --melt demo-datasets/melt-card.toml --uncertainty 4000 \
     ///       --quench-rate 0.01
     ///   quenchwise eval --compositions demo-datasets/candidates.csv --out results.csv
+    ///
+    /// A table is read, evaluated and written in batches; Ctrl-C (or SIGTERM)
+    /// stops it between two batches and writes nothing (exit 130).
     #[command(verbatim_doc_comment)]
     Eval(EvalArgs),
     /// Search compositions for recipes that vitrify with your quench (overnight-safe)

@@ -67,6 +67,14 @@ pub enum TableError {
     Data(#[from] DataError),
     #[error("{path}: unsupported extension; use .csv or .parquet")]
     Extension { path: String },
+    /// Stopped on request (Ctrl-C, SIGTERM) between batches, after
+    /// `evaluated` rows of `total` (None: during the first pass); the
+    /// output is not written.
+    #[error("{}", stopped_text(*evaluated, *total))]
+    Stopped {
+        evaluated: usize,
+        total: Option<usize>,
+    },
 }
 
 /// At most this many bad cells are listed; the count of the rest follows.
@@ -86,6 +94,15 @@ fn cells_text(problems: &[String]) -> String {
         ));
     }
     s
+}
+
+/// What [`TableError::Stopped`] says.
+fn stopped_text(evaluated: usize, total: Option<usize>) -> String {
+    match total {
+        Some(t) => format!("stopped at your request after {evaluated} of {t} rows"),
+        None => "stopped at your request while the table was checked, before any row was evaluated"
+            .into(),
+    }
 }
 
 impl Diagnostic for TableError {

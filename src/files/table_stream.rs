@@ -42,6 +42,7 @@ use polars::prelude::*;
 use rayon::prelude::*;
 use std::io::{BufRead, BufReader};
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
 
 /// Rows per batch unless told otherwise: large enough that the per-batch
 /// work (parsing, writing) is cheap, small enough that a batch's
@@ -865,8 +866,9 @@ fn check_table<R: RowReader>(
     input: &Path,
     out: &Path,
     reader: &R,
-    batch_rows: usize,
+    settings: &StreamSettings,
 ) -> Result<Checked, TableError> {
+    let batch_rows = settings.batch_rows;
     let mut batches = Batches::open(input, batch_rows, None)?;
     let is_csv = matches!(batches.input, Input::Csv(_));
     let mut names: Vec<PlSmallStr> = Vec::new();
@@ -878,6 +880,12 @@ fn check_table<R: RowReader>(
     // on one core).
     let mut next = batches.next()?;
     while let Some((df, places)) = next.take() {
+        if stop_raised(settings.stop) {
+            return Err(TableError::Stopped {
+                evaluated: 0,
+                total: None,
+            });
+        }
         if first {
             names = df.get_column_names().into_iter().cloned().collect();
             types = vec![None; names.len()];
@@ -1037,6 +1045,9 @@ pub struct StreamSettings {
     /// Parquet output keeps every digit and every text either way. Off by
     /// default (every digit); `eval` turns it on.
     pub readable_csv: bool,
+    /// Raised to stop between batches (Ctrl-C): the run ends with
+    /// [`TableError::Stopped`] and writes nothing. None: never stopped.
+    pub stop: Option<&'static AtomicBool>,
 }
 
 impl Default for StreamSettings {
@@ -1044,8 +1055,14 @@ impl Default for StreamSettings {
         StreamSettings {
             batch_rows: DEFAULT_BATCH_ROWS,
             readable_csv: false,
+            stop: None,
         }
     }
+}
+
+/// Whether `stop` is raised.
+fn stop_raised(stop: Option<&AtomicBool>) -> bool {
+    stop.is_some_and(|s| s.load(Ordering::SeqCst))
 }
 
 /// One evaluated batch, for a caller that shows progress or a summary.
@@ -1129,7 +1146,7 @@ pub fn stream_table_with<R: RowReader>(
     evaluate: impl Fn(usize, &R::Row) -> Result<(Evaluation, ExtraCells), String> + Sync,
     mut on: impl FnMut(Event<'_>),
 ) -> Result<Streamed, TableError> {
-    let pass = check_table(input, out, reader, settings.batch_rows)?;
+    let pass = check_table(input, out, reader, &settings)?;
     on(Event::Checked(pass.rows));
     let mut batches = Batches::open(input, settings.batch_rows, pass.schema)?;
     // With more than one worker thread, a thread of its own writes batch k
@@ -1152,9 +1169,18 @@ pub fn stream_table_with<R: RowReader>(
             &mut on,
             &mut output,
             readable,
+            settings.stop,
         );
+        // (On an error the output is dropped unfinished: its partial file
+        // is removed.)
         let sink = output.close();
-        let (rows_seen, failed, warning_codes) = counted?;
+        let (rows_seen, failed, warning_codes) = counted.map_err(|e| match e {
+            TableError::Stopped { evaluated, .. } => TableError::Stopped {
+                evaluated,
+                total: Some(pass.rows),
+            },
+            e => e,
+        })?;
         match sink? {
             Some(s) => s.finish()?,
             None => {
@@ -1280,6 +1306,7 @@ fn evaluate_batches<R: RowReader>(
     on: &mut impl FnMut(Event<'_>),
     output: &mut Output<'_>,
     readable: bool,
+    stop: Option<&AtomicBool>,
 ) -> Result<(usize, usize, Vec<WarningCode>), TableError> {
     let mut columns: Option<ResultColumns> = None;
     let mut failed = 0;
@@ -1373,6 +1400,8 @@ fn evaluate_batches<R: RowReader>(
     // behind the evaluation. Each batch is finished in input order, so the
     // output is the same.
     let mut previous: Option<Evaluated> = None;
+    // Rows evaluated so far, for a stop's message.
+    let mut evaluated = 0;
     // A batch read, with its rows taken from it (or why they cannot be:
     // reported after the batches before it are written).
     let prepare = |read: Option<(DataFrame, Places)>, schema: Option<&SchemaRef>| {
@@ -1402,6 +1431,12 @@ fn evaluate_batches<R: RowReader>(
     };
     let mut upcoming = prepare(batches.next()?, batches.schema.as_ref());
     while let Some((df, places, prepared)) = upcoming.take() {
+        if stop_raised(stop) {
+            return Err(TableError::Stopped {
+                evaluated,
+                total: None,
+            });
+        }
         let rows = match prepared {
             Ok(rows) => rows,
             Err(e) => {
@@ -1458,6 +1493,7 @@ fn evaluate_batches<R: RowReader>(
             }
         }
         failed += results.iter().filter(|r| r.is_err()).count();
+        evaluated += results.len();
         previous = Some(Evaluated {
             df,
             places,

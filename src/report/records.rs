@@ -278,7 +278,7 @@ fn scaled_rounding(x: f64, d: Digits) -> Option<f64> {
     let y = if k >= 0 { x * p } else { x / p };
     // (An overflow to infinity lands here too, and so does an x so small
     // that y lost digits: its k needs a power beyond 10³⁰⁸.)
-    if !(y.abs() < (1u64 << 40) as f64) {
+    if !y.is_finite() || y.abs() >= (1u64 << 40) as f64 {
         return None;
     }
     if let Digits::Significant(n) = d {
