@@ -375,6 +375,53 @@ fn bad_configs_give_located_errors() {
         .stdout_has("valid");
 }
 
+/// A second Ctrl-C (or SIGTERM) while the first waits for the next safe
+/// point ends the run at once, as Ctrl-C would without a handler: one
+/// chunk of 50 000 candidates keeps the first signal waiting for seconds.
+#[test]
+fn a_second_signal_stops_at_once() {
+    let d = temp_dir("screen-second-signal");
+    let text = SMALL
+        .replace("first_pass_points = 512", "first_pass_points = 50000")
+        .replace("chunk_size = 64", "chunk_size = 50000");
+    let cfg = write_config(&d, &text);
+    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_quenchwise"))
+        .args(["screen", cfg.to_str().unwrap(), "--out", "out"])
+        .current_dir(&d)
+        .stderr(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    // The run has started (its folder is claimed) before the signals.
+    let header = d.join("out/.work/header.json");
+    for _ in 0..600 {
+        if header.exists() {
+            break;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(50));
+    }
+    assert!(header.exists(), "the run never started");
+    let pid = child.id().to_string();
+    let signal = || {
+        std::process::Command::new("kill")
+            .args(["-INT", &pid])
+            .status()
+            .unwrap()
+    };
+    signal();
+    std::thread::sleep(std::time::Duration::from_millis(300));
+    assert!(
+        child.try_wait().unwrap().is_none(),
+        "the chunk ended within 0.3 s: the first signal was not kept waiting"
+    );
+    signal();
+    let out = child.wait_with_output().unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(130), "{stderr}");
+    assert!(stderr.contains("stopped at once"), "{stderr}");
+    assert!(!d.join("out/shortlist.csv").exists());
+}
+
 #[test]
 fn sigterm_saves_the_work_and_resume_finishes() {
     let d = temp_dir("screen-sigterm");

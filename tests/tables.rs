@@ -417,13 +417,16 @@ fn a_stop_between_batches_writes_nothing_and_says_how_far_it_got() {
     let TableError::Stopped { evaluated, total } = e else {
         panic!("not a stop: {e}");
     };
-    // The batch after the first was being evaluated when the flag rose.
-    assert_eq!((evaluated, total), (4, Some(10)));
-    assert_eq!(ran.load(Ordering::Relaxed), 4);
+    // The flag rose while the second batch was evaluated: the first is
+    // counted, the second dropped (its rows skipped or done, as the race
+    // fell), no third begun.
+    assert_eq!((evaluated, total), (2, Some(10)));
+    let ran = ran.load(Ordering::Relaxed);
+    assert!((2..=4).contains(&ran), "{ran} rows ran");
     assert!(!out.exists());
     assert!(!d.join("o.csv.partial").exists());
     // Raised before the first pass: nothing runs at all.
-    ran.store(0, Ordering::Relaxed);
+    let ran = AtomicUsize::new(0);
     let e = stream_table(
         &input,
         &out,
@@ -495,4 +498,55 @@ fn ctrl_c_during_a_table_stops_it_and_leaves_no_file() {
     assert!(!d.join("o.csv").exists());
     assert!(!partial.exists());
     assert!(!d.join("o.warnings.txt").exists());
+}
+
+/// A stop asked for in the middle of a table's only batch: the rest of the
+/// batch is skipped and nothing is written (a table of one batch has no
+/// later boundary to stop at).
+#[test]
+fn a_stop_inside_the_only_batch_skips_its_rest() {
+    use quenchwise::files::table::TableError;
+    use std::sync::atomic::AtomicBool;
+    static STOP: AtomicBool = AtomicBool::new(false);
+    let d = temp_dir("tables-stop-one-batch");
+    let input = d.join("m.csv");
+    std::fs::write(&input, melt_table(64, 0, "")).unwrap();
+    let out = d.join("o.csv");
+    let ran = AtomicUsize::new(0);
+    let e = stream_table(
+        &input,
+        &out,
+        &MeltRows,
+        &ResultPlan::melt_cards(),
+        StreamSettings {
+            batch_rows: 1000,
+            readable_csv: true,
+            stop: Some(&STOP),
+        },
+        |v| {
+            ran.fetch_add(1, Ordering::Relaxed);
+            STOP.store(true, Ordering::SeqCst);
+            melt_eval(v)
+        },
+        |_| {},
+    )
+    .unwrap_err();
+    assert!(
+        matches!(
+            e,
+            TableError::Stopped {
+                evaluated: 0,
+                total: Some(64)
+            }
+        ),
+        "{e}"
+    );
+    // Each worker finishes the row it is on, and no more.
+    let ran = ran.load(Ordering::Relaxed);
+    assert!(
+        ran <= rayon::current_num_threads().min(32),
+        "{ran} rows ran"
+    );
+    assert!(!out.exists());
+    assert!(!d.join("o.csv.partial").exists());
 }

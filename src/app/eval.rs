@@ -455,7 +455,7 @@ pub(super) fn evaluate_table_with<R: RowReader>(
 ) -> Result<Outcome, Error> {
     // Ctrl-C and SIGTERM stop the table between batches, writing nothing.
     let settings = StreamSettings {
-        stop: Some(super::stop_flag()),
+        stop: Some(super::lowered_stop_flag()),
         ..settings
     };
     let progress: std::sync::OnceLock<Progress> = std::sync::OnceLock::new();

@@ -18,15 +18,23 @@ use quenchwise::files::screen_config::{max_threads, THREADS_PER_CORE};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::{Arc, OnceLock};
 
-/// The flag Ctrl-C and SIGTERM raise (one handler per process), lowered.
-fn stop_flag() -> &'static Arc<AtomicBool> {
+/// The flag Ctrl-C and SIGTERM raise (one handler per process), lowered:
+/// call it once per command, before the work it may stop. The command
+/// stops at its next safe point; a second signal before that ends the
+/// process at once (exit 130), as Ctrl-C would without the handler.
+fn lowered_stop_flag() -> &'static Arc<AtomicBool> {
     static FLAG: OnceLock<Arc<AtomicBool>> = OnceLock::new();
     let flag = FLAG.get_or_init(|| {
         let flag = Arc::new(AtomicBool::new(false));
         let f = flag.clone();
         // If a handler cannot be installed the command still works; it just
         // cannot be stopped gracefully.
-        let _ = ctrlc::set_handler(move || f.store(true, Ordering::SeqCst));
+        let _ = ctrlc::set_handler(move || {
+            if f.swap(true, Ordering::SeqCst) {
+                eprintln!("\nquenchwise: stopped at once (a second Ctrl-C or SIGTERM)");
+                std::process::exit(130);
+            }
+        });
         flag
     });
     flag.store(false, Ordering::SeqCst);

@@ -70,7 +70,7 @@ pub fn check(a: CheckArgs) -> Result<Outcome, Error> {
 }
 
 fn options(out: &std::path::Path, f: &FolderArgs) -> ScreenOptions {
-    let stop = super::stop_flag().clone();
+    let stop = super::lowered_stop_flag().clone();
     ScreenOptions {
         resume: f.resume,
         force: f.force,

@@ -103,7 +103,7 @@ pub enum Command {
     ///   quenchwise eval --compositions demo-datasets/candidates.csv --out results.csv
     ///
     /// A table is read, evaluated and written in batches; Ctrl-C (or SIGTERM)
-    /// stops it between two batches and writes nothing (exit 130).
+    /// stops it after the rows in progress and writes nothing (exit 130).
     #[command(verbatim_doc_comment)]
     Eval(EvalArgs),
     /// Search compositions for recipes that vitrify with your quench (overnight-safe)
@@ -112,7 +112,8 @@ pub enum Command {
     /// space-filling set of candidates in parallel, refines the best, and
     /// writes a ranked shortlist with batch sheets to --out. Ctrl-C (or a
     /// SIGTERM from a batch system) stops at the next safe point, the work
-    /// saved; --resume continues where it stopped.
+    /// saved (a second one stops at once); --resume continues where it
+    /// stopped.
     ///
     /// Examples:
     ///   quenchwise screen configs/demo-screen.toml --out results/

@@ -67,7 +67,7 @@ pub enum TableError {
     Data(#[from] DataError),
     #[error("{path}: unsupported extension; use .csv or .parquet")]
     Extension { path: String },
-    /// Stopped on request (Ctrl-C, SIGTERM) between batches, after
+    /// Stopped on request (Ctrl-C, SIGTERM) after the batches of
     /// `evaluated` rows of `total` (None: during the first pass); the
     /// output is not written.
     #[error("{}", stopped_text(*evaluated, *total))]

@@ -876,8 +876,7 @@ fn check_table<R: RowReader>(
     let mut bad = Vec::new();
     let mut first = true;
     // The cells of a batch are checked on the pool while the next batch is
-    // read (the check of every cell first took a tenth of a table's time,
-    // on one core).
+    // read: the check of every cell is about a tenth of a table's work.
     let mut next = batches.next()?;
     while let Some((df, places)) = next.take() {
         if stop_raised(settings.stop) {
@@ -911,8 +910,8 @@ fn check_table<R: RowReader>(
             check_writable(&df, out)?;
             first = false;
         }
-        next = read?;
         if bad.len() >= CELLS_COLLECTED {
+            // (The next batch, read meanwhile, is not looked at.)
             bad.truncate(CELLS_COLLECTED);
             bad.push(format!(
                 "{input}: the check stopped after {CELLS_COLLECTED} bad cells",
@@ -920,6 +919,7 @@ fn check_table<R: RowReader>(
             ));
             break;
         }
+        next = read?;
     }
     super::table::cells(bad)?;
     let schema = is_csv.then(|| {
@@ -1045,8 +1045,9 @@ pub struct StreamSettings {
     /// Parquet output keeps every digit and every text either way. Off by
     /// default (every digit); `eval` turns it on.
     pub readable_csv: bool,
-    /// Raised to stop between batches (Ctrl-C): the run ends with
-    /// [`TableError::Stopped`] and writes nothing. None: never stopped.
+    /// Raised to stop (Ctrl-C): the rows in progress finish, the rest are
+    /// skipped, and the run ends with [`TableError::Stopped`], writing
+    /// nothing. The caller lowers it before the run. None: never stopped.
     pub stop: Option<&'static AtomicBool>,
 }
 
@@ -1181,6 +1182,14 @@ pub fn stream_table_with<R: RowReader>(
             },
             e => e,
         })?;
+        // A stop asked for while the last batches were written still
+        // writes nothing.
+        if stop_raised(settings.stop) {
+            return Err(TableError::Stopped {
+                evaluated: rows_seen,
+                total: Some(pass.rows),
+            });
+        }
         match sink? {
             Some(s) => s.finish()?,
             None => {
@@ -1318,8 +1327,8 @@ fn evaluate_batches<R: RowReader>(
     let mut warnings_column = String::from("warnings");
     // What is left of an evaluated batch: its result columns built, rounded
     // and handed to the writer, in input order. It gives the batch back to
-    // be dropped on the pool: freeing a batch's evaluations here took a
-    // fifth of this thread's time, and this thread paced the run.
+    // be dropped on the pool, where its evaluations were made: freeing them
+    // on this thread would cost it a fifth of its time.
     let mut finish = |done: Evaluated| -> Result<Evaluated, TableError> {
         let Evaluated {
             df,
@@ -1395,10 +1404,9 @@ fn evaluate_batches<R: RowReader>(
     // A pipeline: while the workers evaluate one batch, this thread reads
     // the one after and takes its rows, then finishes the one before, so
     // the workers do not wait for the reading, the result columns and the
-    // rounding (they did: 2 threads were 1.5 times as fast as 1). This
-    // thread calls no parallel iterator meanwhile: its work would queue
-    // behind the evaluation. Each batch is finished in input order, so the
-    // output is the same.
+    // rounding. This thread calls no parallel iterator meanwhile: its work
+    // would queue behind the evaluation and wait for it. Each batch is
+    // finished in input order, so the output is the same.
     let mut previous: Option<Evaluated> = None;
     // Rows evaluated so far, for a stop's message.
     let mut evaluated = 0;
@@ -1459,14 +1467,19 @@ fn evaluate_batches<R: RowReader>(
                     .par_iter()
                     .enumerate()
                     .map(|(i, r)| {
+                        // Once a stop is asked for, the rest of the batch is
+                        // skipped (the batch is then dropped below).
+                        if stop_raised(stop) {
+                            return Err(String::new());
+                        }
                         r.as_ref()
                             .map_err(Clone::clone)
                             .and_then(|r| evaluate(first + i, r))
                     })
                     .collect();
             });
-            // The next batch is read and its rows taken first: a read
-            // after the finishing left the workers idle while it ran.
+            // The next batch is read and its rows taken first, so that the
+            // workers find it ready when they are done.
             read = batches
                 .next()
                 .map(|next| prepare(next, batches.schema.as_ref()));
@@ -1477,6 +1490,12 @@ fn evaluate_batches<R: RowReader>(
             }
         });
         finished?;
+        if stop_raised(stop) {
+            return Err(TableError::Stopped {
+                evaluated,
+                total: None,
+            });
+        }
         upcoming = read?;
         let mut results: Vec<Result<Evaluation, String>> = Vec::with_capacity(both.len());
         let mut cells: Vec<ExtraCells> = Vec::with_capacity(both.len());
@@ -1499,6 +1518,12 @@ fn evaluate_batches<R: RowReader>(
             places,
             results,
             cells,
+        });
+    }
+    if stop_raised(stop) {
+        return Err(TableError::Stopped {
+            evaluated,
+            total: None,
         });
     }
     if let Some(done) = previous.take() {

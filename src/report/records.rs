@@ -252,7 +252,7 @@ fn power_of_ten(k: u32) -> Option<f64> {
 }
 
 /// How far from one half y's fraction must lie, relative to |y|, for
-/// [`scaled_rounding`] to round it: 2⁻⁵⁰, twice y's largest error.
+/// [`scaled_rounding`] to round it: 2⁻⁵⁰, at least twice y's error.
 const TIE_MARGIN: f64 = 4.0 * f64::EPSILON;
 
 /// [`rounded_through_text`] without its formatting, where that provably
@@ -260,10 +260,10 @@ const TIE_MARGIN: f64 = 4.0 * f64::EPSILON;
 /// 10^k to y = x·10^k and y is rounded to a whole number m: the text's
 /// digits whenever y's error cannot cross a tie. y carries at most two
 /// roundings (of 10^k for k > 22, and of the product or quotient), so its
-/// error is under 2⁻⁵¹|y|, and m is used only when y's fraction lies more than
-/// 2⁻⁵⁰|y| ([`TIE_MARGIN`]) from one half; with |y| < 2⁴⁰ the fraction is
-/// then good to 2⁻¹¹ (a margin of 10⁻³, used before, sent one value in
-/// 500 to the slow path). For k ≤ 22, m/10^k (or
+/// error is under 2⁻⁵¹|y| (2⁻⁵²|y| to first order), and m is used only
+/// when y's fraction lies more than 2⁻⁵⁰|y| ([`TIE_MARGIN`]) from one half
+/// (with |y| < 2⁴⁰, at most 2⁻¹⁰ from it: few values go the slow way).
+/// For k ≤ 22, m/10^k (or
 /// m·10^|k|) is one correctly rounded operation on exact operands, so it is
 /// the double the text m·10^−k parses to; beyond, that short text is parsed
 /// (no float formatting, which is what made the text path slow). For
