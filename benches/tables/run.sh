@@ -7,9 +7,10 @@
 # the ratios compare runs under the same load:
 #   - wall time of the whole process on 2e5 rows at 1 and 2 threads, and the
 #     speed-up (target >= 1.8). The 1-thread run is held to one core
-#     (taskset -c 0): besides its worker, the reading, finishing and writing
-#     threads run beside it, and unpinned they would borrow the second core,
-#     so the ratio would no longer say what a second core buys;
+#     (taskset -c 0): beside the pool's one worker, the calling thread reads,
+#     finishes and writes, and polars has threads of its own; unpinned they
+#     would borrow the second core, and the ratio would no longer say what
+#     a second core buys;
 #   - the NumPy time for R_c alone, computation only (the anchor), and
 #     numpy / quenchwise at 2 threads (target >= 15);
 #   - peak memory (max RSS, /usr/bin/time -v) for 2e5 and 2e6 rows at 2
