@@ -547,14 +547,14 @@ impl Quadrature {
                     for j in 0..pieces {
                         let lo = p.lo + w * j as f64;
                         let hi = if j + 1 == pieces { p.hi } else { lo + w };
-                        let mut c = Quadrature::panel(rates, rule, lo, hi, cooling);
-                        let one = std::slice::from_ref(&c);
+                        next.push(Quadrature::panel(rates, rule, lo, hi, cooling));
+                        let at = next.len() - 1;
+                        let one = &next[at..];
                         let (mi, mu) = (max_of(one, |r| r.ln_i), max_of(one, |r| r.ln_u));
                         if mi > sh.i + SHIFT_HEADROOM || mu > sh.u + SHIFT_HEADROOM {
                             rebase = true;
                         }
-                        Quadrature::scale_panel(rule, &mut c, sh);
-                        next.push(c);
+                        Quadrature::scale_panel(rule, &mut next[at], sh);
                     }
                     evaluations += pieces * NODES;
                 } else {
