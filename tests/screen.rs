@@ -1,7 +1,7 @@
 //! The screen: limits re-checked independently, a brute-force optimum, infeasible
 //! configs, determinism across thread counts, interrupt and resume, bad configs.
 
-use crate::util::{run_in, temp_dir};
+use crate::util::{run_in, send_signal, temp_dir, wait_for_file};
 use quenchwise::assess::{evaluate_composition, Calibration};
 use quenchwise::batch::{least_cost_batch, BatchSettings};
 use quenchwise::composition::{Basis, Composition};
@@ -375,46 +375,43 @@ fn bad_configs_give_located_errors() {
         .stdout_has("valid");
 }
 
+/// The small config with `points` first-pass candidates in chunks of
+/// `chunk`, written to `d`, and the real program screening it into d/out
+/// (stderr piped): the config's path and the running child.
+fn start_screen(d: &Path, points: usize, chunk: usize) -> (PathBuf, std::process::Child) {
+    let text = SMALL
+        .replace(
+            "first_pass_points = 512",
+            &format!("first_pass_points = {points}"),
+        )
+        .replace("chunk_size = 64", &format!("chunk_size = {chunk}"));
+    let cfg = write_config(d, &text);
+    let child = std::process::Command::new(env!("CARGO_BIN_EXE_quenchwise"))
+        .args(["screen", cfg.to_str().unwrap(), "--out", "out"])
+        .current_dir(d)
+        .stderr(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    (cfg, child)
+}
+
 /// A second Ctrl-C (or SIGTERM) while the first waits for the next safe
 /// point ends the run at once, as Ctrl-C would without a handler: one
 /// chunk of 50 000 candidates keeps the first signal waiting for seconds.
 #[test]
 fn a_second_signal_stops_at_once() {
     let d = temp_dir("screen-second-signal");
-    let text = SMALL
-        .replace("first_pass_points = 512", "first_pass_points = 50000")
-        .replace("chunk_size = 64", "chunk_size = 50000");
-    let cfg = write_config(&d, &text);
-    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_quenchwise"))
-        .args(["screen", cfg.to_str().unwrap(), "--out", "out"])
-        .current_dir(&d)
-        .stderr(std::process::Stdio::piped())
-        .stdout(std::process::Stdio::null())
-        .spawn()
-        .unwrap();
+    let (_, mut child) = start_screen(&d, 50_000, 50_000);
     // The run has started (its folder is claimed) before the signals.
-    let header = d.join("out/.work/header.json");
-    for _ in 0..600 {
-        if header.exists() {
-            break;
-        }
-        std::thread::sleep(std::time::Duration::from_millis(50));
-    }
-    assert!(header.exists(), "the run never started");
-    let pid = child.id().to_string();
-    let signal = || {
-        std::process::Command::new("kill")
-            .args(["-INT", &pid])
-            .status()
-            .unwrap()
-    };
-    signal();
+    wait_for_file(&d.join("out/.work/header.json"), "the run's start");
+    send_signal(child.id(), "-INT");
     std::thread::sleep(std::time::Duration::from_millis(300));
     assert!(
         child.try_wait().unwrap().is_none(),
         "the chunk ended within 0.3 s: the first signal was not kept waiting"
     );
-    signal();
+    send_signal(child.id(), "-INT");
     let out = child.wait_with_output().unwrap();
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert_eq!(out.status.code(), Some(130), "{stderr}");
@@ -427,30 +424,13 @@ fn sigterm_saves_the_work_and_resume_finishes() {
     let d = temp_dir("screen-sigterm");
     // 79 chunks of 256 candidates: the signal arrives right after the first one
     // is on disk, long before the run could end on its own.
-    let text = SMALL
-        .replace("first_pass_points = 512", "first_pass_points = 20000")
-        .replace("chunk_size = 64", "chunk_size = 256");
-    let cfg = write_config(&d, &text);
-    let child = std::process::Command::new(env!("CARGO_BIN_EXE_quenchwise"))
-        .args(["screen", cfg.to_str().unwrap(), "--out", "out"])
-        .current_dir(&d)
-        .stderr(std::process::Stdio::piped())
-        .stdout(std::process::Stdio::null())
-        .spawn()
-        .unwrap();
+    let (cfg, child) = start_screen(&d, 20_000, 256);
     // Wait until the first chunk is on disk, then send SIGTERM.
-    let first = d.join("out/.work/chunk-000000.json");
-    for _ in 0..600 {
-        if first.exists() {
-            break;
-        }
-        std::thread::sleep(std::time::Duration::from_millis(50));
-    }
-    assert!(first.exists(), "no checkpoint appeared");
-    std::process::Command::new("kill")
-        .args(["-TERM", &child.id().to_string()])
-        .status()
-        .unwrap();
+    wait_for_file(
+        &d.join("out/.work/chunk-000000.json"),
+        "the first checkpoint",
+    );
+    send_signal(child.id(), "-TERM");
     let out = child.wait_with_output().unwrap();
     let stderr = String::from_utf8_lossy(&out.stderr);
     // A run that ended with 0 ignored the signal: that is a failure too.

@@ -3,7 +3,7 @@
 //! cell anywhere is found before any row runs; a failure part-way leaves no
 //! file under the name asked for.
 
-use crate::util::{root, temp_dir};
+use crate::util::{root, send_signal, temp_dir, wait_for_file};
 use quenchwise::assess::{evaluate_composition, evaluate_melt, Calibration, SlabQuench};
 use quenchwise::composition::{Basis, Composition};
 use quenchwise::files::model_set::{parse_model_set, DEMO_MODELS};
@@ -231,6 +231,29 @@ fn melt_table(n: usize, bad_row: usize, bad_b_k: &str) -> String {
     s
 }
 
+/// Stream the melt-card table `input` to `out`, counting in `ran` the rows
+/// evaluated.
+fn stream_counted(
+    input: &Path,
+    out: &Path,
+    settings: StreamSettings,
+    ran: &AtomicUsize,
+    on: impl FnMut(Event<'_>),
+) -> Result<quenchwise::files::table_stream::Streamed, quenchwise::files::table::TableError> {
+    stream_table(
+        input,
+        out,
+        &MeltRows,
+        &ResultPlan::melt_cards(),
+        settings,
+        |v| {
+            ran.fetch_add(1, Ordering::Relaxed);
+            melt_eval(v)
+        },
+        on,
+    )
+}
+
 #[test]
 fn a_bad_cell_in_a_late_batch_is_found_before_any_row_runs() {
     let d = temp_dir("tables-late-bad");
@@ -239,23 +262,13 @@ fn a_bad_cell_in_a_late_batch_is_found_before_any_row_runs() {
     std::fs::write(&input, melt_table(10, 9, "4.5e3x")).unwrap();
     let out = d.join("o.csv");
     let ran = AtomicUsize::new(0);
-    let e = stream_table(
-        &input,
-        &out,
-        &MeltRows,
-        &ResultPlan::melt_cards(),
-        StreamSettings {
-            batch_rows: 2,
-            ..Default::default()
-        },
-        |v| {
-            ran.fetch_add(1, Ordering::Relaxed);
-            melt_eval(v)
-        },
-        |_| {},
-    )
-    .unwrap_err()
-    .to_string();
+    let settings = StreamSettings {
+        batch_rows: 2,
+        ..Default::default()
+    };
+    let e = stream_counted(&input, &out, settings, &ran, |_| {})
+        .unwrap_err()
+        .to_string();
     assert!(
         e.contains("m.csv:10: row 9, column 'b_k': \"4.5e3x\" is not a number"),
         "{e}"
@@ -397,22 +410,11 @@ fn a_stop_between_batches_writes_nothing_and_says_how_far_it_got() {
         readable_csv: true,
         stop: Some(&STOP),
     };
-    let e = stream_table(
-        &input,
-        &out,
-        &MeltRows,
-        &ResultPlan::melt_cards(),
-        settings,
-        |v| {
-            ran.fetch_add(1, Ordering::Relaxed);
-            melt_eval(v)
-        },
-        |event| {
-            if let Event::Batch(_) = event {
-                STOP.store(true, Ordering::SeqCst);
-            }
-        },
-    )
+    let e = stream_counted(&input, &out, settings, &ran, |event| {
+        if let Event::Batch(_) = event {
+            STOP.store(true, Ordering::SeqCst);
+        }
+    })
     .unwrap_err();
     let TableError::Stopped { evaluated, total } = e else {
         panic!("not a stop: {e}");
@@ -427,19 +429,7 @@ fn a_stop_between_batches_writes_nothing_and_says_how_far_it_got() {
     assert!(!d.join("o.csv.partial").exists());
     // Raised before the first pass: nothing runs at all.
     let ran = AtomicUsize::new(0);
-    let e = stream_table(
-        &input,
-        &out,
-        &MeltRows,
-        &ResultPlan::melt_cards(),
-        settings,
-        |v| {
-            ran.fetch_add(1, Ordering::Relaxed);
-            melt_eval(v)
-        },
-        |_| {},
-    )
-    .unwrap_err();
+    let e = stream_counted(&input, &out, settings, &ran, |_| {}).unwrap_err();
     assert!(
         matches!(
             e,
@@ -475,17 +465,8 @@ fn ctrl_c_during_a_table_stops_it_and_leaves_no_file() {
         .unwrap();
     // The first batch is on its way to disk: the evaluation has begun.
     let partial = d.join("o.csv.partial");
-    for _ in 0..1200 {
-        if partial.exists() {
-            break;
-        }
-        std::thread::sleep(std::time::Duration::from_millis(25));
-    }
-    assert!(partial.exists(), "the table never started to be written");
-    Command::new("kill")
-        .args(["-INT", &child.id().to_string()])
-        .status()
-        .unwrap();
+    wait_for_file(&partial, "the table's first batch");
+    send_signal(child.id(), "-INT");
     let run = child.wait_with_output().unwrap();
     let stderr = String::from_utf8_lossy(&run.stderr);
     // A run that ended with 0 finished before the signal or ignored it.

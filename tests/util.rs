@@ -17,6 +17,27 @@ pub fn temp_dir(name: &str) -> PathBuf {
 }
 
 /// The repository root (for shipped demo files and fixtures).
+/// Wait (polling every 25 ms, at most 30 s) until `path` exists; `what`
+/// names the stage it marks, for the failure message.
+pub fn wait_for_file(path: &Path, what: &str) {
+    for _ in 0..1200 {
+        if path.exists() {
+            return;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(25));
+    }
+    panic!("{what}: {} never appeared", path.display());
+}
+
+/// Send `signal` ("-INT", "-TERM") to process `pid` with kill(1).
+pub fn send_signal(pid: u32, signal: &str) {
+    let status = Command::new("kill")
+        .args([signal, &pid.to_string()])
+        .status()
+        .unwrap();
+    assert!(status.success(), "kill {signal} {pid} failed");
+}
+
 pub fn root() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
 }
