@@ -453,7 +453,8 @@ pub(super) fn evaluate_table_with<R: RowReader>(
     settings: StreamSettings,
     evaluate: impl Fn(usize, &R::Row) -> Result<(Evaluation, ExtraCells), String> + Sync,
 ) -> Result<Outcome, Error> {
-    // Ctrl-C and SIGTERM stop the table between batches, writing nothing.
+    // Ctrl-C and SIGTERM stop the table after the rows in progress, writing
+    // nothing.
     let settings = StreamSettings {
         stop: Some(super::lowered_stop_flag()),
         ..settings
