@@ -100,11 +100,7 @@ impl Shelf {
         }
         raws.iter().enumerate().all(|(k, r)| {
             same(r.price_per_kg, self.price[k])
-                && match (r.available_kg, self.available[k]) {
-                    (Some(a), Some(b)) => same(a, b),
-                    (None, None) => true,
-                    _ => false,
-                }
+                && r.available_kg.map(f64::to_bits) == self.available[k].map(f64::to_bits)
                 && r.yields
                     .iter()
                     .zip(&self.yields[k * N_OXIDES..(k + 1) * N_OXIDES])

@@ -1439,12 +1439,6 @@ fn evaluate_batches<R: RowReader>(
     };
     let mut upcoming = prepare(batches.next()?, batches.schema.as_ref());
     while let Some((df, places, prepared)) = upcoming.take() {
-        if stop_raised(stop) {
-            return Err(TableError::Stopped {
-                evaluated,
-                total: None,
-            });
-        }
         let rows = match prepared {
             Ok(rows) => rows,
             Err(e) => {
@@ -1490,6 +1484,9 @@ fn evaluate_batches<R: RowReader>(
             }
         });
         finished?;
+        // The one check a stop needs here: a batch whose rows were skipped
+        // is dropped, never finished. (A stop after the last batch is
+        // caught before the output is renamed.)
         if stop_raised(stop) {
             return Err(TableError::Stopped {
                 evaluated,
@@ -1518,12 +1515,6 @@ fn evaluate_batches<R: RowReader>(
             places,
             results,
             cells,
-        });
-    }
-    if stop_raised(stop) {
-        return Err(TableError::Stopped {
-            evaluated,
-            total: None,
         });
     }
     if let Some(done) = previous.take() {
