@@ -191,6 +191,7 @@ impl Default for QuadratureSettings {
 
 /// One Gauss–Legendre panel of the adaptive quadrature, with everything that
 /// does not change when other panels are refined.
+#[derive(Clone, Copy)]
 struct Panel {
     lo: f64,
     hi: f64,
@@ -211,6 +212,20 @@ struct Panel {
 }
 
 impl Panel {
+    /// A panel to be filled in place ([`Quadrature::fill_panel`], then
+    /// [`Quadrature::scale_panel`]).
+    const BLANK: Panel = Panel {
+        lo: 0.0,
+        hi: 0.0,
+        rates: [SplitRates::NONE; NODES],
+        shape: [1.0; NODES],
+        i_lin: [0.0; NODES],
+        u_lin: [0.0; NODES],
+        g_inc: [0.0; NODES],
+        g_tot: 0.0,
+        u_spread: 1.0,
+    };
+
     /// ln I and ln U (times the shape) at node j.
     fn logs(&self, j: usize) -> (f64, f64) {
         let (r, w) = (&self.rates[j], self.shape[j]);
@@ -222,7 +237,6 @@ impl Panel {
 #[derive(Default)]
 struct Scratch {
     panels: Vec<Panel>,
-    next: Vec<Panel>,
     /// I·G³ at the nodes of each panel.
     f: Vec<[f64; NODES]>,
     /// Each panel's estimate of the integral.
@@ -266,37 +280,36 @@ const SHIFT_HEADROOM: f64 = 600.0;
 pub(super) struct Quadrature;
 
 impl Quadrature {
-    fn panel<R: Fn(f64) -> SplitRates>(
+    /// Set `p` to the panel [lo, hi]: I and U and the rate-shape factor at
+    /// its nodes (its linear values are filled by [`Quadrature::scale_panel`]).
+    /// Panels are filled where they are kept: one is half a kilobyte.
+    fn fill_panel<R: Fn(f64) -> SplitRates>(
+        p: &mut Panel,
         rates: &R,
         rule: &Rule,
-        lo: f64,
-        hi: f64,
+        (lo, hi): (f64, f64),
         cooling: Cooling,
-    ) -> Panel {
+    ) {
         let ts = rule.nodes_on(lo, hi);
-        let mut at = [SplitRates::NONE; NODES];
-        let mut shape = [1.0; NODES];
+        p.lo = lo;
+        p.hi = hi;
         for k in 0..NODES {
-            at[k] = rates(ts[k]);
-            shape[k] = cooling.shape(ts[k]);
+            p.rates[k] = rates(ts[k]);
+            p.shape[k] = cooling.shape(ts[k]);
         }
-        Quadrature::panel_of(lo, hi, at, shape)
     }
 
-    /// A panel from its rates and shape factors at the nodes (its linear
-    /// values are filled by [`Quadrature::scale_panel`]).
-    fn panel_of(lo: f64, hi: f64, rates: [SplitRates; NODES], shape: [f64; NODES]) -> Panel {
-        Panel {
-            lo,
-            hi,
-            rates,
-            shape,
-            i_lin: [0.0; NODES],
-            u_lin: [0.0; NODES],
-            g_inc: [0.0; NODES],
-            g_tot: 0.0,
-            u_spread: 1.0,
-        }
+    /// Append the panel [lo, hi] to `panels` (see [`Quadrature::fill_panel`]).
+    fn push_panel<R: Fn(f64) -> SplitRates>(
+        panels: &mut Vec<Panel>,
+        rates: &R,
+        rule: &Rule,
+        span: (f64, f64),
+        cooling: Cooling,
+    ) {
+        panels.push(Panel::BLANK);
+        let at = panels.len() - 1;
+        Quadrature::fill_panel(&mut panels[at], rates, rule, span, cooling);
     }
 
     /// Fill the scaled linear values of a panel, and its range of ln U.
@@ -371,7 +384,6 @@ impl Quadrature {
         let n0 = q.initial_panels.max(1);
         let Scratch {
             panels,
-            next,
             f,
             share,
             g_end,
@@ -385,10 +397,14 @@ impl Quadrature {
                 debug_assert!(kink
                     .filter(|&t| t > a && t < b)
                     .is_none_or(|t| l.panels.iter().any(|r| r.hi == t)));
-                panels.extend(l.panels.iter().map(|r| {
+                panels.resize(l.panels.len(), Panel::BLANK);
+                for (p, r) in panels.iter_mut().zip(&l.panels) {
                     let ts = rule.nodes_on(r.lo, r.hi);
-                    Quadrature::panel_of(r.lo, r.hi, r.rates, ts.map(|t| cooling.shape(t)))
-                }));
+                    p.lo = r.lo;
+                    p.hi = r.hi;
+                    p.rates = r.rates;
+                    p.shape = ts.map(|t| cooling.shape(t));
+                }
                 0
             }
             _ => {
@@ -405,11 +421,11 @@ impl Quadrature {
                         if nearest == k && k < n0 {
                             hi = t;
                         } else if (nearest == 0 && k == 1) || (nearest == n0 && k == n0) {
-                            panels.push(Quadrature::panel(rates, rule, lo, t, cooling));
+                            Quadrature::push_panel(panels, rates, rule, (lo, t), cooling);
                             lo = t;
                         }
                     }
-                    panels.push(Quadrature::panel(rates, rule, lo, hi, cooling));
+                    Quadrature::push_panel(panels, rates, rule, (lo, hi), cooling);
                     lo = hi;
                 }
                 panels.len() * NODES
@@ -539,29 +555,46 @@ impl Quadrature {
                     evaluations,
                 });
             }
-            next.clear();
+            // Cut in place, from the top down: panel k's pieces go to
+            // [Σ_{i<k} split_i, Σ_{i≤k} split_i), never below k, so every
+            // panel is read before its slot is written, panels below the
+            // first cut do not move, and each new piece is filled where it
+            // stays.
+            let old = panels.len();
+            let mut at: usize = split.iter().sum();
+            panels.resize(at, Panel::BLANK);
             let mut rebase = false;
-            for (p, &pieces) in panels.drain(..).zip(split.iter()) {
-                if pieces > 1 {
-                    let w = (p.hi - p.lo) / pieces as f64;
-                    for j in 0..pieces {
-                        let lo = p.lo + w * j as f64;
-                        let hi = if j + 1 == pieces { p.hi } else { lo + w };
-                        next.push(Quadrature::panel(rates, rule, lo, hi, cooling));
-                        let at = next.len() - 1;
-                        let one = &next[at..];
-                        let (mi, mu) = (max_of(one, |r| r.ln_i), max_of(one, |r| r.ln_u));
-                        if mi > sh.i + SHIFT_HEADROOM || mu > sh.u + SHIFT_HEADROOM {
-                            rebase = true;
-                        }
-                        Quadrature::scale_panel(rule, &mut next[at], sh);
+            for k in (0..old).rev() {
+                let pieces = split[k];
+                if pieces == 1 {
+                    at -= 1;
+                    if at != k {
+                        panels[at] = panels[k];
                     }
-                    evaluations += pieces * NODES;
-                } else {
-                    next.push(p);
+                    continue;
                 }
+                let (plo, phi) = (panels[k].lo, panels[k].hi);
+                let w = (phi - plo) / pieces as f64;
+                for j in (0..pieces).rev() {
+                    let lo = plo + w * j as f64;
+                    let hi = if j + 1 == pieces { phi } else { lo + w };
+                    at -= 1;
+                    let p = &mut panels[at];
+                    Quadrature::fill_panel(p, rates, rule, (lo, hi), cooling);
+                    let (mi, mu) = p
+                        .rates
+                        .iter()
+                        .fold((f64::NEG_INFINITY, f64::NEG_INFINITY), |(a, b), r| {
+                            (a.max(r.ln_i), b.max(r.ln_u))
+                        });
+                    if mi > sh.i + SHIFT_HEADROOM || mu > sh.u + SHIFT_HEADROOM {
+                        rebase = true;
+                    }
+                    Quadrature::scale_panel(rule, p, sh);
+                }
+                evaluations += pieces * NODES;
             }
-            std::mem::swap(panels, next);
+            debug_assert_eq!(at, 0);
             if rebase {
                 sh = Shifts {
                     i: max_of(panels, |r| r.ln_i),
@@ -786,7 +819,13 @@ mod tests {
                             0.001 + 0.01 * next()
                         }
                     });
-                    Quadrature::panel_of(lo, lo + 50.0, rates, shape)
+                    Panel {
+                        lo,
+                        hi: lo + 50.0,
+                        rates,
+                        shape,
+                        ..Panel::BLANK
+                    }
                 })
                 .collect();
             let max_of = |f: fn(&SplitRates) -> f64| {
@@ -867,7 +906,13 @@ mod tests {
             } else {
                 std::array::from_fn(|_| 1e-4 + 0.01 * next())
             };
-            let mut p = Quadrature::panel_of(700.0, 750.0, rates, shape);
+            let mut p = Panel {
+                lo: 700.0,
+                hi: 750.0,
+                rates,
+                shape,
+                ..Panel::BLANK
+            };
             let sh = Shifts {
                 i: -10.0,
                 u: -30.0 + 800.0 * next() - 200.0,
