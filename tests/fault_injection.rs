@@ -81,9 +81,9 @@ fn killed_in_every_stage_and_resumed_equals_uninterrupted() {
     run_in(&d, &["screen", &cfg, "--out", "whole", "--threads", "1"]).code(0);
     let out = d.join("out");
     let points = [
-        out.join(".work/chunk-000003.json"), // the first pass
-        out.join(".work/refine-000.json"),   // refinement (seed 1 of 3 kept)
-        out.join("shortlist.csv"),           // outputs (sheets and report to come)
+        out.join(".work/chunk-000003.parquet"), // the first pass
+        out.join(".work/refine-000.json"),      // refinement (seed 1 of 3 kept)
+        out.join("shortlist.csv"),              // outputs (sheets and report to come)
     ];
     let mut landed = Vec::new();
     let mut child = start(&d, &[]);
@@ -105,7 +105,7 @@ fn a_second_run_on_a_folder_in_use_is_refused_and_the_first_unharmed() {
     let d = temp_dir("concurrent");
     let cfg = long_config(&d);
     let mut first = start(&d, &[]);
-    let chunk = d.join("out/.work/chunk-000001.json");
+    let chunk = d.join("out/.work/chunk-000001.parquet");
     let t = Instant::now();
     while !chunk.exists() {
         assert!(

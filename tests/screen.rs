@@ -427,7 +427,7 @@ fn sigterm_saves_the_work_and_resume_finishes() {
     let (cfg, child) = start_screen(&d, 20_000, 256);
     // Wait until the first chunk is on disk, then send SIGTERM.
     wait_for_file(
-        &d.join("out/.work/chunk-000000.json"),
+        &d.join("out/.work/chunk-000000.parquet"),
         "the first checkpoint",
     );
     send_signal(child.id(), "-TERM");

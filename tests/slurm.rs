@@ -537,7 +537,7 @@ impl Submit<'_> {
 
     fn chunk(&self, shard: usize, k: usize) -> PathBuf {
         self.work
-            .join(format!("shards/shard-{shard}/.work/chunk-{k:06}.json"))
+            .join(format!("shards/shard-{shard}/.work/chunk-{k:06}.parquet"))
     }
 
     /// The merged outputs equal the unsplit run's: `shortlist.csv` byte for

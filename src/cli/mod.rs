@@ -437,7 +437,7 @@ pub struct FolderArgs {
     /// Do not write report.html at the end (write it later with `report`).
     #[arg(long)]
     pub no_report: bool,
-    /// Keep the checkpoints (.work/chunk-*.json) of a finished run.
+    /// Keep the checkpoints (.work/chunk-*.parquet) of a finished run.
     ///
     /// They are removed by default.
     #[arg(long)]

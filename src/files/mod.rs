@@ -3,6 +3,7 @@
 //! checkpoints. Each reader turns a file into the core's validated types and
 //! names the file, the line and what was expected when it cannot.
 
+pub(crate) mod checkpoint;
 pub mod fit_data;
 pub mod melt_card;
 pub mod model_set;

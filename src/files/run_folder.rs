@@ -22,6 +22,7 @@
 //! A screen may also be split into shards (`--shard K/N`, one per cluster
 //! task), each keeping its share of the first pass, and merged
 //! ([`merge`]) into exactly the result one process gives.
+use super::checkpoint;
 use super::results::{
     common_warnings, csv_frame, rows_frame, rows_frame_with, shortlist_json, write_batch_sheets,
     write_report, DRAWN_TABLE, SHORTLIST_FULL,
@@ -47,8 +48,8 @@ use std::sync::{Arc, Mutex};
 
 /// Checkpoint format version (3: first-pass points mapped into the
 /// composition polytope, rows carry their binding limits, headers the run
-/// hash and shard).
-const FORMAT: u32 = 3;
+/// hash and shard; 4: chunks as Parquet files).
+const FORMAT: u32 = 4;
 
 /// The list of files quenchwise wrote in an output folder.
 pub const MANIFEST: &str = ".quenchwise-files";
@@ -562,7 +563,8 @@ fn shard_words(s: Option<Shard>) -> String {
     }
 }
 
-/// Checkpoints as JSON files in `.work` folders: written to this run's
+/// Checkpoints in `.work` folders (a chunk's rows as a small Parquet file,
+/// [`super::checkpoint`]; a refined seed as JSON): written to this run's
 /// folder, read from it or (for a merge) from the shard that kept them.
 struct FolderStore<'a> {
     folder: &'a RunFolder,
@@ -573,7 +575,7 @@ struct FolderStore<'a> {
 
 impl FolderStore<'_> {
     fn chunk_rel(k: usize) -> String {
-        format!(".work/chunk-{k:06}.json")
+        format!(".work/chunk-{k:06}.parquet")
     }
     fn chunk_path(&self, k: usize) -> PathBuf {
         match &self.chunk_dirs {
@@ -586,17 +588,18 @@ impl FolderStore<'_> {
     }
     /// Read a kept file; a damaged one (cut short by a kill, emptied) is
     /// noted and treated as not kept, so it is computed again.
-    fn read<T: serde::de::DeserializeOwned>(
+    fn read<T>(
         &mut self,
         path: &Path,
         what: &str,
+        decode: impl FnOnce(Vec<u8>) -> Result<T, String>,
     ) -> Result<Option<T>, Error> {
         let bytes = match std::fs::read(path) {
             Ok(b) => b,
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok(None),
             Err(e) => return Err(Error::io("reading", path, e)),
         };
-        match serde_json::from_slice(&bytes) {
+        match decode(bytes) {
             Ok(v) => Ok(Some(v)),
             Err(e) if self.chunk_dirs.is_none() || what != "chunk" => {
                 self.notices.push(format!(
@@ -630,14 +633,19 @@ impl ScreenStore for FolderStore<'_> {
     }
     fn load_chunk(&mut self, k: usize) -> Result<Option<Vec<Row>>, Error> {
         let path = self.chunk_path(k);
-        self.read(&path, "chunk")
+        self.read(&path, "chunk", checkpoint::decode)
     }
     fn save_chunk(&mut self, k: usize, rows: &[Row]) -> Result<(), Error> {
-        write_json(self.folder, &Self::chunk_rel(k), rows)
+        let rel = Self::chunk_rel(k);
+        let bytes = checkpoint::encode(rows)
+            .map_err(|e| Error::internal(format!("encoding {rel}: {e}")))?;
+        self.folder.write(&rel, &bytes).map(|_| ())
     }
     fn load_refined(&mut self, i: usize) -> Result<Option<Row>, Error> {
         let path = self.folder.root().join(Self::refine_rel(i));
-        self.read(&path, "refined seed")
+        self.read(&path, "refined seed", |b| {
+            serde_json::from_slice(&b).map_err(|e| e.to_string())
+        })
     }
     fn save_refined(&mut self, i: usize, row: &Row) -> Result<(), Error> {
         write_json(self.folder, &Self::refine_rel(i), row)
@@ -925,7 +933,9 @@ fn remove_checkpoints(folder: &RunFolder) -> Result<(), Error> {
     for e in entries.flatten() {
         let name = e.file_name();
         let name = name.to_string_lossy();
-        if (name.starts_with("chunk-") || name.starts_with("refine-")) && name.ends_with(".json") {
+        if (name.starts_with("chunk-") && name.ends_with(".parquet"))
+            || (name.starts_with("refine-") && name.ends_with(".json"))
+        {
             let p = e.path();
             std::fs::remove_file(&p).map_err(|err| Error::io("removing", &p, err))?;
         }

@@ -75,6 +75,16 @@ impl Limit {
 pub struct LimitSet(u16);
 
 impl LimitSet {
+    /// The set as bits, one per limit (what a checkpoint stores).
+    pub(crate) fn bits(self) -> u16 {
+        self.0
+    }
+
+    /// The set stored as [`LimitSet::bits`].
+    pub(crate) fn from_bits(bits: u16) -> LimitSet {
+        LimitSet(bits)
+    }
+
     /// Add a limit.
     pub fn insert(&mut self, l: Limit) {
         self.0 |= l.bit();

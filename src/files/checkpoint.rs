@@ -1,0 +1,342 @@
+//! The first pass's chunk checkpoints as small Parquet files: a chunk's rows
+//! with every number stored exactly (a double as its 64 bits), so a resumed
+//! or merged run reads back the rows it wrote. JSON text took about 1.2 kB
+//! per candidate, most of it field names, 17-digit numbers and the same
+//! warnings on every row: a 10⁸-candidate screen would have kept some 120 GB
+//! of checkpoints until it finished. Parquet's dictionary pages hold the
+//! repeated texts once per chunk (about 140 bytes per candidate).
+//!
+//! Writing a Parquet file has a cost per column whatever its length (the
+//! writer estimates every column's distinct values to choose its encoding),
+//! so the optional numbers of a row share one list column, in the order of
+//! [`NUMBERS`]; LZ4 compresses, and no column statistics are kept (nothing
+//! filters a checkpoint).
+
+use crate::screen::limits::LimitSet;
+use crate::screen::Row;
+use polars::prelude::*;
+use std::io::Cursor;
+
+/// A row's optional numbers, as stored: how to read each and how to set it.
+type Number = (fn(&Row) -> Option<f64>, fn(&mut Row, Option<f64>));
+
+/// The optional numbers of a row, in the order of the `numbers` column.
+const NUMBERS: [Number; 15] = [
+    (|r| r.penalised, |r, v| r.penalised = v),
+    (|r| r.objective, |r, v| r.objective = v),
+    (
+        |r| r.critical_rate_k_per_s,
+        |r, v| r.critical_rate_k_per_s = v,
+    ),
+    (|r| r.nose_rate_k_per_s, |r, v| r.nose_rate_k_per_s = v),
+    (|r| r.margin_decades, |r, v| r.margin_decades = v),
+    (
+        |r| r.melting_temperature_k,
+        |r, v| r.melting_temperature_k = v,
+    ),
+    (|r| r.liquidus_k, |r, v| r.liquidus_k = v),
+    (|r| r.glass_transition_k, |r, v| r.glass_transition_k = v),
+    (|r| r.working_point_k, |r, v| r.working_point_k = v),
+    (|r| r.softening_point_k, |r, v| r.softening_point_k = v),
+    (|r| r.cost_per_kg, |r, v| r.cost_per_kg = v),
+    (|r| r.probability_glassy, |r, v| r.probability_glassy = v),
+    (
+        |r| r.critical_rate_p05_k_per_s,
+        |r, v| r.critical_rate_p05_k_per_s = v,
+    ),
+    (
+        |r| r.critical_rate_p95_k_per_s,
+        |r, v| r.critical_rate_p95_k_per_s = v,
+    ),
+    (
+        |r| r.probability_glassy_lower95,
+        |r, v| r.probability_glassy_lower95 = v,
+    ),
+];
+
+/// A chunk's rows as the bytes of a Parquet file.
+///
+/// # Errors
+/// Polars refuses the columns or fails to encode them.
+pub(crate) fn encode(rows: &[Row]) -> PolarsResult<Vec<u8>> {
+    // Doubles as their bits: lists of `u64`, one per row.
+    let bits = |name: &str, width: usize, row: &dyn Fn(&Row) -> Vec<Option<u64>>| {
+        let mut b = ListPrimitiveChunkedBuilder::<UInt64Type>::new(
+            name.into(),
+            rows.len(),
+            rows.len() * width,
+            DataType::UInt64,
+        );
+        for r in rows {
+            b.append_iter(row(r).into_iter());
+        }
+        b.finish().into_column()
+    };
+    let texts = |name: &str, get: fn(&Row) -> Option<&str>| {
+        Column::new(name.into(), rows.iter().map(get).collect::<Vec<_>>())
+    };
+    let flags = |name: &str, get: fn(&Row) -> Option<bool>| {
+        Column::new(name.into(), rows.iter().map(get).collect::<Vec<_>>())
+    };
+    let cols = vec![
+        Column::new(
+            "index".into(),
+            rows.iter().map(|r| r.index).collect::<Vec<_>>(),
+        ),
+        flags("refined", |r| Some(r.refined)),
+        bits("mol_pct", 20, &|r| {
+            r.mol_pct.iter().map(|x| Some(x.to_bits())).collect()
+        }),
+        flags("feasible", |r| Some(r.feasible)),
+        Column::new(
+            "broken".into(),
+            rows.iter().map(|r| r.broken.bits()).collect::<Vec<u16>>(),
+        ),
+        bits("numbers", NUMBERS.len(), &|r| {
+            NUMBERS
+                .iter()
+                .map(|(get, _)| get(r).map(f64::to_bits))
+                .collect()
+        }),
+        texts("primary_phase", |r| r.primary_phase.as_deref()),
+        texts("limiting_phase", |r| r.limiting_phase.as_deref()),
+        flags("vouched", |r| r.vouched),
+        texts("warnings", |r| Some(&r.warnings)),
+        texts("error", |r| r.error.as_deref()),
+        Column::new(
+            "evaluations".into(),
+            rows.iter()
+                .map(|r| r.evaluations as u64)
+                .collect::<Vec<_>>(),
+        ),
+        texts("binding", |r| Some(&r.binding)),
+        flags("band_vouched", |r| r.band_vouched),
+        texts("probability_from", |r| r.probability_from.as_deref()),
+        bits("probability_glassy_with", 0, &|r| {
+            r.probability_glassy_with
+                .iter()
+                .map(|x| x.map(f64::to_bits))
+                .collect()
+        }),
+    ];
+    let mut df = DataFrame::new_infer_height(cols)?;
+    let mut bytes = Vec::new();
+    ParquetWriter::new(&mut bytes)
+        .with_compression(ParquetCompression::Lz4Raw)
+        .with_statistics(StatisticsOptions::empty())
+        // On this thread: polars' own pool would wait behind the screen's.
+        .set_parallel(false)
+        .finish(&mut df)?;
+    Ok(bytes)
+}
+
+/// The rows of a chunk written by [`encode`].
+///
+/// # Errors
+/// Bytes that are not such a file (cut short, emptied, another layout): the
+/// message says what is wrong.
+pub(crate) fn decode(bytes: Vec<u8>) -> Result<Vec<Row>, String> {
+    let df = ParquetReader::new(Cursor::new(bytes))
+        .finish()
+        .map_err(|e| e.to_string())?;
+    let text = |e: PolarsError| e.to_string();
+    let col = |name: &str| df.column(name).map_err(text);
+    let missing = |name: &str| format!("column {name}: a missing value");
+    let flags = |name: &str| -> Result<Vec<Option<bool>>, String> {
+        Ok(col(name)?.bool().map_err(text)?.iter().collect())
+    };
+    let required = |name: &str| -> Result<Vec<bool>, String> {
+        flags(name)?
+            .into_iter()
+            .map(|x| x.ok_or_else(|| missing(name)))
+            .collect()
+    };
+    let texts = |name: &str| -> Result<Vec<Option<String>>, String> {
+        Ok(col(name)?
+            .str()
+            .map_err(text)?
+            .iter()
+            .map(|s| s.map(str::to_string))
+            .collect())
+    };
+    let required_text = |name: &str| -> Result<Vec<String>, String> {
+        texts(name)?
+            .into_iter()
+            .map(|x| x.ok_or_else(|| missing(name)))
+            .collect()
+    };
+    let u64s = |name: &str| -> Result<Vec<u64>, String> {
+        col(name)?
+            .u64()
+            .map_err(text)?
+            .iter()
+            .map(|x| x.ok_or_else(|| missing(name)))
+            .collect()
+    };
+    let doubles = |name: &str| -> Result<Vec<Vec<Option<f64>>>, String> {
+        let ca = col(name)?.list().map_err(text)?;
+        (0..ca.len())
+            .map(|i| {
+                let s = ca.get_as_series(i).ok_or_else(|| missing(name))?;
+                Ok(s.u64()
+                    .map_err(text)?
+                    .iter()
+                    .map(|b| b.map(f64::from_bits))
+                    .collect())
+            })
+            .collect()
+    };
+    let index = u64s("index")?;
+    let evaluations = u64s("evaluations")?;
+    let broken: Vec<Option<u16>> = col("broken")?.u16().map_err(text)?.iter().collect();
+    let (refined, feasible) = (required("refined")?, required("feasible")?);
+    let (vouched, band_vouched) = (flags("vouched")?, flags("band_vouched")?);
+    let mol_pct = doubles("mol_pct")?;
+    let numbers = doubles("numbers")?;
+    let p_with = doubles("probability_glassy_with")?;
+    let (mut primary, mut limiting) = (texts("primary_phase")?, texts("limiting_phase")?);
+    let (mut error, mut p_from) = (texts("error")?, texts("probability_from")?);
+    let (mut warnings, mut binding) = (required_text("warnings")?, required_text("binding")?);
+    let take = std::mem::take::<Option<String>>;
+    let mut rows = Vec::with_capacity(df.height());
+    for i in 0..df.height() {
+        if numbers[i].len() != NUMBERS.len() {
+            return Err(format!(
+                "column numbers: {} values in row {i}, not {}",
+                numbers[i].len(),
+                NUMBERS.len()
+            ));
+        }
+        let mut row = Row {
+            index: index[i],
+            refined: refined[i],
+            mol_pct: mol_pct[i]
+                .iter()
+                .map(|x| x.ok_or_else(|| missing("mol_pct")))
+                .collect::<Result<_, _>>()?,
+            feasible: feasible[i],
+            broken: LimitSet::from_bits(broken[i].ok_or_else(|| missing("broken"))?),
+            penalised: None,
+            objective: None,
+            critical_rate_k_per_s: None,
+            nose_rate_k_per_s: None,
+            margin_decades: None,
+            melting_temperature_k: None,
+            liquidus_k: None,
+            primary_phase: take(&mut primary[i]),
+            limiting_phase: take(&mut limiting[i]),
+            vouched: vouched[i],
+            glass_transition_k: None,
+            working_point_k: None,
+            softening_point_k: None,
+            cost_per_kg: None,
+            warnings: std::mem::take(&mut warnings[i]),
+            error: take(&mut error[i]),
+            evaluations: evaluations[i] as usize,
+            binding: std::mem::take(&mut binding[i]),
+            probability_glassy: None,
+            critical_rate_p05_k_per_s: None,
+            critical_rate_p95_k_per_s: None,
+            band_vouched: band_vouched[i],
+            probability_from: take(&mut p_from[i]),
+            probability_glassy_lower95: None,
+            probability_glassy_with: p_with[i].clone(),
+        };
+        for ((_, set), &v) in NUMBERS.iter().zip(&numbers[i]) {
+            set(&mut row, v);
+        }
+        rows.push(row);
+    }
+    Ok(rows)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::numeric::split_mix;
+
+    /// Rows that use every field: numbers over the whole range of doubles
+    /// (subnormal, −0, the largest), missing values, empty and non-ASCII
+    /// texts, empty and filled lists.
+    fn rows(n: usize) -> Vec<Row> {
+        let mut next = split_mix(0x00c0_ffee);
+        let mut num = move |k: usize| -> Option<f64> {
+            let x = next();
+            match k % 7 {
+                0 => None,
+                1 => Some(-0.0),
+                2 => Some(f64::MIN_POSITIVE / 8.0),
+                3 => Some(f64::MAX),
+                _ => Some((x - 0.5) * 10f64.powi((x * 600.0) as i32 - 300)),
+            }
+        };
+        (0..n)
+            .map(|i| Row {
+                index: if i == 0 { u64::MAX } else { i as u64 * 7 },
+                refined: i % 2 == 0,
+                mol_pct: (0..20).map(|k| num(k + 3).unwrap_or(0.0)).collect(),
+                feasible: i % 3 == 0,
+                broken: LimitSet::from_bits((i * 37 % 65_536) as u16),
+                penalised: num(i),
+                objective: num(i + 1),
+                critical_rate_k_per_s: num(i + 2),
+                nose_rate_k_per_s: num(i + 3),
+                margin_decades: num(i + 4),
+                melting_temperature_k: num(i + 5),
+                liquidus_k: num(i + 6),
+                primary_phase: (i % 4 != 0).then(|| format!("phase {i} (β-wollastonite)")),
+                limiting_phase: (i % 5 != 0).then(|| "cristobalite".to_string()),
+                vouched: [None, Some(true), Some(false)][i % 3],
+                glass_transition_k: num(i + 7),
+                working_point_k: num(i + 8),
+                softening_point_k: num(i + 9),
+                cost_per_kg: num(i + 10),
+                warnings: if i % 2 == 0 {
+                    String::new()
+                } else {
+                    "a; b — ΔG ≤ 0".into()
+                },
+                error: (i % 6 == 1).then(|| "no liquidus\nsecond line".to_string()),
+                evaluations: i * 1_000_003,
+                binding: if i % 3 == 0 {
+                    "cost, melting".into()
+                } else {
+                    String::new()
+                },
+                probability_glassy: num(i + 11),
+                critical_rate_p05_k_per_s: num(i + 12),
+                critical_rate_p95_k_per_s: num(i + 13),
+                band_vouched: [Some(false), None, Some(true)][i % 3],
+                probability_from: (i % 2 == 1).then(|| "draws".to_string()),
+                probability_glassy_lower95: num(i + 14),
+                probability_glassy_with: (0..i % 4).map(|k| num(k + i)).collect(),
+            })
+            .collect()
+    }
+
+    #[test]
+    fn a_chunk_reads_back_bit_for_bit() {
+        // Source: the rows themselves; every double is compared by its bits
+        // (serde_json writes −0 as "-0.0" and every double to the bit).
+        for n in [1, 2, 7, 512] {
+            let rows = rows(n);
+            let back = decode(encode(&rows).unwrap()).unwrap();
+            assert_eq!(back, rows);
+            assert_eq!(
+                serde_json::to_string(&back).unwrap(),
+                serde_json::to_string(&rows).unwrap()
+            );
+        }
+    }
+
+    #[test]
+    fn a_damaged_chunk_is_refused_not_misread() {
+        // A file cut short by a kill, an emptied one, and JSON text (another
+        // layout) are errors, never rows.
+        let bytes = encode(&rows(64)).unwrap();
+        for cut in [0, 4, bytes.len() / 2, bytes.len() - 1] {
+            assert!(decode(bytes[..cut].to_vec()).is_err(), "cut at {cut}");
+        }
+        assert!(decode(b"[{\"index\": 0}]".to_vec()).is_err());
+    }
+}
