@@ -12,6 +12,7 @@
 //! [`NUMBERS`]; LZ4 compresses, and no column statistics are kept (nothing
 //! filters a checkpoint).
 
+use crate::composition::N_OXIDES;
 use crate::screen::limits::LimitSet;
 use crate::screen::Row;
 use polars::prelude::*;
@@ -20,7 +21,8 @@ use std::io::Cursor;
 /// A row's optional numbers, as stored: how to read each and how to set it.
 type Number = (fn(&Row) -> Option<f64>, fn(&mut Row, Option<f64>));
 
-/// The optional numbers of a row, in the order of the `numbers` column.
+/// The optional numbers of a row, in the order of the `numbers` column
+/// (changing the order changes the checkpoint format: `run_folder::FORMAT`).
 const NUMBERS: [Number; 15] = [
     (|r| r.penalised, |r, v| r.penalised = v),
     (|r| r.objective, |r, v| r.objective = v),
@@ -84,7 +86,7 @@ pub(crate) fn encode(rows: &[Row]) -> PolarsResult<Vec<u8>> {
             rows.iter().map(|r| r.index).collect::<Vec<_>>(),
         ),
         flags("refined", |r| Some(r.refined)),
-        bits("mol_pct", 20, &|r| {
+        bits("mol_pct", N_OXIDES, &|r| {
             r.mol_pct.iter().map(|x| Some(x.to_bits())).collect()
         }),
         flags("feasible", |r| Some(r.feasible)),
@@ -133,10 +135,19 @@ pub(crate) fn encode(rows: &[Row]) -> PolarsResult<Vec<u8>> {
 /// The rows of a chunk written by [`encode`].
 ///
 /// # Errors
-/// Bytes that are not such a file (cut short, emptied, another layout): the
-/// message says what is wrong.
+/// Bytes that are not such a file (cut short, emptied, damaged inside,
+/// another layout): the message says what is wrong.
 pub(crate) fn decode(bytes: Vec<u8>) -> Result<Vec<Row>, String> {
+    // The Parquet reader may panic on a page damaged inside (not just cut
+    // short); that is a damaged checkpoint like any other.
+    std::panic::catch_unwind(move || decode_frame(bytes)).unwrap_or_else(|_| {
+        Err("the file is damaged inside (the Parquet reader gave up)".to_string())
+    })
+}
+
+fn decode_frame(bytes: Vec<u8>) -> Result<Vec<Row>, String> {
     let df = ParquetReader::new(Cursor::new(bytes))
+        .read_parallel(ParallelStrategy::None)
         .finish()
         .map_err(|e| e.to_string())?;
     let text = |e: PolarsError| e.to_string();
@@ -200,12 +211,15 @@ pub(crate) fn decode(bytes: Vec<u8>) -> Result<Vec<Row>, String> {
     let take = std::mem::take::<Option<String>>;
     let mut rows = Vec::with_capacity(df.height());
     for i in 0..df.height() {
-        if numbers[i].len() != NUMBERS.len() {
-            return Err(format!(
-                "column numbers: {} values in row {i}, not {}",
-                numbers[i].len(),
-                NUMBERS.len()
-            ));
+        for (name, len, want) in [
+            ("numbers", numbers[i].len(), NUMBERS.len()),
+            ("mol_pct", mol_pct[i].len(), N_OXIDES),
+        ] {
+            if len != want {
+                return Err(format!(
+                    "column {name}: {len} values in row {i}, not {want}"
+                ));
+            }
         }
         let mut row = Row {
             index: index[i],
@@ -274,7 +288,7 @@ mod tests {
             .map(|i| Row {
                 index: if i == 0 { u64::MAX } else { i as u64 * 7 },
                 refined: i % 2 == 0,
-                mol_pct: (0..20).map(|k| num(k + 3).unwrap_or(0.0)).collect(),
+                mol_pct: (0..N_OXIDES).map(|k| num(k + 3).unwrap_or(0.0)).collect(),
                 feasible: i % 3 == 0,
                 broken: LimitSet::from_bits((i * 37 % 65_536) as u16),
                 penalised: num(i),
@@ -284,7 +298,11 @@ mod tests {
                 margin_decades: num(i + 4),
                 melting_temperature_k: num(i + 5),
                 liquidus_k: num(i + 6),
-                primary_phase: (i % 4 != 0).then(|| format!("phase {i} (β-wollastonite)")),
+                primary_phase: match i % 4 {
+                    0 => None,
+                    1 => Some(String::new()),
+                    _ => Some(format!("phase {i} (β-wollastonite)")),
+                },
                 limiting_phase: (i % 5 != 0).then(|| "cristobalite".to_string()),
                 vouched: [None, Some(true), Some(false)][i % 3],
                 glass_transition_k: num(i + 7),
@@ -338,5 +356,30 @@ mod tests {
             assert!(decode(bytes[..cut].to_vec()).is_err(), "cut at {cut}");
         }
         assert!(decode(b"[{\"index\": 0}]".to_vec()).is_err());
+    }
+
+    #[test]
+    fn bytes_damaged_inside_a_chunk_give_rows_or_an_error_never_a_panic() {
+        // Parquet pages carry no checksum here, so a changed byte may still
+        // read as rows (as a changed digit in JSON would); what must not
+        // happen is a panic that ends a resume or a merge.
+        let bytes = encode(&rows(64)).unwrap();
+        let mut next = split_mix(0x5eed);
+        for _ in 0..300 {
+            let mut b = bytes.clone();
+            for _ in 0..3 {
+                let at = (next() * b.len() as f64) as usize;
+                b[at] ^= 1 << ((next() * 8.0) as u32);
+            }
+            let _ = decode(b);
+        }
+    }
+
+    #[test]
+    fn rows_of_another_shape_are_refused() {
+        let mut short = rows(3);
+        short[1].mol_pct.pop();
+        let e = decode(encode(&short).unwrap()).unwrap_err();
+        assert!(e.contains("mol_pct") && e.contains("row 1"), "{e}");
     }
 }

@@ -933,8 +933,10 @@ fn remove_checkpoints(folder: &RunFolder) -> Result<(), Error> {
     for e in entries.flatten() {
         let name = e.file_name();
         let name = name.to_string_lossy();
-        if (name.starts_with("chunk-") && name.ends_with(".parquet"))
-            || (name.starts_with("refine-") && name.ends_with(".json"))
+        if (name.starts_with("chunk-")
+            && (name.ends_with(".parquet") || name.ends_with(".partial")))
+            || (name.starts_with("refine-")
+                && (name.ends_with(".json") || name.ends_with(".partial")))
         {
             let p = e.path();
             std::fs::remove_file(&p).map_err(|err| Error::io("removing", &p, err))?;

@@ -212,8 +212,8 @@ struct Panel {
 }
 
 impl Panel {
-    /// A panel to be filled in place ([`Quadrature::fill_panel`], then
-    /// [`Quadrature::scale_panel`]).
+    /// A panel to be filled in place (its span, rates and shape, as
+    /// [`Quadrature::fill_panel`] does, then [`Quadrature::scale_panel`]).
     const BLANK: Panel = Panel {
         lo: 0.0,
         hi: 0.0,
@@ -555,7 +555,9 @@ impl Quadrature {
                     evaluations,
                 });
             }
-            // Cut in place, from the top down: panel k's pieces go to
+            // Cut in place, from the top down (so the rates are asked for
+            // the new nodes in falling temperature; they are a function of
+            // temperature alone): panel k's pieces go to
             // [Σ_{i<k} split_i, Σ_{i≤k} split_i), never below k, so every
             // panel is read before its slot is written, panels below the
             // first cut do not move, and each new piece is filled where it
