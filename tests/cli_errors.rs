@@ -138,3 +138,37 @@ fn report_on_a_folder_without_results() {
         .code(2)
         .stderr_has("holds no screen results");
 }
+
+#[test]
+fn a_table_separated_by_semicolons_or_tabs_is_named_as_such() {
+    // What a spreadsheet whose decimal mark is a comma saves as "CSV"
+    // (common practice in much of Europe), and a tab-separated export: read
+    // as comma-separated, either would be one column, and the error would
+    // be about something else. (A raw-materials file in that layout is
+    // converted instead: its columns are known.)
+    let d = temp_dir("err-separator");
+    std::fs::write(
+        d.join("semi.csv"),
+        "name;SiO2;Na2O;CaO\nplate-A;72,0;14,0;14,0\n",
+    )
+    .unwrap();
+    std::fs::write(
+        d.join("tabs.csv"),
+        "name\tSiO2\tNa2O\tCaO\nplate-A\t72\t14\t14\n",
+    )
+    .unwrap();
+    run_in(
+        &d,
+        &["eval", "--compositions", "semi.csv", "--out", "o.csv"],
+    )
+    .code(2)
+    .stderr_has("semi.csv: the header holds no comma but 3 semicolons")
+    .stderr_has("'.' as the decimal mark");
+    run_in(
+        &d,
+        &["eval", "--compositions", "tabs.csv", "--out", "o.csv"],
+    )
+    .code(2)
+    .stderr_has("tabs.csv: the header holds no comma but 3 tabs");
+    assert!(!d.join("o.csv").exists());
+}

@@ -323,9 +323,42 @@ pub(crate) fn longer_record(bytes: &[u8]) -> Option<(usize, usize, usize)> {
     None
 }
 
+/// What is wrong with a header written with another separator: a
+/// spreadsheet whose decimal mark is a comma saves "CSV" with `;` between
+/// cells, and some programs write tabs. Polars would read such a header as
+/// one column and every row as one cell, and the error would be about
+/// something else. `None` when the header holds a comma or neither.
+pub(crate) fn separator_problem(header: &[u8]) -> Option<String> {
+    if header.contains(&b',') {
+        return None;
+    }
+    let count = |c: u8| header.iter().filter(|&&b| b == c).count();
+    let (name, n) = [("semicolon", count(b';')), ("tab", count(b'\t'))]
+        .into_iter()
+        .max_by_key(|&(_, n)| n)?;
+    (n > 0).then(|| {
+        format!(
+            "the header holds no comma but {n} {name}{}: quenchwise reads \
+             comma-separated tables with '.' as the decimal mark (save the \
+             table as CSV with ',' between cells and '.' in numbers)",
+            if n == 1 { "" } else { "s" }
+        )
+    })
+}
+
 /// Read CSV text (already in memory) into a data frame.
 fn csv_frame(bytes: Vec<u8>, label: &str) -> Result<(DataFrame, Places), TableError> {
     let bytes = normalise_line_endings(bytes);
+    let header = bytes
+        .split(|&b| b == b'\n')
+        .find(|l| !l.is_empty())
+        .unwrap_or_default();
+    if let Some(message) = separator_problem(header) {
+        return Err(TableError::Read {
+            path: label.to_string(),
+            message,
+        });
+    }
     let lines = record_lines(&bytes);
     let bytes_for_errors = bytes.clone();
     let df = CsvReadOptions::default()

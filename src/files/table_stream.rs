@@ -498,6 +498,12 @@ impl CsvBatches {
                 break;
             }
         }
+        if let Some(message) = crate::files::table::separator_problem(&b.header) {
+            return Err(TableError::Read {
+                path: label.to_string(),
+                message,
+            });
+        }
         Ok(b)
     }
 
