@@ -13,6 +13,9 @@
 # and its log (logs/merge-JOB.log) names the shard that is missing or
 # unfinished: rerun that task (bash configs/slurm/submit.sh rerun K).
 #
+# The shards' checkpoints stay in shards/ after the merge (about 150 bytes
+# per first-pass candidate): delete shards/ once results/ holds what you need.
+#
 # Resources: site-dependent defaults, change them for your cluster. The merge
 # reads every shard's chunks once and refines the best seeds in parallel
 # (--cpus-per-task threads); about 65 MB of memory was measured for the demo.
