@@ -293,9 +293,9 @@ impl Quadrature {
         let ts = rule.nodes_on(lo, hi);
         p.lo = lo;
         p.hi = hi;
-        for k in 0..NODES {
-            p.rates[k] = rates(ts[k]);
-            p.shape[k] = cooling.shape(ts[k]);
+        for ((r, w), &t) in p.rates.iter_mut().zip(&mut p.shape).zip(&ts) {
+            *r = rates(t);
+            *w = cooling.shape(t);
         }
     }
 
