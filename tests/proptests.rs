@@ -402,6 +402,28 @@ fn melt_cards_never_panic_and_accepted_ones_give_finite_kinetics() {
     );
 }
 
+#[test]
+fn a_card_whose_interface_energy_overflows_has_no_nan_on_its_ttt_curve() {
+    // Found by the property above in a longer hunt: σ³ overflows, and at
+    // large undercooling so does ΔG² T, so the barrier came out as ∞ · 0 =
+    // NaN. The whole curve, from the freeze temperature to the liquidus.
+    let path = root().join("tests/fixtures/hostile/card-enthalpy-1e153-with-nuclei.toml");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let card =
+        read_melt_card(&Source::new("card.toml", &text), &KineticOptions::default()).unwrap();
+    let e = evaluate_melt(&card.melt, &card.options, None, &Calibration::None).unwrap();
+    let k = e.kinetics().unwrap();
+    for p in k.ttt_curve(40) {
+        assert!(
+            !p.time_s.is_nan() && p.nucleation_per_m3_s.is_finite(),
+            "at {} K: time {} s, I {}",
+            p.temperature.0,
+            p.time_s,
+            p.nucleation_per_m3_s
+        );
+    }
+}
+
 /// The numbers of a file (after `=`, or inside `{ ... }` and `[ ... ]`), as
 /// byte ranges, for replacing one at random.
 fn number_spans(text: &str) -> Vec<std::ops::Range<usize>> {

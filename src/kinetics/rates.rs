@@ -445,9 +445,20 @@ impl<'m> Kinetics<'m> {
         }
         let ln_d = p.ln_d_pref + l;
         let barrier = 1.0 / (dg * dg * t);
-        let mut ln_i = p.ln_i_pref + ln_d - p.kw * barrier;
+        // W*/(k_B T) = kw · barrier. An interface energy so large that kw
+        // overflows comes with a driving force whose square can overflow
+        // too (both grow with the enthalpy of fusion), and ∞ · 0 would be
+        // NaN; the barrier, ∝ σ³/ΔG², is then beyond any finite one.
+        let over_kt = |kw: f64| {
+            if kw == f64::INFINITY {
+                f64::INFINITY
+            } else {
+                kw * barrier
+            }
+        };
+        let mut ln_i = p.ln_i_pref + ln_d - over_kt(p.kw);
         if let Some(kw_wall) = p.kw_wall {
-            ln_i = log_add(ln_i, p.ln_wall_pref + ln_d - kw_wall * barrier);
+            ln_i = log_add(ln_i, p.ln_wall_pref + ln_d - over_kt(kw_wall));
         }
         // U = (D/λ)(1 − e^(−ΔG/RT)), times ΔT/(2π T_L) for screw growth.
         // ΔG/(RT) from the barrier, without a division, except where that
