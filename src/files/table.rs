@@ -323,26 +323,35 @@ pub(crate) fn longer_record(bytes: &[u8]) -> Option<(usize, usize, usize)> {
     None
 }
 
-/// What is wrong with a header written with another separator: a
-/// spreadsheet whose decimal mark is a comma saves "CSV" with `;` between
-/// cells, and some programs write tabs. Polars would read such a header as
-/// one column and every row as one cell, and the error would be about
-/// something else. `None` when the header holds a comma or neither.
-pub(crate) fn separator_problem(header: &[u8]) -> Option<String> {
+/// Refuse a header written with another separator: a spreadsheet whose
+/// decimal mark is a comma saves "CSV" with `;` between cells, and some
+/// programs write tabs. Polars would read such a header as one column and
+/// every row as one cell, and the error would be about something else. A
+/// header holding a comma, or neither, passes.
+///
+/// # Errors
+/// The header holds no comma but semicolons or tabs; the message says so
+/// and how to save the table.
+pub(crate) fn check_separator(header: &[u8], label: &str) -> Result<(), TableError> {
     if header.contains(&b',') {
-        return None;
+        return Ok(());
     }
     let count = |c: u8| header.iter().filter(|&&b| b == c).count();
     let (name, n) = [("semicolon", count(b';')), ("tab", count(b'\t'))]
         .into_iter()
-        .max_by_key(|&(_, n)| n)?;
-    (n > 0).then(|| {
-        format!(
+        .max_by_key(|&(_, n)| n)
+        .unwrap_or(("", 0));
+    if n == 0 {
+        return Ok(());
+    }
+    Err(TableError::Read {
+        path: label.to_string(),
+        message: format!(
             "the header holds no comma but {n} {name}{}: quenchwise reads \
              comma-separated tables with '.' as the decimal mark (save the \
              table as CSV with ',' between cells and '.' in numbers)",
             if n == 1 { "" } else { "s" }
-        )
+        ),
     })
 }
 
@@ -353,12 +362,7 @@ fn csv_frame(bytes: Vec<u8>, label: &str) -> Result<(DataFrame, Places), TableEr
         .split(|&b| b == b'\n')
         .find(|l| !l.is_empty())
         .unwrap_or_default();
-    if let Some(message) = separator_problem(header) {
-        return Err(TableError::Read {
-            path: label.to_string(),
-            message,
-        });
-    }
+    check_separator(header, label)?;
     let lines = record_lines(&bytes);
     let bytes_for_errors = bytes.clone();
     let df = CsvReadOptions::default()

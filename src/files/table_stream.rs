@@ -498,12 +498,7 @@ impl CsvBatches {
                 break;
             }
         }
-        if let Some(message) = crate::files::table::separator_problem(&b.header) {
-            return Err(TableError::Read {
-                path: label.to_string(),
-                message,
-            });
-        }
+        crate::files::table::check_separator(&b.header, label)?;
         Ok(b)
     }
 
