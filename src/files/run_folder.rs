@@ -308,6 +308,26 @@ impl RunFolder {
         Ok(self.root.join(rel.trim_end_matches('/')))
     }
 
+    /// As [`RunFolder::own`], for a file a run writes once (a chunk's
+    /// checkpoint): its line is appended but not kept in memory, where a
+    /// 10⁸-candidate run would hold some 4·10⁵ names. A file written again
+    /// (a damaged chunk computed anew) is listed twice, which is harmless.
+    ///
+    /// # Errors
+    /// The list cannot be appended to.
+    pub fn own_once(&self, rel: &str) -> Result<PathBuf, Error> {
+        let mut m = self
+            .manifest
+            .lock()
+            .map_err(|_| Error::internal("the list of written files was poisoned"))?;
+        if !m.1.contains(rel) {
+            let mpath = self.root.join(MANIFEST);
+            m.0.write_all(format!("{rel}\n").as_bytes())
+                .map_err(|e| Error::io("writing", &mpath, e))?;
+        }
+        Ok(self.root.join(rel))
+    }
+
     /// Write `bytes` to `rel` atomically (temp file + rename), listed first.
     ///
     /// # Errors
@@ -639,7 +659,7 @@ impl ScreenStore for FolderStore<'_> {
         let rel = Self::chunk_rel(k);
         let bytes = checkpoint::encode(rows)
             .map_err(|e| Error::internal(format!("encoding {rel}: {e}")))?;
-        self.folder.write(&rel, &bytes).map(|_| ())
+        write_atomic(&self.folder.own_once(&rel)?, &bytes)
     }
     fn load_refined(&mut self, i: usize) -> Result<Option<Row>, Error> {
         let path = self.folder.root().join(Self::refine_rel(i));
