@@ -59,7 +59,7 @@ fn same_files(a: &Path, b: &Path) {
         "shortlist.csv",
         "shortlist.json",
         "shortlist.parquet",
-        "candidates.parquet",
+        "candidates/part-000000.parquet",
         "limits.csv",
         "summary.txt",
         "provenance.json",

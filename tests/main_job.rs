@@ -229,6 +229,26 @@ fn report_of_a_finished_run() {
         .stdout_has("wrote run/report.html");
     let html = std::fs::read_to_string(d.join("run/report.html")).unwrap();
     assert!(html.contains("<h2>Shortlist</h2>") && html.contains("TTT diagram, rank 1"));
+    // A folder from a build that wrote the table as one candidates.parquet
+    // (before 2026-12-03) reports the same.
+    let run = d.join("run");
+    std::fs::rename(
+        run.join("candidates/part-000000.parquet"),
+        run.join("candidates.parquet"),
+    )
+    .unwrap();
+    std::fs::remove_dir(run.join("candidates")).unwrap();
+    std::fs::remove_file(run.join("report.html")).unwrap();
+    run_in(&d, &["report", "run"]).code(0);
+    assert_eq!(
+        std::fs::read_to_string(run.join("report.html")).unwrap(),
+        html
+    );
+    // Neither layout: the error names the folder and what is missing.
+    std::fs::remove_file(run.join("candidates.parquet")).unwrap();
+    run_in(&d, &["report", "run"])
+        .code(2)
+        .stderr_has("holds no candidates table");
 }
 
 #[test]

@@ -6,8 +6,10 @@
 
 use crate::screen::SMALL;
 use crate::util::{root, run_in, temp_dir};
+use quenchwise::files::results::{candidate_files, read_candidates};
 use quenchwise::files::run_folder::{
-    merge, run, run_observed, Opening, Outcome, RunFolder, ScreenOptions, Shard, MANIFEST,
+    merge, run, run_observed, CandidateLayout, Opening, Outcome, RunFolder, ScreenOptions, Shard,
+    MANIFEST,
 };
 use quenchwise::files::screen_config::{self as config, RunPlan};
 use quenchwise::screen::{ScreenObserver, Stage};
@@ -258,13 +260,17 @@ fn leftover_partial_files_of_a_kill_do_not_get_in_the_way() {
     o.stop_after_chunks = Some(3);
     run(&p, &o).unwrap();
     // What a SIGKILL in the middle of writes leaves: half a temp chunk, a
-    // truncated candidates table, a temp shortlist.
+    // truncated part of the candidates table and a part beyond the ones
+    // this run writes, a temp shortlist.
     std::fs::write(out.join(".work/chunk-000003.partial"), b"[{\"index\":").unwrap();
-    std::fs::write(out.join("candidates.parquet.partial"), b"PAR1").unwrap();
+    std::fs::create_dir_all(out.join("candidates.partial")).unwrap();
+    std::fs::write(out.join("candidates.partial/part-000000.parquet"), b"PAR1").unwrap();
+    std::fs::write(out.join("candidates.partial/part-000007.parquet"), b"PAR1").unwrap();
     std::fs::write(out.join("shortlist.partial"), b"rank,SiO").unwrap();
     // (listed, as the run lists a file before writing it)
     let mut listed = std::fs::read_to_string(out.join(MANIFEST)).unwrap();
-    listed.push_str("shortlist.json\n");
+    listed
+        .push_str("shortlist.json\ncandidates.partial/\ncandidates.partial/part-000007.parquet\n");
     std::fs::write(out.join(MANIFEST), listed).unwrap();
     let mut o = ScreenOptions::new(&out);
     o.resume = true;
@@ -272,7 +278,7 @@ fn leftover_partial_files_of_a_kill_do_not_get_in_the_way() {
     assert_same_outputs(&d.join("whole"), &out);
     for f in [
         ".work/chunk-000003.partial",
-        "candidates.parquet.partial",
+        "candidates.partial",
         "shortlist.partial",
     ] {
         assert!(!out.join(f).exists(), "{f} left behind");
@@ -356,6 +362,53 @@ fn a_finished_run_removes_its_checkpoints_and_resume_has_nothing_to_do() {
     o.keep_checkpoints = true;
     run(&p, &o).unwrap();
     assert!(kept.join(".work/chunk-000007.parquet").exists());
+}
+
+// ---- Memory: the candidates table in parts of a bounded size ----
+
+#[test]
+fn a_candidates_table_cut_into_parts_holds_the_rows_of_one_file() {
+    let d = temp_dir("candidate-parts");
+    let p = plan_in(&d, SMALL);
+    let mut o = ScreenOptions::new(d.join("whole"));
+    o.report = true;
+    run(&p, &o).unwrap();
+    let cut = d.join("cut");
+    let mut o = ScreenOptions::new(&cut);
+    o.report = true;
+    // Row groups of the 64-row chunks, two to a part.
+    o.candidate_layout = CandidateLayout {
+        group_rows: 64,
+        part_groups: 2,
+    };
+    run(&p, &o).unwrap();
+    assert_eq!(candidate_files(&d.join("whole")).unwrap().len(), 1);
+    let files = candidate_files(&cut).unwrap();
+    let whole = read_candidates(&d.join("whole")).unwrap();
+    assert_eq!(files.len(), whole.height().div_ceil(128), "{files:?}");
+    let names: Vec<String> = files
+        .iter()
+        .map(|f| f.file_name().unwrap().to_string_lossy().to_string())
+        .collect();
+    assert_eq!(names[..2], ["part-000000.parquet", "part-000001.parquet"]);
+    for f in &files[..files.len() - 1] {
+        assert_eq!(
+            quenchwise::files::table::read_frame(f).unwrap().height(),
+            128
+        );
+    }
+    assert!(read_candidates(&cut).unwrap().equals_missing(&whole));
+    // The report thins the same rows of the table however it is cut.
+    for f in ["report.html", "shortlist.csv", "summary.txt"] {
+        assert!(
+            std::fs::read(cut.join(f)).unwrap() == std::fs::read(d.join("whole").join(f)).unwrap(),
+            "{f} differs"
+        );
+    }
+    assert!(!cut.join("candidates.partial").exists());
+    // Every part is listed: --force clears them all.
+    drop(RunFolder::open(&cut, Opening::Force).unwrap());
+    assert!(!cut.join("candidates").exists());
 }
 
 // ---- Shards and merge ----
@@ -497,7 +550,7 @@ fn a_merge_elsewhere_of_moved_shards_reads_the_files_the_shards_read() {
     for f in [
         "shortlist.csv",
         "summary.txt",
-        "candidates.parquet",
+        "candidates/part-000000.parquet",
         "limits.csv",
     ] {
         assert!(

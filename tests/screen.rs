@@ -174,7 +174,7 @@ fn every_shortlisted_recipe_meets_every_limit_when_re_evaluated() {
     for f in [
         "shortlist.csv",
         "shortlist.parquet",
-        "candidates.parquet",
+        "candidates/part-000000.parquet",
         "config-as-run.toml",
         "provenance.json",
         "limits.csv",
@@ -564,6 +564,7 @@ size = 3
 /// over the first pass alone would fill, and says when that distance binds.
 #[test]
 fn each_place_is_refined_and_beats_the_first_pass_pick() {
+    use quenchwise::files::results::read_candidates;
     use quenchwise::files::table::read_frame;
     let d = temp_dir("screen-places");
     for (name, objective) in [("cost", "cost"), ("melting", "melting_temperature")] {
@@ -604,7 +605,7 @@ fn each_place_is_refined_and_beats_the_first_pass_pick() {
                 .sum::<f64>()
                 .sqrt()
         };
-        let cand = read_frame(&out.join("candidates.parquet")).unwrap();
+        let cand = read_candidates(&out).unwrap();
         let (cx, cobj) = (xs(&cand), floats(&cand, "objective"));
         let refined: Vec<bool> = cand
             .column("refined")

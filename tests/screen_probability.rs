@@ -6,6 +6,7 @@
 
 use crate::screen::SMALL;
 use crate::util::{check_xml, run_in, temp_dir};
+use quenchwise::files::results::read_candidates;
 use quenchwise::files::run_folder::{run, Outcome, ScreenOptions};
 use quenchwise::files::screen_config as config;
 use quenchwise::files::table::read_frame;
@@ -445,7 +446,7 @@ fn a_cheap_recipe_glassy_in_every_draw_is_not_lost_when_the_search_keeps_only_pa
     // The case the old rule failed: at least 800 feasible recipes have a
     // lower point-estimate R_c than the pick, so a kept set of at most 800
     // by point margin could not hold it.
-    let cands = read_frame(&full.join("candidates.parquet")).unwrap();
+    let cands = read_candidates(&full).unwrap();
     let feasible: Vec<bool> = cands
         .column("feasible")
         .unwrap()

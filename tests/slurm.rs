@@ -555,8 +555,7 @@ impl Submit<'_> {
             std::fs::read_to_string(unsplit.join("shortlist.csv")).unwrap()
         );
         let rows = |dir: &Path| {
-            let mut df =
-                quenchwise::files::table::read_frame(&dir.join("candidates.parquet")).unwrap();
+            let mut df = quenchwise::files::results::read_candidates(dir).unwrap();
             let mut csv = Vec::new();
             CsvWriter::new(&mut csv).finish(&mut df).unwrap();
             (df.height(), csv)

@@ -2,10 +2,10 @@
 # Peak memory and disk of a whole `screen` run of the demo config
 # (configs/demo-screen.toml) at several first-pass sizes (issue 12, parts 4
 # and 5: memory flat from 1e6 to 1e8 candidates; checkpoints of a finished
-# run removed, a compact candidates.parquet).
+# run removed, a compact candidates table).
 #
 # Prints, per size: wall and CPU time, peak memory (max RSS, /usr/bin/time),
-# what is left in OUT/.work and the size of candidates.parquet (bytes per
+# what is left in OUT/.work and the size of the candidates table (bytes per
 # row). One run per size: memory hardly varies between runs, times do (the
 # machine is shared; the load average before and after is printed).
 #
@@ -33,10 +33,11 @@ for n in "$@"; do
     }
     read -r wall cpu kb < "$WORK/time-$n.txt"
     left=$(du -sk "$WORK/out-$n/.work" | cut -f1)
-    pq=$(stat -c %s "$WORK/out-$n/candidates.parquet")
-    awk -v n="$n" -v wall="$wall" -v cpu="$cpu" -v kb="$kb" -v left="$left" -v pq="$pq" 'BEGIN {
-        printf "%10d candidates: %8.1f s wall, %8.1f s CPU, peak memory %6.0f MB, .work %s kB, candidates.parquet %.1f MB (%.0f bytes/row)\n",
-            n, wall, cpu, kb / 1024, left, pq / 1048576, pq / n }'
+    pq=$(du -cb "$WORK/out-$n"/candidates/part-*.parquet | tail -n 1 | cut -f1)
+    parts=$(ls "$WORK/out-$n"/candidates/part-*.parquet | wc -l)
+    awk -v n="$n" -v wall="$wall" -v cpu="$cpu" -v kb="$kb" -v left="$left" -v pq="$pq" -v parts="$parts" 'BEGIN {
+        printf "%10d candidates: %8.1f s wall, %8.1f s CPU, peak memory %6.0f MB, .work %s kB, candidates/ %.1f MB in %d files (%.0f bytes/row)\n",
+            n, wall, cpu, kb / 1024, left, pq / 1048576, parts, pq / n }'
 done
 echo "load average after:  $(cut -d' ' -f1-3 /proc/loadavg)"
 echo "anchors (issue 12): memory flat from 1e6 to 1e8 candidates; a finished demo run left 224 MB in .work"

@@ -2,7 +2,7 @@
 //! candidates tables (columns from `report::records`, defined once), the
 //! batch sheets, and what `quenchwise report` needs to draw a finished run.
 
-use super::run_folder::RunFolder;
+use super::run_folder::{RunFolder, CANDIDATES_DIR};
 use super::screen_config::{self, RunPlan};
 use super::table::read_frame;
 use crate::batch::least_cost_batch;
@@ -493,25 +493,85 @@ fn read_shortlist(dir: &Path) -> Result<Vec<Vec<(Oxide, f64)>>, Error> {
         .collect())
 }
 
+fn open_file(path: &Path) -> Result<std::fs::File, Error> {
+    std::fs::File::open(path).map_err(|e| Error::io("reading", path, e))
+}
+
+/// The candidates table of a run folder: the files of `candidates/` in
+/// row order (their names sort as their rows do), or the single
+/// `candidates.parquet` of a folder written before the table was split.
+///
+/// # Errors
+/// The folder holds neither, or `candidates/` cannot be listed.
+pub fn candidate_files(dir: &Path) -> Result<Vec<PathBuf>, Error> {
+    let parts = dir.join(CANDIDATES_DIR);
+    if parts.is_dir() {
+        let mut files: Vec<PathBuf> = std::fs::read_dir(&parts)
+            .map_err(|e| Error::io("listing", &parts, e))?
+            .flatten()
+            .map(|e| e.path())
+            .filter(|p| {
+                p.file_name()
+                    .and_then(|n| n.to_str())
+                    .is_some_and(|n| n.starts_with("part-") && n.ends_with(".parquet"))
+            })
+            .collect();
+        files.sort();
+        return Ok(files);
+    }
+    let single = dir.join("candidates.parquet");
+    if single.is_file() {
+        return Ok(vec![single]);
+    }
+    Err(Error::bad_input(format!(
+        "{} holds no candidates table ({CANDIDATES_DIR}/)",
+        dir.display()
+    ))
+    .with_hint("the table is written when a screen finishes; run or --resume the screen first"))
+}
+
+/// The whole candidates table of a run folder as one frame, parts in order
+/// (for tests and small runs: a 10⁸-candidate table is some 11 GB).
+///
+/// # Errors
+/// As [`candidate_files`]; a part that cannot be read.
+pub fn read_candidates(dir: &Path) -> Result<DataFrame, Error> {
+    let mut all: Option<DataFrame> = None;
+    for f in candidate_files(dir)? {
+        let df = read_frame(&f)?;
+        match all.as_mut() {
+            Some(a) => {
+                a.vstack_mut(&df)
+                    .map_err(|e| Error::bad_input(format!("{}: {e}", f.display())))?;
+            }
+            None => all = Some(df),
+        }
+    }
+    let mut all = all.unwrap_or_default();
+    all.rechunk_mut();
+    Ok(all)
+}
+
 /// Every candidate (thinned to at most about 4000) against cost and against
 /// melting temperature, and the shortlisted recipes marked.
 ///
-/// `candidates.parquet` grows with the screen (10⁸ rows overnight), so it is
+/// The candidates table grows with the screen (10⁸ rows overnight), so it is
 /// read one row group at a time, only the four columns drawn, keeping every
 /// `stride`-th row: memory stays that of a row group.
 fn trade_points(
     dir: &Path,
     short: &[ReportRecipe],
 ) -> Result<(Vec<TradePoint>, Vec<TradePoint>), Error> {
-    let path = dir.join("candidates.parquet");
-    let bad = |e: PolarsError| Error::bad_input(format!("candidates.parquet: {e}"));
-    let open = || std::fs::File::open(&path).map_err(|e| Error::io("reading", &path, e));
-    let metadata = ParquetReader::new(open()?)
-        .get_metadata()
-        .map_err(bad)?
-        .clone();
-    let groups: Vec<usize> = metadata.row_groups.iter().map(|g| g.num_rows()).collect();
-    let height: usize = groups.iter().sum();
+    let mut files = Vec::new();
+    for path in candidate_files(dir)? {
+        let metadata = ParquetReader::new(open_file(&path)?)
+            .get_metadata()
+            .map_err(|e| Error::bad_input(format!("{}: {e}", path.display())))?
+            .clone();
+        let groups: Vec<usize> = metadata.row_groups.iter().map(|g| g.num_rows()).collect();
+        files.push((path, metadata, groups));
+    }
+    let height: usize = files.iter().flat_map(|f| &f.2).sum();
     // A fixed stride keeps the file small and the picture reproducible.
     let stride = (height / 4000).max(1);
     let mut by_cost = Vec::new();
@@ -543,39 +603,44 @@ fn trade_points(
         "feasible",
     ];
     let mut first = 0;
-    for len in groups {
-        let mut reader = ParquetReader::new(open()?)
-            .with_slice(Some((first, len)))
-            .with_columns(Some(columns.iter().map(|c| c.to_string()).collect()));
-        reader.set_metadata(metadata.clone());
-        let df = reader.finish().map_err(bad)?;
-        let get = |n: &str| -> Result<Vec<Option<f64>>, Error> {
-            Ok(df
-                .column(n)
-                .and_then(|c| c.cast(&DataType::Float64))
+    for (path, metadata, groups) in files {
+        let bad = |e: PolarsError| Error::bad_input(format!("{}: {e}", path.display()));
+        let mut at = 0;
+        for len in groups {
+            let mut reader = ParquetReader::new(open_file(&path)?)
+                .with_slice(Some((at, len)))
+                .with_columns(Some(columns.iter().map(|c| c.to_string()).collect()));
+            reader.set_metadata(metadata.clone());
+            let df = reader.finish().map_err(bad)?;
+            let get = |n: &str| -> Result<Vec<Option<f64>>, Error> {
+                Ok(df
+                    .column(n)
+                    .and_then(|c| c.cast(&DataType::Float64))
+                    .map_err(bad)?
+                    .f64()
+                    .map_err(bad)?
+                    .iter()
+                    .collect())
+            };
+            let rc = get("critical_rate_k_per_s")?;
+            let cost = get("cost_per_kg")?;
+            let tm = get("melting_temperature_k")?;
+            let feasible: Vec<bool> = df
+                .column("feasible")
                 .map_err(bad)?
-                .f64()
+                .bool()
                 .map_err(bad)?
                 .iter()
-                .collect())
-        };
-        let rc = get("critical_rate_k_per_s")?;
-        let cost = get("cost_per_kg")?;
-        let tm = get("melting_temperature_k")?;
-        let feasible: Vec<bool> = df
-            .column("feasible")
-            .map_err(bad)?
-            .bool()
-            .map_err(bad)?
-            .iter()
-            .map(|b| b.unwrap_or(false))
-            .collect();
-        // Rows first, first + stride, ... of the file that fall in this group.
-        let skip = (stride - first % stride) % stride;
-        for i in (skip..df.height()).step_by(stride) {
-            add(rc[i], cost[i], tm[i], feasible[i], false);
+                .map(|b| b.unwrap_or(false))
+                .collect();
+            // Rows first, first + stride, ... of the table that fall in this group.
+            let skip = (stride - first % stride) % stride;
+            for i in (skip..df.height()).step_by(stride) {
+                add(rc[i], cost[i], tm[i], feasible[i], false);
+            }
+            first += len;
+            at += len;
         }
-        first += len;
     }
     for s in short {
         let r = &s.row;

@@ -388,6 +388,26 @@ pub struct ScreenOptions {
     pub stop_after_chunks: Option<usize>,
     /// Raised (e.g. by Ctrl-C) to stop at the next safe point.
     pub stop: Option<Arc<AtomicBool>>,
+    /// How the candidates table is cut into row groups and part files (the
+    /// default for every run; tests cut small ones to see several parts).
+    pub candidate_layout: CandidateLayout,
+}
+
+/// Rows per row group and row groups per part file of the candidates
+/// table ([`CANDIDATES_DIR`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct CandidateLayout {
+    pub group_rows: usize,
+    pub part_groups: usize,
+}
+
+impl Default for CandidateLayout {
+    fn default() -> Self {
+        CandidateLayout {
+            group_rows: CANDIDATE_GROUP_ROWS,
+            part_groups: CANDIDATE_PART_GROUPS,
+        }
+    }
 }
 
 impl ScreenOptions {
@@ -403,6 +423,7 @@ impl ScreenOptions {
             shard: None,
             stop_after_chunks: None,
             stop: None,
+            candidate_layout: CandidateLayout::default(),
         }
     }
 
@@ -675,15 +696,19 @@ impl ScreenStore for FolderStore<'_> {
     }
 }
 
-/// Streams every row into `candidates.parquet` and passes progress and stop
-/// requests between the run and whoever watches it.
+/// Streams every row into the candidates table ([`CANDIDATES_DIR`]) and
+/// passes progress and stop requests between the run and whoever watches it.
 struct FolderObserver<'a> {
     plan: &'a RunPlan,
     folder: &'a RunFolder,
+    /// The part being written, and its number and rows so far.
     writer: Option<polars::io::parquet::write::BatchedWriter<std::fs::File>>,
+    part: usize,
+    part_rows: usize,
     /// Rows not yet written: they go out as one row group of at least
-    /// [`CANDIDATE_GROUP_ROWS`] (or the last, smaller one).
+    /// `layout.group_rows` (or the last, smaller one).
     pending: Option<DataFrame>,
+    layout: CandidateLayout,
     watcher: &'a mut dyn ScreenObserver,
     stop: Option<Arc<AtomicBool>>,
     stop_after_chunks: Option<usize>,
@@ -691,14 +716,36 @@ struct FolderObserver<'a> {
     notices: Vec<String>,
 }
 
-const CANDIDATES_TMP: &str = "candidates.parquet.partial";
+/// The candidates table of a finished run: a folder of Parquet files
+/// `part-000000.parquet`, `part-000001.parquet`, … whose names sort in row
+/// order, each of [`CANDIDATE_PART_GROUPS`] row groups of about
+/// [`CANDIDATE_GROUP_ROWS`] rows (the last one fewer). It is read whole as
+/// one dataset (Polars `scan_parquet` of `candidates/*.parquet`, pandas
+/// `read_parquet` of the folder).
+pub const CANDIDATES_DIR: &str = "candidates";
 
-/// Rows per row group of `candidates.parquet`. The Parquet writer keeps
-/// metadata of every row group until the file is finished: a row group per
+/// Where the parts are written until the table is whole; renamed to
+/// [`CANDIDATES_DIR`] when it is.
+const CANDIDATES_TMP_DIR: &str = "candidates.partial";
+
+/// Rows per row group of the candidates table. The Parquet writer keeps
+/// metadata of every row group until its file is finished: a row group per
 /// 512-row chunk made a 10⁶-candidate run hold about 160 MB more than one
-/// with groups this size (memory, measured 2026-12-02), and 10⁸ candidates
-/// would hold 100 times that.
+/// with groups this size (memory, measured 2026-12-02).
 const CANDIDATE_GROUP_ROWS: usize = 65_536;
+
+/// Row groups per part of the candidates table (10⁶ rows). Polars' writer
+/// keeps some 90 kB per row group of our columns until its file is
+/// finished (for the footer and the offset index), so one file for the
+/// whole table grew with the run: 10⁷ candidates peaked 15–22 MB above
+/// 10⁶, and 10⁸ would have held some 140 MB more. A part holds at most
+/// about 1.5 MB of it, whatever the size of the run (measured 2026-12-03,
+/// DEVELOPERS.md).
+const CANDIDATE_PART_GROUPS: usize = 16;
+
+fn part_name(n: usize) -> String {
+    format!("part-{n:06}.parquet")
+}
 
 impl FolderObserver<'_> {
     fn stop_now(&mut self) -> bool {
@@ -730,7 +777,7 @@ impl ScreenObserver for FolderObserver<'_> {
         if self
             .pending
             .as_ref()
-            .is_some_and(|p| p.height() >= CANDIDATE_GROUP_ROWS)
+            .is_some_and(|p| p.height() >= self.layout.group_rows)
         {
             self.write_pending()?;
         }
@@ -753,7 +800,15 @@ impl FolderObserver<'_> {
         };
         df.rechunk_mut_par();
         if self.writer.is_none() {
-            let tmp = self.folder.own(CANDIDATES_TMP)?;
+            let dir = self.folder.sub_folder(CANDIDATES_TMP_DIR)?;
+            if self.part == 0 {
+                // Parts an interrupted attempt left: this one writes the
+                // table from its first row.
+                remove_parts(&dir)?;
+            }
+            let tmp = self
+                .folder
+                .own(&format!("{CANDIDATES_TMP_DIR}/{}", part_name(self.part)))?;
             let f = std::fs::File::create(&tmp).map_err(|e| Error::io("creating", &tmp, e))?;
             self.writer = Some(
                 ParquetWriter::new(f)
@@ -765,8 +820,75 @@ impl FolderObserver<'_> {
             w.write_batch(&df)
                 .map_err(|e| Error::internal(format!("writing the candidates table: {e}")))?;
         }
+        self.part_rows += df.height();
+        if self.part_rows >= self.layout.group_rows * self.layout.part_groups {
+            self.close_part()?;
+        }
         Ok(())
     }
+
+    /// Finish the part being written; the next rows start a new one.
+    fn close_part(&mut self) -> Result<(), Error> {
+        if let Some(w) = self.writer.take() {
+            w.finish()
+                .map_err(|e| Error::internal(format!("writing the candidates table: {e}")))?;
+            self.part += 1;
+            self.part_rows = 0;
+        }
+        Ok(())
+    }
+
+    /// Write what is pending, finish the last part, and put the whole table
+    /// in its place ([`CANDIDATES_DIR`]), replacing one an interrupted
+    /// earlier attempt of this run left there.
+    fn finish_table(&mut self) -> Result<(), Error> {
+        self.write_pending()?;
+        self.close_part()?;
+        if self.part == 0 {
+            return Ok(());
+        }
+        let folder = self.folder;
+        let to = folder.own(&format!("{CANDIDATES_DIR}/"))?;
+        for n in 0..self.part {
+            folder.own(&format!("{CANDIDATES_DIR}/{}", part_name(n)))?;
+        }
+        if to.is_dir() {
+            remove_parts(&to)?;
+            std::fs::remove_dir(&to).map_err(|e| Error::io("removing", &to, e))?;
+        }
+        let tmp = folder.root().join(CANDIDATES_TMP_DIR);
+        std::fs::rename(&tmp, &to).map_err(|e| Error::io("renaming", &tmp, e))?;
+        // The single-file table of a build before the parts, when this run
+        // was begun by one.
+        let listed = read_manifest(folder.root())?;
+        for old in ["candidates.parquet", "candidates.parquet.partial"] {
+            if listed.iter().any(|l| l == old) {
+                let p = folder.root().join(old);
+                match std::fs::remove_file(&p) {
+                    Ok(()) => {}
+                    Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
+                    Err(e) => return Err(Error::io("removing", &p, e)),
+                }
+            }
+        }
+        Ok(())
+    }
+}
+
+/// Remove the parts of a candidates table (and nothing else) from `dir`.
+fn remove_parts(dir: &Path) -> Result<(), Error> {
+    let Ok(entries) = std::fs::read_dir(dir) else {
+        return Ok(());
+    };
+    for e in entries.flatten() {
+        let name = e.file_name();
+        let name = name.to_string_lossy();
+        if name.starts_with("part-") && name.ends_with(".parquet") {
+            let p = e.path();
+            std::fs::remove_file(&p).map_err(|err| Error::io("removing", &p, err))?;
+        }
+    }
+    Ok(())
 }
 
 /// Run (or resume) a screen into `o.out`, silently.
@@ -851,7 +973,10 @@ fn observer<'a>(
         plan,
         folder,
         writer: None,
+        part: 0,
+        part_rows: 0,
         pending: None,
+        layout: o.candidate_layout,
         watcher,
         stop: o.stop.clone(),
         stop_after_chunks: o.stop_after_chunks,
@@ -885,14 +1010,7 @@ fn finish(
             snapping,
         } => (shortlist, summary, probability, snapping),
     };
-    observer.write_pending()?;
-    if let Some(w) = observer.writer.take() {
-        w.finish()
-            .map_err(|e| Error::internal(format!("writing the candidates table: {e}")))?;
-        let to = folder.own("candidates.parquet")?;
-        let tmp = folder.root().join(CANDIDATES_TMP);
-        std::fs::rename(&tmp, &to).map_err(|e| Error::io("renaming", &tmp, e))?;
-    }
+    observer.finish_table()?;
     let notices = std::mem::take(&mut observer.notices);
     let written = write_outputs(
         plan,
