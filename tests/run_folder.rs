@@ -307,6 +307,13 @@ fn a_stop_at_any_safe_point_resumes_to_the_same_outputs() {
     let whole = d.join("whole");
     let mut o = ScreenOptions::new(&whole);
     o.report = true;
+    // A table of several parts, so that a stop after it is written and the
+    // resume replace every part.
+    let layout = CandidateLayout {
+        group_rows: 64,
+        part_groups: 2,
+    };
+    o.candidate_layout = layout;
     let mut count = StopAt { at: 0, asked: 0 };
     run_observed(&p, &o, &mut count).unwrap();
     let points = count.asked;
@@ -317,6 +324,7 @@ fn a_stop_at_any_safe_point_resumes_to_the_same_outputs() {
         let out = d.join(format!("stop-{at}"));
         let mut o = ScreenOptions::new(&out);
         o.report = true;
+        o.candidate_layout = layout;
         match run_observed(&p, &o, &mut StopAt { at, asked: 0 }).unwrap() {
             Outcome::Interrupted { stage, .. } => stages.push(stage),
             other => panic!("stop request {at} was ignored: {other:?}"),
@@ -325,6 +333,7 @@ fn a_stop_at_any_safe_point_resumes_to_the_same_outputs() {
         let mut o = ScreenOptions::new(&out);
         o.report = true;
         o.resume = true;
+        o.candidate_layout = layout;
         assert!(matches!(run(&p, &o).unwrap(), Outcome::Finished { .. }));
         assert_same_outputs(&whole, &out);
     }
@@ -406,6 +415,21 @@ fn a_candidates_table_cut_into_parts_holds_the_rows_of_one_file() {
         );
     }
     assert!(!cut.join("candidates.partial").exists());
+    // A run killed after writing its table, resumed: the table is written
+    // again over the old parts, and a file of the user's own put beside
+    // them stays.
+    let again = d.join("again");
+    let mut o2 = o.clone();
+    o2.out = again.clone();
+    o2.keep_checkpoints = true;
+    run(&p, &o2).unwrap();
+    std::fs::remove_file(again.join(".work/finished")).unwrap();
+    std::fs::write(again.join("candidates/notes.txt"), "melt 3 looked cloudy").unwrap();
+    o2.resume = true;
+    assert!(matches!(run(&p, &o2).unwrap(), Outcome::Finished { .. }));
+    assert!(read_candidates(&again).unwrap().equals_missing(&whole));
+    assert!(again.join("candidates/notes.txt").exists());
+    assert!(!again.join("candidates.partial").exists());
     // Every part is listed: --force clears them all.
     drop(RunFolder::open(&cut, Opening::Force).unwrap());
     assert!(!cut.join("candidates").exists());

@@ -6,7 +6,7 @@
 //! - a failed array task keeps the merge from running (Slurm cancels it),
 //!   and a merge submitted anyway names the missing shard;
 //! - rerunning that task alone, then merging, gives the unsplit run's
-//!   `shortlist.csv` byte for byte and the same `candidates.parquet` rows;
+//!   `shortlist.csv` byte for byte and the same candidates-table rows (`candidates/`);
 //! - a merge with a shard missing a chunk fails, naming the shard;
 //! - rerunning that task resumes it: the chunks it kept are not computed
 //!   again, the missing one is, and the merge again equals the unsplit run.
@@ -541,8 +541,8 @@ impl Submit<'_> {
     }
 
     /// The merged outputs equal the unsplit run's: `shortlist.csv` byte for
-    /// byte, `candidates.parquet` row for row (compared as CSV text, which
-    /// also compares the columns and NaNs).
+    /// byte, the candidates table (`candidates/`) row for row (compared as
+    /// CSV text, which also compares the columns and NaNs).
     fn assert_results_equal_unsplit(&self) {
         let results = self.work.join("results");
         let unsplit = self.work.join("unsplit");
@@ -562,7 +562,7 @@ impl Submit<'_> {
         };
         let (n_merged, merged) = rows(&results);
         let (n_unsplit, whole) = rows(&unsplit);
-        assert_eq!(n_merged, n_unsplit, "candidates.parquet row counts");
+        assert_eq!(n_merged, n_unsplit, "candidates table row counts");
         assert!(
             n_unsplit > 8192,
             "the first pass and the refinement are there"
@@ -573,7 +573,7 @@ impl Submit<'_> {
                 String::from_utf8_lossy(&whole),
             );
             let line = a.lines().zip(b.lines()).position(|(x, y)| x != y);
-            panic!("candidates.parquet rows differ (first at CSV line {line:?})");
+            panic!("candidates table rows differ (first at CSV line {line:?})");
         }
     }
 }

@@ -15,10 +15,12 @@
 # PATH). merge.sh combines the shard folders.
 #
 # Resources: site-dependent defaults, change them for your cluster.
-#   --time           a shard takes about first_pass_points / shards / 10000
+#   --time           a shard takes about first_pass_points / shards / 30000
 #                    seconds on one CPU for the demo config (a release build
-#                    did about 10 000 candidates per second per CPU); your
-#                    models and limits may be slower: time a small run first.
+#                    did 30 000-50 000 candidates per second per CPU, whole
+#                    runs and the kernel alone, on a 2-core test machine,
+#                    2026-12-03); your models, limits and CPUs may be
+#                    slower: time a small run first and leave a margin.
 #                    At the limit quenchwise stops at a safe point, and the
 #                    task can be rerun to continue.
 #   --cpus-per-task  worker threads of the shard; more shards use a cluster

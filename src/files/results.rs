@@ -2,7 +2,7 @@
 //! candidates tables (columns from `report::records`, defined once), the
 //! batch sheets, and what `quenchwise report` needs to draw a finished run.
 
-use super::run_folder::{RunFolder, CANDIDATES_DIR};
+use super::run_folder::{part_name, RunFolder, CANDIDATES_DIR};
 use super::screen_config::{self, RunPlan};
 use super::table::read_frame;
 use crate::batch::least_cost_batch;
@@ -502,7 +502,8 @@ fn open_file(path: &Path) -> Result<std::fs::File, Error> {
 /// `candidates.parquet` of a folder written before the table was split.
 ///
 /// # Errors
-/// The folder holds neither, or `candidates/` cannot be listed.
+/// The folder holds neither, `candidates/` cannot be listed, holds no part,
+/// or a part is missing.
 pub fn candidate_files(dir: &Path) -> Result<Vec<PathBuf>, Error> {
     let parts = dir.join(CANDIDATES_DIR);
     if parts.is_dir() {
@@ -517,6 +518,22 @@ pub fn candidate_files(dir: &Path) -> Result<Vec<PathBuf>, Error> {
             })
             .collect();
         files.sort();
+        // Numbered from 0 without a gap: a part lost in a copy is named.
+        for (n, f) in files.iter().enumerate() {
+            if f.file_name().and_then(|x| x.to_str()) != Some(part_name(n).as_str()) {
+                return Err(Error::bad_input(format!(
+                    "{}: {} is missing (the parts are numbered from 0 without gaps)",
+                    parts.display(),
+                    part_name(n)
+                )));
+            }
+        }
+        if files.is_empty() {
+            return Err(Error::bad_input(format!(
+                "{} holds no part-NNNNNN.parquet files",
+                parts.display()
+            )));
+        }
         return Ok(files);
     }
     let single = dir.join("candidates.parquet");
@@ -732,4 +749,72 @@ pub fn write_report(folder: &RunFolder) -> Result<PathBuf, Error> {
         summary,
     });
     folder.write("report.html", html.as_bytes())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Rows `rows` of a candidates table with the columns the trade-off
+    /// plot draws: row i costs i per kg, melts at 1000 + i K, has R_c = i + 1
+    /// K/s and is feasible when i is even.
+    fn table(rows: std::ops::Range<usize>) -> DataFrame {
+        let i: Vec<f64> = rows.clone().map(|i| i as f64).collect();
+        df!(
+            "critical_rate_k_per_s" => i.iter().map(|v| v + 1.0).collect::<Vec<_>>(),
+            "cost_per_kg" => i.clone(),
+            "melting_temperature_k" => i.iter().map(|v| 1000.0 + v).collect::<Vec<_>>(),
+            "feasible" => rows.map(|i| i % 2 == 0).collect::<Vec<_>>(),
+        )
+        .unwrap()
+    }
+
+    /// A run folder holding `parts` (rows from..to) as candidates/part-NNNNNN.parquet.
+    fn folder(name: &str, parts: &[(usize, usize)], group_rows: usize) -> PathBuf {
+        let d = std::env::temp_dir().join(format!("qw-trade-{name}-{}", std::process::id()));
+        let _ = std::fs::remove_dir_all(&d);
+        std::fs::create_dir_all(d.join(CANDIDATES_DIR)).unwrap();
+        for (n, &(from, to)) in parts.iter().enumerate() {
+            let f = std::fs::File::create(d.join(CANDIDATES_DIR).join(part_name(n))).unwrap();
+            ParquetWriter::new(f)
+                .with_row_group_size(Some(group_rows))
+                .finish(&mut table(from..to))
+                .unwrap();
+        }
+        d
+    }
+
+    #[test]
+    fn the_plot_thins_the_same_rows_however_the_table_is_cut() {
+        // 12 001 rows: every 3rd row is drawn (about 4000 points). Parts
+        // and row groups whose sizes are not multiples of 3.
+        let whole = folder("whole", &[(0, 12_001)], 1000);
+        let cut = folder("cut", &[(0, 1237), (1237, 4238), (4238, 12_001)], 500);
+        let (a_cost, a_tm) = trade_points(&whole, &[]).unwrap();
+        let (b_cost, b_tm) = trade_points(&cut, &[]).unwrap();
+        let drawn: Vec<f64> = (0..12_001).step_by(3).map(|i| i as f64).collect();
+        assert_eq!(a_cost.iter().map(|p| p.x).collect::<Vec<_>>(), drawn);
+        assert_eq!(a_cost, b_cost);
+        assert_eq!(a_tm, b_tm);
+        assert!(b_cost
+            .iter()
+            .all(|p| p.feasible == (p.x as usize).is_multiple_of(2)));
+        for d in [whole, cut] {
+            let _ = std::fs::remove_dir_all(d);
+        }
+    }
+
+    #[test]
+    fn a_missing_part_or_an_empty_table_is_named() {
+        let d = folder("gap", &[(0, 10), (10, 20), (20, 30)], 10);
+        std::fs::remove_file(d.join(CANDIDATES_DIR).join(part_name(1))).unwrap();
+        let e = candidate_files(&d).unwrap_err().message().to_string();
+        assert!(e.contains("part-000001.parquet is missing"), "{e}");
+        for n in [0, 2] {
+            std::fs::remove_file(d.join(CANDIDATES_DIR).join(part_name(n))).unwrap();
+        }
+        let e = candidate_files(&d).unwrap_err().message().to_string();
+        assert!(e.contains("holds no part-NNNNNN.parquet files"), "{e}");
+        let _ = std::fs::remove_dir_all(d);
+    }
 }

@@ -264,7 +264,11 @@ impl RunFolder {
             remove_listed(root, &read_manifest(root)?)?;
             let _ = std::fs::remove_file(root.join(MANIFEST));
         }
-        let owned: BTreeSet<String> = read_manifest(root)?.into_iter().collect();
+        // Chunk checkpoints are listed once and not held ([`RunFolder::own_once`]).
+        let owned: BTreeSet<String> = read_manifest(root)?
+            .into_iter()
+            .filter(|l| !l.starts_with(".work/chunk-"))
+            .collect();
         let mpath = root.join(MANIFEST);
         let fresh = !mpath.exists();
         let mut manifest = std::fs::OpenOptions::new()
@@ -326,6 +330,12 @@ impl RunFolder {
                 .map_err(|e| Error::io("writing", &mpath, e))?;
         }
         Ok(self.root.join(rel))
+    }
+
+    /// Whether `rel` is on the list (for a chunk's checkpoint: whether it
+    /// was listed by [`RunFolder::own`], not by [`RunFolder::own_once`]).
+    pub fn lists(&self, rel: &str) -> bool {
+        self.manifest.lock().is_ok_and(|m| m.1.contains(rel))
     }
 
     /// Write `bytes` to `rel` atomically (temp file + rename), listed first.
@@ -743,7 +753,7 @@ const CANDIDATE_GROUP_ROWS: usize = 65_536;
 /// DEVELOPERS.md).
 const CANDIDATE_PART_GROUPS: usize = 16;
 
-fn part_name(n: usize) -> String {
+pub(crate) fn part_name(n: usize) -> String {
     format!("part-{n:06}.parquet")
 }
 
@@ -852,17 +862,36 @@ impl FolderObserver<'_> {
         for n in 0..self.part {
             folder.own(&format!("{CANDIDATES_DIR}/{}", part_name(n)))?;
         }
-        if to.is_dir() {
-            remove_parts(&to)?;
-            std::fs::remove_dir(&to).map_err(|e| Error::io("removing", &to, e))?;
-        }
         let tmp = folder.root().join(CANDIDATES_TMP_DIR);
-        std::fs::rename(&tmp, &to).map_err(|e| Error::io("renaming", &tmp, e))?;
+        match std::fs::symlink_metadata(&to) {
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+                std::fs::rename(&tmp, &to).map_err(|e| Error::io("renaming", &tmp, e))?;
+            }
+            Err(e) => return Err(Error::io("reading", &to, e)),
+            // The table of an earlier attempt of this run (killed after
+            // writing it): its parts give way to these; files of the user's
+            // own put beside them stay.
+            Ok(m) if m.is_dir() => {
+                remove_parts(&to)?;
+                for n in 0..self.part {
+                    let from = tmp.join(part_name(n));
+                    let dest = to.join(part_name(n));
+                    std::fs::rename(&from, &dest).map_err(|e| Error::io("renaming", &from, e))?;
+                }
+                std::fs::remove_dir(&tmp).map_err(|e| Error::io("removing", &tmp, e))?;
+            }
+            Ok(_) => {
+                return Err(Error::bad_input(format!(
+                    "{} is not a folder; the candidates table goes there",
+                    to.display()
+                ))
+                .with_hint("move or rename it, then run again with --resume"))
+            }
+        }
         // The single-file table of a build before the parts, when this run
         // was begun by one.
-        let listed = read_manifest(folder.root())?;
         for old in ["candidates.parquet", "candidates.parquet.partial"] {
-            if listed.iter().any(|l| l == old) {
+            if folder.lists(old) {
                 let p = folder.root().join(old);
                 match std::fs::remove_file(&p) {
                     Ok(()) => {}
