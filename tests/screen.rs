@@ -332,7 +332,8 @@ fn existing_output_and_changed_config_are_refused() {
         &["screen", cfg.to_str().unwrap(), "--out", "out", "--force"],
     )
     .code(0)
-    .stdout_has("shortlist:");
+    .stdout_has("shortlist:")
+    .stdout_has("every candidate: out/candidates/");
 }
 
 #[test]

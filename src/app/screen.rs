@@ -151,6 +151,10 @@ fn tell(end: run_folder::Outcome, out: &std::path::Path, again: &str) -> Result<
                 count(shortlisted, "recipe", "recipes"),
                 out.join("batch-sheets").display()
             );
+            outln!(
+                "every candidate: {}/ (Parquet, read the folder as one table)",
+                out.join(run_folder::CANDIDATES_DIR).display()
+            );
             Ok(Outcome::Finished)
         }
         run_folder::Outcome::Interrupted { stage, done, total } => {
