@@ -226,7 +226,7 @@ fn resume_checks_the_files_the_config_reads_but_not_its_comments() {
 // ---- R4: damaged checkpoints are computed again ----
 
 #[test]
-fn a_truncated_or_empty_chunk_is_computed_again() {
+fn a_truncated_empty_or_changed_chunk_is_computed_again() {
     let d = temp_dir("damaged-chunk");
     let p = plan_in(&d, SMALL);
     run(&p, &ScreenOptions::new(d.join("whole"))).unwrap();
@@ -238,14 +238,25 @@ fn a_truncated_or_empty_chunk_is_computed_again() {
     let text = std::fs::read(&c1).unwrap();
     std::fs::write(&c1, &text[..text.len() / 2]).unwrap();
     std::fs::write(out.join(".work/chunk-000002.parquet"), b"").unwrap();
+    // One bit changed in the middle of a kept chunk (its data pages).
+    let c3 = out.join(".work/chunk-000003.parquet");
+    let mut bytes = std::fs::read(&c3).unwrap();
+    let mid = bytes.len() / 2;
+    bytes[mid] ^= 0x10;
+    std::fs::write(&c3, &bytes).unwrap();
     let mut o = ScreenOptions::new(&out);
     o.resume = true;
     let Outcome::Finished { notices, .. } = run(&p, &o).unwrap() else {
         panic!("the resumed run did not finish");
     };
-    assert_eq!(notices.len(), 2, "{notices:?}");
+    assert_eq!(notices.len(), 3, "{notices:?}");
     assert!(
         notices[0].contains("chunk-000001.parquet was damaged") && notices[0].contains("again")
+    );
+    assert!(
+        notices[2].contains("chunk-000003.parquet was damaged")
+            && notices[2].contains("SHA-256 does not match"),
+        "{notices:?}"
     );
     assert_same_outputs(&d.join("whole"), &out);
 }

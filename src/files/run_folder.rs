@@ -48,8 +48,9 @@ use std::sync::{Arc, Mutex};
 
 /// Checkpoint format version (3: first-pass points mapped into the
 /// composition polytope, rows carry their binding limits, headers the run
-/// hash and shard; 4: chunks as Parquet files).
-const FORMAT: u32 = 4;
+/// hash and shard; 4: chunks as Parquet files; 5: each followed by its
+/// SHA-256).
+const FORMAT: u32 = 5;
 
 /// The list of files quenchwise wrote in an output folder.
 pub const MANIFEST: &str = ".quenchwise-files";
