@@ -48,8 +48,8 @@ use std::sync::{Arc, Mutex};
 
 /// Checkpoint format version (3: first-pass points mapped into the
 /// composition polytope, rows carry their binding limits, headers the run
-/// hash and shard; 4: chunks as Parquet files; 5: each followed by its
-/// SHA-256).
+/// hash and shard; 4: chunks as Parquet files; 5: chunks and refined
+/// seeds carry their SHA-256).
 const FORMAT: u32 = 5;
 
 /// The list of files quenchwise wrote in an output folder.
@@ -669,16 +669,6 @@ impl FolderStore<'_> {
     }
 }
 
-fn write_json<T: serde::Serialize + ?Sized>(
-    folder: &RunFolder,
-    rel: &str,
-    value: &T,
-) -> Result<(), Error> {
-    let text = serde_json::to_string(value)
-        .map_err(|e| Error::internal(format!("encoding {rel}: {e}")))?;
-    folder.write(rel, text.as_bytes()).map(|_| ())
-}
-
 impl ScreenStore for FolderStore<'_> {
     fn has_chunk(&self, k: usize) -> bool {
         self.chunk_path(k).exists()
@@ -695,12 +685,13 @@ impl ScreenStore for FolderStore<'_> {
     }
     fn load_refined(&mut self, i: usize) -> Result<Option<Row>, Error> {
         let path = self.folder.root().join(Self::refine_rel(i));
-        self.read(&path, "refined seed", |b| {
-            serde_json::from_slice(&b).map_err(|e| e.to_string())
-        })
+        self.read(&path, "refined seed", |b| checkpoint::decode_seed(&b))
     }
     fn save_refined(&mut self, i: usize, row: &Row) -> Result<(), Error> {
-        write_json(self.folder, &Self::refine_rel(i), row)
+        let rel = Self::refine_rel(i);
+        let bytes = checkpoint::encode_seed(row)
+            .map_err(|e| Error::internal(format!("encoding {rel}: {e}")))?;
+        self.folder.write(&rel, &bytes).map(|_| ())
     }
     fn take_notices(&mut self) -> Vec<String> {
         std::mem::take(&mut self.notices)
