@@ -20,6 +20,14 @@ use crate::numeric::splitmix64;
 use sobol::params::JoeKuoD6;
 use sobol::{Sobol, SobolType};
 
+/// The sobol crate's direction-number parameters, read once: the crate
+/// unpacks them from a compressed table on every call, which was most
+/// of the time spent entering the sequence for each chunk.
+fn joe_kuo() -> &'static JoeKuoD6 {
+    static PARAMS: std::sync::OnceLock<JoeKuoD6> = std::sync::OnceLock::new();
+    PARAMS.get_or_init(JoeKuoD6::minimal)
+}
+
 /// The unit-cube points of one chunk of the space-filling pass: a Sobol sequence
 /// randomised by the seed with a Cranley–Patterson rotation (u + s mod 1, one
 /// shift s per dimension; Cranley & Patterson 1976, SIAM J. Numer. Anal. 13, 904).
@@ -38,7 +46,7 @@ pub fn sobol_points(dims: usize, seed: u64, start: usize, count: usize) -> Vec<V
     let dirs = Sobol::<f64>::init_direction_vals::<u32>(
         dims.max(1),
         <f64 as SobolType>::MAX_RESOLUTION,
-        &JoeKuoD6::minimal(),
+        joe_kuo(),
     );
     let gray = (start ^ (start >> 1)) as u64;
     let mut x: Vec<u64> = dirs
