@@ -253,6 +253,7 @@ fn a_truncated_empty_or_changed_chunk_is_computed_again() {
     assert!(
         notices[0].contains("chunk-000001.parquet was damaged") && notices[0].contains("again")
     );
+    assert!(notices[1].contains("cut short (0 bytes)"), "{notices:?}");
     assert!(
         notices[2].contains("chunk-000003.parquet was damaged")
             && notices[2].contains("SHA-256 does not match"),
@@ -472,6 +473,67 @@ fn shards_merge_into_the_unsplit_result() {
     let mut shards = shard_runs(&p, &d, 3);
     shards.reverse(); // any order
     let merged = d.join("merged");
+    let end = merge(
+        &shards,
+        None,
+        &ScreenOptions::new(&merged),
+        &mut quenchwise::screen::Unobserved,
+    )
+    .unwrap();
+    assert!(matches!(end, Outcome::Finished { .. }), "{end:?}");
+    assert_same_outputs(&whole, &merged);
+}
+
+/// Keeps the notices a run gives.
+#[derive(Default)]
+struct Notes(Vec<String>);
+
+impl ScreenObserver for Notes {
+    fn notice(&mut self, text: &str) {
+        self.0.push(text.to_string());
+    }
+}
+
+#[test]
+fn a_damaged_shard_chunk_stops_the_merge_and_a_resumed_shard_computes_it_again() {
+    let d = temp_dir("shard-damaged");
+    let p = plan_in(&d, SMALL);
+    let whole = d.join("whole");
+    run(&p, &ScreenOptions::new(&whole)).unwrap();
+    let shards = shard_runs(&p, &d, 3);
+    // One bit changed in a kept chunk of shard 1 (chunks 2 to 4).
+    let c3 = shards[1].join(".work/chunk-000003.parquet");
+    let mut bytes = std::fs::read(&c3).unwrap();
+    let mid = bytes.len() / 2;
+    bytes[mid] ^= 0x04;
+    std::fs::write(&c3, &bytes).unwrap();
+    let e = merge(
+        &shards,
+        None,
+        &ScreenOptions::new(d.join("m1")),
+        &mut quenchwise::screen::Unobserved,
+    )
+    .unwrap_err();
+    assert!(
+        e.message().contains("chunk-000003.parquet is damaged")
+            && e.hint().is_some_and(|h| h.contains("--resume")),
+        "{e}"
+    );
+    // What the hint says: rerun that shard with --resume.
+    let mut o = ScreenOptions::new(&shards[1]);
+    o.shard = Some(Shard { index: 1, count: 3 });
+    o.resume = true;
+    let mut notes = Notes::default();
+    assert!(matches!(
+        run_observed(&p, &o, &mut notes).unwrap(),
+        Outcome::ShardDone { .. }
+    ));
+    assert!(
+        notes.0.len() == 1 && notes.0[0].contains("chunk-000003.parquet was damaged"),
+        "{:?}",
+        notes.0
+    );
+    let merged = d.join("m2");
     let end = merge(
         &shards,
         None,

@@ -184,6 +184,16 @@ fn hex(bytes: &[u8]) -> String {
     bytes.iter().map(|b| format!("{b:02x}")).collect()
 }
 
+/// Whether `bytes` end with the SHA-256 of what comes before them, as a
+/// chunk written by [`encode`] does (the check [`decode`] starts with,
+/// without reading the rows).
+pub(crate) fn intact(bytes: &[u8]) -> bool {
+    bytes
+        .len()
+        .checked_sub(DIGEST_LEN)
+        .is_some_and(|at| Sha256::digest(&bytes[..at]).as_slice() == &bytes[at..])
+}
+
 /// The rows of a chunk written by [`encode`].
 ///
 /// # Errors
@@ -193,7 +203,7 @@ pub(crate) fn decode(mut bytes: Vec<u8>) -> Result<Vec<Row>, String> {
     let Some(at) = bytes.len().checked_sub(DIGEST_LEN) else {
         return Err(format!("the file is cut short ({} bytes)", bytes.len()));
     };
-    if Sha256::digest(&bytes[..at]).as_slice() != &bytes[at..] {
+    if !intact(&bytes) {
         return Err("its SHA-256 does not match its contents (cut short or damaged)".to_string());
     }
     bytes.truncate(at);

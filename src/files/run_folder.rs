@@ -13,9 +13,12 @@
 //! - checkpoints: every chunk of the first pass and every refined seed is
 //!   written to `OUT/.work/` as soon as it is done (temp file + rename), under
 //!   a header holding the format version and the run's hash (the parsed
-//!   config and the content of every file it reads). `--resume` skips what is
-//!   kept, computes a damaged chunk again, and refuses a run that means
-//!   something else;
+//!   config and the content of every file it reads). Each carries the
+//!   SHA-256 of its contents ([`super::checkpoint`]). `--resume` skips what
+//!   is kept, computes a damaged chunk or seed again (cut short, emptied, or
+//!   not matching its digest; a shard checks its chunks' digests when it
+//!   resumes, as `merge` refuses a damaged one), and refuses a run that
+//!   means something else;
 //! - a stop request is honoured between any two chunks, refinement rounds or
 //!   output files; everything kept resumes.
 //!
@@ -638,8 +641,9 @@ impl FolderStore<'_> {
     fn refine_rel(i: usize) -> String {
         format!(".work/refine-{i:03}.json")
     }
-    /// Read a kept file; a damaged one (cut short by a kill, emptied) is
-    /// noted and treated as not kept, so it is computed again.
+    /// Read a kept file; a damaged one (cut short by a kill, emptied, not
+    /// matching its SHA-256) is noted and treated as not kept, so it is
+    /// computed again (in a merge, it is an error naming the shard's file).
     fn read<T>(
         &mut self,
         path: &Path,
@@ -960,8 +964,25 @@ pub fn run_observed(
     if let Some(shard) = o.shard {
         // The config itself, for `merge` to load again.
         folder.write(".work/config.toml", plan.config_text.as_bytes())?;
-        let mut observer = observer(plan, &folder, o, watcher);
         let range = shard.chunks(header.chunks);
+        if o.resume {
+            // A kept chunk damaged on disk is computed again here: the
+            // shard's run skips every chunk whose file is there, and
+            // `merge` refuses a damaged one.
+            for k in range.clone() {
+                let path = store.chunk_path(k);
+                if let Ok(bytes) = std::fs::read(&path) {
+                    if !checkpoint::intact(&bytes) {
+                        std::fs::remove_file(&path).map_err(|e| Error::io("removing", &path, e))?;
+                        watcher.notice(&format!(
+                            "{} was damaged (its SHA-256 does not match its contents); computing that chunk again",
+                            path.display()
+                        ));
+                    }
+                }
+            }
+        }
+        let mut observer = observer(plan, &folder, o, watcher);
         let end = pool.install(|| {
             screen::run_chunks(
                 &plan.problem,
