@@ -461,6 +461,16 @@ fn shard_runs(p: &RunPlan, d: &Path, count: usize) -> Vec<PathBuf> {
         .collect()
 }
 
+/// Merge `shards` into `out`, unobserved.
+fn merge_into(shards: &[PathBuf], out: &Path) -> Result<Outcome, quenchwise::error::Error> {
+    merge(
+        shards,
+        None,
+        &ScreenOptions::new(out),
+        &mut quenchwise::screen::Unobserved,
+    )
+}
+
 #[test]
 fn shards_merge_into_the_unsplit_result() {
     let d = temp_dir("shards");
@@ -473,13 +483,7 @@ fn shards_merge_into_the_unsplit_result() {
     let mut shards = shard_runs(&p, &d, 3);
     shards.reverse(); // any order
     let merged = d.join("merged");
-    let end = merge(
-        &shards,
-        None,
-        &ScreenOptions::new(&merged),
-        &mut quenchwise::screen::Unobserved,
-    )
-    .unwrap();
+    let end = merge_into(&shards, &merged).unwrap();
     assert!(matches!(end, Outcome::Finished { .. }), "{end:?}");
     assert_same_outputs(&whole, &merged);
 }
@@ -507,13 +511,7 @@ fn a_damaged_shard_chunk_stops_the_merge_and_a_resumed_shard_computes_it_again()
     let mid = bytes.len() / 2;
     bytes[mid] ^= 0x04;
     std::fs::write(&c3, &bytes).unwrap();
-    let e = merge(
-        &shards,
-        None,
-        &ScreenOptions::new(d.join("m1")),
-        &mut quenchwise::screen::Unobserved,
-    )
-    .unwrap_err();
+    let e = merge_into(&shards, &d.join("m1")).unwrap_err();
     assert!(
         e.message().contains("chunk-000003.parquet is damaged")
             && e.hint().is_some_and(|h| h.contains("--resume")),
@@ -534,13 +532,7 @@ fn a_damaged_shard_chunk_stops_the_merge_and_a_resumed_shard_computes_it_again()
         notes.0
     );
     let merged = d.join("m2");
-    let end = merge(
-        &shards,
-        None,
-        &ScreenOptions::new(&merged),
-        &mut quenchwise::screen::Unobserved,
-    )
-    .unwrap();
+    let end = merge_into(&shards, &merged).unwrap();
     assert!(matches!(end, Outcome::Finished { .. }), "{end:?}");
     assert_same_outputs(&whole, &merged);
 }
@@ -550,16 +542,8 @@ fn merge_names_missing_doubled_unfinished_and_foreign_shards() {
     let d = temp_dir("shards-bad");
     let p = plan_in(&d, SMALL);
     let shards = shard_runs(&p, &d, 3);
-    let try_merge = |dirs: &[PathBuf], name: &str| {
-        merge(
-            dirs,
-            None,
-            &ScreenOptions::new(d.join(name)),
-            &mut quenchwise::screen::Unobserved,
-        )
-        .unwrap_err()
-        .to_string()
-    };
+    let try_merge =
+        |dirs: &[PathBuf], name: &str| merge_into(dirs, &d.join(name)).unwrap_err().to_string();
     let e = try_merge(&shards[..2], "m1");
     assert!(e.contains("shard 2/3 missing: 2 of 3 given"), "{e}");
     let e = try_merge(
@@ -588,13 +572,7 @@ fn merge_names_missing_doubled_unfinished_and_foreign_shards() {
         "m4",
     );
     assert!(e.contains("come from different screens"), "{e}");
-    merge(
-        &shards,
-        None,
-        &ScreenOptions::new(d.join("m5")),
-        &mut quenchwise::screen::Unobserved,
-    )
-    .unwrap();
+    merge_into(&shards, &d.join("m5")).unwrap();
 }
 
 // The config names its raw materials by a path relative to itself, the

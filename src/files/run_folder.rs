@@ -303,17 +303,7 @@ impl RunFolder {
     /// # Errors
     /// The list cannot be appended to.
     pub fn own(&self, rel: &str) -> Result<PathBuf, Error> {
-        let mut m = self
-            .manifest
-            .lock()
-            .map_err(|_| Error::internal("the list of written files was poisoned"))?;
-        if !m.1.contains(rel) {
-            let mpath = self.root.join(MANIFEST);
-            m.0.write_all(format!("{rel}\n").as_bytes())
-                .map_err(|e| Error::io("writing", &mpath, e))?;
-            m.1.insert(rel.to_string());
-        }
-        Ok(self.root.join(rel.trim_end_matches('/')))
+        self.list(rel, true)
     }
 
     /// As [`RunFolder::own`], for a file a run writes once (a chunk's
@@ -324,6 +314,10 @@ impl RunFolder {
     /// # Errors
     /// The list cannot be appended to.
     pub fn own_once(&self, rel: &str) -> Result<PathBuf, Error> {
+        self.list(rel, false)
+    }
+
+    fn list(&self, rel: &str, remember: bool) -> Result<PathBuf, Error> {
         let mut m = self
             .manifest
             .lock()
@@ -332,8 +326,11 @@ impl RunFolder {
             let mpath = self.root.join(MANIFEST);
             m.0.write_all(format!("{rel}\n").as_bytes())
                 .map_err(|e| Error::io("writing", &mpath, e))?;
+            if remember {
+                m.1.insert(rel.to_string());
+            }
         }
-        Ok(self.root.join(rel))
+        Ok(self.root.join(rel.trim_end_matches('/')))
     }
 
     /// Whether `rel` is on the list (for a chunk's checkpoint: whether it
