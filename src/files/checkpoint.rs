@@ -21,6 +21,7 @@
 //! of their own as written here, so a changed byte could otherwise read as
 //! other numbers, or make the Parquet reader give up with a panic.
 
+use super::fit_data::sha256_hex_of;
 use crate::composition::N_OXIDES;
 use crate::screen::limits::LimitSet;
 use crate::screen::Row;
@@ -157,7 +158,7 @@ pub(crate) fn encode_seed(row: &Row) -> Result<Vec<u8>, String> {
     let text = serde_json::to_string(row).map_err(|e| e.to_string())?;
     Ok(format!(
         "{{\"sha256\":\"{}\",\"row\":{text}}}",
-        hex(&Sha256::digest(&text))
+        sha256_hex_of(text.as_bytes())
     )
     .into_bytes())
 }
@@ -174,14 +175,10 @@ pub(crate) fn decode_seed(bytes: &[u8]) -> Result<Row, String> {
     }
     let sealed: Sealed = serde_json::from_slice(bytes).map_err(|e| e.to_string())?;
     let text = serde_json::to_string(&sealed.row).map_err(|e| e.to_string())?;
-    if hex(&Sha256::digest(&text)) != sealed.sha256 {
+    if sha256_hex_of(text.as_bytes()) != sealed.sha256 {
         return Err("its SHA-256 does not match its contents (damaged)".to_string());
     }
     Ok(sealed.row)
-}
-
-fn hex(bytes: &[u8]) -> String {
-    bytes.iter().map(|b| format!("{b:02x}")).collect()
 }
 
 /// Whether `bytes` end with the SHA-256 of what comes before them, as a

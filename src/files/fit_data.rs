@@ -722,10 +722,15 @@ pub fn sha256_hex(path: &Path) -> Result<String, TableError> {
         path: path.display().to_string(),
         message: e.to_string(),
     })?;
-    Ok(Sha256::digest(&bytes)
+    Ok(sha256_hex_of(&bytes))
+}
+
+/// SHA-256 of `bytes`, hexadecimal.
+pub fn sha256_hex_of(bytes: &[u8]) -> String {
+    Sha256::digest(bytes)
         .iter()
         .map(|b| format!("{b:02x}"))
-        .collect())
+        .collect()
 }
 
 #[cfg(test)]

@@ -2,7 +2,7 @@
 //! candidates tables (columns from `report::records`, defined once), the
 //! batch sheets, and what `quenchwise report` needs to draw a finished run.
 
-use super::run_folder::{part_name, RunFolder, CANDIDATES_DIR};
+use super::run_folder::{is_part_name, part_name, RunFolder, CANDIDATES_DIR};
 use super::screen_config::{self, RunPlan};
 use super::table::read_frame;
 use crate::batch::least_cost_batch;
@@ -514,7 +514,7 @@ pub fn candidate_files(dir: &Path) -> Result<Vec<PathBuf>, Error> {
             .filter(|p| {
                 p.file_name()
                     .and_then(|n| n.to_str())
-                    .is_some_and(|n| n.starts_with("part-") && n.ends_with(".parquet"))
+                    .is_some_and(is_part_name)
             })
             .collect();
         files.sort();

@@ -137,13 +137,6 @@ fn read_manifest(root: &Path) -> Result<Vec<String>, Error> {
 /// Remove the listed files (and their temp files), then the listed folders
 /// that are left empty. Nothing else is touched.
 fn remove_listed(root: &Path, listed: &[String]) -> Result<(), Error> {
-    let gone = |p: &Path| -> Result<(), Error> {
-        match std::fs::remove_file(p) {
-            Ok(()) => Ok(()),
-            Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
-            Err(e) => Err(Error::io("removing", p, e)),
-        }
-    };
     let mut dirs = Vec::new();
     for rel in listed {
         if let Some(d) = rel.strip_suffix('/') {
@@ -155,9 +148,9 @@ fn remove_listed(root: &Path, listed: &[String]) -> Result<(), Error> {
         if p.is_dir() {
             continue;
         }
-        gone(&p)?;
+        remove_if_there(&p)?;
         for tmp in temp_names(&p) {
-            gone(&tmp)?;
+            remove_if_there(&tmp)?;
         }
     }
     // Deepest first; a folder that still holds something is kept.
@@ -166,6 +159,15 @@ fn remove_listed(root: &Path, listed: &[String]) -> Result<(), Error> {
         let _ = std::fs::remove_dir(d);
     }
     Ok(())
+}
+
+/// Remove the file `p`; one that is not there is already removed.
+fn remove_if_there(p: &Path) -> Result<(), Error> {
+    match std::fs::remove_file(p) {
+        Ok(()) => Ok(()),
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
+        Err(e) => Err(Error::io("removing", p, e)),
+    }
 }
 
 /// The temp files quenchwise writes beside `p` before renaming them to `p`.
@@ -750,6 +752,11 @@ pub(crate) fn part_name(n: usize) -> String {
     format!("part-{n:06}.parquet")
 }
 
+/// Whether a file name is that of a part of the candidates table.
+pub(crate) fn is_part_name(name: &str) -> bool {
+    name.starts_with("part-") && name.ends_with(".parquet")
+}
+
 impl FolderObserver<'_> {
     fn stop_now(&mut self) -> bool {
         self.watcher.stop_requested()
@@ -885,12 +892,7 @@ impl FolderObserver<'_> {
         // was begun by one.
         for old in ["candidates.parquet", "candidates.parquet.partial"] {
             if folder.lists(old) {
-                let p = folder.root().join(old);
-                match std::fs::remove_file(&p) {
-                    Ok(()) => {}
-                    Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
-                    Err(e) => return Err(Error::io("removing", &p, e)),
-                }
+                remove_if_there(&folder.root().join(old))?;
             }
         }
         Ok(())
@@ -905,7 +907,7 @@ fn remove_parts(dir: &Path) -> Result<(), Error> {
     for e in entries.flatten() {
         let name = e.file_name();
         let name = name.to_string_lossy();
-        if name.starts_with("part-") && name.ends_with(".parquet") {
+        if is_part_name(&name) {
             let p = e.path();
             std::fs::remove_file(&p).map_err(|err| Error::io("removing", &p, err))?;
         }
