@@ -225,6 +225,15 @@ fn resume_checks_the_files_the_config_reads_but_not_its_comments() {
 
 // ---- R4: damaged checkpoints are computed again ----
 
+/// Change the bits `mask` of the middle byte of the file at `path`, as a
+/// fault on disk would.
+fn flip_a_middle_bit(path: &Path, mask: u8) {
+    let mut bytes = std::fs::read(path).unwrap();
+    let mid = bytes.len() / 2;
+    bytes[mid] ^= mask;
+    std::fs::write(path, &bytes).unwrap();
+}
+
 #[test]
 fn a_truncated_empty_or_changed_chunk_is_computed_again() {
     let d = temp_dir("damaged-chunk");
@@ -239,11 +248,7 @@ fn a_truncated_empty_or_changed_chunk_is_computed_again() {
     std::fs::write(&c1, &text[..text.len() / 2]).unwrap();
     std::fs::write(out.join(".work/chunk-000002.parquet"), b"").unwrap();
     // One bit changed in the middle of a kept chunk (its data pages).
-    let c3 = out.join(".work/chunk-000003.parquet");
-    let mut bytes = std::fs::read(&c3).unwrap();
-    let mid = bytes.len() / 2;
-    bytes[mid] ^= 0x10;
-    std::fs::write(&c3, &bytes).unwrap();
+    flip_a_middle_bit(&out.join(".work/chunk-000003.parquet"), 0x10);
     let mut o = ScreenOptions::new(&out);
     o.resume = true;
     let Outcome::Finished { notices, .. } = run(&p, &o).unwrap() else {
@@ -506,11 +511,7 @@ fn a_damaged_shard_chunk_stops_the_merge_and_a_resumed_shard_computes_it_again()
     run(&p, &ScreenOptions::new(&whole)).unwrap();
     let shards = shard_runs(&p, &d, 3);
     // One bit changed in a kept chunk of shard 1 (chunks 2 to 4).
-    let c3 = shards[1].join(".work/chunk-000003.parquet");
-    let mut bytes = std::fs::read(&c3).unwrap();
-    let mid = bytes.len() / 2;
-    bytes[mid] ^= 0x04;
-    std::fs::write(&c3, &bytes).unwrap();
+    flip_a_middle_bit(&shards[1].join(".work/chunk-000003.parquet"), 0x04);
     let e = merge_into(&shards, &d.join("m1")).unwrap_err();
     assert!(
         e.message().contains("chunk-000003.parquet is damaged")
