@@ -14,7 +14,11 @@
 #   - the NumPy time for R_c alone, computation only (the anchor), and
 #     numpy / quenchwise at 2 threads (target >= 15);
 #   - peak memory (max RSS, /usr/bin/time -v) for 2e5 and 2e6 rows at 2
-#     threads and their ratio (targets: ratio <= 1.2, 2e6 under 300 MB).
+#     threads and their ratio (targets: ratio <= 1.2, 2e6 under 300 MB);
+#   - the floor (benches/table_floor.rs): polars alone reading the same
+#     200k-row input and writing the results table quenchwise wrote, nothing
+#     computed. No process writing these results with this library can take
+#     less; beside it, the time the 15x target allows (numpy / 15).
 # The load average before and after states the machine's noise.
 #
 # Needs: a release build (built here if missing), /usr/bin/python3 with
@@ -57,14 +61,16 @@ while [ $i -lt "$RUNS" ]; do
     i=$((i + 1))
 done
 /usr/bin/python3 "$HERE/rc_numpy.py" "$WORK/m200k.csv" "$RUNS" "$WORK/out200k.csv" > "$WORK/numpy.txt"
+(cd "$ROOT" && cargo bench --locked --quiet --bench table_floor -- "$WORK/m200k.csv" "$WORK/out200k.csv" "$RUNS") > "$WORK/floor.txt"
 echo "load average after:  $(cut -d' ' -f1-3 /proc/loadavg)"
-/usr/bin/python3 - "$WORK/runs.txt" "$WORK/numpy.txt" <<'PY'
+/usr/bin/python3 - "$WORK/runs.txt" "$WORK/numpy.txt" "$WORK/floor.txt" <<'PY'
 import statistics, sys
 runs = {}
 for line in open(sys.argv[1]):
     k, s, kb = line.split()
     runs.setdefault(k, []).append((float(s), int(kb)))
 numpy = dict(l.split(None, 1) for l in open(sys.argv[2]))
+floor = dict(l.split(None, 1) for l in open(sys.argv[3]))
 med = lambda k, i: statistics.median(r[i] for r in runs[k])
 t1, t2 = med("t1", 0), med("t2", 0)
 n = float(numpy["numpy_rc_seconds_median"])
@@ -75,6 +81,10 @@ print("200k rows, whole process, 2 threads:  %.2f s         (all: %s)" % (t2, " 
 print("speed-up 2 threads / 1 thread:        %.2f   (target >= 1.8)" % (t1 / t2))
 print("anchor: numpy R_c alone, 200k melts:  %.2f s   (all: %s)" % (n, numpy["numpy_rc_seconds_all"].strip()))
 print("numpy / quenchwise (2 threads):       %.2f   (target >= 15)" % (n / t2))
+fl = float(floor["floor_seconds_median"])
+print("floor: polars reads the input and writes the same results, nothing computed: %.2f s (read %.3f s, write %.3f s of %d MB)"
+      % (fl, float(floor["read_seconds_median"]), float(floor["write_seconds_median"]), int(floor["bytes_written"]) / 1e6))
+print("time the 15x target allows (numpy / 15): %.2f s; floor / allowed = %.2f" % (n / 15, fl / (n / 15)))
 print("numpy R_c vs quenchwise R_c:          median |ratio - 1| = %s" % numpy["median_relative_difference_to_quenchwise"].strip())
 print("peak memory 200k rows (2 threads):    %.0f MB" % m_small)
 print("peak memory 2M rows (2 threads):      %.0f MB   (target < 300 MB)   2M time %.2f s" % (m_big, med("big", 0)))
