@@ -1560,8 +1560,11 @@ fn evaluate_batches<R: RowReader>(
                     total: None,
                 });
             }
-            let (mut results, mut cells) = (Vec::new(), Vec::new());
-            for (r, c) in parts.into_iter().flatten() {
+            // The first part's vectors take the others' rows (with one
+            // worker, nothing is moved).
+            let mut parts = parts.into_iter().flatten();
+            let (mut results, mut cells) = parts.next().unwrap_or_default();
+            for (r, c) in parts {
                 results.extend(r);
                 cells.extend(c);
             }
