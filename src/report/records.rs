@@ -393,17 +393,23 @@ impl WarningLegend {
     /// codes, the others in full, joined by "; ". Before the codes are fixed
     /// every text is written in full.
     pub fn code_row(&mut self, warnings: &[String]) -> String {
-        let mut out: Vec<String> = Vec::with_capacity(warnings.len());
-        for w in warnings {
+        // Written straight into one string: the main thread of a streamed
+        // table codes every row.
+        let mut out = String::with_capacity(warnings.iter().map(|w| w.len() + 2).sum());
+        for (i, w) in warnings.iter().enumerate() {
+            if i > 0 {
+                out.push_str("; ");
+            }
             match self.entries.iter().position(|(t, _)| t == w) {
                 Some(k) => {
                     self.entries[k].1 += 1;
-                    out.push(format!("W{}", k + 1));
+                    // (Writing into a String cannot fail.)
+                    let _ = std::fmt::Write::write_fmt(&mut out, format_args!("W{}", k + 1));
                 }
-                None => out.push(w.clone()),
+                None => out.push_str(w),
             }
         }
-        out.join("; ")
+        out
     }
 
     /// The codes, their texts and how many rows carry each.
