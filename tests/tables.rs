@@ -315,6 +315,52 @@ fn a_failure_after_some_batches_are_written_leaves_no_complete_looking_file() {
     assert!(!d.join("o.csv.partial").exists());
 }
 
+/// A panic while a row is evaluated (a bug) reaches the caller, on one
+/// thread and on two, without a hang and without an output file (the
+/// partial one, with the batches written before it, removed).
+#[test]
+fn a_panic_in_a_row_reaches_the_caller_and_writes_nothing() {
+    let d = temp_dir("tables-panic");
+    let input = d.join("m.csv");
+    std::fs::write(&input, melt_table(40, 0, "")).unwrap();
+    for threads in [1, 2] {
+        let out = d.join(format!("o{threads}.csv"));
+        let ran = AtomicUsize::new(0);
+        let caught = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+            on_threads(threads, || {
+                stream_table(
+                    &input,
+                    &out,
+                    &MeltRows,
+                    &ResultPlan::melt_cards(),
+                    StreamSettings {
+                        batch_rows: 4,
+                        ..Default::default()
+                    },
+                    |v| {
+                        // The tenth row: batches before it may be written.
+                        if ran.fetch_add(1, Ordering::SeqCst) == 9 {
+                            panic!("a bug in row evaluation");
+                        }
+                        melt_eval(v)
+                    },
+                    |_| {},
+                )
+            })
+        }));
+        let payload = caught.expect_err("the panic must reach the caller");
+        assert_eq!(
+            payload.downcast_ref::<&str>(),
+            Some(&"a bug in row evaluation"),
+            "{threads} threads"
+        );
+        assert!(!out.exists(), "{threads} threads");
+        assert!(!d.join(format!("o{threads}.csv.partial")).exists());
+        // (How many of the other rows ran depends on when each thread hears
+        // of the panic, so no count is asserted.)
+    }
+}
+
 #[test]
 fn columns_get_the_types_inference_over_the_whole_file_gives_whatever_the_batch() {
     // The first pass parses later batches with the types found so far; cells

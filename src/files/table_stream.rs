@@ -20,7 +20,7 @@
 //!   [`crate::report::records`], appended to the batch's input columns, and
 //!   written by polars' batched CSV or Parquet writer; with more than one
 //!   worker thread, on a thread of its own, so writing batch k overlaps
-//!   reading and evaluating batch k + 1 (one batch waits at most).
+//!   reading and evaluating the next ones (one batch waits at most).
 //!
 //! The output goes to `<out>.partial` (e.g. `results.csv.partial`), renamed
 //! to `<out>` only when every batch is written and synced; on any error the
@@ -1155,7 +1155,7 @@ pub fn stream_table_with<R: RowReader>(
     on(Event::Checked(pass.rows));
     let mut batches = Batches::open(input, settings.batch_rows, pass.schema)?;
     // With more than one worker thread, a thread of its own writes batch k
-    // while batch k + 1 is read and evaluated.
+    // while the next ones are read and evaluated.
     let pipelined = rayon::current_num_threads() > 1;
     let readable = settings.readable_csv
         && out
@@ -1414,10 +1414,16 @@ fn evaluate_batches<R: RowReader>(
     // bounded by IN_FLIGHT batches and the one being finished, whatever the
     // thread count. This thread calls no parallel iterator: its work would
     // queue behind the evaluation and wait for it. (Two batches out measured
-    // best: 2 threads 4-6 % faster than the barrier per batch before, one
-    // thread held to one core the same; three out made that one 3 % slower.)
+    // best: 2 threads 3-6 % faster than the barrier per batch before, one
+    // thread held to one core the same; three out made that one 3 % slower.
+    // DEVELOPERS.md, "fourth sitting".)
     const IN_FLIGHT: usize = 2;
-    let parts_per_batch = rayon::current_num_threads().max(1);
+    let parts_per_batch = rayon::current_num_threads();
+    // Raised when this thread leaves early (an error, a stop, a job's
+    // panic): the parts still out skip their rows instead of evaluating
+    // rows nobody will write.
+    let abandon = AtomicBool::new(false);
+    let abandon = &abandon;
     // Rows evaluated so far, for a stop's message.
     let mut evaluated = 0;
     // A batch read, with its rows taken from it (or why they cannot be:
@@ -1450,7 +1456,6 @@ fn evaluate_batches<R: RowReader>(
     // One part's results as its job sends them: the batch's number, the
     // part's, and its results and extra cells (or the job's panic, raised
     // again here).
-    type Part = (Vec<Result<Evaluation, String>>, Vec<ExtraCells>);
     let (to_main, done) = std::sync::mpsc::channel::<(usize, usize, std::thread::Result<Part>)>();
     // A batch handed out: its parts as they come back, and how many are
     // still out.
@@ -1461,127 +1466,127 @@ fn evaluate_batches<R: RowReader>(
         left: usize,
     }
     rayon::in_place_scope(|scope| {
-        // The batches handed out and not yet finished, oldest first; the
-        // oldest is number `finished`.
-        let mut waiting: std::collections::VecDeque<Out> = Default::default();
-        let (mut handed, mut finished) = (0usize, 0usize);
-        // Why the input stopped early, reported once the batches before it
-        // are written.
-        let mut broken: Option<TableError> = None;
-        let mut more = true;
-        loop {
-            while more && waiting.len() < IN_FLIGHT {
-                match prepare(batches.next()?, batches.schema.as_ref()) {
-                    None => more = false,
-                    Some((_, _, Err(e))) => {
-                        broken = Some(e);
-                        more = false;
-                    }
-                    Some((df, places, Ok(rows))) => {
-                        let rows = std::sync::Arc::new(rows);
-                        let size = rows.len().div_ceil(parts_per_batch).max(1);
-                        let parts = rows.len().div_ceil(size).max(1);
-                        for part in 0..parts {
-                            let (n, to_main, rows) = (handed, to_main.clone(), rows.clone());
-                            let first = places.first_row() + part * size;
-                            scope.spawn(move |_| {
-                                let run = std::panic::AssertUnwindSafe(|| {
-                                    let mine = rows.iter().skip(part * size).take(size);
-                                    let mut results = Vec::with_capacity(size);
-                                    let mut cells = Vec::with_capacity(size);
-                                    for (i, r) in mine.enumerate() {
-                                        // Once a stop is asked for, the rest
-                                        // is skipped (the batch is then
-                                        // dropped, never finished).
-                                        let r = if stop_raised(stop) {
-                                            Err(String::new())
-                                        } else {
-                                            r.as_ref()
-                                                .map_err(Clone::clone)
-                                                .and_then(|r| evaluate(first + i, r))
-                                        };
-                                        match r {
-                                            Ok((e, c)) => {
-                                                results.push(Ok(e));
-                                                cells.push(c);
-                                            }
-                                            Err(m) => {
-                                                results.push(Err(m));
-                                                cells.push(ExtraCells::default());
-                                            }
-                                        }
-                                    }
-                                    (results, cells)
-                                });
-                                // (The receiver is gone only when this
-                                // thread stopped on an error: nothing waits.)
-                                let _ = to_main.send((n, part, std::panic::catch_unwind(run)));
-                            });
+        let mut pipeline = || -> Result<(), TableError> {
+            // The batches handed out and not yet finished, oldest first; the
+            // oldest is number `finished`.
+            let mut waiting: std::collections::VecDeque<Out> = Default::default();
+            let (mut handed, mut finished) = (0usize, 0usize);
+            // Why the input stopped early, reported once the batches before it
+            // are written.
+            let mut broken: Option<TableError> = None;
+            let mut more = true;
+            loop {
+                while more && waiting.len() < IN_FLIGHT {
+                    // A batch that cannot be read, like one whose rows cannot be
+                    // taken, is reported after the batches before it are written.
+                    let read = batches
+                        .next()
+                        .map(|next| prepare(next, batches.schema.as_ref()));
+                    match read {
+                        Err(e) => {
+                            broken = Some(e);
+                            more = false;
                         }
-                        waiting.push_back(Out {
-                            df,
-                            places,
-                            parts: (0..parts).map(|_| None).collect(),
-                            left: parts,
-                        });
-                        handed += 1;
+                        Ok(None) => more = false,
+                        Ok(Some((_, _, Err(e)))) => {
+                            broken = Some(e);
+                            more = false;
+                        }
+                        Ok(Some((df, places, Ok(rows)))) => {
+                            let rows = std::sync::Arc::new(rows);
+                            let size = rows.len().div_ceil(parts_per_batch).max(1);
+                            let parts = rows.len().div_ceil(size).max(1);
+                            for part in 0..parts {
+                                let (n, to_main, rows) = (handed, to_main.clone(), rows.clone());
+                                let first = places.first_row() + part * size;
+                                scope.spawn(move |_| {
+                                    // Part 0's vectors take the other
+                                    // parts' rows: room for the whole batch.
+                                    let room = if part == 0 { rows.len() } else { size };
+                                    let mine =
+                                        &rows[part * size..rows.len().min((part + 1) * size)];
+                                    // Once a stop is asked for, or this thread
+                                    // left, the rest is skipped (the batch is
+                                    // then dropped, never finished).
+                                    let skip =
+                                        || stop_raised(stop) || abandon.load(Ordering::Relaxed);
+                                    let run = std::panic::AssertUnwindSafe(|| {
+                                        evaluate_part(mine, first, room, skip, evaluate)
+                                    });
+                                    // (The receiver outlives every job: the
+                                    // scope waits for them all before it ends.)
+                                    let _ = to_main.send((n, part, std::panic::catch_unwind(run)));
+                                });
+                            }
+                            waiting.push_back(Out {
+                                df,
+                                places,
+                                parts: (0..parts).map(|_| None).collect(),
+                                left: parts,
+                            });
+                            handed += 1;
+                        }
                     }
                 }
-            }
-            if waiting.is_empty() {
-                break;
-            }
-            while waiting.front().is_some_and(|o| o.left > 0) {
-                // Every job sends once, even when it panics, and this
-                // thread holds a sender: the wait cannot fail here.
-                let (n, part, r) = wait_for(&done).map_err(|_| TableError::Write {
-                    path: out.display().to_string(),
-                    message: "a batch was lost between the workers and the writer".into(),
-                })?;
-                let r = r.unwrap_or_else(|panic| std::panic::resume_unwind(panic));
-                if let Some(o) = waiting.get_mut(n - finished) {
+                if waiting.is_empty() {
+                    break;
+                }
+                while waiting.front().is_some_and(|o| o.left > 0) {
+                    let (n, part, r) = wait_for(&done)
+                        .expect("every job sends once, and this thread holds a sender");
+                    let r = r.unwrap_or_else(|panic| {
+                        abandon.store(true, Ordering::Relaxed);
+                        std::panic::resume_unwind(panic)
+                    });
+                    // Only batches still waiting have parts out.
+                    let o = &mut waiting[n - finished];
                     o.parts[part] = Some(r);
                     o.left -= 1;
                 }
+                let Some(Out {
+                    df, places, parts, ..
+                }) = waiting.pop_front()
+                else {
+                    break;
+                };
+                finished += 1;
+                // A batch whose rows were skipped is dropped, never finished.
+                // (A stop after the last batch is caught before the output is
+                // renamed.)
+                if stop_raised(stop) {
+                    return Err(TableError::Stopped {
+                        evaluated,
+                        total: None,
+                    });
+                }
+                // The first part's vectors take the others' rows (with one
+                // worker, nothing is moved).
+                let mut parts = parts.into_iter().flatten();
+                let (mut results, mut cells) = parts.next().unwrap_or_default();
+                for (r, c) in parts {
+                    results.extend(r);
+                    cells.extend(c);
+                }
+                failed += results.iter().filter(|r| r.is_err()).count();
+                evaluated += results.len();
+                let left = finish(Evaluated {
+                    df,
+                    places,
+                    results,
+                    cells,
+                })?;
+                scope.spawn(move |_| drop(left));
             }
-            let Some(Out {
-                df, places, parts, ..
-            }) = waiting.pop_front()
-            else {
-                break;
-            };
-            finished += 1;
-            // A batch whose rows were skipped is dropped, never finished.
-            // (A stop after the last batch is caught before the output is
-            // renamed.)
-            if stop_raised(stop) {
-                return Err(TableError::Stopped {
-                    evaluated,
-                    total: None,
-                });
+            match broken {
+                Some(e) => Err(e),
+                None => Ok(()),
             }
-            // The first part's vectors take the others' rows (with one
-            // worker, nothing is moved).
-            let mut parts = parts.into_iter().flatten();
-            let (mut results, mut cells) = parts.next().unwrap_or_default();
-            for (r, c) in parts {
-                results.extend(r);
-                cells.extend(c);
-            }
-            failed += results.iter().filter(|r| r.is_err()).count();
-            evaluated += results.len();
-            let left = finish(Evaluated {
-                df,
-                places,
-                results,
-                cells,
-            })?;
-            scope.spawn(move |_| drop(left));
+        };
+        let left = pipeline();
+        if left.is_err() {
+            abandon.store(true, Ordering::Relaxed);
         }
-        match broken {
-            Some(e) => Err(e),
-            None => Ok(()),
-        }
+        left
     })?;
     let codes = if readable {
         legend.finish();
@@ -1593,21 +1598,63 @@ fn evaluate_batches<R: RowReader>(
     Ok((rows_seen, failed, codes))
 }
 
+/// A part of a batch, evaluated: every row's result, and its extra cells.
+type Part = (Vec<Result<Evaluation, String>>, Vec<ExtraCells>);
+
+/// Evaluate `rows` in order, the first being row `first` of the file, into
+/// vectors with room for `room` rows; once `skip` says so, the rest are
+/// skipped (an empty error each: their batch is not written).
+fn evaluate_part<Row>(
+    rows: &[Result<Row, String>],
+    first: usize,
+    room: usize,
+    skip: impl Fn() -> bool,
+    evaluate: &impl Fn(usize, &Row) -> Result<(Evaluation, ExtraCells), String>,
+) -> Part {
+    let mut results = Vec::with_capacity(room);
+    let mut cells = Vec::with_capacity(room);
+    for (i, r) in rows.iter().enumerate() {
+        let r = if skip() {
+            Err(String::new())
+        } else {
+            r.as_ref()
+                .map_err(Clone::clone)
+                .and_then(|r| evaluate(first + i, r))
+        };
+        match r {
+            Ok((e, c)) => {
+                results.push(Ok(e));
+                cells.push(c);
+            }
+            Err(m) => {
+                results.push(Err(m));
+                cells.push(ExtraCells::default());
+            }
+        }
+    }
+    (results, cells)
+}
+
 /// The next message on `from`. A thread of a rayon pool (a table
 /// streamed inside `ThreadPool::install`) runs the pool's jobs meanwhile:
-/// blocked, it could be the very worker the jobs it waits for need.
+/// blocked, it could be the very worker the jobs it waits for need. A
+/// message already there comes first: a job's panic is heard before this
+/// thread runs more rows that would then be thrown away.
 fn wait_for<T>(from: &std::sync::mpsc::Receiver<T>) -> Result<T, std::sync::mpsc::RecvError> {
     use std::sync::mpsc::{RecvError, RecvTimeoutError, TryRecvError};
     loop {
+        match from.try_recv() {
+            Ok(v) => return Ok(v),
+            Err(TryRecvError::Empty) => {}
+            Err(TryRecvError::Disconnected) => return Err(RecvError),
+        }
         match rayon::yield_now() {
             None => return from.recv(),
-            Some(rayon::Yield::Executed) => match from.try_recv() {
-                Ok(v) => return Ok(v),
-                Err(TryRecvError::Empty) => {}
-                Err(TryRecvError::Disconnected) => return Err(RecvError),
-            },
-            // Nothing to run here: wait a little for the message (another
-            // thread may still make work for this one).
+            Some(rayon::Yield::Executed) => {}
+            // Nothing to run here: wait a little for the message, then look
+            // for work again (another thread may still make some for this
+            // one). 200 µs is short beside a part (about 2048 rows of some
+            // 12 µs each) and long beside a wake-up.
             Some(rayon::Yield::Idle) => {
                 match from.recv_timeout(std::time::Duration::from_micros(200)) {
                     Ok(v) => return Ok(v),

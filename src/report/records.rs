@@ -393,8 +393,8 @@ impl WarningLegend {
     /// codes, the others in full, joined by "; ". Before the codes are fixed
     /// every text is written in full.
     pub fn code_row(&mut self, warnings: &[String]) -> String {
-        // Written straight into one string: the main thread of a streamed
-        // table codes every row.
+        // Written straight into one string (no string per warning, no
+        // join): a streamed table codes every row on its calling thread.
         let mut out = String::with_capacity(warnings.iter().map(|w| w.len() + 2).sum());
         for (i, w) in warnings.iter().enumerate() {
             if i > 0 {
