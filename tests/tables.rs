@@ -130,7 +130,8 @@ fn streamed_demo_tables_equal_the_whole_table_path_at_any_batch_size_and_thread_
     let whole = d.join("melts-whole.csv");
     write_frame(&whole, &mut df).unwrap();
     let mut texts = Vec::new();
-    for (threads, batch) in [(1, 1), (2, 1), (2, 3), (1, 4096)] {
+    // (4, 5): fewer parts than workers (parts of 2, 2 and 1 rows).
+    for (threads, batch) in [(1, 1), (2, 1), (2, 3), (4, 5), (1, 4096)] {
         let out = d.join(format!("melts-{threads}-{batch}.csv"));
         let s = on_threads(threads, || {
             stream_table(
@@ -151,7 +152,7 @@ fn streamed_demo_tables_equal_the_whole_table_path_at_any_batch_size_and_thread_
         assert_same_rows(&whole, &out);
         texts.push(std::fs::read(&out).unwrap());
     }
-    // Byte for byte the same file at 1 and 2 threads, any batch size.
+    // Byte for byte the same file at 1, 2 and 4 threads, any batch size.
     assert!(texts.windows(2).all(|w| w[0] == w[1]));
 
     // Compositions with the demo model set.
@@ -325,29 +326,41 @@ fn a_panic_in_a_row_reaches_the_caller_and_writes_nothing() {
     std::fs::write(&input, melt_table(40, 0, "")).unwrap();
     for threads in [1, 2] {
         let out = d.join(format!("o{threads}.csv"));
-        let ran = AtomicUsize::new(0);
-        let caught = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
-            on_threads(threads, || {
-                stream_table(
-                    &input,
-                    &out,
-                    &MeltRows,
-                    &ResultPlan::melt_cards(),
-                    StreamSettings {
-                        batch_rows: 4,
-                        ..Default::default()
-                    },
-                    |v| {
-                        // The tenth row: batches before it may be written.
-                        if ran.fetch_add(1, Ordering::SeqCst) == 9 {
-                            panic!("a bug in row evaluation");
-                        }
-                        melt_eval(v)
-                    },
-                    |_| {},
-                )
-            })
-        }));
+        // On a thread of its own, so that a hang fails the test instead of
+        // stalling the run.
+        let (done, finished) = std::sync::mpsc::channel();
+        let (i, o) = (input.clone(), out.clone());
+        std::thread::spawn(move || {
+            let ran = AtomicUsize::new(0);
+            let caught = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+                on_threads(threads, || {
+                    stream_table(
+                        &i,
+                        &o,
+                        &MeltRows,
+                        &ResultPlan::melt_cards(),
+                        StreamSettings {
+                            batch_rows: 4,
+                            ..Default::default()
+                        },
+                        |v| {
+                            // The tenth row: batches before it may be written.
+                            if ran.fetch_add(1, Ordering::SeqCst) == 9 {
+                                panic!("a bug in row evaluation");
+                            }
+                            melt_eval(v)
+                        },
+                        |_| {},
+                    )
+                    .map(drop)
+                    .map_err(|e| e.to_string())
+                })
+            }));
+            let _ = done.send(caught);
+        });
+        let caught = finished
+            .recv_timeout(std::time::Duration::from_secs(120))
+            .expect("no answer within 120 s: the table hangs");
         let payload = caught.expect_err("the panic must reach the caller");
         assert_eq!(
             payload.downcast_ref::<&str>(),

@@ -15,11 +15,10 @@
 #     numpy / quenchwise at 2 threads (target >= 15);
 #   - peak memory (max RSS, /usr/bin/time -v) for 2e5 and 2e6 rows at 2
 #     threads and their ratio (targets: ratio <= 1.2, 2e6 under 300 MB);
-#   - the floor (benches/table_floor.rs): polars alone writing the results
-#     table quenchwise wrote for the 200k rows, nothing computed (and, for
-#     scale, reading the input). No process writing these results with this
-#     library can take less; beside it, the time the 15x target allows
-#     (numpy / 15).
+#   - the floor (benches/table_floor.rs): polars' one-shot CSV writer alone
+#     writing the results table quenchwise wrote for the 200k rows, nothing
+#     computed (and, for scale, reading the input); beside it, the time the
+#     15x target allows (numpy / 15).
 # The load average before and after states the machine's noise.
 #
 # Needs: a release build (built here if missing), /usr/bin/python3 with

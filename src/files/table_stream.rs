@@ -1112,6 +1112,10 @@ pub struct Streamed {
 /// cell anywhere: all found before any row is evaluated), or a failed
 /// write. Rows that cannot be evaluated are not errors: their reason goes
 /// into the `error` column. On an error no file `out` is written.
+///
+/// # Panics
+/// A panic in `evaluate` (a bug) is raised again here once the rows still
+/// out have stopped; nothing is written.
 pub fn stream_table<R: RowReader>(
     input: &Path,
     out: &Path,
@@ -1139,6 +1143,9 @@ pub fn stream_table<R: RowReader>(
 /// batch size or the thread count.
 ///
 /// # Errors
+/// As [`stream_table`].
+///
+/// # Panics
 /// As [`stream_table`].
 #[allow(clippy::too_many_arguments)]
 pub fn stream_table_with<R: RowReader>(
@@ -1414,16 +1421,22 @@ fn evaluate_batches<R: RowReader>(
     // bounded by IN_FLIGHT batches and the one being finished, whatever the
     // thread count. This thread calls no parallel iterator: its work would
     // queue behind the evaluation and wait for it. (Two batches out measured
-    // best: 2 threads 3-6 % faster than the barrier per batch before, one
+    // best: 2 threads 2.5-6 % faster than the barrier per batch before, one
     // thread held to one core the same; three out made that one 3 % slower.
     // DEVELOPERS.md, "fourth sitting".)
     const IN_FLIGHT: usize = 2;
     let parts_per_batch = rayon::current_num_threads();
-    // Raised when this thread leaves early (an error, a stop, a job's
-    // panic): the parts still out skip their rows instead of evaluating
-    // rows nobody will write.
+    // Raised when this thread leaves (an error, a stop, a panic here or in
+    // a job; also at the end, when no part is out): the parts still out
+    // skip their rows instead of evaluating rows nobody will write.
     let abandon = AtomicBool::new(false);
     let abandon = &abandon;
+    struct RaiseOnDrop<'a>(&'a AtomicBool);
+    impl Drop for RaiseOnDrop<'_> {
+        fn drop(&mut self) {
+            self.0.store(true, Ordering::Relaxed);
+        }
+    }
     // Rows evaluated so far, for a stop's message.
     let mut evaluated = 0;
     // A batch read, with its rows taken from it (or why they cannot be:
@@ -1476,7 +1489,8 @@ fn evaluate_batches<R: RowReader>(
             let mut broken: Option<TableError> = None;
             let mut more = true;
             loop {
-                while more && waiting.len() < IN_FLIGHT {
+                // (After a stop, nothing more is read.)
+                while more && waiting.len() < IN_FLIGHT && !stop_raised(stop) {
                     // A batch that cannot be read, like one whose rows cannot be
                     // taken, is reported after the batches before it are written.
                     let read = batches
@@ -1534,10 +1548,7 @@ fn evaluate_batches<R: RowReader>(
                 while waiting.front().is_some_and(|o| o.left > 0) {
                     let (n, part, r) = wait_for(&done)
                         .expect("every job sends once, and this thread holds a sender");
-                    let r = r.unwrap_or_else(|panic| {
-                        abandon.store(true, Ordering::Relaxed);
-                        std::panic::resume_unwind(panic)
-                    });
+                    let r = r.unwrap_or_else(|panic| std::panic::resume_unwind(panic));
                     // Only batches still waiting have parts out.
                     let o = &mut waiting[n - finished];
                     o.parts[part] = Some(r);
@@ -1582,11 +1593,10 @@ fn evaluate_batches<R: RowReader>(
                 None => Ok(()),
             }
         };
-        let left = pipeline();
-        if left.is_err() {
-            abandon.store(true, Ordering::Relaxed);
-        }
-        left
+        // Raised however the pipeline ends, an unwinding panic included,
+        // before the scope waits for the parts still out.
+        let _leaving = RaiseOnDrop(abandon);
+        pipeline()
     })?;
     let codes = if readable {
         legend.finish();
@@ -1653,8 +1663,8 @@ fn wait_for<T>(from: &std::sync::mpsc::Receiver<T>) -> Result<T, std::sync::mpsc
             Some(rayon::Yield::Executed) => {}
             // Nothing to run here: wait a little for the message, then look
             // for work again (another thread may still make some for this
-            // one). 200 µs is short beside a part (about 2048 rows of some
-            // 12 µs each) and long beside a wake-up.
+            // one). 200 µs is short beside a part (thousands of rows of
+            // several µs each) and long beside a wake-up.
             Some(rayon::Yield::Idle) => {
                 match from.recv_timeout(std::time::Duration::from_micros(200)) {
                     Ok(v) => return Ok(v),

@@ -393,6 +393,7 @@ impl WarningLegend {
     /// codes, the others in full, joined by "; ". Before the codes are fixed
     /// every text is written in full.
     pub fn code_row(&mut self, warnings: &[String]) -> String {
+        use std::fmt::Write as _;
         // Written straight into one string (no string per warning, no
         // join): a streamed table codes every row on its calling thread.
         let mut out = String::with_capacity(warnings.iter().map(|w| w.len() + 2).sum());
@@ -404,7 +405,7 @@ impl WarningLegend {
                 Some(k) => {
                     self.entries[k].1 += 1;
                     // (Writing into a String cannot fail.)
-                    let _ = std::fmt::Write::write_fmt(&mut out, format_args!("W{}", k + 1));
+                    let _ = write!(out, "W{}", k + 1);
                 }
                 None => out.push_str(w),
             }
