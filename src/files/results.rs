@@ -2,7 +2,7 @@
 //! candidates tables (columns from `report::records`, defined once), the
 //! batch sheets, and what `quenchwise report` needs to draw a finished run.
 
-use super::run_folder::{is_part_name, part_name, RunFolder, CANDIDATES_DIR};
+use super::run_folder::{part_files, part_name, RunFolder, CANDIDATES_DIR};
 use super::screen_config::{self, RunPlan};
 use super::table::read_frame;
 use crate::batch::least_cost_batch;
@@ -507,17 +507,7 @@ fn open_file(path: &Path) -> Result<std::fs::File, Error> {
 pub fn candidate_files(dir: &Path) -> Result<Vec<PathBuf>, Error> {
     let parts = dir.join(CANDIDATES_DIR);
     if parts.is_dir() {
-        let mut files: Vec<PathBuf> = std::fs::read_dir(&parts)
-            .map_err(|e| Error::io("listing", &parts, e))?
-            .flatten()
-            .map(|e| e.path())
-            .filter(|p| {
-                p.file_name()
-                    .and_then(|n| n.to_str())
-                    .is_some_and(is_part_name)
-            })
-            .collect();
-        files.sort();
+        let files = part_files(&parts).map_err(|e| Error::io("listing", &parts, e))?;
         // Numbered from 0 without a gap: a part lost in a copy is named.
         for (n, f) in files.iter().enumerate() {
             if f.file_name().and_then(|x| x.to_str()) != Some(part_name(n).as_str()) {

@@ -657,10 +657,7 @@ impl FolderStore<'_> {
         match decode(bytes) {
             Ok(v) => Ok(Some(v)),
             Err(e) if self.chunk_dirs.is_none() || what != "chunk" => {
-                self.notices.push(format!(
-                    "{} was damaged ({e}); computing that {what} again",
-                    path.display()
-                ));
+                self.notices.push(damaged_notice(path, what, &e));
                 Ok(None)
             }
             Err(e) => Err(
@@ -670,6 +667,14 @@ impl FolderStore<'_> {
             ),
         }
     }
+}
+
+/// What a run says of a kept checkpoint it found damaged and computes again.
+fn damaged_notice(path: &Path, what: &str, why: &str) -> String {
+    format!(
+        "{} was damaged ({why}); computing that {what} again",
+        path.display()
+    )
 }
 
 impl ScreenStore for FolderStore<'_> {
@@ -753,8 +758,27 @@ pub(crate) fn part_name(n: usize) -> String {
 }
 
 /// Whether a file name is that of a part of the candidates table.
-pub(crate) fn is_part_name(name: &str) -> bool {
+fn is_part_name(name: &str) -> bool {
     name.starts_with("part-") && name.ends_with(".parquet")
+}
+
+/// The parts of a candidates table in `dir`, in row order (their names
+/// sort as their rows do); other files there are not listed.
+///
+/// # Errors
+/// `dir` cannot be listed.
+pub(crate) fn part_files(dir: &Path) -> std::io::Result<Vec<PathBuf>> {
+    let mut files: Vec<PathBuf> = std::fs::read_dir(dir)?
+        .flatten()
+        .map(|e| e.path())
+        .filter(|p| {
+            p.file_name()
+                .and_then(|n| n.to_str())
+                .is_some_and(is_part_name)
+        })
+        .collect();
+    files.sort();
+    Ok(files)
 }
 
 impl FolderObserver<'_> {
@@ -901,16 +925,11 @@ impl FolderObserver<'_> {
 
 /// Remove the parts of a candidates table (and nothing else) from `dir`.
 fn remove_parts(dir: &Path) -> Result<(), Error> {
-    let Ok(entries) = std::fs::read_dir(dir) else {
+    let Ok(parts) = part_files(dir) else {
         return Ok(());
     };
-    for e in entries.flatten() {
-        let name = e.file_name();
-        let name = name.to_string_lossy();
-        if is_part_name(&name) {
-            let p = e.path();
-            std::fs::remove_file(&p).map_err(|err| Error::io("removing", &p, err))?;
-        }
+    for p in parts {
+        std::fs::remove_file(&p).map_err(|err| Error::io("removing", &p, err))?;
     }
     Ok(())
 }
@@ -973,9 +992,10 @@ pub fn run_observed(
                 if let Ok(bytes) = std::fs::read(&path) {
                     if !checkpoint::intact(&bytes) {
                         std::fs::remove_file(&path).map_err(|e| Error::io("removing", &path, e))?;
-                        watcher.notice(&format!(
-                            "{} was damaged (its SHA-256 does not match its contents); computing that chunk again",
-                            path.display()
+                        watcher.notice(&damaged_notice(
+                            &path,
+                            "chunk",
+                            "its SHA-256 does not match its contents",
                         ));
                     }
                 }
